@@ -1,0 +1,5 @@
+// Every table, one file per domain. drizzle-kit reads this file to generate migrations.
+export * from './auth';
+export * from './campaigns';
+export * from './mail';
+export * from './audit';

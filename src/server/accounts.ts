@@ -1,0 +1,154 @@
+// Creating accounts. better-auth stores the password and session; we decide who may have an
+// account and of which kind (docs/decisions/0003-accounts-and-roles.md):
+// - the very first account of a fresh installation becomes an admin;
+// - an invitation makes a member if it grants analyst or reviewer anywhere, else a guest;
+// - otherwise sign-up is closed unless SIGNUP_OPEN=true (then: member).
+import { and, count, eq, gt, isNull } from 'drizzle-orm';
+import { z } from 'zod';
+import { campaignMemberRoles, campaignMembers, campaigns, invitations, user } from '../db/schema';
+import { accountGrant, PASSWORD_MAX_LENGTH, PASSWORD_MIN_LENGTH } from '../lib/auth';
+import type { AccountKind } from '../lib/vocabulary';
+import { recordAudit } from './audit';
+import type { AppServices } from './context';
+import { HttpError } from './errors';
+import { hashToken } from './ids';
+import { parseInput } from './validation';
+import type { DbOrTx } from '../db/client';
+
+export const emailField = z
+  .string({ error: 'email is required.' })
+  .trim()
+  .toLowerCase()
+  .pipe(z.email('Enter a valid e-mail address, such as name@example.org.'));
+
+export const passwordField = z
+  .string({ error: 'password is required.' })
+  .min(PASSWORD_MIN_LENGTH, `Use at least ${PASSWORD_MIN_LENGTH} characters for the password.`)
+  .max(PASSWORD_MAX_LENGTH, `Use at most ${PASSWORD_MAX_LENGTH} characters for the password.`);
+
+export const signUpInput = z.object({
+  name: z
+    .string({ error: 'name is required.' })
+    .trim()
+    .min(1, 'Enter your name.')
+    .max(80, 'A name can have at most 80 characters.'),
+  email: emailField,
+  password: passwordField,
+  invitation: z.string().trim().optional(),
+});
+
+export const signInInput = z.object({
+  email: emailField,
+  password: z.string({ error: 'password is required.' }).min(1, 'Enter your password.'),
+});
+
+function openInvitationsFor(db: DbOrTx, email: string) {
+  return db
+    .select()
+    .from(invitations)
+    .where(and(eq(invitations.email, email), isNull(invitations.acceptedAt), gt(invitations.expiresAt, new Date())))
+    .all();
+}
+
+/** The open invitation behind a link, with its campaign name, or null if used, expired or unknown. */
+export function findInvitation(db: DbOrTx, token: string) {
+  if (!token) return null;
+  const row = db
+    .select({ invitation: invitations, campaignName: campaigns.name })
+    .from(invitations)
+    .innerJoin(campaigns, eq(campaigns.id, invitations.campaignId))
+    .where(and(eq(invitations.tokenHash, hashToken(token)), isNull(invitations.acceptedAt), gt(invitations.expiresAt, new Date())))
+    .get();
+  return row ?? null;
+}
+
+function userByEmail(db: DbOrTx, email: string) {
+  return db.select().from(user).where(eq(user.email, email)).get() ?? null;
+}
+
+/**
+ * Create an account of a given kind directly (seed, tests, admins). Returns the new user's id.
+ * No cookies are set: this is not a sign-in.
+ */
+export async function createAccount(
+  app: AppServices,
+  raw: { name: string; email: string; password: string; kind: AccountKind },
+): Promise<string> {
+  const input = parseInput(signUpInput.omit({ invitation: true }), raw);
+  if (userByEmail(app.db, input.email)) {
+    throw new HttpError('conflict', `An account with the e-mail ${input.email} already exists.`, 'email');
+  }
+  const result = await accountGrant.run({ kind: raw.kind }, () =>
+    app.auth.api.signUpEmail({ body: { name: input.name, email: input.email, password: input.password } }),
+  );
+  acceptInvitations(app.db, result.user.id, input.email);
+  return result.user.id;
+}
+
+/**
+ * Self-service sign-up (from the sign-up page or POST /api/sign-up). Returns better-auth's
+ * response, whose Set-Cookie headers sign the new person in.
+ */
+export async function registerAccount(app: AppServices, raw: unknown, headers?: Headers): Promise<{ userId: string; response: Response }> {
+  const { db } = app;
+  const input = parseInput(signUpInput, raw);
+
+  let kind: AccountKind;
+  if (input.invitation) {
+    const found = findInvitation(db, input.invitation);
+    if (!found) {
+      throw new HttpError('validation_failed', 'This invitation link has been used or has expired. Ask for a new invitation.', 'invitation');
+    }
+    if (found.invitation.email !== input.email) {
+      throw new HttpError('validation_failed', `This invitation was sent to ${found.invitation.email}; sign up with that address.`, 'email');
+    }
+    const grants = openInvitationsFor(db, input.email).flatMap((i) => i.roles);
+    kind = grants.some((r) => r !== 'collaborator') ? 'member' : 'guest';
+  } else {
+    const users = db.select({ n: count() }).from(user).get()?.n ?? 0;
+    if (users === 0) kind = 'admin';
+    else if (app.env.signupOpen) kind = 'member';
+    else throw new HttpError('forbidden', 'Sign-up is by invitation. Ask a campaign analyst or an admin to invite you.');
+  }
+
+  if (userByEmail(db, input.email)) {
+    throw new HttpError('conflict', 'An account with this e-mail already exists. Sign in instead, or reset your password.', 'email');
+  }
+
+  const response = await accountGrant.run({ kind }, () =>
+    app.auth.api.signUpEmail({ body: { name: input.name, email: input.email, password: input.password }, headers, asResponse: true }),
+  );
+  if (!response.ok) {
+    const body = (await response.clone().json().catch(() => null)) as { message?: string } | null;
+    throw new HttpError(response.status === 403 ? 'forbidden' : 'bad_request', body?.message ?? 'The account could not be created.');
+  }
+  const created = userByEmail(db, input.email);
+  if (!created) throw new Error('better-auth reported success but no user row exists');
+  acceptInvitations(db, created.id, input.email);
+  return { userId: created.id, response };
+}
+
+/** Turn every open invitation for this address into campaign membership, in one transaction. */
+export function acceptInvitations(db: AppServices['db'], userId: string, email: string): number {
+  const open = openInvitationsFor(db, email);
+  if (open.length === 0) return 0;
+  const kind = db.select({ kind: user.kind }).from(user).where(eq(user.id, userId)).get()?.kind;
+  db.transaction((tx) => {
+    for (const inv of open) {
+      // A guest account only ever holds the collaborator role.
+      const roles = kind === 'guest' ? inv.roles.filter((r) => r === 'collaborator') : inv.roles;
+      const already = tx
+        .select()
+        .from(campaignMembers)
+        .where(and(eq(campaignMembers.campaignId, inv.campaignId), eq(campaignMembers.userId, userId)))
+        .get();
+      if (!already && roles.length > 0) {
+        tx.insert(campaignMembers).values({ campaignId: inv.campaignId, userId, addedById: inv.invitedById }).run();
+        tx.insert(campaignMemberRoles).values(roles.map((role) => ({ campaignId: inv.campaignId, userId, role }))).run();
+      }
+      tx.update(invitations).set({ acceptedAt: new Date(), acceptedUserId: userId }).where(eq(invitations.id, inv.id)).run();
+      recordAudit(tx, { actorId: userId, action: 'campaign.invitation_accepted', campaignId: inv.campaignId, details: { roles } });
+    }
+  });
+  return open.length;
+}
