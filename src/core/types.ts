@@ -34,7 +34,10 @@ export interface Band {
   /** null while no published zero-point has been found: magnitudes are then rejected, flux input works. */
   zeroPoint: ZeroPoint | null;
   convention: ResponseConvention;
-  /** Curve nodes, ascending, in Å; response dimensionless (normalised to peak 1). */
+  /**
+   * Curve nodes, ascending, in Å; response dimensionless, linear between nodes, on the scale of the
+   * published table (peak 1 for most; band means and pivots do not depend on the scale).
+   */
   wavelengthAngstrom: readonly number[];
   response: readonly number[];
   pivotAngstrom: number;
@@ -43,6 +46,8 @@ export interface Band {
   /** Original publication of the curve and the file it was derived from, with its licence notice. */
   citation: string;
   licence: string;
+  /** Source file the curve was derived from, its checksum and any conversion applied. */
+  derivedFrom?: { file: string; sha256?: string; conversion?: string };
 }
 
 /** A measured value in one band, as read from an input table. */
