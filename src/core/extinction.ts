@@ -2,6 +2,7 @@
 // (K. Barbary's `extinction` package) number for number, including what it does outside each
 // law's stated range: it keeps evaluating the infrared (and far-UV) forms instead of stopping.
 // Verified against fixtures/extinction/*.json made by scripts/references/make_references.py.
+import { bandQuadrature, type PassbandCurve } from './passband';
 import type { Band, ExtinctionLawKey, ExtinctionSpec } from './types';
 
 export interface ExtinctionLawInfo {
@@ -264,4 +265,19 @@ export function extrapolatedBandKeys(bands: Iterable<Band>, law: ExtinctionLawKe
   const keys: string[] = [];
   for (const b of bands) if (lawExtrapolation(b, law) !== 'none') keys.push(b.key);
   return keys;
+}
+
+/**
+ * Fraction of the band's weight (∫R λ dλ or ∫S dλ) lying outside the law's defined range: how much
+ * an extrapolated law can matter for this band.
+ */
+export function fractionOutsideLawRange(band: PassbandCurve, law: ExtinctionLawKey): number {
+  const info = EXTINCTION_LAWS[law];
+  const q = bandQuadrature(band);
+  let out = 0;
+  for (let i = 0; i < q.weight.length; i++) {
+    const l = q.wavelengthAngstrom[i];
+    if (l < info.validMinAngstrom || l > info.validMaxAngstrom) out += q.weight[i];
+  }
+  return out / q.weightSum;
 }
