@@ -1,0 +1,794 @@
+// The fit's hot path (product.md §5–8): weighted least squares y_i = s·φ_i(T, A_V) through the tables.
+//
+// One FitEngine per thread is reused for every star: inputs, scratch and outputs are typed arrays or
+// numeric fields, so fitting a star allocates nothing. Usage:
+//   engine.begin(); engine.add(bandIndex, fluxCgs, sigmaCgs, isUpperLimit, excludeReason) …;
+//   engine.run(settings, avMag, parallaxMas, parallaxErrMas)  → status (0 = ok); results in fields.
+// fit-star.ts wraps this in the object API; fitPacked() in batch.ts runs it over packed catalogues.
+//
+// A_V fixed: the profile χ²(u = ln T) with s* = Σwyφ / Σwφ² in closed form is searched on a coarse
+// ln T grid (≈10 % steps), then a safeguarded Newton iteration on dχ²/du = 0 finishes it.
+// A_V fitted: coarse (ln T, A_V) grid, then Levenberg–Marquardt over (ln T, ln s, A_V) with A_V kept
+// inside its bounds (our own small LM: ml-levenberg-marquardt allocates per iteration; the tests check
+// this LM against it).
+// Upper limits are censored: a limit adds w(y − sφ)² only while the model exceeds it.
+
+import {
+  AV_STEP_MAG,
+  COARSE_STRIDE,
+  FitTables,
+  GHOST,
+  LN_T_MAX,
+  LN_T_MIN,
+  LN_T_STEP,
+  N_COARSE,
+  N_INTERVALS,
+  N_T,
+  avWeights,
+  planeOf,
+  type Plane,
+} from './tables';
+import { FLAG_BITS } from './flags';
+import { deriveInto, type Derived } from './derived';
+
+/** Why a band takes no part in the fit (its residual is still reported). */
+export const EXCLUDE_NONE = 0;
+export const EXCLUDE_USER = 1;
+export const EXCLUDE_LONG = 2;
+export const EXCLUDE_CLIPPED = 3;
+
+export const STATUS_OK = 0;
+export const STATUS_FEW_BANDS = 1;
+export const STATUS_NO_CONVERGENCE = 2;
+
+/** One-sided 95 % Δχ² for the Rayleigh–Jeans lower bound: 1.645² (normal quantile; common practice). */
+export const LOWER_BOUND_DCHI2 = 2.705543;
+/** Reduced χ² above which `chi2_high` is raised. */
+export const CHI2_HIGH = 5;
+export const OUTLIER_SIGMA = 3;
+export const MAX_CLIPPED = 2;
+
+export interface EngineSettings {
+  fitAv: boolean;
+  avMinMag: number;
+  avMaxMag: number;
+  clip: boolean;
+  /** Extra fractional Teff error added in quadrature to the reported one (0 = off). */
+  modelErrorFraction: number;
+}
+
+export class FitEngine {
+  readonly maxBands: number;
+  // ---- inputs (in add order until run() partitions them: fitted detections, fitted limits, others)
+  n = 0;
+  nDet = 0;
+  nFit = 0;
+  readonly band: Int32Array;
+  readonly y: Float64Array;
+  readonly sigma: Float64Array;
+  readonly w: Float64Array;
+  readonly upper: Uint8Array;
+  readonly exclude: Uint8Array;
+  /** Position of each slot in add order (so callers can map residuals back). */
+  readonly order: Int32Array;
+  // ---- scratch, per slot
+  readonly phi: Float64Array;
+  readonly dphi: Float64Array;
+  readonly d2phi: Float64Array;
+  readonly dphiA: Float64Array;
+  readonly active: Uint8Array;
+  readonly residual: Float64Array;
+  private readonly coarseChi2: Float64Array;
+  private readonly wA = new Float64Array(4);
+  private readonly dwA = new Float64Array(4);
+  private planes: Plane[] = [];
+  private singlePlane = true;
+  // ---- outputs
+  status = STATUS_OK;
+  flags = 0;
+  u = 0;
+  s = 0;
+  avMag = 0;
+  chi2 = 0;
+  dof = 0;
+  chi2Red = NaN;
+  /** Formal covariance of (u = ln T, ln s, A_V); A_V rows are 0 when A_V is fixed or at a bound. */
+  readonly cov = new Float64Array(9);
+  avFree = false;
+  teffLowerK = NaN;
+  irExcessSigma = NaN;
+  nClipped = 0;
+  iterations = 0;
+  readonly derived: Derived;
+
+  constructor(
+    readonly tables: FitTables,
+    maxBands = 64,
+  ) {
+    this.maxBands = maxBands;
+    this.band = new Int32Array(maxBands);
+    this.y = new Float64Array(maxBands);
+    this.sigma = new Float64Array(maxBands);
+    this.w = new Float64Array(maxBands);
+    this.upper = new Uint8Array(maxBands);
+    this.exclude = new Uint8Array(maxBands);
+    this.order = new Int32Array(maxBands);
+    this.phi = new Float64Array(maxBands);
+    this.dphi = new Float64Array(maxBands);
+    this.d2phi = new Float64Array(maxBands);
+    this.dphiA = new Float64Array(maxBands);
+    this.active = new Uint8Array(maxBands);
+    this.residual = new Float64Array(maxBands);
+    this.coarseChi2 = new Float64Array(N_COARSE);
+    this.derived = {
+      teffK: NaN, teffErrFormalK: NaN, teffErrK: NaN, thetaMas: NaN, thetaErrMas: NaN, fbolCgs: NaN,
+      fbolErrCgs: NaN, radiusRsun: NaN, radiusErrRsun: NaN, lumLsun: NaN, lumErrLsun: NaN, avErrMag: NaN,
+      errScale: 1, plxFlags: 0,
+    };
+  }
+
+  begin(): void {
+    this.n = 0;
+  }
+
+  /** sigmaCgs must already include the systematic floor. Returns false when the star has too many bands. */
+  add(bandIndex: number, fluxCgs: number, sigmaCgs: number, isUpperLimit: boolean, excludeReason: number): boolean {
+    const k = this.n;
+    if (k >= this.maxBands) return false;
+    this.band[k] = bandIndex;
+    this.y[k] = fluxCgs;
+    this.sigma[k] = sigmaCgs;
+    this.w[k] = 1 / (sigmaCgs * sigmaCgs);
+    this.upper[k] = isUpperLimit ? 1 : 0;
+    this.exclude[k] = excludeReason;
+    this.order[k] = k;
+    this.n = k + 1;
+    return true;
+  }
+
+  private swap(a: number, b: number): void {
+    if (a === b) return;
+    let t: number;
+    t = this.band[a]; this.band[a] = this.band[b]; this.band[b] = t;
+    t = this.y[a]; this.y[a] = this.y[b]; this.y[b] = t;
+    t = this.sigma[a]; this.sigma[a] = this.sigma[b]; this.sigma[b] = t;
+    t = this.w[a]; this.w[a] = this.w[b]; this.w[b] = t;
+    t = this.upper[a]; this.upper[a] = this.upper[b]; this.upper[b] = t;
+    t = this.exclude[a]; this.exclude[a] = this.exclude[b]; this.exclude[b] = t;
+    t = this.order[a]; this.order[a] = this.order[b]; this.order[b] = t;
+  }
+
+  /** Fitted detections first, then fitted upper limits, then excluded bands. */
+  private partition(): void {
+    let p = 0;
+    for (let k = 0; k < this.n; k++) if (this.exclude[k] === EXCLUDE_NONE && this.upper[k] === 0) this.swap(k, p++);
+    this.nDet = p;
+    for (let k = p; k < this.n; k++) if (this.exclude[k] === EXCLUDE_NONE && this.upper[k] === 1) this.swap(k, p++);
+    this.nFit = p;
+  }
+
+  /** Sets up the planes for an A_V value: one plane when A_V sits on a plane, else the four around it. */
+  private usePlanes(avMag: number): void {
+    const pk = planeOf(avMag);
+    if (pk.exact) {
+      this.singlePlane = true;
+      if (this.planes.length !== 1) this.planes = [this.tables.plane(pk.k)];
+      else if (this.planes[0].avMag !== pk.k * AV_STEP_MAG || !this.tables.planeReady(pk.k)) this.planes[0] = this.tables.plane(pk.k);
+      return;
+    }
+    this.singlePlane = false;
+    const k0 = avWeights(avMag, this.wA, this.dwA);
+    if (this.planes.length !== 4) this.planes = [this.planes[0], this.planes[0], this.planes[0], this.planes[0]];
+    for (let q = 0; q < 4; q++) {
+      const k = k0 - 1 + q;
+      const cur = this.planes[q];
+      if (cur === undefined || cur.avMag !== k * AV_STEP_MAG || !this.tables.planeReady(k)) this.planes[q] = this.tables.plane(k);
+    }
+  }
+
+  /**
+   * φ, dφ/du and d²φ/du² (and dφ/dA_V when planes are interpolated) for slots [0, count) at u,
+   * with the A_V weights already set by usePlanes().
+   */
+  private evalModel(u: number, count: number): void {
+    let x = (u - LN_T_MIN) / LN_T_STEP;
+    if (x < 0) x = 0;
+    else if (x > N_INTERVALS) x = N_INTERVALS;
+    let i = Math.floor(x);
+    if (i >= N_INTERVALS) i = N_INTERVALS - 1;
+    const t = x - i;
+    const h = LN_T_STEP;
+    const t2 = t * t;
+    const t3 = t2 * t;
+    const h00 = 2 * t3 - 3 * t2 + 1;
+    const h10 = (t3 - 2 * t2 + t) * h;
+    const h01 = -2 * t3 + 3 * t2;
+    const h11 = (t3 - t2) * h;
+    const g00 = (6 * t2 - 6 * t) / h;
+    const g10 = 3 * t2 - 4 * t + 1;
+    const g01 = -g00;
+    const g11 = 3 * t2 - 2 * t;
+    const q00 = (12 * t - 6) / (h * h);
+    const q10 = (6 * t - 4) / h;
+    const q01 = -q00;
+    const q11 = (6 * t - 2) / h;
+    const band = this.band;
+    const phi = this.phi;
+    const dphi = this.dphi;
+    const d2phi = this.d2phi;
+    const base = GHOST + i;
+    if (this.singlePlane) {
+      const L = this.planes[0].lnPhi;
+      const D = this.planes[0].dLnPhi;
+      for (let k = 0; k < count; k++) {
+        const o = band[k] * N_T + base;
+        const y0 = L[o];
+        const y1 = L[o + 1];
+        const m0 = D[o];
+        const m1 = D[o + 1];
+        const lv = h00 * y0 + h10 * m0 + h01 * y1 + h11 * m1;
+        const l1 = g00 * y0 + g10 * m0 + g01 * y1 + g11 * m1;
+        const l2 = q00 * y0 + q10 * m0 + q01 * y1 + q11 * m1;
+        const p = Math.exp(lv);
+        phi[k] = p;
+        dphi[k] = p * l1;
+        d2phi[k] = p * (l2 + l1 * l1);
+      }
+      return;
+    }
+    const wA = this.wA;
+    const dwA = this.dwA;
+    const dphiA = this.dphiA;
+    const P0 = this.planes[0], P1 = this.planes[1], P2 = this.planes[2], P3 = this.planes[3];
+    const w0 = wA[0], w1 = wA[1], w2 = wA[2], w3 = wA[3];
+    const e0 = dwA[0], e1 = dwA[1], e2 = dwA[2], e3 = dwA[3];
+    for (let k = 0; k < count; k++) {
+      const o = band[k] * N_T + base;
+      let lv = 0, l1 = 0, l2 = 0, la = 0;
+      for (let q = 0; q < 4; q++) {
+        const P = q === 0 ? P0 : q === 1 ? P1 : q === 2 ? P2 : P3;
+        const wq = q === 0 ? w0 : q === 1 ? w1 : q === 2 ? w2 : w3;
+        const eq = q === 0 ? e0 : q === 1 ? e1 : q === 2 ? e2 : e3;
+        const L = P.lnPhi;
+        const D = P.dLnPhi;
+        const y0 = L[o];
+        const y1 = L[o + 1];
+        const m0 = D[o];
+        const m1 = D[o + 1];
+        const v = h00 * y0 + h10 * m0 + h01 * y1 + h11 * m1;
+        lv += wq * v;
+        la += eq * v;
+        l1 += wq * (g00 * y0 + g10 * m0 + g01 * y1 + g11 * m1);
+        l2 += wq * (q00 * y0 + q10 * m0 + q01 * y1 + q11 * m1);
+      }
+      const p = Math.exp(lv);
+      phi[k] = p;
+      dphi[k] = p * l1;
+      d2phi[k] = p * (l2 + l1 * l1);
+      dphiA[k] = p * la;
+    }
+  }
+
+  /** Closed-form s for the current φ with the censored limits (active set grown until stable). */
+  private solveScale(): number {
+    const nDet = this.nDet;
+    const nFit = this.nFit;
+    const y = this.y, w = this.w, phi = this.phi, active = this.active;
+    let A = 0;
+    let B = 0;
+    for (let k = 0; k < nDet; k++) {
+      const wp = w[k] * phi[k];
+      A += wp * y[k];
+      B += wp * phi[k];
+    }
+    let s = A / B;
+    if (nFit === nDet) return s;
+    for (let k = nDet; k < nFit; k++) active[k] = 0;
+    // Adding a violated limit only lowers s, so the active set grows monotonically: ≤ nUL rounds.
+    for (let round = 0; round <= nFit - nDet; round++) {
+      let changed = false;
+      for (let k = nDet; k < nFit; k++) {
+        if (active[k] === 0 && s * phi[k] > y[k]) {
+          active[k] = 1;
+          const wp = w[k] * phi[k];
+          A += wp * y[k];
+          B += wp * phi[k];
+          changed = true;
+        }
+      }
+      if (!changed) break;
+      s = A / B;
+    }
+    return s;
+  }
+
+  // Profile quantities at the last profileAt() call.
+  private gradU = 0;
+  private hessU = 0;
+
+  /** Profile χ²(u) at fixed A_V, with s* and dχ²/du, d²χ²/du² (profile Hessian) stored. */
+  private profileAt(u: number): number {
+    this.evalModel(u, this.nFit);
+    const s = this.solveScale();
+    this.s = s;
+    const nDet = this.nDet;
+    const nFit = this.nFit;
+    const y = this.y, w = this.w, phi = this.phi, dphi = this.dphi, d2phi = this.d2phi, active = this.active;
+    let chi2 = 0, g = 0, huu = 0, hus = 0, hss = 0;
+    for (let k = 0; k < nFit; k++) {
+      if (k >= nDet && active[k] === 0) continue;
+      const wk = w[k];
+      const r = y[k] - s * phi[k];
+      const sd = s * dphi[k];
+      chi2 += wk * r * r;
+      g -= wk * r * sd;
+      huu += wk * (sd * sd - r * s * d2phi[k]);
+      hus += wk * (s * phi[k] * dphi[k] - r * dphi[k]);
+      hss += wk * phi[k] * phi[k];
+    }
+    this.gradU = 2 * g;
+    this.hessU = 2 * (huu - (hus * hus) / hss);
+    return chi2;
+  }
+
+  /** Coarse ln T search in one plane (exact node values); returns the best coarse index. */
+  private coarseSearch(plane: Plane): number {
+    const nDet = this.nDet;
+    const nFit = this.nFit;
+    const band = this.band, y = this.y, w = this.w;
+    const pc = plane.phiCoarse;
+    const chi = this.coarseChi2;
+    // Accumulate A and B per coarse node band by band (contiguous reads), reusing coarseChi2 / phi as
+    // scratch would alias: use dedicated locals via two passes over a small fixed-size loop instead.
+    const acc = this.coarseA;
+    const bcc = this.coarseB;
+    acc.fill(0);
+    bcc.fill(0);
+    let syy = 0;
+    for (let k = 0; k < nDet; k++) {
+      const wk = w[k];
+      const wy = wk * y[k];
+      syy += wy * y[k];
+      const off = band[k] * N_COARSE;
+      for (let c = 0; c < N_COARSE; c++) {
+        const p = pc[off + c];
+        acc[c] += wy * p;
+        bcc[c] += wk * p * p;
+      }
+    }
+    let best = 0;
+    let bestChi = Infinity;
+    for (let c = 0; c < N_COARSE; c++) {
+      const a = acc[c];
+      let v = syy - (a * a) / bcc[c];
+      if (nFit > nDet) {
+        const s = a / bcc[c];
+        for (let k = nDet; k < nFit; k++) {
+          const m = s * pc[band[k] * N_COARSE + c];
+          if (m > y[k]) v += w[k] * (m - y[k]) * (m - y[k]);
+        }
+      }
+      if (!(a > 0)) v = Infinity; // s ≤ 0 is not a star
+      chi[c] = v;
+      if (v < bestChi) {
+        bestChi = v;
+        best = c;
+      }
+    }
+    return best;
+  }
+  private readonly coarseA = new Float64Array(N_COARSE);
+  private readonly coarseB = new Float64Array(N_COARSE);
+
+  /** Fixed A_V: coarse search then safeguarded Newton on dχ²/du = 0. */
+  private fitFixed(avMag: number): boolean {
+    this.usePlanes(avMag);
+    this.avMag = avMag;
+    // The coarse search reads the nearest plane's node values; off-plane A_V only shifts the start.
+    const coarsePlane = this.singlePlane ? this.planes[0] : this.planes[this.wA[1] >= this.wA[2] ? 1 : 2];
+    const c = this.coarseSearch(coarsePlane);
+    if (this.coarseChi2[c] === Infinity) return false;
+    const uc = LN_T_MIN + c * COARSE_STRIDE * LN_T_STEP;
+    const stride = COARSE_STRIDE * LN_T_STEP;
+    let lo = uc - stride;
+    let loSure = false;
+    if (lo <= LN_T_MIN) {
+      lo = LN_T_MIN;
+      loSure = true;
+    }
+    let hi = uc + stride;
+    let hiSure = false;
+    if (hi >= LN_T_MAX) {
+      hi = LN_T_MAX;
+      hiSure = true;
+    }
+    // Safeguarded Newton on g = dχ²/du: [lo, hi] brackets the minimum once both ends are "sure"
+    // (slope seen pointing inward, or a grid edge); an unsure end is widened by one coarse step when
+    // the iterate reaches it still descending (the coarse search may be slightly off for off-plane A_V).
+    let u = uc;
+    let chi2 = this.profileAt(u);
+    let it = 0;
+    for (; it < 100; it++) {
+      const g = this.gradU;
+      const hcur = this.hessU;
+      if (g === 0) break;
+      if (g < 0 && u >= hi) {
+        if (hiSure) break;
+        lo = u;
+        loSure = true;
+        hi = Math.min(LN_T_MAX, u + stride);
+        hiSure = hi >= LN_T_MAX;
+      } else if (g > 0 && u <= lo) {
+        if (loSure) break;
+        hi = u;
+        hiSure = true;
+        lo = Math.max(LN_T_MIN, u - stride);
+        loSure = lo <= LN_T_MIN;
+      } else if (g > 0) {
+        hi = u;
+        hiSure = true;
+      } else {
+        lo = u;
+        loSure = true;
+      }
+      let next = hcur > 0 ? u - g / hcur : NaN;
+      if (Math.abs(next - u) < 1e-10) break; // converged; the state of profileAt(u) is kept
+      if (!(next > lo && next < hi)) {
+        if (g < 0) next = hiSure ? 0.5 * (u + hi) : hi;
+        else next = loSure ? 0.5 * (u + lo) : lo;
+      }
+      const step = Math.abs(next - u);
+      u = next;
+      chi2 = this.profileAt(u);
+      if (step < 1e-10 || hi - lo < 1e-10) break;
+    }
+    this.iterations = it;
+    this.u = u;
+    this.chi2 = chi2;
+    if (!(this.s > 0) || !Number.isFinite(chi2)) return false;
+    // Fisher matrix JᵀWJ of (u, ln s): J_u = sφ', J_lns = sφ.
+    const nDet = this.nDet, nFit = this.nFit;
+    const w = this.w, phi = this.phi, dphi = this.dphi, active = this.active, s = this.s;
+    let fuu = 0, fus = 0, fss = 0;
+    let nActive = 0;
+    for (let k = 0; k < nFit; k++) {
+      if (k >= nDet) {
+        if (active[k] === 0) continue;
+        nActive++;
+      }
+      const a = s * dphi[k];
+      const b = s * phi[k];
+      fuu += w[k] * a * a;
+      fus += w[k] * a * b;
+      fss += w[k] * b * b;
+    }
+    if (nActive > 0) this.flags |= FLAG_BITS.upper_limit_active;
+    const det = fuu * fss - fus * fus;
+    const cov = this.cov;
+    cov.fill(0);
+    cov[0] = fss / det;
+    cov[1] = cov[3] = -fus / det;
+    cov[4] = fuu / det;
+    this.avFree = false;
+    this.dof = this.nDet - 2;
+    return true;
+  }
+
+  // LM scratch (3 parameters).
+  private readonly jtj = new Float64Array(9);
+  private readonly jtr = new Float64Array(3);
+  private readonly step3 = new Float64Array(3);
+
+  /** χ² at (u, ln s, A_V) with censored limits; leaves φ, dφ/du, dφ/dA in scratch. */
+  private chi2Full(u: number, lnS: number, a: number): number {
+    this.usePlanesFree(a);
+    this.evalModel(u, this.nFit);
+    const s = Math.exp(lnS);
+    const y = this.y, w = this.w, phi = this.phi, active = this.active;
+    let chi2 = 0;
+    for (let k = 0; k < this.nFit; k++) {
+      const r = y[k] - s * phi[k];
+      if (k >= this.nDet) {
+        active[k] = r < 0 ? 1 : 0;
+        if (r >= 0) continue;
+      }
+      chi2 += w[k] * r * r;
+    }
+    return chi2;
+  }
+
+  /** Planes for a free A_V: always the interpolating four (so dφ/dA_V exists at plane nodes too). */
+  private usePlanesFree(a: number): void {
+    this.singlePlane = false;
+    const k0 = avWeights(a, this.wA, this.dwA);
+    if (this.planes.length !== 4) this.planes = [this.planes[0], this.planes[0], this.planes[0], this.planes[0]];
+    for (let q = 0; q < 4; q++) {
+      const k = k0 - 1 + q;
+      const cur = this.planes[q];
+      if (cur === undefined || cur.avMag !== k * AV_STEP_MAG || !this.tables.planeReady(k)) this.planes[q] = this.tables.plane(k);
+    }
+  }
+
+  /** JᵀWJ and JᵀWr at the state left by chi2Full. */
+  private normalEquations(lnS: number): void {
+    const s = Math.exp(lnS);
+    const y = this.y, w = this.w, phi = this.phi, dphi = this.dphi, dphiA = this.dphiA, active = this.active;
+    const m = this.jtj;
+    const v = this.jtr;
+    m.fill(0);
+    v.fill(0);
+    for (let k = 0; k < this.nFit; k++) {
+      if (k >= this.nDet && active[k] === 0) continue;
+      const wk = w[k];
+      const r = y[k] - s * phi[k];
+      const ju = s * dphi[k];
+      const js = s * phi[k];
+      const ja = s * dphiA[k];
+      m[0] += wk * ju * ju;
+      m[1] += wk * ju * js;
+      m[2] += wk * ju * ja;
+      m[4] += wk * js * js;
+      m[5] += wk * js * ja;
+      m[8] += wk * ja * ja;
+      v[0] += wk * ju * r;
+      v[1] += wk * js * r;
+      v[2] += wk * ja * r;
+    }
+    m[3] = m[1];
+    m[6] = m[2];
+    m[7] = m[5];
+  }
+
+  /** Fitted A_V: coarse grid over (ln T, A_V planes 1 mag apart), then bounded Levenberg–Marquardt. */
+  private fitFree(avMin: number, avMax: number): boolean {
+    // Coarse grid.
+    let bestChi = Infinity;
+    let bestC = 0;
+    let bestA = avMin;
+    const kLo = Math.ceil(avMin / AV_STEP_MAG - 1e-9);
+    const kHi = Math.floor(avMax / AV_STEP_MAG + 1e-9);
+    const kStep = Math.max(1, Math.round(1 / AV_STEP_MAG));
+    for (let k = kLo; k <= kHi; k += kStep) {
+      const c = this.coarseSearch(this.tables.plane(k));
+      if (this.coarseChi2[c] < bestChi) {
+        bestChi = this.coarseChi2[c];
+        bestC = c;
+        bestA = k * AV_STEP_MAG;
+      }
+    }
+    if (bestChi === Infinity) return false;
+    let u = LN_T_MIN + bestC * COARSE_STRIDE * LN_T_STEP;
+    let a = Math.min(Math.max(bestA, avMin), avMax);
+    // s* at the start.
+    this.usePlanesFree(a);
+    this.evalModel(u, this.nFit);
+    const s0 = this.solveScale();
+    if (!(s0 > 0)) return false;
+    let lnS = Math.log(s0);
+    let chi2 = this.chi2Full(u, lnS, a);
+    let lambda = 1e-3;
+    const m = this.jtj, v = this.jtr, d = this.step3;
+    let it = 0;
+    let converged = false;
+    for (; it < 200; it++) {
+      this.normalEquations(lnS);
+      let accepted = false;
+      for (let tries = 0; tries < 12; tries++) {
+        // (JᵀWJ + λ·diag(JᵀWJ)) δ = JᵀWr  (Marquardt 1963 scaling).
+        if (!solve3(m, v, lambda, d)) {
+          lambda *= 10;
+          continue;
+        }
+        let nu = u + d[0];
+        const nl = lnS + d[1];
+        let na = a + d[2];
+        if (nu < LN_T_MIN) nu = LN_T_MIN;
+        if (nu > LN_T_MAX) nu = LN_T_MAX;
+        if (na < avMin) na = avMin;
+        if (na > avMax) na = avMax;
+        const nchi = this.chi2Full(nu, nl, na);
+        if (nchi <= chi2) {
+          const du = Math.abs(nu - u), dl = Math.abs(nl - lnS), da = Math.abs(na - a);
+          const gain = chi2 - nchi;
+          u = nu;
+          lnS = nl;
+          a = na;
+          chi2 = nchi;
+          lambda = Math.max(lambda * 0.2, 1e-12);
+          accepted = true;
+          if ((du < 1e-10 && dl < 1e-10 && da < 1e-9) || gain <= 1e-14 * (chi2 + 1e-300)) converged = true;
+          break;
+        }
+        lambda *= 8;
+      }
+      if (!accepted || converged) break;
+    }
+    this.iterations = it;
+    // Final state and covariance.
+    chi2 = this.chi2Full(u, lnS, a);
+    this.normalEquations(lnS);
+    this.u = u;
+    this.s = Math.exp(lnS);
+    this.avMag = a;
+    this.chi2 = chi2;
+    if (!Number.isFinite(chi2) || !(this.s > 0)) return false;
+    let nActive = 0;
+    for (let k = this.nDet; k < this.nFit; k++) nActive += this.active[k];
+    if (nActive > 0) this.flags |= FLAG_BITS.upper_limit_active;
+    const atBound = a <= avMin + 1e-9 || a >= avMax - 1e-9;
+    const cov = this.cov;
+    cov.fill(0);
+    if (atBound) {
+      this.flags |= FLAG_BITS.av_at_bound;
+      const det = m[0] * m[4] - m[1] * m[1];
+      cov[0] = m[4] / det;
+      cov[1] = cov[3] = -m[1] / det;
+      cov[4] = m[0] / det;
+      this.avFree = false;
+    } else {
+      if (!invert3(m, cov)) return false;
+      this.avFree = true;
+    }
+    this.dof = this.nDet - 3;
+    return true;
+  }
+
+  /** Profile χ² at u for fixed A_V (planes already set), used by the lower-bound search. */
+  private profileChi2(u: number): number {
+    return this.profileAt(u);
+  }
+
+  /**
+   * Fit the loaded star. Returns the status; on success every output field is set.
+   * avMag is the fixed A_V (ignored when settings.fitAv).
+   */
+  run(settings: EngineSettings, avMag: number, parallaxMas: number, parallaxErrMas: number): number {
+    this.flags = 0;
+    this.nClipped = 0;
+    this.teffLowerK = NaN;
+    this.irExcessSigma = NaN;
+    this.chi2Red = NaN;
+    this.partition();
+    const minDet = settings.fitAv ? 3 : 2;
+    if (this.nDet < minDet) {
+      this.status = STATUS_FEW_BANDS;
+      return this.status;
+    }
+    for (;;) {
+      const ok = settings.fitAv ? this.fitFree(settings.avMinMag, settings.avMaxMag) : this.fitFixed(avMag);
+      if (!ok) {
+        this.status = STATUS_NO_CONVERGENCE;
+        return this.status;
+      }
+      this.residuals();
+      if (!settings.clip || this.nClipped >= MAX_CLIPPED || this.nDet - 1 < minDet) break;
+      // Drop the worst fitted detection when it is an outlier, then refit.
+      let worst = -1;
+      let worstAbs = OUTLIER_SIGMA;
+      for (let k = 0; k < this.nDet; k++) {
+        const r = Math.abs(this.residual[k]);
+        if (r > worstAbs) {
+          worstAbs = r;
+          worst = k;
+        }
+      }
+      if (worst < 0) break;
+      this.exclude[worst] = EXCLUDE_CLIPPED;
+      this.nClipped++;
+      this.flags |= FLAG_BITS.clipped;
+      this.partition();
+    }
+    this.dof = Math.max(this.dof, 0);
+    this.chi2Red = this.dof > 0 ? this.chi2 / this.dof : NaN;
+    if (this.chi2Red > CHI2_HIGH) this.flags |= FLAG_BITS.chi2_high;
+    for (let k = 0; k < this.nFit; k++) {
+      if (Math.abs(this.residual[k]) > OUTLIER_SIGMA && (k < this.nDet || this.active[k] === 1)) {
+        this.flags |= FLAG_BITS.outlier;
+        break;
+      }
+    }
+    for (let k = this.nFit; k < this.n; k++) {
+      if (this.exclude[k] === EXCLUDE_LONG && this.upper[k] === 0) {
+        const r = this.residual[k];
+        if (!(r <= this.irExcessSigma)) this.irExcessSigma = r;
+      }
+    }
+    if (this.irExcessSigma > OUTLIER_SIGMA) this.flags |= FLAG_BITS.ir_excess;
+    const scale = this.chi2Red > 1 ? Math.sqrt(this.chi2Red) : 1;
+    // Temperature edges.
+    const sigmaU = Math.sqrt(this.cov[0]) * scale;
+    if (this.u <= LN_T_MIN + 1e-9) this.flags |= FLAG_BITS.temp_cool_edge;
+    else this.checkHotEdge(settings, scale, sigmaU);
+    deriveInto(this.derived, this.u, this.s, this.cov, this.avFree, scale, settings.modelErrorFraction, parallaxMas, parallaxErrMas);
+    this.flags |= this.derived.plxFlags;
+    if (settings.modelErrorFraction > 0) this.flags |= FLAG_BITS.model_error_added;
+    this.status = STATUS_OK;
+    return this.status;
+  }
+
+  /** Residuals (y − sφ)/σ for every band at the solution (excluded ones included). */
+  private residuals(): void {
+    // The planes are still those of the solution (fixed: usePlanes; free: the last chi2Full).
+    this.evalModel(this.u, this.n);
+    const s = this.s;
+    for (let k = 0; k < this.n; k++) this.residual[k] = (this.y[k] - s * this.phi[k]) / this.sigma[k];
+  }
+
+  /**
+   * Rayleigh–Jeans tail: when χ² at the hot edge of the grid is within the one-sided 95 % Δχ² of the
+   * minimum, no upper limit on T exists; report the lower bound where Δχ² reaches that level instead.
+   */
+  private checkHotEdge(settings: EngineSettings, scale: number, sigmaU: number): void {
+    const thr = LOWER_BOUND_DCHI2 * scale * scale;
+    if (settings.fitAv) {
+      // Degenerate (T, A_V) valley: use the linearised interval of ln T.
+      if (this.u + 1.645 * sigmaU >= LN_T_MAX) {
+        this.flags |= FLAG_BITS.temp_lower_bound;
+        this.teffLowerK = Math.exp(Math.max(LN_T_MIN, this.u - 1.645 * sigmaU));
+      }
+      return;
+    }
+    const chiMin = this.chi2;
+    // Cheap screen with the coarse profile (exact for on-plane A_V, close otherwise).
+    if (this.coarseChi2[N_COARSE - 1] - chiMin > 4 * thr + 1) return;
+    const uBest = this.u;
+    const sBest = this.s;
+    this.usePlanes(this.avMag);
+    const chiEdge = this.profileChi2(LN_T_MAX);
+    if (chiEdge - chiMin < thr) {
+      this.flags |= FLAG_BITS.temp_lower_bound;
+      // Bisection for Δχ² = thr below the best fit (the profile falls monotonically towards it).
+      let lo = LN_T_MIN;
+      let hi = uBest;
+      if (this.profileChi2(lo) - chiMin < thr) {
+        this.teffLowerK = Math.exp(LN_T_MIN);
+      } else {
+        for (let i = 0; i < 60 && hi - lo > 1e-9; i++) {
+          const mid = 0.5 * (lo + hi);
+          if (this.profileChi2(mid) - chiMin > thr) lo = mid;
+          else hi = mid;
+        }
+        this.teffLowerK = Math.exp(0.5 * (lo + hi));
+      }
+    }
+    // Restore the solution's scratch state.
+    this.profileAt(uBest);
+    this.s = sBest;
+  }
+}
+
+/** Solve (M + λ·diag M) x = v for symmetric 3×3 M; false when singular. */
+function solve3(M: Float64Array, v: Float64Array, lambda: number, x: Float64Array): boolean {
+  const a00 = M[0] * (1 + lambda), a01 = M[1], a02 = M[2];
+  const a11 = M[4] * (1 + lambda), a12 = M[5];
+  const a22 = M[8] * (1 + lambda);
+  const c00 = a11 * a22 - a12 * a12;
+  const c01 = a02 * a12 - a01 * a22;
+  const c02 = a01 * a12 - a02 * a11;
+  const det = a00 * c00 + a01 * c01 + a02 * c02;
+  if (!(Math.abs(det) > 0) || !Number.isFinite(det)) return false;
+  const c11 = a00 * a22 - a02 * a02;
+  const c12 = a01 * a02 - a00 * a12;
+  const c22 = a00 * a11 - a01 * a01;
+  x[0] = (c00 * v[0] + c01 * v[1] + c02 * v[2]) / det;
+  x[1] = (c01 * v[0] + c11 * v[1] + c12 * v[2]) / det;
+  x[2] = (c02 * v[0] + c12 * v[1] + c22 * v[2]) / det;
+  return true;
+}
+
+/** Inverse of a symmetric 3×3 matrix into out (row-major); false when singular. */
+export function invert3(M: Float64Array, out: Float64Array): boolean {
+  const a00 = M[0], a01 = M[1], a02 = M[2], a11 = M[4], a12 = M[5], a22 = M[8];
+  const c00 = a11 * a22 - a12 * a12;
+  const c01 = a02 * a12 - a01 * a22;
+  const c02 = a01 * a12 - a02 * a11;
+  const det = a00 * c00 + a01 * c01 + a02 * c02;
+  if (!(Math.abs(det) > 0) || !Number.isFinite(det)) return false;
+  out[0] = c00 / det;
+  out[1] = out[3] = c01 / det;
+  out[2] = out[6] = c02 / det;
+  out[4] = (a00 * a22 - a02 * a02) / det;
+  out[5] = out[7] = (a01 * a02 - a00 * a12) / det;
+  out[8] = (a00 * a11 - a01 * a01) / det;
+  return true;
+}
