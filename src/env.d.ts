@@ -1,1 +1,10 @@
 /// <reference path="../.astro/types.d.ts" />
+
+declare namespace App {
+  interface Locals {
+    /** Services for this process (database, auth, mailer, configuration). */
+    app: import('./server/context').AppServices;
+    /** The signed-in person, or null. Set by src/middleware.ts; authorisation happens in handlers. */
+    actor: import('./server/context').Actor | null;
+  }
+}

@@ -65,7 +65,9 @@ function secretBesideDatabase(databasePath: string): string {
 }
 
 export function parseEnv(source: Record<string, string | undefined>): AppEnv {
-  const result = envSchema.safeParse(source);
+  // An empty line in .env (KEY=) means "not set", not "set to nothing".
+  const present = Object.fromEntries(Object.entries(source).filter(([, v]) => v !== undefined && v.trim() !== ''));
+  const result = envSchema.safeParse(present);
   if (!result.success) {
     const lines = result.error.issues.map((i) => `  ${i.path.join('.')}: ${i.message}`);
     throw new Error(`Starkiln configuration is invalid:\n${lines.join('\n')}`);

@@ -152,3 +152,26 @@ export function acceptInvitations(db: AppServices['db'], userId: string, email: 
   });
   return open.length;
 }
+
+/**
+ * Send a password-reset link (through the outbox) if an account has this address. The answer is
+ * the same either way, so the form cannot be used to probe for accounts.
+ */
+export async function requestPasswordReset(app: AppServices, raw: unknown): Promise<void> {
+  const { email } = parseInput(z.object({ email: emailField }), raw);
+  await app.auth.api.requestPasswordReset({ body: { email } });
+}
+
+export const resetPasswordInput = z.object({
+  token: z.string({ error: 'The reset link is incomplete.' }).min(1, 'The reset link is incomplete.'),
+  password: passwordField,
+});
+
+export async function resetPassword(app: AppServices, raw: unknown): Promise<void> {
+  const input = parseInput(resetPasswordInput, raw);
+  try {
+    await app.auth.api.resetPassword({ body: { token: input.token, newPassword: input.password } });
+  } catch {
+    throw new HttpError('validation_failed', 'This reset link has been used or has expired. Ask for a new one.', 'token');
+  }
+}

@@ -1,0 +1,31 @@
+// Small helpers for .astro pages that post forms and carry sessions.
+import { HttpError } from '../server/errors';
+
+/** Only same-site relative paths are followed after sign-in (no open redirects). */
+export function safeNext(next: string | null | undefined): string | null {
+  if (!next || !next.startsWith('/') || next.startsWith('//') || next.startsWith('/\\')) return null;
+  return next;
+}
+
+export function signInPath(url: URL): string {
+  return `/sign-in?next=${encodeURIComponent(url.pathname + url.search)}`;
+}
+
+/** A 303 redirect that carries better-auth's Set-Cookie headers. */
+export function redirectWithCookies(location: string, from?: Response): Response {
+  const headers = new Headers({ location });
+  for (const cookie of from?.headers.getSetCookie() ?? []) headers.append('set-cookie', cookie);
+  return new Response(null, { status: 303, headers });
+}
+
+export function formString(form: FormData, name: string): string {
+  const v = form.get(name);
+  return typeof v === 'string' ? v : '';
+}
+
+/** Field-keyed messages for re-rendering a form after a failed post. */
+export function formErrors(err: unknown): { field?: string; message: string } {
+  if (err instanceof HttpError) return { field: err.field, message: err.message };
+  console.error(err);
+  return { message: 'Something went wrong on the server. Please try again.' };
+}

@@ -1,0 +1,10 @@
+// GET /api/admin/users: every account with its kind (admins only).
+import type { APIRoute } from 'astro';
+import { requireAdmin } from '../../../lib/guards';
+import { handle, json } from '../../../lib/http';
+import { listUsers } from '../../../server/admin';
+
+export const GET: APIRoute = handle(({ locals }) => {
+  requireAdmin(locals);
+  return json({ users: listUsers(locals.app.db) });
+});

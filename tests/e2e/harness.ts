@@ -1,0 +1,186 @@
+// Reusable harness for browser and HTTP tests: the built server (node dist/server/entry.mjs) on a
+// free 127.0.0.1 port with a fresh, migrated and seeded SQLite file, and Debian's Chromium driven
+// by playwright-core. Nothing is downloaded; everything started here is stopped by stop()/close().
+import { spawn, type ChildProcess } from 'node:child_process';
+import { existsSync, mkdtempSync, rmSync } from 'node:fs';
+import net from 'node:net';
+import os from 'node:os';
+import path from 'node:path';
+import { chromium, type BrowserContext, type Page } from 'playwright-core';
+import { openDatabase } from '../../src/db/client';
+import { migrateDatabase } from '../../src/db/migrate';
+import { projectRoot } from '../../src/db/paths';
+import { seedDemo } from '../../src/db/seed';
+import { createApp } from '../../src/lib/app';
+import { parseEnv } from '../../src/lib/env';
+import type { AppServices } from '../../src/server/context';
+
+export const CHROMIUM_PATH = '/usr/bin/chromium';
+
+export interface RunningApp {
+  baseUrl: string;
+  databasePath: string;
+  /** The same database, opened in the test process for setup and assertions (WAL allows both). */
+  app: AppServices;
+  /** Server output so far (shown when something fails). */
+  logs: () => string;
+  stop: () => Promise<void>;
+}
+
+async function freePort(): Promise<number> {
+  return new Promise((resolve, reject) => {
+    const srv = net.createServer();
+    srv.unref();
+    srv.on('error', reject);
+    srv.listen(0, '127.0.0.1', () => {
+      const { port } = srv.address() as net.AddressInfo;
+      srv.close(() => resolve(port));
+    });
+  });
+}
+
+async function waitForHealth(baseUrl: string, child: ChildProcess, logs: () => string, timeoutMs = 30_000): Promise<void> {
+  const deadline = Date.now() + timeoutMs;
+  while (Date.now() < deadline) {
+    if (child.exitCode !== null) throw new Error(`The server exited with ${child.exitCode}:\n${logs()}`);
+    try {
+      const res = await fetch(`${baseUrl}/api/health`);
+      if (res.ok) return;
+    } catch {
+      // not listening yet
+    }
+    await new Promise((r) => setTimeout(r, 150));
+  }
+  throw new Error(`The server did not become healthy within ${timeoutMs} ms:\n${logs()}`);
+}
+
+export async function startApp(options: { seed?: boolean; env?: Record<string, string> } = {}): Promise<RunningApp> {
+  const root = projectRoot();
+  const entry = path.join(root, 'dist/server/entry.mjs');
+  if (!existsSync(entry)) throw new Error('No build found: run `npm run build` before the browser tests.');
+
+  const dir = mkdtempSync(path.join(os.tmpdir(), 'starkiln-e2e-'));
+  const databasePath = path.join(dir, 'starkiln.db');
+  const port = await freePort();
+  const baseUrl = `http://127.0.0.1:${port}`;
+  const env: Record<string, string> = {
+    DATABASE_PATH: databasePath,
+    BETTER_AUTH_SECRET: 'e2e-secret-e2e-secret-e2e-secret-0123456789',
+    BETTER_AUTH_URL: baseUrl,
+    MAIL_TRANSPORT: 'outbox',
+    // Tests sign in many times from one address within seconds.
+    AUTH_RATE_LIMIT: 'off',
+    SIGNUP_OPEN: 'false',
+    ...options.env,
+  };
+
+  const opened = openDatabase(databasePath);
+  migrateDatabase(opened.db);
+  const app = createApp(opened.db, parseEnv(env));
+  if (options.seed ?? true) await seedDemo(app);
+
+  let output = '';
+  const child = spawn(process.execPath, [entry], {
+    cwd: root,
+    env: { ...process.env, ...env, HOST: '127.0.0.1', PORT: String(port), NODE_ENV: 'production' },
+    stdio: ['ignore', 'pipe', 'pipe'],
+  });
+  child.stdout!.on('data', (d) => (output += d));
+  child.stderr!.on('data', (d) => (output += d));
+  const logs = () => output;
+
+  const stop = async () => {
+    if (child.exitCode === null) {
+      const exited = new Promise((r) => child.once('exit', r));
+      child.kill('SIGTERM');
+      await Promise.race([exited, new Promise((r) => setTimeout(r, 5000))]);
+      if (child.exitCode === null) child.kill('SIGKILL');
+    }
+    opened.sqlite.close();
+    rmSync(dir, { recursive: true, force: true });
+  };
+
+  try {
+    await waitForHealth(baseUrl, child, logs);
+  } catch (err) {
+    await stop();
+    throw err;
+  }
+  return { baseUrl, databasePath, app, logs, stop };
+}
+
+export interface Browser {
+  context: BrowserContext;
+  newPage: () => Promise<Page>;
+  close: () => Promise<void>;
+}
+
+/** Debian's Chromium, headless, with everything that would reach the network switched off. */
+export async function launchBrowser(): Promise<Browser> {
+  const profile = mkdtempSync(path.join(os.tmpdir(), 'starkiln-chromium-'));
+  const context = await chromium.launchPersistentContext(profile, {
+    executablePath: CHROMIUM_PATH,
+    headless: true,
+    args: [
+      '--no-sandbox',
+      '--disable-gpu',
+      '--disable-quic',
+      '--no-first-run',
+      '--disable-background-networking',
+      '--disable-component-update',
+      '--disable-sync',
+    ],
+  });
+  return {
+    context,
+    newPage: () => context.newPage(),
+    close: async () => {
+      await context.close();
+      rmSync(profile, { recursive: true, force: true });
+    },
+  };
+}
+
+/** Sign in through better-auth's JSON endpoint; returns the Cookie header value for later calls. */
+export async function signInCookie(baseUrl: string, email: string, password: string): Promise<string> {
+  const res = await fetch(`${baseUrl}/api/auth/sign-in/email`, {
+    method: 'POST',
+    // better-auth refuses cookie-carrying POSTs without an Origin it trusts (stack-notes gotcha 5).
+    headers: { 'content-type': 'application/json', origin: baseUrl },
+    body: JSON.stringify({ email, password }),
+  });
+  if (!res.ok) throw new Error(`Sign-in as ${email} failed: ${res.status} ${await res.text()}`);
+  return res.headers
+    .getSetCookie()
+    .map((c) => c.split(';')[0])
+    .join('; ');
+}
+
+export interface ApiCall {
+  status: number;
+  body: unknown;
+  contentType: string | null;
+}
+
+/** Call the API like a script would: JSON body, optional session cookie, Origin set. */
+export async function callApi(
+  baseUrl: string,
+  pathname: string,
+  options: { method?: string; cookie?: string; json?: unknown; rawBody?: string } = {},
+): Promise<ApiCall> {
+  const headers: Record<string, string> = { origin: baseUrl, accept: 'application/json' };
+  if (options.cookie) headers.cookie = options.cookie;
+  let body: string | undefined;
+  if (options.json !== undefined) body = JSON.stringify(options.json);
+  if (options.rawBody !== undefined) body = options.rawBody;
+  if (body !== undefined) headers['content-type'] = 'application/json';
+  const res = await fetch(`${baseUrl}${pathname}`, { method: options.method ?? (body ? 'POST' : 'GET'), headers, body });
+  const text = await res.text();
+  let parsed: unknown = text;
+  try {
+    parsed = JSON.parse(text);
+  } catch {
+    // leave as text: the assertion will show it
+  }
+  return { status: res.status, body: parsed, contentType: res.headers.get('content-type') };
+}
