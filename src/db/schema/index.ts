@@ -3,3 +3,5 @@ export * from './auth';
 export * from './campaigns';
 export * from './mail';
 export * from './audit';
+export * from './photometry';
+export * from './batches';

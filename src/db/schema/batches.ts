@@ -1,0 +1,122 @@
+// Fit runs, the job queue the workers drain, and the results they write.
+import { sql } from 'drizzle-orm';
+import { index, integer, real, sqliteTable, text, uniqueIndex } from 'drizzle-orm/sqlite-core';
+import { user } from './auth';
+import { campaigns } from './campaigns';
+import { stars } from './photometry';
+
+const now = sql`(cast(unixepoch('subsecond') * 1000 as integer))`;
+
+export const BATCH_STATUSES = ['queued', 'running', 'finished', 'cancelled'] as const;
+export type BatchStatus = (typeof BATCH_STATUSES)[number];
+
+export const batches = sqliteTable(
+  'batches',
+  {
+    id: text('id').primaryKey(),
+    campaignId: text('campaign_id')
+      .notNull()
+      .references(() => campaigns.id, { onDelete: 'cascade' }),
+    startedById: text('started_by_id').references(() => user.id, { onDelete: 'set null' }),
+    // Fit options as given (law, R_V, A_V fixed or fitted, floor, excluded bands, clipping …).
+    options: text('options', { mode: 'json' }).$type<Record<string, unknown>>().notNull(),
+    bandLibraryVersion: text('band_library_version').notNull(),
+    softwareVersion: text('software_version').notNull(),
+    status: text('status', { enum: BATCH_STATUSES }).notNull().default('queued'),
+    starCount: integer('star_count').notNull().default(0),
+    // Set when this batch re-fits stars of an earlier one (stale fits, clipping, new options).
+    refitOfBatchId: text('refit_of_batch_id'),
+    createdAt: integer('created_at', { mode: 'timestamp_ms' }).notNull().default(now),
+    finishedAt: integer('finished_at', { mode: 'timestamp_ms' }),
+    notifiedAt: integer('notified_at', { mode: 'timestamp_ms' }),
+  },
+  (t) => [index('batches_campaign_idx').on(t.campaignId, t.createdAt)],
+);
+
+export const JOB_STATUSES = ['pending', 'leased', 'done', 'failed'] as const;
+export type JobStatus = (typeof JOB_STATUSES)[number];
+
+/**
+ * The queue. A worker claims pending jobs whose runAfter has passed (or leased ones whose lease
+ * expired) in one UPDATE … RETURNING, renews the lease while working, and finishes each job in the
+ * same transaction that writes its result.
+ */
+export const jobs = sqliteTable(
+  'jobs',
+  {
+    id: integer('id').primaryKey({ autoIncrement: true }),
+    kind: text('kind').notNull(),
+    batchId: text('batch_id').references(() => batches.id, { onDelete: 'cascade' }),
+    payload: text('payload', { mode: 'json' }).$type<Record<string, unknown>>().notNull(),
+    // One job per star and batch: enqueueing twice with the same key is a no-op.
+    idempotencyKey: text('idempotency_key').notNull(),
+    status: text('status', { enum: JOB_STATUSES }).notNull().default('pending'),
+    priority: integer('priority').notNull().default(0),
+    attempts: integer('attempts').notNull().default(0),
+    maxAttempts: integer('max_attempts').notNull().default(5),
+    runAfter: integer('run_after', { mode: 'timestamp_ms' }).notNull().default(now),
+    leaseOwner: text('lease_owner'),
+    leaseExpiresAt: integer('lease_expires_at', { mode: 'timestamp_ms' }),
+    lastError: text('last_error'),
+    createdAt: integer('created_at', { mode: 'timestamp_ms' }).notNull().default(now),
+    finishedAt: integer('finished_at', { mode: 'timestamp_ms' }),
+  },
+  (t) => [
+    uniqueIndex('jobs_idempotency_unique').on(t.idempotencyKey),
+    index('jobs_claim_idx').on(t.status, t.priority, t.runAfter),
+    index('jobs_batch_idx').on(t.batchId, t.status),
+  ],
+);
+
+export const REVIEW_STATUSES = ['pending', 'accepted', 'flagged', 'superseded'] as const;
+export type ReviewStatus = (typeof REVIEW_STATUSES)[number];
+
+/** Exactly one result per star and batch: a fit or a recorded failure. */
+export const fitResults = sqliteTable(
+  'fit_results',
+  {
+    id: integer('id').primaryKey({ autoIncrement: true }),
+    batchId: text('batch_id')
+      .notNull()
+      .references(() => batches.id, { onDelete: 'cascade' }),
+    campaignId: text('campaign_id')
+      .notNull()
+      .references(() => campaigns.id, { onDelete: 'cascade' }),
+    starId: integer('star_id')
+      .notNull()
+      .references(() => stars.id, { onDelete: 'cascade' }),
+    ok: integer('ok', { mode: 'boolean' }).notNull(),
+    failureReason: text('failure_reason'),
+    teffK: real('teff_k'),
+    teffErrK: real('teff_err_k'),
+    teffErrFormalK: real('teff_err_formal_k'),
+    teffLowerK: real('teff_lower_k'),
+    thetaMas: real('theta_mas'),
+    thetaErrMas: real('theta_err_mas'),
+    radiusRsun: real('radius_rsun'),
+    radiusErrRsun: real('radius_err_rsun'),
+    lumLsun: real('lum_lsun'),
+    lumErrLsun: real('lum_err_lsun'),
+    fbolCgs: real('fbol_cgs'),
+    fbolErrCgs: real('fbol_err_cgs'),
+    avMag: real('av_mag'),
+    avErrMag: real('av_err_mag'),
+    chi2Red: real('chi2_red'),
+    nBands: integer('n_bands'),
+    bandsUsed: text('bands_used'),
+    irExcessSigma: real('ir_excess_sigma'),
+    flags: text('flags').notNull().default(''),
+    // Everything else the star sheet draws: residuals, model fluxes, excluded bands, covariance.
+    detail: text('detail', { mode: 'json' }).$type<Record<string, unknown>>(),
+    bandLibraryVersion: text('band_library_version').notNull(),
+    softwareVersion: text('software_version').notNull(),
+    reviewStatus: text('review_status', { enum: REVIEW_STATUSES }).notNull().default('pending'),
+    createdAt: integer('created_at', { mode: 'timestamp_ms' }).notNull().default(now),
+  },
+  (t) => [
+    uniqueIndex('fit_results_batch_star_unique').on(t.batchId, t.starId),
+    index('fit_results_campaign_review_idx').on(t.campaignId, t.reviewStatus),
+    index('fit_results_campaign_teff_idx').on(t.campaignId, t.teffK),
+    index('fit_results_star_idx').on(t.starId, t.createdAt),
+  ],
+);

@@ -1,0 +1,105 @@
+// What an analyst brings in: uploaded files, the stars of a campaign and their measurements.
+// A star is identified within its campaign by the `id` its input tables give it (starKey).
+import { sql } from 'drizzle-orm';
+import { index, integer, real, sqliteTable, text, uniqueIndex } from 'drizzle-orm/sqlite-core';
+import { user } from './auth';
+import { campaigns } from './campaigns';
+
+const now = sql`(cast(unixepoch('subsecond') * 1000 as integer))`;
+
+export const UPLOAD_STATUSES = ['received', 'checked', 'imported', 'rejected'] as const;
+export type UploadStatus = (typeof UPLOAD_STATUSES)[number];
+
+export const uploads = sqliteTable(
+  'uploads',
+  {
+    id: text('id').primaryKey(),
+    campaignId: text('campaign_id')
+      .notNull()
+      .references(() => campaigns.id, { onDelete: 'cascade' }),
+    // The name the browser sent, kept for display only; the file on disk has a server-chosen name.
+    originalName: text('original_name').notNull(),
+    storedPath: text('stored_path').notNull(),
+    sizeBytes: integer('size_bytes').notNull(),
+    sha256: text('sha256').notNull(),
+    // Detected from the content, never from the client's name or type: csv, tsv, votable, fits-table, fits-image.
+    detectedFormat: text('detected_format'),
+    status: text('status', { enum: UPLOAD_STATUSES }).notNull().default('received'),
+    // Validation report: [{file, row, column, message}], kept after import.
+    report: text('report', { mode: 'json' }).$type<unknown[]>().notNull().default([]),
+    rowCount: integer('row_count'),
+    importedRowCount: integer('imported_row_count'),
+    uploadedById: text('uploaded_by_id').references(() => user.id, { onDelete: 'set null' }),
+    createdAt: integer('created_at', { mode: 'timestamp_ms' }).notNull().default(now),
+    importedAt: integer('imported_at', { mode: 'timestamp_ms' }),
+  },
+  (t) => [index('uploads_campaign_idx').on(t.campaignId, t.createdAt)],
+);
+
+/** A saved column mapping (column → role/band), named per campaign. */
+export const mappingPresets = sqliteTable(
+  'mapping_presets',
+  {
+    id: text('id').primaryKey(),
+    campaignId: text('campaign_id')
+      .notNull()
+      .references(() => campaigns.id, { onDelete: 'cascade' }),
+    name: text('name').notNull(),
+    mapping: text('mapping', { mode: 'json' }).$type<Record<string, unknown>>().notNull(),
+    createdById: text('created_by_id').references(() => user.id, { onDelete: 'set null' }),
+    createdAt: integer('created_at', { mode: 'timestamp_ms' }).notNull().default(now),
+  },
+  (t) => [uniqueIndex('mapping_presets_name_unique').on(t.campaignId, t.name)],
+);
+
+export const stars = sqliteTable(
+  'stars',
+  {
+    id: integer('id').primaryKey({ autoIncrement: true }),
+    campaignId: text('campaign_id')
+      .notNull()
+      .references(() => campaigns.id, { onDelete: 'cascade' }),
+    starKey: text('star_key').notNull(),
+    raDeg: real('ra_deg'),
+    decDeg: real('dec_deg'),
+    parallaxMas: real('parallax_mas'),
+    parallaxErrMas: real('parallax_err_mas'),
+    avMag: real('av_mag'),
+    createdAt: integer('created_at', { mode: 'timestamp_ms' }).notNull().default(now),
+    updatedAt: integer('updated_at', { mode: 'timestamp_ms' }).notNull().default(now),
+  },
+  (t) => [uniqueIndex('stars_campaign_key_unique').on(t.campaignId, t.starKey)],
+);
+
+/**
+ * One value of one star in one band from one source. Re-importing the same star, band and source
+ * replaces the value instead of adding a second row.
+ */
+export const measurements = sqliteTable(
+  'measurements',
+  {
+    id: integer('id').primaryKey({ autoIncrement: true }),
+    starId: integer('star_id')
+      .notNull()
+      .references(() => stars.id, { onDelete: 'cascade' }),
+    bandKey: text('band_key').notNull(),
+    // Where the value comes from: a catalogue label chosen at import (default: the file's name) or
+    // an image (its file name), so two catalogues' values in one band are kept apart.
+    source: text('source').notNull(),
+    uploadId: text('upload_id').references(() => uploads.id, { onDelete: 'set null' }),
+    mag: real('mag'),
+    magErr: real('mag_err'),
+    fnuJy: real('fnu_jy'),
+    fnuErrJy: real('fnu_err_jy'),
+    upperLimit: integer('upper_limit', { mode: 'boolean' }).notNull().default(false),
+    // The catalogue's own quality mark (e.g. a 2MASS quality letter), kept for the record.
+    quality: text('quality'),
+    // Per-observation metadata read from a FITS image header (filter, exposure, date, airmass …).
+    observation: text('observation', { mode: 'json' }).$type<Record<string, unknown>>(),
+    createdAt: integer('created_at', { mode: 'timestamp_ms' }).notNull().default(now),
+  },
+  (t) => [
+    uniqueIndex('measurements_star_band_source_unique').on(t.starId, t.bandKey, t.source),
+    index('measurements_upload_idx').on(t.uploadId),
+  ],
+);
