@@ -65,6 +65,11 @@ export const jobs = sqliteTable(
     uniqueIndex('jobs_idempotency_unique').on(t.idempotencyKey),
     index('jobs_claim_idx').on(t.status, t.priority, t.runAfter),
     index('jobs_batch_idx').on(t.batchId, t.status),
+    // The claim reads pending jobs in (priority desc, id) order and stops after its chunk; without this
+    // partial index every claim would sort all pending jobs of a large batch.
+    index('jobs_ready_idx').on(sql`${t.priority} desc`, t.id).where(sql`${t.status} = 'pending'`),
+    // Progress: how many jobs of a batch finished within the last minute (the rate).
+    index('jobs_batch_finished_idx').on(t.batchId, t.finishedAt),
   ],
 );
 
@@ -118,5 +123,7 @@ export const fitResults = sqliteTable(
     index('fit_results_campaign_review_idx').on(t.campaignId, t.reviewStatus),
     index('fit_results_campaign_teff_idx').on(t.campaignId, t.teffK),
     index('fit_results_star_idx').on(t.starId, t.createdAt),
+    // Progress and the failures list count a batch's failed fits without reading every row.
+    index('fit_results_batch_ok_idx').on(t.batchId, t.ok),
   ],
 );
