@@ -1,0 +1,141 @@
+// Pages as a browser without JavaScript sees them: plain GETs and form posts against the built
+// server. Data pages render on the server; every form works as a full-page post.
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { and, eq } from 'drizzle-orm';
+import { campaigns, outboxMessages, user } from '../../src/db/schema';
+import { DEMO_CAMPAIGN, demoUsers } from '../../src/db/seed';
+import { nameKey } from '../../src/server/campaigns';
+import { callApi, signInCookie, startApp, type RunningApp } from './harness';
+
+let run: RunningApp;
+let demoId: string;
+const people = demoUsers();
+
+beforeAll(async () => {
+  run = await startApp();
+  demoId = run.app.db.select().from(campaigns).where(eq(campaigns.nameKey, nameKey(DEMO_CAMPAIGN.name))).get()!.id;
+});
+afterAll(async () => {
+  await run?.stop();
+});
+
+async function get(pathname: string, cookie?: string) {
+  const res = await fetch(`${run.baseUrl}${pathname}`, { headers: cookie ? { cookie } : {}, redirect: 'manual' });
+  return { status: res.status, location: res.headers.get('location'), html: await res.text() };
+}
+
+async function postForm(pathname: string, fields: Record<string, string | string[]>, cookie?: string) {
+  const body = new URLSearchParams();
+  for (const [k, v] of Object.entries(fields)) for (const x of Array.isArray(v) ? v : [v]) body.append(k, x);
+  const res = await fetch(`${run.baseUrl}${pathname}`, {
+    method: 'POST',
+    headers: { 'content-type': 'application/x-www-form-urlencoded', origin: run.baseUrl, ...(cookie ? { cookie } : {}) },
+    body,
+    redirect: 'manual',
+  });
+  const cookies = res.headers.getSetCookie().map((c) => c.split(';')[0]).join('; ');
+  return { status: res.status, location: res.headers.get('location'), html: await res.text(), cookies };
+}
+
+describe('pages without JavaScript', () => {
+  it('send anonymous visitors to sign-in, keeping where they wanted to go', async () => {
+    const r = await get(`/campaigns/${demoId}`);
+    expect(r.status).toBe(302);
+    expect(r.location).toBe(`/sign-in?next=${encodeURIComponent(`/campaigns/${demoId}`)}`);
+  });
+
+  it('sign in through the form and render campaign data on the server', async () => {
+    const signIn = await postForm('/sign-in', { email: people.analyst.email, password: people.analyst.password, next: `/campaigns/${demoId}` });
+    expect(signIn.status).toBe(303);
+    expect(signIn.location).toBe(`/campaigns/${demoId}`);
+    const list = await get('/campaigns', signIn.cookies);
+    expect(list.status).toBe(200);
+    expect(list.html).toContain('Lanternfield Survey');
+    const overview = await get(`/campaigns/${demoId}`, signIn.cookies);
+    expect(overview.html).toContain(people.reviewer.email);
+    expect(overview.html).toContain(people.collaborator.email);
+    // The blackbody caveat is on every page.
+    expect(overview.html).toMatch(/colour temperature/);
+  });
+
+  it('refuse a wrong password, and an open redirect, on the sign-in form', async () => {
+    const wrong = await postForm('/sign-in', { email: people.analyst.email, password: 'not-the-password' });
+    expect(wrong.status).toBe(401);
+    expect(wrong.html).toContain('do not match an account');
+    const offsite = await postForm('/sign-in', { email: people.analyst.email, password: people.analyst.password, next: '//elsewhere.test/x' });
+    expect(offsite.location).toBe('/campaigns');
+  });
+
+  it('create a campaign by form post, and refuse a duplicate name with a message', async () => {
+    const cookie = await signInCookie(run.baseUrl, people.analyst.email, people.analyst.password);
+    const created = await postForm('/campaigns', { name: 'Form-made campaign', description: '' }, cookie);
+    expect(created.status).toBe(303);
+    const row = run.app.db.select().from(campaigns).where(eq(campaigns.name, 'Form-made campaign')).get()!;
+    expect(created.location).toBe(`/campaigns/${row.id}`);
+    const dup = await postForm('/campaigns', { name: 'form-made CAMPAIGN', description: '' }, cookie);
+    expect(dup.status).toBe(409);
+    expect(dup.html).toContain('already exists');
+  });
+
+  it('add a member by form post; a guest may not', async () => {
+    const analyst = await signInCookie(run.baseUrl, people.analyst.email, people.analyst.password);
+    const added = await postForm(`/campaigns/${demoId}`, { email: 'form.invitee@example.test', roles: ['collaborator'] }, analyst);
+    expect(added.status).toBe(200);
+    expect(added.html).toContain('Invitation sent to form.invitee@example.test');
+    const twice = await postForm(`/campaigns/${demoId}`, { email: 'form.invitee@example.test', roles: ['collaborator'] }, analyst);
+    expect(twice.status).toBe(409);
+    const guest = await signInCookie(run.baseUrl, people.collaborator.email, people.collaborator.password);
+    const refused = await postForm(`/campaigns/${demoId}`, { email: 'friend@example.test', roles: ['collaborator'] }, guest);
+    expect(refused.status).toBe(403);
+  });
+
+  it('sign up from an invitation e-mail, with clear messages for bad input', async () => {
+    const analyst = await signInCookie(run.baseUrl, people.analyst.email, people.analyst.password);
+    await callApi(run.baseUrl, `/api/campaigns/${demoId}/members`, { cookie: analyst, json: { email: 'invitee@example.test', roles: ['collaborator'] } });
+    const mail = run.app.db.select().from(outboxMessages).where(eq(outboxMessages.toAddress, 'invitee@example.test')).get()!;
+    const link = new URL(/https?:\/\/\S+/.exec(mail.textBody)![0]);
+    const token = link.searchParams.get('invite')!;
+
+    const page = await get(`${link.pathname}${link.search}`);
+    expect(page.html).toContain(DEMO_CAMPAIGN.name);
+    const badEmail = await postForm('/sign-up', { invitation: token, name: 'In Vitee', email: 'invitee-at-example', password: 'a-long-password' });
+    expect(badEmail.status).toBe(400);
+    expect(badEmail.html).toContain('Enter a valid e-mail address');
+    const short = await postForm('/sign-up', { invitation: token, name: 'In Vitee', email: 'invitee@example.test', password: 'short' });
+    expect(short.html).toContain('at least 10 characters');
+    expect(run.app.db.select().from(user).where(eq(user.email, 'invitee@example.test')).all()).toHaveLength(0);
+
+    const ok = await postForm('/sign-up', { invitation: token, name: 'In Vitee', email: 'invitee@example.test', password: 'a-long-password' });
+    expect(ok.status).toBe(303);
+    const me = await callApi(run.baseUrl, '/api/me', { cookie: ok.cookies });
+    expect(me.body).toMatchObject({ user: { email: 'invitee@example.test', kind: 'guest' } });
+    const mine = await callApi(run.baseUrl, '/api/campaigns', { cookie: ok.cookies });
+    expect((mine.body as { campaigns: { id: string }[] }).campaigns.map((c) => c.id)).toEqual([demoId]);
+  });
+
+  it('reset a forgotten password through the outbox', async () => {
+    const asked = await postForm('/forgot-password', { email: people.reviewer.email });
+    expect(asked.status).toBe(200);
+    expect(asked.html).toContain('a reset link is on its way');
+    const mail = run.app.db
+      .select()
+      .from(outboxMessages)
+      .where(and(eq(outboxMessages.toAddress, people.reviewer.email), eq(outboxMessages.kind, 'password-reset')))
+      .get()!;
+    const link = new URL(/https?:\/\/\S+/.exec(mail.textBody)![0]);
+    const done = await postForm('/reset-password', { token: link.searchParams.get('token')!, password: 'a-brand-new-password' });
+    expect(done.status).toBe(303);
+    expect(done.location).toBe('/sign-in?reset=done');
+    await expect(signInCookie(run.baseUrl, people.reviewer.email, 'a-brand-new-password')).resolves.toMatch(/session_token/);
+    await expect(signInCookie(run.baseUrl, people.reviewer.email, people.reviewer.password)).rejects.toThrow(/401/);
+  });
+
+  it('keep the admin area for admins', async () => {
+    const guest = await signInCookie(run.baseUrl, people.collaborator.email, people.collaborator.password);
+    expect((await get('/admin/outbox', guest)).status).toBe(403);
+    const admin = await signInCookie(run.baseUrl, people.admin.email, people.admin.password);
+    const outbox = await get('/admin/outbox', admin);
+    expect(outbox.status).toBe(200);
+    expect(outbox.html).toContain('visitor@lanternfield.test');
+  });
+});
