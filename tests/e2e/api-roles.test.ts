@@ -4,6 +4,7 @@ import { eq } from 'drizzle-orm';
 import { campaigns, outboxMessages } from '../../src/db/schema';
 import { DEMO_CAMPAIGN, demoUsers } from '../../src/db/seed';
 import { nameKey } from '../../src/server/campaigns';
+import { appVersion } from '../../src/server/health';
 import { callApi, signInCookie, startApp, type RunningApp } from './harness';
 
 let run: RunningApp;
@@ -34,7 +35,7 @@ describe('health', () => {
   it('reports the version and a reachable, migrated database', async () => {
     const r = await callApi(run.baseUrl, '/api/health');
     expect(r.status).toBe(200);
-    expect(r.body).toMatchObject({ status: 'ok', version: '0.1.0', database: { reachable: true, migrated: true } });
+    expect(r.body).toMatchObject({ status: 'ok', version: appVersion(), database: { reachable: true, migrated: true } });
   });
 });
 
