@@ -47,6 +47,8 @@ export const LOWER_BOUND_DCHI2 = 2.705543;
 export const CHI2_HIGH = 5;
 export const OUTLIER_SIGMA = 3;
 export const MAX_CLIPPED = 2;
+/** Newton stops once the next step in ln T is below this (T to 1e-7 relative, far below any error). */
+const NEWTON_TOL = 1e-7;
 
 export interface EngineSettings {
   fitAv: boolean;
@@ -67,6 +69,7 @@ export class FitEngine {
   readonly y: Float64Array;
   readonly sigma: Float64Array;
   readonly w: Float64Array;
+  readonly invSigma: Float64Array;
   readonly upper: Uint8Array;
   readonly exclude: Uint8Array;
   /** Position of each slot in add order (so callers can map residuals back). */
@@ -79,6 +82,8 @@ export class FitEngine {
   readonly active: Uint8Array;
   readonly residual: Float64Array;
   private readonly coarseChi2: Float64Array;
+  private readonly offC: Int32Array;
+  private readonly wyC: Float64Array;
   private readonly wA = new Float64Array(4);
   private readonly dwA = new Float64Array(4);
   private planes: Plane[] = [];
@@ -110,6 +115,7 @@ export class FitEngine {
     this.y = new Float64Array(maxBands);
     this.sigma = new Float64Array(maxBands);
     this.w = new Float64Array(maxBands);
+    this.invSigma = new Float64Array(maxBands);
     this.upper = new Uint8Array(maxBands);
     this.exclude = new Uint8Array(maxBands);
     this.order = new Int32Array(maxBands);
@@ -120,6 +126,8 @@ export class FitEngine {
     this.active = new Uint8Array(maxBands);
     this.residual = new Float64Array(maxBands);
     this.coarseChi2 = new Float64Array(N_COARSE);
+    this.offC = new Int32Array(maxBands);
+    this.wyC = new Float64Array(maxBands);
     this.derived = {
       teffK: NaN, teffErrFormalK: NaN, teffErrK: NaN, thetaMas: NaN, thetaErrMas: NaN, fbolCgs: NaN,
       fbolErrCgs: NaN, radiusRsun: NaN, radiusErrRsun: NaN, lumLsun: NaN, lumErrLsun: NaN, avErrMag: NaN,
@@ -138,7 +146,9 @@ export class FitEngine {
     this.band[k] = bandIndex;
     this.y[k] = fluxCgs;
     this.sigma[k] = sigmaCgs;
-    this.w[k] = 1 / (sigmaCgs * sigmaCgs);
+    const inv = 1 / sigmaCgs;
+    this.invSigma[k] = inv;
+    this.w[k] = inv * inv;
     this.upper[k] = isUpperLimit ? 1 : 0;
     this.exclude[k] = excludeReason;
     this.order[k] = k;
@@ -153,6 +163,7 @@ export class FitEngine {
     t = this.y[a]; this.y[a] = this.y[b]; this.y[b] = t;
     t = this.sigma[a]; this.sigma[a] = this.sigma[b]; this.sigma[b] = t;
     t = this.w[a]; this.w[a] = this.w[b]; this.w[b] = t;
+    t = this.invSigma[a]; this.invSigma[a] = this.invSigma[b]; this.invSigma[b] = t;
     t = this.upper[a]; this.upper[a] = this.upper[b]; this.upper[b] = t;
     t = this.exclude[a]; this.exclude[a] = this.exclude[b]; this.exclude[b] = t;
     t = this.order[a]; this.order[a] = this.order[b]; this.order[b] = t;
@@ -191,6 +202,10 @@ export class FitEngine {
    * with the A_V weights already set by usePlanes().
    */
   private evalModel(u: number, count: number): void {
+    this.evalModelRange(u, 0, count);
+  }
+
+  private evalModelRange(u: number, from: number, to: number): void {
     let x = (u - LN_T_MIN) / LN_T_STEP;
     if (x < 0) x = 0;
     else if (x > N_INTERVALS) x = N_INTERVALS;
@@ -220,7 +235,7 @@ export class FitEngine {
     if (this.singlePlane) {
       const L = this.planes[0].lnPhi;
       const D = this.planes[0].dLnPhi;
-      for (let k = 0; k < count; k++) {
+      for (let k = from; k < to; k++) {
         const o = band[k] * N_T + base;
         const y0 = L[o];
         const y1 = L[o + 1];
@@ -242,7 +257,7 @@ export class FitEngine {
     const P0 = this.planes[0], P1 = this.planes[1], P2 = this.planes[2], P3 = this.planes[3];
     const w0 = wA[0], w1 = wA[1], w2 = wA[2], w3 = wA[3];
     const e0 = dwA[0], e1 = dwA[1], e2 = dwA[2], e3 = dwA[3];
-    for (let k = 0; k < count; k++) {
+    for (let k = from; k < to; k++) {
       const o = band[k] * N_T + base;
       let lv = 0, l1 = 0, l2 = 0, la = 0;
       for (let q = 0; q < 4; q++) {
@@ -331,54 +346,85 @@ export class FitEngine {
     return chi2;
   }
 
-  /** Coarse ln T search in one plane (exact node values); returns the best coarse index. */
+  private coarseSyy = 0;
+
+  /** Profile χ² at coarse node c of plane pc (s in closed form; violated limits added, not re-solved). */
+  private coarseNode(pc: Float64Array, c: number): number {
+    const nDet = this.nDet;
+    const nFit = this.nFit;
+    const off = this.offC, wy = this.wyC, w = this.w, y = this.y;
+    let A = 0;
+    let B = 0;
+    for (let k = 0; k < nDet; k++) {
+      const p = pc[off[k] + c];
+      A += wy[k] * p;
+      B += w[k] * p * p;
+    }
+    if (!(A > 0)) return Infinity; // s ≤ 0 is not a star
+    let v = this.coarseSyy - (A * A) / B;
+    if (nFit > nDet) {
+      const s = A / B;
+      for (let k = nDet; k < nFit; k++) {
+        const m = s * pc[off[k] + c];
+        if (m > y[k]) v += w[k] * (m - y[k]) * (m - y[k]);
+      }
+    }
+    return v;
+  }
+
+  /**
+   * Coarse ln T search in one plane (exact node values); returns the best coarse index. Every other
+   * node first (≈ 40 % steps in T) plus the hot edge, then the two nodes beside the best: the profile
+   * of a blackbody is smooth on that scale, and the three values around the minimum feed the parabola
+   * that starts Newton. coarseChi2 holds NaN for nodes not evaluated.
+   */
   private coarseSearch(plane: Plane): number {
     const nDet = this.nDet;
     const nFit = this.nFit;
-    const band = this.band, y = this.y, w = this.w;
+    const band = this.band, y = this.y, w = this.w, off = this.offC, wy = this.wyC;
+    let syy = 0;
+    for (let k = 0; k < nFit; k++) {
+      off[k] = band[k] * N_COARSE;
+      wy[k] = w[k] * y[k];
+      if (k < nDet) syy += wy[k] * y[k];
+    }
+    this.coarseSyy = syy;
     const pc = plane.phiCoarse;
     const chi = this.coarseChi2;
-    // Accumulate A and B per coarse node band by band (contiguous reads), reusing coarseChi2 / phi as
-    // scratch would alias: use dedicated locals via two passes over a small fixed-size loop instead.
-    const acc = this.coarseA;
-    const bcc = this.coarseB;
-    acc.fill(0);
-    bcc.fill(0);
-    let syy = 0;
-    for (let k = 0; k < nDet; k++) {
-      const wk = w[k];
-      const wy = wk * y[k];
-      syy += wy * y[k];
-      const off = band[k] * N_COARSE;
-      for (let c = 0; c < N_COARSE; c++) {
-        const p = pc[off + c];
-        acc[c] += wy * p;
-        bcc[c] += wk * p * p;
-      }
-    }
+    chi.fill(NaN);
     let best = 0;
     let bestChi = Infinity;
-    for (let c = 0; c < N_COARSE; c++) {
-      const a = acc[c];
-      let v = syy - (a * a) / bcc[c];
-      if (nFit > nDet) {
-        const s = a / bcc[c];
-        for (let k = nDet; k < nFit; k++) {
-          const m = s * pc[band[k] * N_COARSE + c];
-          if (m > y[k]) v += w[k] * (m - y[k]) * (m - y[k]);
-        }
-      }
-      if (!(a > 0)) v = Infinity; // s ≤ 0 is not a star
+    for (let c = 0; c < N_COARSE; c += 2) {
+      const v = this.coarseNode(pc, c);
       chi[c] = v;
       if (v < bestChi) {
         bestChi = v;
         best = c;
       }
     }
+    const last = N_COARSE - 1;
+    if (chi[last] !== chi[last]) {
+      const v = this.coarseNode(pc, last);
+      chi[last] = v;
+      if (v < bestChi) {
+        bestChi = v;
+        best = last;
+      }
+    }
+    const c0 = best;
+    for (let c = c0 - 1; c <= c0 + 1; c += 2) {
+      if (c < 0 || c > last || chi[c] === chi[c]) continue;
+      const v = this.coarseNode(pc, c);
+      chi[c] = v;
+      if (v < bestChi) {
+        bestChi = v;
+        best = c;
+      }
+    }
+    // The new best (if it moved) has its other neighbour among the even nodes; fill any gap left at the edge.
+    for (let c = best - 1; c <= best + 1; c += 2) if (c >= 0 && c <= last && chi[c] !== chi[c]) chi[c] = this.coarseNode(pc, c);
     return best;
   }
-  private readonly coarseA = new Float64Array(N_COARSE);
-  private readonly coarseB = new Float64Array(N_COARSE);
 
   /** Fixed A_V: coarse search then safeguarded Newton on dχ²/du = 0. */
   private fitFixed(avMag: number): boolean {
@@ -405,7 +451,15 @@ export class FitEngine {
     // Safeguarded Newton on g = dχ²/du: [lo, hi] brackets the minimum once both ends are "sure"
     // (slope seen pointing inward, or a grid edge); an unsure end is widened by one coarse step when
     // the iterate reaches it still descending (the coarse search may be slightly off for off-plane A_V).
+    // Start at the vertex of the parabola through the three coarse values around the minimum.
     let u = uc;
+    if (c > 0 && c < N_COARSE - 1) {
+      const cm = this.coarseChi2[c - 1];
+      const c0 = this.coarseChi2[c];
+      const cp = this.coarseChi2[c + 1];
+      const den = cm - 2 * c0 + cp;
+      if (den > 0 && Number.isFinite(den)) u = uc + 0.5 * ((cm - cp) / den) * stride;
+    }
     let chi2 = this.profileAt(u);
     let it = 0;
     for (; it < 100; it++) {
@@ -432,7 +486,7 @@ export class FitEngine {
         loSure = true;
       }
       let next = hcur > 0 ? u - g / hcur : NaN;
-      if (Math.abs(next - u) < 1e-10) break; // converged; the state of profileAt(u) is kept
+      if (Math.abs(next - u) < NEWTON_TOL) break; // converged; the state of profileAt(u) is kept
       if (!(next > lo && next < hi)) {
         if (g < 0) next = hiSure ? 0.5 * (u + hi) : hi;
         else next = loSure ? 0.5 * (u + lo) : lo;
@@ -440,7 +494,7 @@ export class FitEngine {
       const step = Math.abs(next - u);
       u = next;
       chi2 = this.profileAt(u);
-      if (step < 1e-10 || hi - lo < 1e-10) break;
+      if (step < NEWTON_TOL || hi - lo < NEWTON_TOL) break;
     }
     this.iterations = it;
     this.u = u;
@@ -708,10 +762,12 @@ export class FitEngine {
 
   /** Residuals (y − sφ)/σ for every band at the solution (excluded ones included). */
   private residuals(): void {
-    // The planes are still those of the solution (fixed: usePlanes; free: the last chi2Full).
-    this.evalModel(this.u, this.n);
+    // The planes are still those of the solution (fixed: usePlanes; free: the last chi2Full), and φ of
+    // the fitted bands is that of the solution: only the excluded bands need evaluating.
+    if (this.n > this.nFit) this.evalModelRange(this.u, this.nFit, this.n);
     const s = this.s;
-    for (let k = 0; k < this.n; k++) this.residual[k] = (this.y[k] - s * this.phi[k]) / this.sigma[k];
+    const y = this.y, phi = this.phi, inv = this.invSigma, res = this.residual;
+    for (let k = 0; k < this.n; k++) res[k] = (y[k] - s * phi[k]) * inv[k];
   }
 
   /**

@@ -166,7 +166,7 @@ export interface FitFailure {
   excluded: { band: string; reason: ExclusionReason }[];
 }
 
-interface Entry {
+export interface Entry {
   bandKey: string;
   bandIndex: number;
   flux: number;
@@ -193,11 +193,22 @@ function loadEngine(engine: FitEngine, entries: Entry[], fluxes?: Float64Array):
   }
 }
 
-export function fitStar(model: FitModel, star: StarInput, options?: Partial<FitOptions>): FitResult | FitFailure {
-  const opts = options ? resolveFitOptions({ ...model.options, ...options }) : model.options;
-  if (opts.law !== model.ext.law || opts.rv !== model.ext.rv) {
-    throw new Error(`fit model was prepared for ${model.ext.law} with R_V = ${model.ext.rv}; prepare another model for ${opts.law}, R_V = ${opts.rv}`);
-  }
+/** Options → engine settings. */
+export function engineSettings(opts: FitOptions): EngineSettings {
+  return {
+    fitAv: opts.fitAv,
+    avMinMag: opts.avBoundsMag[0],
+    avMaxMag: opts.avBoundsMag[1],
+    clip: opts.clip,
+    modelErrorFraction: opts.modelErrorFraction ?? 0,
+  };
+}
+
+/**
+ * A star's band fluxes as engine entries: floor applied (applyFloor), roles set (excluded by option,
+ * long-wavelength diagnostic), bands without a usable error listed as excluded.
+ */
+export function starEntries(model: FitModel, star: StarInput, opts: FitOptions): { entries: Entry[]; excluded: { band: string; reason: ExclusionReason }[] } {
   const excluded: { band: string; reason: ExclusionReason }[] = [];
   const entries: Entry[] = [];
   const excludeSet = new Set(opts.excludeBands);
@@ -224,13 +235,16 @@ export function fitStar(model: FitModel, star: StarInput, options?: Partial<FitO
       exclude,
     });
   }
-  const settings: EngineSettings = {
-    fitAv: opts.fitAv,
-    avMinMag: opts.avBoundsMag[0],
-    avMaxMag: opts.avBoundsMag[1],
-    clip: opts.clip,
-    modelErrorFraction: opts.modelErrorFraction ?? 0,
-  };
+  return { entries, excluded };
+}
+
+export function fitStar(model: FitModel, star: StarInput, options?: Partial<FitOptions>): FitResult | FitFailure {
+  const opts = options ? resolveFitOptions({ ...model.options, ...options }) : model.options;
+  if (opts.law !== model.ext.law || opts.rv !== model.ext.rv) {
+    throw new Error(`fit model was prepared for ${model.ext.law} with R_V = ${model.ext.rv}; prepare another model for ${opts.law}, R_V = ${opts.rv}`);
+  }
+  const { entries, excluded } = starEntries(model, star, opts);
+  const settings = engineSettings(opts);
   const avMag = finiteOrNaN(star.avMag);
   const av = Number.isFinite(avMag) ? avMag : opts.avMag;
   const plx = finiteOrNaN(star.parallaxMas);

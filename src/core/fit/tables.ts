@@ -5,7 +5,7 @@
 // band-library version) makes a fit cost about a microsecond.
 //
 // Layout and accuracy:
-// - ln T nodes u_j with step ≈ 0.025 from ln 1500 K to ln 60 000 K, plus GHOST nodes beyond each end so
+// - ln T nodes u_j with step ≈ 0.024 from ln 1500 K to ln 60 000 K, plus GHOST nodes beyond each end so
 //   the 6th-order central difference for d ln φ / du is available at every interior node.
 // - Within a plane (one A_V value), ln φ is interpolated with cubic Hermite in u. On the Wien side
 //   ln φ ≈ const − x with x = hc/λkT = a·e^(−u), whose derivatives of every order are ≈ x (≤ 70 for a
@@ -23,14 +23,14 @@ export const TEFF_MIN_K = 1500;
 export const TEFF_MAX_K = 60000;
 export const LN_T_MIN = Math.log(TEFF_MIN_K);
 export const LN_T_MAX = Math.log(TEFF_MAX_K);
-/** Interior intervals of the fine ln T grid (step ≈ 0.0249). */
-export const N_INTERVALS = 148;
+/** Interior intervals of the fine ln T grid (step ≈ 0.0243). */
+export const N_INTERVALS = 152;
 export const LN_T_STEP = (LN_T_MAX - LN_T_MIN) / N_INTERVALS;
 export const GHOST = 3;
 /** Nodes per band and plane, ghosts included. */
 export const N_T = N_INTERVALS + 1 + 2 * GHOST;
-/** The coarse search uses every COARSE_STRIDE-th interior node (≈ 10 % steps in T). */
-export const COARSE_STRIDE = 4;
+/** The coarse search uses every COARSE_STRIDE-th interior node (≈ 20 % steps in T). */
+export const COARSE_STRIDE = 8;
 export const N_COARSE = N_INTERVALS / COARSE_STRIDE + 1;
 /** Spacing of the A_V planes, mag. */
 export const AV_STEP_MAG = 0.25;
