@@ -139,3 +139,26 @@ describe('pages without JavaScript', () => {
     expect(outbox.html).toContain('visitor@lanternfield.test');
   });
 });
+
+describe('sign-in form with the rate limit on', () => {
+  it('refuses the eleventh attempt within a minute with 429 and a clear message', async () => {
+    const limited = await startApp({ env: { AUTH_RATE_LIMIT: 'on' } });
+    try {
+      const attempt = async () => {
+        const res = await fetch(`${limited.baseUrl}/sign-in`, {
+          method: 'POST',
+          headers: { 'content-type': 'application/x-www-form-urlencoded', origin: limited.baseUrl },
+          body: new URLSearchParams({ email: people.analyst.email, password: 'guessing-again' }),
+          redirect: 'manual',
+        });
+        return { status: res.status, html: await res.text() };
+      };
+      for (let i = 0; i < 10; i++) expect((await attempt()).status).toBe(401);
+      const blocked = await attempt();
+      expect(blocked.status).toBe(429);
+      expect(blocked.html).toMatch(/Too many attempts\. Wait \d+ seconds/);
+    } finally {
+      await limited.stop();
+    }
+  });
+});

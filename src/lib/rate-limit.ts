@@ -1,0 +1,34 @@
+// A small in-memory fixed-window limiter for our own form posts. better-auth limits requests to
+// its HTTP endpoints, but our pages call auth.api on the server, which bypasses that limiter.
+// One web process serves the forms, so process memory is the right place for the counters.
+
+export interface RateLimiter {
+  /** Count one attempt for `key`; ok=false once more than `max` fall inside the window. */
+  hit(key: string, nowMs?: number): { ok: boolean; retryAfterSeconds: number };
+}
+
+export function createRateLimiter(options: { windowMs: number; max: number }): RateLimiter {
+  const windows = new Map<string, { startMs: number; count: number }>();
+  return {
+    hit(key, nowMs = Date.now()) {
+      if (windows.size > 10_000) {
+        for (const [k, w] of windows) if (nowMs - w.startMs >= options.windowMs) windows.delete(k);
+      }
+      let w = windows.get(key);
+      if (!w || nowMs - w.startMs >= options.windowMs) {
+        w = { startMs: nowMs, count: 0 };
+        windows.set(key, w);
+      }
+      w.count += 1;
+      const retryAfterSeconds = Math.ceil((w.startMs + options.windowMs - nowMs) / 1000);
+      return { ok: w.count <= options.max, retryAfterSeconds };
+    },
+  };
+}
+
+/** Sign-in, sign-up and reset forms: 10 posts a minute per address and form. */
+export const formLimiter = createRateLimiter({ windowMs: 60_000, max: 10 });
+
+export function tooManyMessage(retryAfterSeconds: number): string {
+  return `Too many attempts. Wait ${retryAfterSeconds} seconds and try again.`;
+}
