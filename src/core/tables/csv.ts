@@ -59,6 +59,11 @@ export interface ReadPhotometryOptions {
   /** Force a format; default: long when the header has `band`, else wide. */
   format?: TableFormat;
   delimiter?: Delimiter;
+  /**
+   * Renames columns to canonical names before reading ({ j_m: 'J', j_msigcom: 'J_err' }); a value of
+   * '-' drops the column. Issue 4's auto-detection of catalogue names fills this in.
+   */
+  columnMap?: Readonly<Record<string, string>>;
 }
 
 /** Formats a problem the way compilers do, so editors can jump to it: `file:line:column: message`. */
@@ -107,17 +112,22 @@ function levenshtein(a: string, b: string): number {
 
 /** The band key a mistyped one most likely meant: same letters in another case, a 'mag' decoration, or one edit away. */
 export function closestBandKey(name: string, bandKeys: readonly string[]): string | undefined {
+  return bandKeyGuess(name, bandKeys)?.key;
+}
+
+/** `sure` when only case or a magnitude decoration differs (then it is surely a band column). */
+function bandKeyGuess(name: string, bandKeys: readonly string[]): { key: string; sure: boolean } | undefined {
   const lower = name.toLowerCase();
   const exactCase = bandKeys.filter((k) => k.toLowerCase() === lower);
-  if (exactCase.length > 0) return exactCase.join("' or '");
+  if (exactCase.length > 0) return { key: exactCase.join("' or '"), sure: true };
   const stripped = name.replace(/^(e_|err_|sig_)/i, '').replace(/(mag|_mag|_m)$/i, '');
   if (stripped !== name && stripped.length > 0) {
     const hit = bandKeys.find((k) => k === stripped) ?? bandKeys.find((k) => k.toLowerCase() === stripped.toLowerCase());
-    if (hit) return hit;
+    if (hit) return { key: hit, sure: true };
   }
   if (name.length >= 2) {
     const near = bandKeys.filter((k) => k.length >= 2 && levenshtein(k.toLowerCase(), lower) === 1);
-    if (near.length === 1) return near[0];
+    if (near.length === 1) return { key: near[0], sure: false };
   }
   return undefined;
 }
@@ -156,8 +166,7 @@ export function readPhotometryTable(input: Uint8Array | string, options: ReadPho
     const text = typeof input === 'string' ? input : decodeText(input, file);
     table = openRows(text, options.delimiter, file);
     if (table.header.length === 0) return empty('the file is empty (no header line with column names)', null, table.comments);
-    const format = options.format ?? (table.header.includes('band') ? 'long' : 'wide');
-    return format === 'long' ? readLong(table, file, options.bandKeys) : readWide(table, file, options.bandKeys);
+    return readRows(table, file, options);
   } catch (e) {
     if (e instanceof DelimitedError) {
       const out = empty(e.message.startsWith(`${file}:`) ? e.message.slice(e.message.indexOf(': ') + 2) : e.message);
@@ -168,11 +177,30 @@ export function readPhotometryTable(input: Uint8Array | string, options: ReadPho
   }
 }
 
+function readRows(table: RowStream, file: string, options: ReadPhotometryOptions): PhotometryTable {
+  const map = options.columnMap;
+  const canonical = map ? table.header.map((h) => map[h] ?? h) : table.header;
+  const format = options.format ?? (canonical.includes('band') ? 'long' : 'wide');
+  return format === 'long' ? readLong(table, file, options.bandKeys, map) : readWide(table, file, options.bandKeys, map);
+}
+
+/**
+ * Reads photometry from any table already split into cells (a FITS table, a VOTable …). `line` of
+ * each row is what problems show as their position (for FITS: the 1-based table row).
+ */
+export function readPhotometryRows(table: RowStream, options: ReadPhotometryOptions): PhotometryTable {
+  const file = options.file ?? 'table';
+  if (table.header.length === 0) {
+    return { format: options.format ?? 'wide', delimiter: null, stars: [], problems: [{ file, row: 0, line: 0, severity: 'error', message: 'the table has no columns' }], rowCount: 0, rejectedRows: 0, bandKeys: [], comments: [] };
+  }
+  return readRows(table, file, options);
+}
+
 /** Header first, then the data rows streamed one by one (see scanDelimited). */
-interface RowStream {
+export interface RowStream {
   header: string[];
   headerLine: number;
-  delimiter: Delimiter;
+  delimiter: Delimiter | null;
   comments: string[];
   /** Calls cb for each data row (0-based index r = data row r + 1); returns the number of rows. */
   forEach(cb: (cells: string[], line: number, r: number) => void): number;
@@ -226,16 +254,20 @@ function starColumnOf(name: string): StarColumn | undefined {
   return lower in STAR_COLUMNS ? (lower as StarColumn) : undefined;
 }
 
-function readWide(table: RowStream, file: string, bandKeys: readonly string[]): PhotometryTable {
+function readWide(table: RowStream, file: string, bandKeys: readonly string[], columnMap?: Readonly<Record<string, string>>): PhotometryTable {
   const problems: TableProblem[] = [];
   const keySet = new Set(bandKeys);
   const header = table.header;
+  // Columns renamed to canonical names (e.g. a catalogue's own names); '' or '-' drops a column.
+  const names = header.map((h) => (columnMap && Object.prototype.hasOwnProperty.call(columnMap, h) ? columnMap[h] : h));
+  const ignored: string[] = [];
   const starCols: Partial<Record<StarColumn, number>> = {};
   const bands = new Map<string, BandColumns>();
   const headerProblem = (col: number, severity: ProblemSeverity, message: string) =>
     problems.push({ file, row: 0, line: table.headerLine, column: { name: header[col], number: col + 1 }, severity, message });
   const seenNames = new Map<string, number>();
-  header.forEach((name, col) => {
+  names.forEach((name, col) => {
+    if (name === '-' || (name === '' && header[col] !== '')) return;
     if (seenNames.has(name)) {
       headerProblem(col, 'error', `column "${name}" appears twice (columns ${seenNames.get(name)! + 1} and ${col + 1}); only the first is read`);
       return;
@@ -263,12 +295,14 @@ function readWide(table: RowStream, file: string, bandKeys: readonly string[]): 
         return;
       }
       const base = SUFFIXES.reduce((b, s) => (b.endsWith(s) ? b.slice(0, -s.length) : b), name);
-      const guess = closestBandKey(base, bandKeys);
+      const guess = bandKeyGuess(base, bandKeys);
       if (guess) {
-        const whole = guess.includes("'") ? guess : name.replace(base, guess);
-        headerProblem(col, 'error', `unknown band column "${name}" (band keys are case-sensitive); did you mean '${whole}'? The column was not read`);
+        const whole = guess.key.includes("'") ? guess.key : name.replace(base, guess.key);
+        // A case or decoration slip is surely a band column: an error, since its data would be lost.
+        // One edit away may be a coincidence ('hd' vs 'Hp'): a warning.
+        headerProblem(col, guess.sure ? 'error' : 'warning', `unknown band column "${name}" (band keys are case-sensitive); did you mean '${whole}'? The column was not read`);
       } else {
-        headerProblem(col, 'warning', `column "${name}" is neither a star column (${Object.keys(STAR_COLUMNS).join(', ')}) nor a band column (<band>, <band>_err, <band>_jy, <band>_jy_err, <band>_ul, <band>_jy_ul with band one of ${bandKeys.join(' ')}); it was ignored`);
+        ignored.push(name);
       }
       return;
     }
@@ -276,6 +310,16 @@ function readWide(table: RowStream, file: string, bandKeys: readonly string[]): 
     entry[SUFFIX_QUANTITY[suffix]] = col;
     bands.set(key, entry);
   });
+  if (ignored.length > 0) {
+    const list = ignored.length > 30 ? `${ignored.slice(0, 30).join(', ')} … (${ignored.length - 30} more)` : ignored.join(', ');
+    problems.push({
+      file,
+      row: 0,
+      line: table.headerLine,
+      severity: 'warning',
+      message: `${ignored.length} column${ignored.length === 1 ? ' is' : 's are'} neither a star column (${Object.keys(STAR_COLUMNS).join(', ')}) nor a band column (<band>, <band>_err, <band>_jy, <band>_jy_err, <band>_ul, <band>_jy_ul) and ${ignored.length === 1 ? 'was' : 'were'} ignored: ${list}`,
+    });
+  }
   if (starCols.id === undefined) {
     problems.push({ file, row: 0, line: table.headerLine, severity: 'error', message: `the header has no "id" column, which the wide format requires (columns found: ${header.join(', ')})` });
     const count = table.forEach(() => undefined);
@@ -385,13 +429,15 @@ function readWide(table: RowStream, file: string, bandKeys: readonly string[]): 
 
 const LONG_COLUMNS = ['id', 'band', 'mag', 'mag_err', 'jy', 'jy_err', 'ul'] as const;
 
-function readLong(table: RowStream, file: string, bandKeys: readonly string[]): PhotometryTable {
+function readLong(table: RowStream, file: string, bandKeys: readonly string[], columnMap?: Readonly<Record<string, string>>): PhotometryTable {
   const problems: TableProblem[] = [];
   const keySet = new Set(bandKeys);
   const header = table.header;
   const col: Record<string, number | undefined> = {};
   const star: Partial<Record<StarColumn, number>> = {};
-  header.forEach((name, i) => {
+  header.forEach((original, i) => {
+    const name = columnMap && Object.prototype.hasOwnProperty.call(columnMap, original) ? columnMap[original] : original;
+    if (name === '-' || (name === '' && original !== '')) return;
     const lower = name.toLowerCase();
     if ((LONG_COLUMNS as readonly string[]).includes(lower)) col[lower] ??= i;
     else if (starColumnOf(name)) star[starColumnOf(name)!] ??= i;

@@ -1,0 +1,149 @@
+// Command-line options of `starkiln fit`, parsed with node:util parseArgs and checked into the fit's
+// own option names. Mistakes raise UsageError (exit code 64, like other Unix tools' usage errors).
+import { parseArgs } from 'node:util';
+import type { ExtinctionLawKey } from '../core/types';
+
+export class UsageError extends Error {
+  constructor(message: string) {
+    super(message);
+    this.name = 'UsageError';
+  }
+}
+
+export const HELP = `Usage: starkiln fit <input> -o <output> [options]
+
+Fits a blackbody through each star's band photometry and writes a catalogue with
+Teff, angular diameter, radius, luminosity and quality flags.
+
+Input: CSV or TSV (wide: one row per star; long: one row per star and band, recognised
+by a "band" column) or a FITS binary table, with the canonical column names:
+  id, ra, dec, parallax_mas, parallax_err_mas, av, and per band <key>, <key>_err (mag),
+  <key>_jy, <key>_jy_err (Jy), <key>_ul, <key>_jy_ul (upper limits).
+Band keys (case-sensitive): U B V R I  J H Ks  G BP RP  u g r i z  W1 W2 W3 W4  BT VT Hp  FUV NUV
+
+Options:
+  -o, --output <file>     catalogue to write (.csv or .json); "-" writes CSV to stdout
+  --law <f99|ccm89|od94>  extinction law (default f99)
+  --rv <R_V>              total-to-selective extinction ratio (default 3.1)
+  --av <mag>              A_V for stars without an "av" value (default 0)
+  --fit-av                fit A_V (bounds 0–10 mag) instead of holding it fixed
+  --floor <fraction>      systematic floor added in quadrature, as a fraction of the
+                          flux (default 0.02; 0 = none)
+  --exclude <keys>        bands to leave out of the fit, comma or space separated
+  --clip                  refit without the worst band (at most two) when it lies > 3σ off
+  --include-long          use bands beyond ~5 µm in the fit (default: excess diagnostics only)
+  --format <csv|json>     output format (default: from the output file's extension, else csv)
+  --columns <map>         rename input columns, e.g. "hip=id,j_m=J,j_msigcom=J_err,junk=-"
+                          ("-" drops a column)
+  --hdu <n|name>          FITS: the HDU holding the table (default: the first binary table)
+  --quiet                 no progress bar and no summary
+  -h, --help              this help
+  -v, --version           software version
+
+Problems in the input are printed as file:line:column: message (for FITS tables the
+position is the table row). Good rows are fitted; the exit code is 2 when any row was
+left out, 1 on a fatal error, 64 on a usage error, 0 otherwise.
+`;
+
+export interface FitCommandArgs {
+  input: string;
+  output: string;
+  format: 'csv' | 'json';
+  law: ExtinctionLawKey;
+  rv: number;
+  avMag: number;
+  fitAv: boolean;
+  floorFraction: number;
+  excludeBands: string[];
+  clip: boolean;
+  includeLongBands: boolean;
+  columnMap?: Record<string, string>;
+  hdu?: number | string;
+  quiet: boolean;
+}
+
+export type ParsedCommand = { command: 'help' } | { command: 'version' } | { command: 'fit'; args: FitCommandArgs };
+
+function number(name: string, text: string | undefined, fallback: number, check: (x: number) => boolean, rule: string): number {
+  if (text === undefined) return fallback;
+  const x = Number(text.trim());
+  if (text.trim() === '' || !Number.isFinite(x) || !check(x)) throw new UsageError(`--${name} must be ${rule}, got "${text}"`);
+  return x;
+}
+
+export function parseCommandLine(argv: string[]): ParsedCommand {
+  let parsed;
+  try {
+    parsed = parseArgs({
+      args: argv,
+      allowPositionals: true,
+      strict: true,
+      options: {
+        output: { type: 'string', short: 'o' },
+        law: { type: 'string' },
+        rv: { type: 'string' },
+        av: { type: 'string' },
+        'fit-av': { type: 'boolean' },
+        floor: { type: 'string' },
+        exclude: { type: 'string', multiple: true },
+        clip: { type: 'boolean' },
+        'include-long': { type: 'boolean' },
+        format: { type: 'string' },
+        columns: { type: 'string', multiple: true },
+        hdu: { type: 'string' },
+        quiet: { type: 'boolean', short: 'q' },
+        help: { type: 'boolean', short: 'h' },
+        version: { type: 'boolean', short: 'v' },
+      },
+    });
+  } catch (e) {
+    throw new UsageError((e as Error).message.replace(/\. To specify a positional argument.*$/s, ''));
+  }
+  const { values: v, positionals } = parsed;
+  if (v.help) return { command: 'help' };
+  if (v.version) return { command: 'version' };
+  const [command, ...rest] = positionals;
+  if (command === undefined) throw new UsageError('no command given; the command is "fit" (see starkiln --help)');
+  if (command !== 'fit') throw new UsageError(`unknown command "${command}"; the command is "fit" (see starkiln --help)`);
+  if (rest.length === 0) throw new UsageError('fit needs an input file: starkiln fit <input> -o <output>');
+  if (rest.length > 1) throw new UsageError(`fit takes one input file, got ${rest.length}: ${rest.join(' ')}`);
+  if (!v.output) throw new UsageError('give the output file with -o <output> ("-" for stdout)');
+  const law = (v.law ?? 'f99').toLowerCase();
+  if (law !== 'f99' && law !== 'ccm89' && law !== 'od94') throw new UsageError(`--law must be f99, ccm89 or od94, got "${v.law}"`);
+  let format: 'csv' | 'json';
+  if (v.format !== undefined) {
+    if (v.format !== 'csv' && v.format !== 'json') throw new UsageError(`--format must be csv or json, got "${v.format}"`);
+    format = v.format;
+  } else format = /\.json$/i.test(v.output) ? 'json' : 'csv';
+  const excludeBands = (v.exclude ?? []).flatMap((s) => s.split(/[\s,]+/)).filter((s) => s !== '');
+  let columnMap: Record<string, string> | undefined;
+  for (const spec of v.columns ?? []) {
+    for (const pair of spec.split(',').map((s) => s.trim()).filter((s) => s !== '')) {
+      const eq = pair.indexOf('=');
+      if (eq <= 0) throw new UsageError(`--columns takes source=target pairs, got "${pair}"`);
+      columnMap ??= {};
+      columnMap[pair.slice(0, eq).trim()] = pair.slice(eq + 1).trim() || '-';
+    }
+  }
+  let hdu: number | string | undefined;
+  if (v.hdu !== undefined) hdu = /^\d+$/.test(v.hdu) ? Number(v.hdu) : v.hdu;
+  return {
+    command: 'fit',
+    args: {
+      input: rest[0],
+      output: v.output,
+      format,
+      law,
+      rv: number('rv', v.rv, 3.1, (x) => x > 0, 'a positive number'),
+      avMag: number('av', v.av, 0, (x) => x >= 0, 'a number of magnitudes ≥ 0'),
+      fitAv: v['fit-av'] === true,
+      floorFraction: number('floor', v.floor, 0.02, (x) => x >= 0 && x < 1, 'a fraction between 0 and 1'),
+      excludeBands,
+      clip: v.clip === true,
+      includeLongBands: v['include-long'] === true,
+      columnMap,
+      hdu,
+      quiet: v.quiet === true,
+    },
+  };
+}

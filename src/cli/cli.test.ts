@@ -1,0 +1,189 @@
+// `starkiln fit` end to end: the real command in a child process on files in a temporary folder.
+// Numbers: invented noise-free mock stars whose magnitudes come from direct integration of a
+// blackbody through each band (planckBandMean, checked against synphot), not from the fit's tables;
+// T and θ must come back to 1e-4 (product.md, check values: self-consistency).
+import { spawnSync } from 'node:child_process';
+import { createHash } from 'node:crypto';
+import { existsSync, mkdtempSync, readFileSync, readdirSync, rmSync, writeFileSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import path from 'node:path';
+import { fileURLToPath } from 'node:url';
+import { afterAll, describe, expect, it } from 'vitest';
+import { mockCsv, mockStars } from '../../scripts/references/make_mock_catalogue';
+import { parseDelimited } from '../core/tables/delimited';
+import { parseCommandLine, UsageError } from './args';
+import { writeFileAtomic } from './fit-command';
+
+const root = fileURLToPath(new URL('../..', import.meta.url));
+const bin = path.join(root, 'bin/starkiln.mjs');
+const dir = mkdtempSync(path.join(tmpdir(), 'starkiln-cli-'));
+afterAll(() => rmSync(dir, { recursive: true, force: true }));
+
+function run(...args: string[]) {
+  const r = spawnSync(process.execPath, [bin, ...args], { cwd: dir, encoding: 'utf8', timeout: 60_000 });
+  return { code: r.status, stdout: r.stdout, stderr: r.stderr };
+}
+
+function readCatalogue(file: string) {
+  const t = parseDelimited(readFileSync(file, 'utf8'));
+  const rows = t.rows.map((r) => Object.fromEntries(t.header.map((h, i) => [h, r[i]])));
+  return { comments: t.comments, header: t.header, rows };
+}
+
+describe('options', () => {
+  it('parses every option into fit options', () => {
+    const p = parseCommandLine(['fit', 'in.csv', '-o', 'out.json', '--law', 'ccm89', '--rv', '3.6', '--av', '0.2', '--fit-av', '--floor', '0', '--exclude', 'W3, W4', '--exclude', 'u', '--clip', '--include-long', '--columns', 'j_m=J,junk=', '--hdu', '2']);
+    expect(p).toEqual({
+      command: 'fit',
+      args: { input: 'in.csv', output: 'out.json', format: 'json', law: 'ccm89', rv: 3.6, avMag: 0.2, fitAv: true, floorFraction: 0, excludeBands: ['W3', 'W4', 'u'], clip: true, includeLongBands: true, columnMap: { j_m: 'J', junk: '-' }, hdu: 2, quiet: false },
+    });
+    const d = parseCommandLine(['fit', 'in.csv', '-o', 'out.csv']);
+    expect(d.command === 'fit' && [d.args.law, d.args.rv, d.args.avMag, d.args.floorFraction, d.args.format]).toEqual(['f99', 3.1, 0, 0.02, 'csv']);
+    expect(parseCommandLine(['--help'])).toEqual({ command: 'help' });
+  });
+
+  it('rejects mistakes with a plain message', () => {
+    const bad: [string[], RegExp][] = [
+      [['fit', 'a.csv'], /give the output file with -o/],
+      [['fit', '-o', 'x.csv'], /fit needs an input file/],
+      [['fit', 'a.csv', '-o', 'x.csv', '--law', 'f98'], /--law must be f99, ccm89 or od94/],
+      [['fit', 'a.csv', '-o', 'x.csv', '--rv=-1'], /--rv must be a positive number/],
+      [['fit', 'a.csv', '-o', 'x.csv', '--floor', 'lots'], /--floor must be a fraction/],
+      [['fit', 'a.csv', '-o', 'x.csv', '--bogus'], /Unknown option '--bogus'/],
+      [['fits', 'a.csv'], /unknown command "fits"/],
+    ];
+    for (const [argv, msg] of bad) expect(() => parseCommandLine(argv), argv.join(' ')).toThrow(msg);
+    expect(() => parseCommandLine(['fit', 'a.csv', '-o', 'x', '--rv', 'x'])).toThrow(UsageError);
+  });
+});
+
+describe('starkiln fit, end to end', () => {
+  it('recovers T and θ of mock stars to 1e-4 and writes the provenance header', () => {
+    const stars = mockStars(25, 11);
+    const input = path.join(dir, 'mock.csv');
+    writeFileSync(input, mockCsv(stars));
+    const r = run('fit', 'mock.csv', '-o', 'out.csv');
+    expect(r.stderr).toMatch(/starkiln: 25 stars fitted, 0 input rows left out, 0 errors and 0 warnings/);
+    expect(r.code).toBe(0);
+    const cat = readCatalogue(path.join(dir, 'out.csv'));
+    expect(cat.header).toEqual(['id', 'ra', 'dec', 'teff_k', 'teff_err_k', 'teff_err_formal_k', 'teff_lower_k', 'theta_mas', 'theta_err_mas', 'radius_rsun', 'radius_err_rsun', 'lum_lsun', 'lum_err_lsun', 'fbol_cgs', 'fbol_err_cgs', 'av', 'av_err', 'chi2_red', 'n_bands', 'bands_used', 'ir_excess_sigma', 'flags']);
+    expect(cat.rows.length).toBe(25);
+    for (const [i, s] of stars.entries()) {
+      const row = cat.rows[i];
+      expect(row.id).toBe(s.id);
+      expect(Math.abs(Number(row.teff_k) / s.teffK - 1)).toBeLessThan(1e-4);
+      expect(Math.abs(Number(row.theta_mas) / s.thetaMas - 1)).toBeLessThan(1e-4);
+      // R/R☉ = 107.516 θ[mas]/ϖ[mas] (IAU 2015 B3 R☉, IAU 2012 au; product.md §7).
+      expect(Math.abs(Number(row.radius_rsun) / ((107.516 * s.thetaMas) / s.parallaxMas) - 1)).toBeLessThan(2e-4);
+      // W3 (beyond ~5 µm) is a diagnostic, not a fit input, by default.
+      expect(row.bands_used.split(' ').sort()).toEqual(['B', 'BP', 'G', 'H', 'J', 'Ks', 'RP', 'V', 'W1', 'W2']);
+      expect(Number(row.av)).toBeCloseTo(s.avMag, 3);
+    }
+    const header = cat.comments.join('\n');
+    const pkg = JSON.parse(readFileSync(path.join(root, 'package.json'), 'utf8'));
+    expect(header).toContain(`Starkiln catalogue, software version ${pkg.version}`);
+    expect(header).toMatch(/band library version: starter-\S+/);
+    expect(header).toContain('CODATA 2018');
+    expect(header).toContain('IAU 2015 Resolution B3');
+    expect(header).toContain('extinction law: f99, R_V = 3.1');
+    expect(header).toContain('options: av_default_mag = 0; fit_av = false; floor_fraction = 0.02; exclude = (none); clip = false; include_long = false');
+    expect(header).toContain(`sha256 ${createHash('sha256').update(readFileSync(input)).digest('hex')}`);
+    expect(header).toMatch(/created: \d{4}-\d\d-\d\dT/);
+    expect(header).toMatch(/ {2}plx_weak: /);
+    expect(header).toMatch(/colour temperature/);
+  });
+
+  it('applies --exclude and --law, and writes JSON', () => {
+    const stars = mockStars(5, 3);
+    writeFileSync(path.join(dir, 'mock-ccm.csv'), mockCsv(stars, 'ccm89', 3.1));
+    const r = run('fit', 'mock-ccm.csv', '-o', 'out.json', '--law', 'ccm89', '--exclude', 'B,V');
+    expect(r.code).toBe(0);
+    const json = JSON.parse(readFileSync(path.join(dir, 'out.json'), 'utf8'));
+    expect(json.provenance.law).toBe('ccm89');
+    expect(json.provenance.options.exclude).toEqual(['B', 'V']);
+    expect(json.rows.length).toBe(5);
+    for (const [i, s] of stars.entries()) {
+      expect(json.rows[i].bands_used.split(' ')).not.toContain('V');
+      expect(Math.abs(json.rows[i].teff_k / s.teffK - 1)).toBeLessThan(1e-4);
+    }
+  });
+
+  it('reports bad rows as file:line:column, fits the good ones, exits with 2', () => {
+    const stars = mockStars(3, 5);
+    const lines = mockCsv(stars).trimEnd().split('\n');
+    const cells = lines[2].split(',');
+    cells[8] = 'bright'; // V of the second star
+    lines[2] = cells.join(',');
+    lines.push('cinder-000001' + lines[1].slice(lines[1].indexOf(','))); // duplicate id
+    writeFileSync(path.join(dir, 'bad.csv'), lines.join('\n') + '\n');
+    const r = run('fit', 'bad.csv', '-o', 'bad-out.csv');
+    expect(r.code).toBe(2);
+    expect(r.stderr).toContain('bad.csv:3:9: data row 2, column V: magnitude "bright" is not a number');
+    expect(r.stderr).toContain('bad.csv:5:1: data row 4, column id: duplicate id "cinder-000001" (first seen in row 1); this row was left out');
+    expect(r.stderr).toMatch(/2 stars fitted, 2 input rows left out, 2 errors/);
+    const cat = readCatalogue(path.join(dir, 'bad-out.csv'));
+    expect(cat.rows.map((x) => x.id)).toEqual([stars[0].id, stars[2].id]);
+  });
+
+  it('a magnitude in a band without a zero-point leaves that star out with a clear message', () => {
+    writeFileSync(path.join(dir, 'hp.csv'), 'id,V,V_err,Ks,Ks_err,Hp,Hp_err\nkiln-a,9.1,0.02,7.5,0.02,9.0,0.01\nkiln-b,9.1,0.02,7.5,0.02,,\n');
+    const r = run('fit', 'hp.csv', '-o', 'hp-out.csv');
+    expect(r.code).toBe(2);
+    expect(r.stderr).toMatch(/hp\.csv:2: data row 1 \(star kiln-a\): band Hp has no zero-point yet; give its flux in Jy \(Hp_jy\); the star was left out \(or leave the band out with --exclude Hp\)/);
+    expect(run('fit', 'hp.csv', '-o', 'hp-out.csv', '--exclude', 'Hp').code).toBe(0);
+  });
+
+  it('reads a FITS binary table: the benchmark table with catalogue names mapped (smoke run)', () => {
+    const fits = path.resolve(root, '../shared/data/benchmark/gbs_v3_dev_half.fits');
+    const map = 'hip=id,parallax=parallax_mas,parallax_error=parallax_err_mas,j_m=J,j_msigcom=J_err,h_m=H,h_msigcom=H_err,ks_m=Ks,ks_msigcom=Ks_err,b=-,hd=-,hp_mag=-,e_hp_mag=-';
+    const r = run('fit', fits, '-o', 'gbs.csv', '--columns', map);
+    expect(r.stderr).toMatch(/starkiln: \d+ stars fitted/);
+    expect(r.code).toBe(0);
+    const cat = readCatalogue(path.join(dir, 'gbs.csv'));
+    // 96 rows in the table (astropy reads the same, fixtures/fits/gbs_v3_dev_half.astropy.json).
+    expect(cat.rows.length).toBe(96);
+    expect(cat.rows[0].id).toBe('HIP101345');
+    const fitted = cat.rows.filter((x) => x.teff_k !== '');
+    // Many of these bright stars lack 2MASS errors (saturated): most, not all, get a value, and every
+    // row without one says why.
+    expect(fitted.length).toBeGreaterThanOrEqual(70);
+    for (const row of cat.rows.filter((x) => x.teff_k === '')) expect(row.flags).toMatch(/few_bands|temp_lower_bound|no_convergence/);
+    for (const row of fitted) expect(row.bands_used.split(' ').every((b) => ['J', 'H', 'Ks'].includes(b))).toBe(true);
+    expect(cat.comments.join('\n')).toMatch(/input: gbs_v3_dev_half\.fits \(FITS binary table, sha256 [0-9a-f]{64}\); 96 data rows/);
+  });
+
+  it('usage errors exit with 64; a missing input with 1; --help and --version print', () => {
+    expect(run('fit', 'nope.csv').code).toBe(64);
+    const missing = run('fit', 'nope.csv', '-o', 'x.csv');
+    expect(missing.code).toBe(1);
+    expect(missing.stderr).toBe('starkiln: cannot read nope.csv: no such file\n');
+    expect(run('fit', 'mock.csv', '-o', 'x.csv', '--exclude', 'KS').stderr).toMatch(/--exclude: unknown band "KS"; did you mean 'Ks'\?/);
+    expect(run('--help').stdout).toMatch(/^Usage: starkiln fit <input> -o <output>/);
+    expect(run('--version').stdout).toMatch(/^starkiln \d+\.\d+\.\d+\n$/);
+  });
+});
+
+describe('atomic output', () => {
+  it('a failure while writing leaves the old file untouched and no temporary file behind', () => {
+    const target = path.join(dir, 'atomic.csv');
+    writeFileSync(target, 'old content\n');
+    function* failing() {
+      yield 'id,teff_k\n';
+      yield 'a,5000\n';
+      throw new Error('disk full');
+    }
+    expect(() => writeFileAtomic(target, failing())).toThrow('disk full');
+    expect(readFileSync(target, 'utf8')).toBe('old content\n');
+    expect(readdirSync(dir).filter((f) => f.includes('atomic.csv') && f !== 'atomic.csv')).toEqual([]);
+    writeFileAtomic(target, ['new\n']);
+    expect(readFileSync(target, 'utf8')).toBe('new\n');
+  });
+
+  it('the command writes nothing when the output folder does not exist', () => {
+    writeFileSync(path.join(dir, 'one.csv'), 'id,V,V_err,Ks,Ks_err\nx,9,0.02,7,0.02\n');
+    const r = run('fit', 'one.csv', '-o', 'missing-folder/out.csv');
+    expect(r.code).toBe(1);
+    expect(r.stderr).toMatch(/cannot write missing-folder\/out\.csv/);
+    expect(existsSync(path.join(dir, 'missing-folder'))).toBe(false);
+  });
+});

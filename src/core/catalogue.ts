@@ -1,0 +1,212 @@
+// The output catalogue (product.md, "Interfaces"): one row per star with the fitted and derived
+// values, and a provenance header. Shared by the CLI, the worker and the downloads, so every export
+// says the same thing the same way.
+import { FLAG_EXPLANATIONS, type FitFailure, type FitResult } from './fit';
+
+export interface CatalogueColumn {
+  name: string;
+  unit?: string;
+  description: string;
+  /** Significant digits written; undefined = as given (ids, positions, text). */
+  digits?: number;
+}
+
+/** Catalogue columns in output order. `review_status` is added only where reviews exist. */
+export const CATALOGUE_COLUMNS: readonly CatalogueColumn[] = [
+  { name: 'id', description: 'star identifier as given in the input' },
+  { name: 'ra', unit: 'deg', description: 'right ascension as given in the input' },
+  { name: 'dec', unit: 'deg', description: 'declination as given in the input' },
+  { name: 'teff_k', unit: 'K', description: 'fitted blackbody (colour) temperature', digits: 6 },
+  { name: 'teff_err_k', unit: 'K', description: 'reported 1σ error: formal × max(1, √χ²_ν), plus the model-error term when switched on', digits: 3 },
+  { name: 'teff_err_formal_k', unit: 'K', description: 'formal 1σ error from the covariance', digits: 3 },
+  { name: 'teff_lower_k', unit: 'K', description: 'lower bound on the temperature (one-sided 95 %), set only when no value can be given', digits: 5 },
+  { name: 'theta_mas', unit: 'mas', description: 'angular diameter θ = 2√s', digits: 6 },
+  { name: 'theta_err_mas', unit: 'mas', description: '1σ error of θ', digits: 3 },
+  { name: 'radius_rsun', unit: 'R_sun', description: 'radius R = 107.516 θ/ϖ (IAU 2015 B3, IAU 2012 au)', digits: 5 },
+  { name: 'radius_err_rsun', unit: 'R_sun', description: '1σ error of R, parallax error included', digits: 3 },
+  { name: 'lum_lsun', unit: 'L_sun', description: 'luminosity (R/R☉)² (T/5772 K)⁴', digits: 5 },
+  { name: 'lum_err_lsun', unit: 'L_sun', description: '1σ error of L, T–s covariance and parallax error included', digits: 3 },
+  { name: 'fbol_cgs', unit: 'erg s-1 cm-2', description: 'bolometric flux at Earth s σT⁴', digits: 6 },
+  { name: 'fbol_err_cgs', unit: 'erg s-1 cm-2', description: '1σ error of F_bol, T–s covariance included', digits: 3 },
+  { name: 'av', unit: 'mag', description: 'A_V used (given, default or fitted)', digits: 4 },
+  { name: 'av_err', unit: 'mag', description: '1σ error of A_V when fitted', digits: 3 },
+  { name: 'chi2_red', description: 'reduced χ² of the fit', digits: 4 },
+  { name: 'n_bands', description: 'number of detections in the fit' },
+  { name: 'bands_used', description: 'keys of the bands in the fit, space-separated' },
+  { name: 'ir_excess_sigma', description: 'largest excess of a band beyond ~5 µm over the curve, in σ', digits: 3 },
+  { name: 'flags', description: 'quality flags, space-separated (explained in the header)' },
+];
+
+export const REVIEW_STATUS_COLUMN: CatalogueColumn = { name: 'review_status', description: 'review decision: accepted, flagged or unreviewed' };
+
+export type CatalogueValue = string | number | null;
+export type CatalogueRow = Record<string, CatalogueValue>;
+
+export interface CatalogueStar {
+  id: string;
+  raDeg?: number | null;
+  decDeg?: number | null;
+  result: FitResult | FitFailure;
+  reviewStatus?: string;
+}
+
+/** One catalogue row; failed fits keep id, position, the band count and their reason as a flag. */
+export function catalogueRow(star: CatalogueStar): CatalogueRow {
+  const r = star.result;
+  // One literal with every column, so all rows share one object shape (fast for 10⁵–10⁶ rows).
+  const row: CatalogueRow = r.ok
+    ? {
+        id: star.id,
+        ra: star.raDeg ?? null,
+        dec: star.decDeg ?? null,
+        teff_k: r.teffK,
+        teff_err_k: r.teffErrK,
+        teff_err_formal_k: r.teffErrFormalK,
+        teff_lower_k: r.teffLowerK,
+        theta_mas: r.thetaMas,
+        theta_err_mas: r.thetaErrMas,
+        radius_rsun: r.radiusRsun,
+        radius_err_rsun: r.radiusErrRsun,
+        lum_lsun: r.lumLsun,
+        lum_err_lsun: r.lumErrLsun,
+        fbol_cgs: r.fbolCgs,
+        fbol_err_cgs: r.fbolErrCgs,
+        av: r.avMag,
+        av_err: r.avFitted ? r.avErrMag : null,
+        chi2_red: r.chi2Red,
+        n_bands: r.nBands,
+        bands_used: r.bandsUsed.join(' '),
+        ir_excess_sigma: r.irExcessSigma,
+        flags: r.flags.join(' '),
+      }
+    : {
+        id: star.id,
+        ra: star.raDeg ?? null,
+        dec: star.decDeg ?? null,
+        teff_k: null,
+        teff_err_k: null,
+        teff_err_formal_k: null,
+        teff_lower_k: null,
+        theta_mas: null,
+        theta_err_mas: null,
+        radius_rsun: null,
+        radius_err_rsun: null,
+        lum_lsun: null,
+        lum_err_lsun: null,
+        fbol_cgs: null,
+        fbol_err_cgs: null,
+        av: null,
+        av_err: null,
+        chi2_red: null,
+        n_bands: 0,
+        bands_used: '',
+        ir_excess_sigma: null,
+        flags: r.reason,
+      };
+  if (star.reviewStatus !== undefined) row.review_status = star.reviewStatus;
+  return row;
+}
+
+const POW10 = Array.from({ length: 23 }, (_, i) => Number(`1e${i}`));
+
+/** A value as text: rounded to the column's significant digits, shortest form; null/NaN → ''. */
+export function formatCatalogueValue(v: CatalogueValue | undefined, column?: CatalogueColumn): string {
+  if (v === null || v === undefined) return '';
+  if (typeof v === 'string') return v;
+  if (!Number.isFinite(v)) return '';
+  if (column?.digits === undefined || v === 0) return String(v);
+  // Round to `digits` significant digits: n / 10^k is the double nearest the decimal, so String()
+  // prints at most `digits` digits; much faster than toPrecision for catalogue-sized output.
+  const decimals = column.digits - 1 - Math.floor(Math.log10(Math.abs(v)));
+  if (decimals > 22 || decimals < -22) return String(Number(v.toPrecision(column.digits)));
+  const p = POW10[Math.abs(decimals)];
+  const x = decimals >= 0 ? v * p : v / p;
+  // Near a tie the scaled product's own rounding may decide; toPrecision rounds the exact value.
+  if (Math.abs(Math.abs(x - Math.trunc(x)) - 0.5) < 1e-6) return String(Number(v.toPrecision(column.digits)));
+  return String(decimals >= 0 ? Math.round(x) / p : Math.round(x) * p);
+}
+
+/** RFC 4180: quote fields holding the delimiter, a quote, a line break or edge blanks. */
+export function csvField(text: string, delimiter = ','): string {
+  if (text.includes(delimiter) || text.includes('"') || text.includes('\n') || text.includes('\r') || text.startsWith(' ') || text.endsWith(' ') || text.startsWith('#')) {
+    return `"${text.replace(/"/g, '""')}"`;
+  }
+  return text;
+}
+
+export function catalogueColumns(withReview = false): CatalogueColumn[] {
+  return withReview ? [...CATALOGUE_COLUMNS, REVIEW_STATUS_COLUMN] : [...CATALOGUE_COLUMNS];
+}
+
+export function catalogueCsvHeader(columns: readonly CatalogueColumn[] = CATALOGUE_COLUMNS, delimiter = ','): string {
+  return columns.map((c) => c.name).join(delimiter);
+}
+
+export function catalogueCsvLine(row: CatalogueRow, columns: readonly CatalogueColumn[] = CATALOGUE_COLUMNS, delimiter = ','): string {
+  let s = '';
+  for (let i = 0; i < columns.length; i++) {
+    if (i > 0) s += delimiter;
+    s += csvField(formatCatalogueValue(row[columns[i].name], columns[i]), delimiter);
+  }
+  return s;
+}
+
+export interface Provenance {
+  software: { name: string; version: string };
+  bandLibraryVersion: string;
+  law: string;
+  rv: number;
+  /** Fit options as given to the fit (floor, A_V default or fitted, excluded bands, clipping …). */
+  options: Record<string, unknown>;
+  /** ISO 8601 time the catalogue was made. */
+  createdAt: string;
+  input?: { file: string; sha256: string; format: string; rows: number; stars: number; rejectedRows: number };
+  /** Bands whose curve reaches past the extinction law's range (the law's infrared form is extrapolated there). */
+  extrapolatedBands?: string[];
+  notes?: string[];
+}
+
+/** Constants the numbers depend on (product.md, "The science"). */
+export const PROVENANCE_CONSTANTS =
+  'CODATA 2018 (h, c, k_B exact; σ = 5.670374419e-8 W m-2 K-4); IAU 2015 Resolution B3 nominal solar values (R_sun = 6.957e8 m, L_sun = 3.828e26 W, Teff_sun = 5772 K); au = 1.495978707e11 m (IAU 2012 B2)';
+
+const BLACKBODY_NOTE =
+  'A single blackbody gives a colour temperature: typically within a few per cent of the true Teff for FGK stars, worse for M stars (molecular bands) and hot stars (little leverage on the Rayleigh–Jeans tail, degeneracy with A_V).';
+
+function optionText(v: unknown): string {
+  if (Array.isArray(v)) return v.length ? v.join(' ') : '(none)';
+  if (v === undefined || v === null) return '(none)';
+  if (typeof v === 'object') return JSON.stringify(v);
+  return String(v);
+}
+
+/** Provenance as plain lines (no comment marker): the CSV writes them after '# ', other formats as metadata. */
+export function provenanceLines(p: Provenance, columns: readonly CatalogueColumn[] = CATALOGUE_COLUMNS): string[] {
+  const lines = [
+    `${p.software.name} catalogue, software version ${p.software.version}`,
+    `created: ${p.createdAt}`,
+    `band library version: ${p.bandLibraryVersion}`,
+    `constants: ${PROVENANCE_CONSTANTS}`,
+    `extinction law: ${p.law}, R_V = ${p.rv}${p.extrapolatedBands && p.extrapolatedBands.length ? `; extrapolated past the law's range in bands: ${p.extrapolatedBands.join(' ')}` : ''}`,
+    `options: ${Object.entries(p.options)
+      .map(([k, v]) => `${k} = ${optionText(v)}`)
+      .join('; ')}`,
+  ];
+  if (p.input) {
+    lines.push(`input: ${p.input.file} (${p.input.format}, sha256 ${p.input.sha256}); ${p.input.rows} data rows, ${p.input.stars} stars read, ${p.input.rejectedRows} rows left out for input errors`);
+  }
+  lines.push(`note: ${BLACKBODY_NOTE}`);
+  for (const n of p.notes ?? []) lines.push(`note: ${n}`);
+  lines.push('columns:');
+  for (const c of columns) lines.push(`  ${c.name}${c.unit ? ` [${c.unit}]` : ''}: ${c.description}`);
+  lines.push('flags:');
+  for (const [code, text] of Object.entries(FLAG_EXPLANATIONS)) lines.push(`  ${code}: ${text}`);
+  return lines;
+}
+
+/** The provenance as leading '#' lines of a CSV file, each ending in a newline. */
+export function provenanceCsvHeader(p: Provenance, columns: readonly CatalogueColumn[] = CATALOGUE_COLUMNS): string {
+  return provenanceLines(p, columns)
+    .map((l) => `# ${l}\n`)
+    .join('');
+}
