@@ -1,0 +1,365 @@
+// Batches: a fit run over a campaign's stars (or a chosen few) with fixed options. Starting one
+// writes the batch and one fit-star job per star in a single transaction; workers drain the jobs
+// (workers/README.md); the last job to finish marks the batch finished and e-mails the analyst
+// who started it, once. Callers check who may call (src/lib/guards.ts: analysts start batches,
+// any member reads progress).
+import { and, desc, eq, sql } from 'drizzle-orm';
+import { z } from 'zod';
+import type { AppDatabase, DbOrTx } from '../db/client';
+import { batches, user } from '../db/schema';
+import { STARTER_BAND_KEYS, starterBandLibrary } from '../core/bands';
+import { resolveFitOptions, type FitOptions } from '../core/fit';
+import type { MailMessage } from '../lib/mail';
+import { recordAudit } from './audit';
+import type { Actor, AppServices } from './context';
+import { HttpError } from './errors';
+import { FitStarRunner, fitStarJob } from './fit-job';
+import { appVersion } from './health';
+import { newId } from './ids';
+import { createSqliteQueue, type ClaimedJob, type JobQueue, type SqliteQueueOptions } from './queue';
+import { parseInput } from './validation';
+
+const bandKeys: readonly string[] = STARTER_BAND_KEYS;
+
+/** Fit options as the analyst gives them (API and start form). Every field has a default. */
+export const batchOptionsInput = z.strictObject(
+  {
+    law: z.enum(['f99', 'ccm89', 'od94'], 'law must be one of f99 (Fitzpatrick 1999), ccm89 (Cardelli, Clayton & Mathis 1989) or od94 (O’Donnell 1994).').default('f99'),
+    rv: z
+      .number({ error: 'rv (R_V) must be a number.' })
+      .min(2, 'rv (R_V) must be between 2 and 6.')
+      .max(6, 'rv (R_V) must be between 2 and 6.')
+      .default(3.1),
+    avMode: z.enum(['fixed', 'fitted'], 'avMode must be fixed or fitted.').default('fixed'),
+    avMag: z
+      .number({ error: 'avMag (A_V) must be a number of magnitudes.' })
+      .min(0, 'avMag (A_V) cannot be negative.')
+      .max(20, 'avMag (A_V) can be at most 20 mag.')
+      .default(0),
+    avMaxMag: z
+      .number({ error: 'avMaxMag must be a number of magnitudes.' })
+      .gt(0, 'avMaxMag must be above 0.')
+      .max(20, 'avMaxMag can be at most 20 mag.')
+      .default(10),
+    floorFraction: z
+      .number({ error: 'floorFraction must be a number (0.02 means 2 %).' })
+      .min(0, 'floorFraction cannot be negative (0 means no floor).')
+      .max(0.5, 'floorFraction can be at most 0.5 (50 % of the flux).')
+      .default(0.02),
+    excludeBands: z
+      .array(
+        z.string({ error: 'excludeBands must list band keys.' }).refine((k) => bandKeys.includes(k), {
+          error: (issue) => `excludeBands: "${String(issue.input)}" is not a band key; known keys are ${bandKeys.join(' ')} (case-sensitive).`,
+        }),
+        { error: 'excludeBands must be a list of band keys.' },
+      )
+      .max(bandKeys.length)
+      .default([]),
+    clip: z.boolean({ error: 'clip must be true or false.' }).default(false),
+    includeLongBands: z.boolean({ error: 'includeLongBands must be true or false.' }).default(false),
+  },
+  { error: (issue) => (issue.code === 'unrecognized_keys' ? `options: unknown option ${issue.keys.map((k) => `"${k}"`).join(', ')}.` : 'options must be an object.') },
+);
+export type BatchOptionsInput = z.input<typeof batchOptionsInput>;
+
+export const startBatchInput = z.object({
+  options: batchOptionsInput.default(() => batchOptionsInput.parse({})),
+  /** Star ids as the campaign's tables give them; all stars of the campaign when absent. */
+  starKeys: z.array(z.string({ error: 'starKeys must list star ids.' }), { error: 'starKeys must be a list of star ids.' }).min(1, 'starKeys, when given, needs at least one star id.').optional(),
+});
+
+/** The analyst's options → the fit engine's full options (defaults filled in, as stored with the batch). */
+export function toFitOptions(o: z.output<typeof batchOptionsInput>): FitOptions {
+  return resolveFitOptions({
+    law: o.law,
+    rv: o.rv,
+    avMag: o.avMag,
+    fitAv: o.avMode === 'fitted',
+    avBoundsMag: [0, o.avMaxMag],
+    floorFraction: o.floorFraction,
+    excludeBands: [...new Set(o.excludeBands)],
+    clip: o.clip,
+    includeLongBands: o.includeLongBands,
+  });
+}
+
+const queues = new WeakMap<AppDatabase, JobQueue>();
+
+/**
+ * The queue with the fit-star job kind wired in: a job that dies writes its star's failure result
+ * in the same transaction. Pass options (a clock, backoff) to get a separate instance.
+ */
+export function batchQueue(db: AppDatabase, options?: Omit<SqliteQueueOptions, 'onDead'> & { onDeadBatches?: (batchIds: string[]) => void }): JobQueue {
+  if (!options) {
+    const cached = queues.get(db);
+    if (cached) return cached;
+  }
+  const runner = new FitStarRunner(db);
+  const q = createSqliteQueue(db, {
+    ...options,
+    onDead: (jobs: ClaimedJob[], errorOf) => {
+      runner.writeDead(jobs, errorOf);
+      options?.onDeadBatches?.([...new Set(jobs.map((j) => j.batchId).filter((b): b is string => !!b))]);
+    },
+  });
+  if (!options) queues.set(db, q);
+  return q;
+}
+
+export interface BatchSummary {
+  id: string;
+  campaignId: string;
+  status: string;
+  starCount: number;
+  createdAt: string;
+  finishedAt: string | null;
+  startedBy: { id: string; name: string } | null;
+  options: FitOptions;
+  bandLibraryVersion: string;
+  softwareVersion: string;
+}
+
+export interface BatchProgress extends BatchSummary {
+  /** Stars with a fit. */
+  fitted: number;
+  /** Stars whose fit could not be made (data) or whose job gave up (error); each has a reason. */
+  failed: number;
+  /** Jobs waiting for a worker (retrying ones included). */
+  waiting: number;
+  /** Waiting jobs that failed before and wait for their backoff. */
+  retrying: number;
+  /** Jobs a worker holds right now. */
+  running: number;
+  /** Results per second over the last minute (or since the start, when shorter). */
+  ratePerSecond: number;
+  /** Remaining stars / rate; null while nothing has finished yet. */
+  secondsLeft: number | null;
+}
+
+type BatchRow = typeof batches.$inferSelect;
+
+function summary(row: BatchRow, startedBy: { id: string; name: string } | null): BatchSummary {
+  return {
+    id: row.id,
+    campaignId: row.campaignId,
+    status: row.status,
+    starCount: row.starCount,
+    createdAt: row.createdAt.toISOString(),
+    finishedAt: row.finishedAt ? row.finishedAt.toISOString() : null,
+    startedBy,
+    options: row.options as unknown as FitOptions,
+    bandLibraryVersion: row.bandLibraryVersion,
+    softwareVersion: row.softwareVersion,
+  };
+}
+
+function starterOf(db: DbOrTx, row: BatchRow) {
+  if (!row.startedById) return null;
+  return db.select({ id: user.id, name: user.name }).from(user).where(eq(user.id, row.startedById)).get() ?? null;
+}
+
+export function getBatch(db: DbOrTx, batchId: string): BatchRow | null {
+  return db.select().from(batches).where(eq(batches.id, batchId)).get() ?? null;
+}
+
+/** A batch with its campaign id, or 404 (checked before any role guard so ids of other campaigns are not probed). */
+export function requireBatch(db: DbOrTx, batchId: string): BatchRow {
+  const row = getBatch(db, batchId);
+  if (!row) throw new HttpError('not_found', 'No batch with that id.');
+  return row;
+}
+
+/** Start a batch: the batch row and one job per star, all or nothing. */
+export function startBatch(app: AppServices, actor: Actor, campaignId: string, raw: unknown): BatchSummary {
+  const { db } = app;
+  const input = parseInput(startBatchInput, raw);
+  const options = toFitOptions(input.options);
+  const sqlite = db.$client;
+
+  let starIds: number[];
+  if (input.starKeys) {
+    const keys = [...new Set(input.starKeys)];
+    const found = sqlite
+      .prepare('SELECT id, star_key FROM stars WHERE campaign_id = ? AND star_key IN (SELECT value FROM json_each(?))')
+      .all(campaignId, JSON.stringify(keys)) as { id: number; star_key: string }[];
+    if (found.length !== keys.length) {
+      const known = new Set(found.map((f) => f.star_key));
+      const missing = keys.filter((k) => !known.has(k));
+      throw new HttpError(
+        'validation_failed',
+        `starKeys: ${missing.length} star id${missing.length === 1 ? ' is' : 's are'} not in this campaign: ${missing.slice(0, 5).map((k) => `"${k}"`).join(', ')}${missing.length > 5 ? ' …' : ''}.`,
+        'starKeys',
+      );
+    }
+    starIds = found.map((f) => f.id).sort((a, b) => a - b);
+  } else {
+    starIds = (sqlite.prepare('SELECT id FROM stars WHERE campaign_id = ? ORDER BY id').pluck().all(campaignId) as number[]);
+  }
+  if (starIds.length === 0) {
+    throw new HttpError('validation_failed', 'This campaign has no stars yet: import photometry on the intake page first.', 'starKeys');
+  }
+
+  const id = newId();
+  const queue = batchQueue(db);
+  const bandLibraryVersion = starterBandLibrary().version;
+  const softwareVersion = appVersion();
+  db.transaction(
+    (tx) => {
+      tx.insert(batches)
+        .values({ id, campaignId, startedById: actor.id, options: options as unknown as Record<string, unknown>, bandLibraryVersion, softwareVersion, status: 'queued', starCount: starIds.length })
+        .run();
+      queue.enqueue(starIds.map((starId) => fitStarJob(id, starId)));
+      recordAudit(tx, { actorId: actor.id, action: 'batch.started', campaignId, details: { batchId: id, stars: starIds.length, options } });
+    },
+    { behavior: 'immediate' },
+  );
+  const row = getBatch(db, id)!;
+  return summary(row, { id: actor.id, name: actor.name });
+}
+
+export function listBatches(db: AppDatabase, campaignId: string): BatchProgress[] {
+  const rows = db.select().from(batches).where(eq(batches.campaignId, campaignId)).orderBy(desc(batches.createdAt)).all();
+  return rows.map((r) => progressOf(db, r));
+}
+
+export function batchProgress(db: AppDatabase, batchId: string, now = Date.now()): BatchProgress {
+  return progressOf(db, requireBatch(db, batchId), now);
+}
+
+function progressOf(db: AppDatabase, row: BatchRow, now = Date.now()): BatchProgress {
+  const counts = batchQueue(db).counts(row.id);
+  const byOk = db.$client.prepare('SELECT ok, count(*) AS n FROM fit_results WHERE batch_id = ? GROUP BY ok').all(row.id) as { ok: number; n: number }[];
+  const fitted = byOk.find((r) => r.ok === 1)?.n ?? 0;
+  const failed = byOk.find((r) => r.ok === 0)?.n ?? 0;
+  const finished = fitted + failed;
+  const remaining = Math.max(0, row.starCount - finished);
+  let ratePerSecond = 0;
+  if (row.finishedAt) {
+    ratePerSecond = finished / Math.max(0.001, (row.finishedAt.getTime() - row.createdAt.getTime()) / 1000);
+  } else {
+    const windowS = Math.min(60, Math.max(0.001, (now - row.createdAt.getTime()) / 1000));
+    ratePerSecond = counts.finishedLastMinute / windowS;
+  }
+  return {
+    ...summary(row, starterOf(db, row)),
+    fitted,
+    failed,
+    waiting: counts.pending,
+    retrying: counts.retrying,
+    running: counts.leased,
+    ratePerSecond,
+    secondsLeft: remaining === 0 ? 0 : ratePerSecond > 0 ? remaining / ratePerSecond : null,
+  };
+}
+
+export interface BatchFailure {
+  starId: number;
+  starKey: string;
+  reason: string;
+  /** fit: the data did not allow a fit; job: the job gave up after its attempts. */
+  kind: 'fit' | 'job';
+}
+
+export interface RetryingJob {
+  starKey: string;
+  attempts: number;
+  maxAttempts: number;
+  lastError: string | null;
+  nextTryAt: string;
+}
+
+export function batchFailures(db: AppDatabase, batchId: string, page: { limit?: number; offset?: number } = {}): { total: number; failures: BatchFailure[]; retrying: RetryingJob[] } {
+  requireBatch(db, batchId);
+  const limit = Math.min(500, Math.max(1, page.limit ?? 100));
+  const offset = Math.max(0, page.offset ?? 0);
+  const sqlite = db.$client;
+  const total = (sqlite.prepare('SELECT count(*) FROM fit_results WHERE batch_id = ? AND ok = 0').pluck().get(batchId) as number) ?? 0;
+  const failures = (
+    sqlite
+      .prepare(
+        `SELECT r.star_id AS starId, s.star_key AS starKey, r.failure_reason AS reason, r.flags AS flags
+         FROM fit_results r JOIN stars s ON s.id = r.star_id
+         WHERE r.batch_id = ? AND r.ok = 0 ORDER BY s.star_key LIMIT ? OFFSET ?`,
+      )
+      .all(batchId, limit, offset) as { starId: number; starKey: string; reason: string | null; flags: string }[]
+  ).map((f) => ({ starId: f.starId, starKey: f.starKey, reason: f.reason ?? 'no reason recorded', kind: f.flags === '' ? ('job' as const) : ('fit' as const) }));
+  const retrying = (
+    sqlite
+      .prepare(
+        `SELECT s.star_key AS starKey, j.attempts, j.max_attempts AS maxAttempts, j.last_error AS lastError, j.run_after AS runAfter
+         FROM jobs j JOIN stars s ON s.id = json_extract(j.payload, '$.starId')
+         WHERE j.batch_id = ? AND j.status = 'pending' AND j.attempts > 0 ORDER BY j.run_after LIMIT 50`,
+      )
+      .all(batchId) as { starKey: string; attempts: number; maxAttempts: number; lastError: string | null; runAfter: number }[]
+  ).map((r) => ({ starKey: r.starKey, attempts: r.attempts, maxAttempts: r.maxAttempts, lastError: r.lastError, nextTryAt: new Date(r.runAfter).toISOString() }));
+  return { total, failures, retrying };
+}
+
+export function batchFinishedMail(input: { to: string; name: string; campaignName: string; batchId: string; link: string; fitted: number; failed: number; starCount: number }): MailMessage {
+  const { fitted, failed } = input;
+  const text = [
+    `Hello ${input.name},`,
+    '',
+    `The batch ${input.batchId} you started in "${input.campaignName}" has finished: ${fitted} of ${input.starCount} stars fitted, ${failed} could not be fitted.`,
+    '',
+    failed > 0 ? `The reasons for each star that could not be fitted are listed on the batch page:` : 'The batch page:',
+    input.link,
+  ].join('\n');
+  const esc = (s: string) => s.replace(/[&<>"']/g, (c) => ({ '&': '&amp;', '<': '&lt;', '>': '&gt;', '"': '&quot;', "'": '&#39;' })[c]!);
+  const html = `<p>Hello ${esc(input.name)},</p>
+<p>The batch ${esc(input.batchId)} you started in <strong>${esc(input.campaignName)}</strong> has finished: ${fitted} of ${input.starCount} stars fitted, ${failed} could not be fitted.</p>
+<p><a href="${esc(input.link)}">Open the batch page</a>${failed > 0 ? ' for the reason behind each star that could not be fitted' : ''}.</p>`;
+  return { kind: 'notice', to: input.to, subject: `Batch finished in "${input.campaignName}": ${fitted} fitted, ${failed} not fitted`, text, html };
+}
+
+/**
+ * When no job of the batch is waiting or running, mark it finished and e-mail the analyst who
+ * started it. Safe to call from every worker after every chunk: the UPDATE … WHERE notified_at IS
+ * NULL lets exactly one caller win, and the e-mail is recorded in that same transaction.
+ */
+export async function finishBatchIfDone(app: AppServices, batchId: string): Promise<boolean> {
+  const { db, mailer } = app;
+  const sqlite = db.$client;
+  const open = sqlite.prepare("SELECT 1 FROM jobs WHERE batch_id = ? AND status IN ('pending', 'leased') LIMIT 1").get(batchId);
+  if (open) return false;
+  const row = getBatch(db, batchId);
+  if (!row || row.notifiedAt || row.status === 'cancelled') return false;
+  const progress = progressOf(db, row);
+  const starter = row.startedById ? db.select({ name: user.name, email: user.email }).from(user).where(eq(user.id, row.startedById)).get() : undefined;
+  const campaign = sqlite.prepare('SELECT name FROM campaigns WHERE id = ?').get(row.campaignId) as { name: string } | undefined;
+  const mail = starter
+    ? await mailer.prepare(
+        batchFinishedMail({
+          to: starter.email,
+          name: starter.name,
+          campaignName: campaign?.name ?? row.campaignId,
+          batchId,
+          link: `${app.env.baseUrl}/campaigns/${row.campaignId}/batches/${batchId}`,
+          fitted: progress.fitted,
+          failed: progress.failed,
+          starCount: row.starCount,
+        }),
+      )
+    : null;
+  const at = new Date();
+  const outcome = db.transaction(
+    (tx) => {
+      const won = tx
+        .update(batches)
+        .set({ status: 'finished', finishedAt: at, notifiedAt: at })
+        .where(and(eq(batches.id, batchId), sql`${batches.notifiedAt} IS NULL`))
+        .run();
+      if (won.changes !== 1) return { won: false, outboxId: null };
+      recordAudit(tx, { actorId: null, action: 'batch.finished', campaignId: row.campaignId, details: { batchId, fitted: progress.fitted, failed: progress.failed } });
+      return { won: true, outboxId: mail ? mailer.record(tx, mail) : null };
+    },
+    { behavior: 'immediate' },
+  );
+  if (outcome.outboxId !== null) await mailer.dispatch(db, outcome.outboxId);
+  return outcome.won;
+}
+
+/** The campaign has stars to fit (for the start form). */
+export function campaignStarCount(db: AppDatabase, campaignId: string): number {
+  return db.$client.prepare('SELECT count(*) FROM stars WHERE campaign_id = ?').pluck().get(campaignId) as number;
+}

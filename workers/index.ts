@@ -1,0 +1,89 @@
+// `npm run worker`: one worker process draining the SQLite job queue of the app's database
+// (DATABASE_PATH). Run as many as there are cores to spare; see workers/README.md.
+import os from 'node:os';
+import { parseArgs } from 'node:util';
+import { closeDb } from '../src/db/client';
+import { getApp } from '../src/lib/app';
+import { createWorker } from './runner';
+
+const usage = `Usage: npm run worker -- [options]
+  --id <name>          lease owner name (default: <host>:<pid>)
+  --chunk <n>          jobs claimed at once (default 250)
+  --lease-ms <ms>      lease length; renewed every third of it (default 60000)
+  --idle-ms <ms>       wait between polls of an empty queue (default 500)
+  --backoff-ms <ms>    first retry delay, doubled per attempt (default 1000)
+  --slow-ms <ms>       hold each chunk this long before fitting it (simulates slow jobs)
+  --drain              exit when no job is waiting or running
+  --quiet              no line per chunk`;
+
+function intOption(values: Record<string, unknown>, name: string, min: number): number | undefined {
+  const raw = values[name];
+  if (raw === undefined) return undefined;
+  const n = Number(raw);
+  if (!Number.isInteger(n) || n < min) {
+    console.error(`--${name} must be a whole number ≥ ${min}, got "${String(raw)}".\n${usage}`);
+    process.exit(2);
+  }
+  return n;
+}
+
+let parsed;
+try {
+  parsed = parseArgs({
+    options: {
+      id: { type: 'string' },
+      chunk: { type: 'string' },
+      'lease-ms': { type: 'string' },
+      'idle-ms': { type: 'string' },
+      'backoff-ms': { type: 'string' },
+      'slow-ms': { type: 'string' },
+      drain: { type: 'boolean' },
+      quiet: { type: 'boolean' },
+      help: { type: 'boolean', short: 'h' },
+    },
+  });
+} catch (err) {
+  console.error(`${err instanceof Error ? err.message : String(err)}\n${usage}`);
+  process.exit(2);
+}
+const { values } = parsed;
+if (values.help) {
+  console.log(usage);
+  process.exit(0);
+}
+
+const owner = values.id ?? `${os.hostname()}:${process.pid}`;
+const app = getApp();
+const worker = createWorker(app, {
+  owner,
+  chunkSize: intOption(values, 'chunk', 1),
+  leaseMs: intOption(values, 'lease-ms', 100),
+  idleMs: intOption(values, 'idle-ms', 10),
+  backoffBaseMs: intOption(values, 'backoff-ms', 0),
+  slowMs: intOption(values, 'slow-ms', 0),
+  drain: values.drain ?? false,
+  log: values.quiet ? undefined : (line) => console.log(line),
+});
+
+for (const signal of ['SIGTERM', 'SIGINT'] as const) {
+  process.on(signal, () => {
+    if (worker.stopping) return;
+    console.log(`[${owner}] ${signal}: finishing the chunk in hand, then stopping`);
+    worker.stop();
+  });
+}
+
+console.log(`[${owner}] worker started on ${app.env.databasePath}`);
+worker
+  .run()
+  .then(() => {
+    const t = worker.totals;
+    console.log(`[${owner}] stopped: ${t.claimed} job(s) claimed, ${t.fitted} fitted, ${t.notFitted} not fitted, ${t.retried} retried, ${t.dead} gave up`);
+    closeDb();
+    process.exit(0);
+  })
+  .catch((err) => {
+    console.error(`[${owner}] stopped by an error:`, err);
+    closeDb();
+    process.exit(1);
+  });
