@@ -16,8 +16,8 @@ import {
   type Provenance,
 } from '../core/catalogue';
 import { extrapolatedBandKeys } from '../core/extinction';
+import { measurementToBandFlux } from '../core/photometry';
 import { fitStar, prepareFitModel, type FitFailure, type FitResult } from '../core/fit';
-import { BandConverter } from './convert';
 import { closestBandKey, formatProblem, readPhotometryFile, type StarInput, type TableProblem } from '../core/tables';
 import type { BandFlux } from '../core/types';
 import { UsageError, type FitCommandArgs } from './args';
@@ -94,7 +94,7 @@ interface Converted {
 }
 
 /** Measurements → band fluxes; a measurement the band library cannot convert is an input error of that star. */
-function convertStar(star: StarInput, file: string, excluded: Set<string>, converter: BandConverter): Converted {
+function convertStar(star: StarInput, file: string, excluded: Set<string>): Converted {
   const library = starterBandLibrary();
   const fluxes: BandFlux[] = [];
   const problems: TableProblem[] = [];
@@ -102,7 +102,7 @@ function convertStar(star: StarInput, file: string, excluded: Set<string>, conve
     if (excluded.has(m.bandKey)) continue;
     const band = getBand(library, m.bandKey)!;
     try {
-      fluxes.push(converter.convert(band, m));
+      fluxes.push(measurementToBandFlux(band, m));
     } catch (e) {
       problems.push({ file, row: star.row, line: star.line, severity: 'error', message: `data row ${star.row} (star ${star.id}): ${(e as Error).message}; the star was left out (or leave the band out with --exclude ${m.bandKey})` });
     }
@@ -142,14 +142,13 @@ export async function runFit(args: FitCommandArgs, io: Io): Promise<number> {
     includeLongBands: args.includeLongBands,
   });
   const excluded = new Set(args.excludeBands);
-  const converter = new BandConverter();
   const progress = new Progress(io.stderr, table.stars.length, !args.quiet && io.stderr.isTTY === true && table.stars.length >= 2000);
   const rows: CatalogueRow[] = [];
   let starsLeftOut = 0;
   const failures: Record<string, number> = {};
   for (let i = 0; i < table.stars.length; i++) {
     const star = table.stars[i];
-    const { fluxes, problems: conv } = convertStar(star, args.input, excluded, converter);
+    const { fluxes, problems: conv } = convertStar(star, args.input, excluded);
     if (conv.length > 0) {
       problems.push(...conv);
       starsLeftOut++;

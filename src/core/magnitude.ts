@@ -25,8 +25,20 @@ function requireZeroPoint(band: Band) {
   return band.zeroPoint;
 }
 
+// A band object's zero-point never changes in place (a change makes a new band-library version),
+// so the magnitude-0 flux is computed once per band object.
+const zeroMagnitudeCache = new WeakMap<Band, number>();
+
 /** Band-mean ⟨F_λ⟩ (erg s⁻¹ cm⁻² Å⁻¹) of a magnitude 0 object in this band, after the catalogue offset. */
 export function zeroMagnitudeFlambdaCgs(band: Band): number {
+  const cached = zeroMagnitudeCache.get(band);
+  if (cached !== undefined) return cached;
+  const value = computeZeroMagnitudeFlambdaCgs(band);
+  zeroMagnitudeCache.set(band, value);
+  return value;
+}
+
+function computeZeroMagnitudeFlambdaCgs(band: Band): number {
   const zp = requireZeroPoint(band);
   const offset = zp.catalogueOffsetMag ?? 0;
   const offsetFactor = Math.pow(10, -0.4 * offset);

@@ -27,6 +27,8 @@ const GL_T = [0.5 - Math.sqrt(0.15), 0.5, 0.5 + Math.sqrt(0.15)];
 const GL_W = [5 / 18, 8 / 18, 5 / 18];
 
 const quadratureCache = new WeakMap<object, BandQuadrature>();
+// Pivots are asked for once per measurement when converting catalogues: keep them per curve too.
+const pivotCache = new WeakMap<object, number>();
 
 function describe(curve: PassbandCurve): string {
   return curve.key ? `band ${curve.key}` : 'passband curve';
@@ -92,13 +94,17 @@ export function bandQuadrature(curve: PassbandCurve): BandQuadrature {
 
 /** Pivot wavelength in Å with the band's own convention. */
 export function pivotWavelength(curve: PassbandCurve): number {
+  const cached = pivotCache.get(curve);
+  if (cached !== undefined) return cached;
   const q = bandQuadrature(curve);
   let inv2 = 0;
   for (let i = 0; i < q.weight.length; i++) {
     const l = q.wavelengthAngstrom[i];
     inv2 += q.weight[i] / (l * l);
   }
-  return Math.sqrt(q.weightSum / inv2);
+  const pivot = Math.sqrt(q.weightSum / inv2);
+  pivotCache.set(curve, pivot);
+  return pivot;
 }
 
 /** Band mean ⟨F_λ⟩ of a spectrum F_λ(λ in Å), in the spectrum's own F_λ unit. */
