@@ -5,3 +5,4 @@ export * from './mail';
 export * from './audit';
 export * from './photometry';
 export * from './batches';
+export * from './review';

@@ -1,0 +1,83 @@
+// Review decisions on fits, personal API tokens and catalogue releases.
+import { sql } from 'drizzle-orm';
+import { index, integer, sqliteTable, text } from 'drizzle-orm/sqlite-core';
+import { user } from './auth';
+import { campaigns } from './campaigns';
+import { fitResults } from './batches';
+
+const now = sql`(cast(unixepoch('subsecond') * 1000 as integer))`;
+
+export const REVIEW_DECISIONS = ['accepted', 'flagged'] as const;
+export type ReviewDecisionKind = (typeof REVIEW_DECISIONS)[number];
+
+/**
+ * Every decision a reviewer makes, kept forever. A later decision on the same fit, or a re-fit of
+ * the star, sets supersededAt on the earlier one instead of deleting it.
+ */
+export const reviewDecisions = sqliteTable(
+  'review_decisions',
+  {
+    id: integer('id').primaryKey({ autoIncrement: true }),
+    fitResultId: integer('fit_result_id')
+      .notNull()
+      .references(() => fitResults.id, { onDelete: 'cascade' }),
+    campaignId: text('campaign_id')
+      .notNull()
+      .references(() => campaigns.id, { onDelete: 'cascade' }),
+    reviewerId: text('reviewer_id').references(() => user.id, { onDelete: 'set null' }),
+    decision: text('decision', { enum: REVIEW_DECISIONS }).notNull(),
+    // One of our own reason codes when flagged (see src/lib/vocabulary or the review module).
+    reason: text('reason'),
+    comment: text('comment').notNull().default(''),
+    // Set when the decision was made in a bulk action, with the filter it used.
+    bulkFilter: text('bulk_filter', { mode: 'json' }).$type<Record<string, unknown>>(),
+    createdAt: integer('created_at', { mode: 'timestamp_ms' }).notNull().default(now),
+    supersededAt: integer('superseded_at', { mode: 'timestamp_ms' }),
+    supersededReason: text('superseded_reason'),
+  },
+  (t) => [
+    index('review_decisions_fit_idx').on(t.fitResultId, t.createdAt),
+    index('review_decisions_campaign_idx').on(t.campaignId, t.createdAt),
+  ],
+);
+
+/** Personal API tokens: only a SHA-256 of the secret is stored; the secret is shown once. */
+export const apiTokens = sqliteTable(
+  'api_tokens',
+  {
+    id: text('id').primaryKey(),
+    userId: text('user_id')
+      .notNull()
+      .references(() => user.id, { onDelete: 'cascade' }),
+    name: text('name').notNull(),
+    tokenHash: text('token_hash').notNull().unique(),
+    // First characters of the secret, to tell tokens apart in the list.
+    prefix: text('prefix').notNull(),
+    createdAt: integer('created_at', { mode: 'timestamp_ms' }).notNull().default(now),
+    lastUsedAt: integer('last_used_at', { mode: 'timestamp_ms' }),
+    expiresAt: integer('expires_at', { mode: 'timestamp_ms' }),
+    revokedAt: integer('revoked_at', { mode: 'timestamp_ms' }),
+  },
+  (t) => [index('api_tokens_user_idx').on(t.userId)],
+);
+
+/** A catalogue release: the moment collaborators are told the accepted catalogue is ready. */
+export const catalogueReleases = sqliteTable(
+  'catalogue_releases',
+  {
+    id: text('id').primaryKey(),
+    campaignId: text('campaign_id')
+      .notNull()
+      .references(() => campaigns.id, { onDelete: 'cascade' }),
+    title: text('title').notNull(),
+    note: text('note').notNull().default(''),
+    // Filter that defines the released rows (default: accepted fits, newest per star).
+    filter: text('filter', { mode: 'json' }).$type<Record<string, unknown>>().notNull(),
+    rowCount: integer('row_count').notNull(),
+    bandLibraryVersion: text('band_library_version').notNull(),
+    softwareVersion: text('software_version').notNull(),
+    releasedById: text('released_by_id').references(() => user.id, { onDelete: 'set null' }),
+    createdAt: integer('created_at', { mode: 'timestamp_ms' }).notNull().default(now),
+  },
+  (t) => [index('catalogue_releases_campaign_idx').on(t.campaignId, t.createdAt)],
+);
