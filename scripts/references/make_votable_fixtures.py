@@ -2,7 +2,8 @@
 """VOTable fixtures written by astropy (Debian python3-astropy) for Starkiln's VOTable reader and intake.
 
 Run with Debian's interpreter: /usr/bin/python3 scripts/references/make_votable_fixtures.py
-Writes fixtures/votable/*.vot and, beside each, astropy's own reading of it (*.astropy.json:
+Writes fixtures/votable/*.vot (and fixtures/intake/wide_table.fits, the same invented stars as a FITS
+binary table, for the intake tests) and, beside each, astropy's own reading of it (*.astropy.json:
 column names, units, UCDs and every cell as text, null where astropy masks it). All star names and
 numbers are invented (the "Ember Reach" survey of the demo scenario), not measurements.
 """
@@ -80,6 +81,9 @@ def main():
     vot2 = from_table(t)
     vot2.to_xml(p2, tabledata_format='binary2')
     dump(p2)
+    intake = os.path.join(ROOT, 'fixtures', 'intake')
+    os.makedirs(intake, exist_ok=True)
+    t.write(os.path.join(intake, 'wide_table.fits'), format='fits', overwrite=True)
     # XML that is well-formed but not a VOTable.
     with open(os.path.join(OUT, 'not_a_votable.xml'), 'w') as fh:
         fh.write('<?xml version="1.0" encoding="UTF-8"?>\n<catalogue>\n  <star id="ember-11"><V>8.91</V></star>\n</catalogue>\n')

@@ -1,0 +1,204 @@
+// What an uploaded file is, decided from its bytes (never from its name or the browser's type),
+// and its table in the one shape the column mapping reads (core/mapping ColumnTable).
+import type { ColumnTable, TableCell } from '../../core/mapping';
+import { DelimitedError, decodeText, parseDelimited } from '../../core/tables/delimited';
+import { FitsError, readFits, readFitsImageHeader, readFitsTable, type FitsCell } from '../../core/tables/fits';
+
+export const DETECTED_FORMATS = ['csv', 'tsv', 'votable', 'fits-table', 'fits-image'] as const;
+export type DetectedFormat = (typeof DETECTED_FORMATS)[number];
+
+export const FORMAT_LABELS: Record<DetectedFormat, string> = {
+  csv: 'CSV text',
+  tsv: 'tab-separated text',
+  votable: 'VOTable',
+  'fits-table': 'FITS binary table',
+  'fits-image': 'FITS image',
+};
+
+/** Per-observation metadata of a FITS image (product.md, "Interfaces"). */
+export interface ImageObservation {
+  object?: string;
+  filter?: string;
+  exptimeS?: number;
+  dateObs?: string;
+  airmass?: number;
+  raDeg?: number;
+  decDeg?: number;
+  zeroPointMag?: number;
+  zeroPointErrMag?: number;
+  zeroPointKeyword?: string;
+  /** A magnitude measured on the image when the header carries one (MAG/MAGERR …). */
+  mag?: number;
+  magErr?: number;
+  magKeyword?: string;
+}
+
+export type ReadUpload =
+  | { format: Exclude<DetectedFormat, 'fits-image'>; table: ColumnTable }
+  | { format: 'fits-image'; observation: ImageObservation; warnings: string[] };
+
+/** The file cannot be read at all; `message` says why in plain words. */
+export class UnreadableFile extends Error {
+  constructor(message: string) {
+    super(message);
+    this.name = 'UnreadableFile';
+  }
+}
+
+function startsWith(bytes: Uint8Array, text: string, at = 0): boolean {
+  if (bytes.length < at + text.length) return false;
+  for (let i = 0; i < text.length; i++) if (bytes[at + i] !== text.charCodeAt(i)) return false;
+  return true;
+}
+
+/** Offset of the first non-blank byte after an optional UTF-8 byte-order mark. */
+function firstContent(bytes: Uint8Array): number {
+  let i = startsWith(bytes, '\ufeff'.length === 1 ? '\u00ef\u00bb\u00bf' : '') ? 3 : 0;
+  while (i < bytes.length && (bytes[i] === 0x20 || bytes[i] === 0x09 || bytes[i] === 0x0a || bytes[i] === 0x0d)) i++;
+  return i;
+}
+
+/** Magic bytes first: 'SIMPLE  =' is FITS (FITS Standard 4.0, section 4.4.1.1), '<' starts XML. */
+export function sniffFormat(bytes: Uint8Array): 'fits' | 'xml' | 'text' | 'empty' {
+  if (bytes.length === 0) return 'empty';
+  if (startsWith(bytes, 'SIMPLE  =')) return 'fits';
+  const i = firstContent(bytes);
+  if (i >= bytes.length) return 'empty';
+  if (bytes[i] === 0x3c /* < */) return 'xml';
+  return 'text';
+}
+
+function fitsCell(v: FitsCell): TableCell {
+  if (v === null || typeof v === 'string' || typeof v === 'number' || typeof v === 'boolean') return v;
+  if (typeof v === 'bigint') return Number(v);
+  // Arrays and complex numbers are not photometry; the mapping reports them as non-numbers.
+  return Array.isArray(v) ? `[${v.length} values]` : `(${v.re}, ${v.im})`;
+}
+
+const MAG_KEYWORDS: [string, string[]][] = [
+  ['MAG', ['MAGERR', 'MAG_ERR', 'EMAG']],
+  ['OBJMAG', ['OBJMAGER', 'OBJMAGERR']],
+  ['MAGNITUD', ['MAGERR']],
+];
+
+function readFitsUpload(bytes: Uint8Array, file: string): ReadUpload {
+  let hdus;
+  try {
+    hdus = readFits(bytes, { source: file }).hdus;
+  } catch (err) {
+    if (!(err instanceof FitsError)) throw err;
+    // A header-only image (data cut off) still gives its observation metadata.
+    try {
+      const meta = readFitsImageHeader(bytes, { source: file });
+      if (meta.filter || meta.object) return imageUpload(meta);
+    } catch {
+      // fall through to the table error, which says what is wrong
+    }
+    throw new UnreadableFile(`${file}: not a readable FITS file: ${stripSource(err.message, file)}`);
+  }
+  if (hdus.some((h) => h.kind === 'bintable')) {
+    try {
+      const t = readFitsTable(bytes, { source: file });
+      const columns = t.columns.map((c) => c.name);
+      const data = columns.map((name) => t.getColumn(name));
+      const rows: TableCell[][] = [];
+      for (let r = 0; r < t.rowCount; r++) rows.push(data.map((col) => fitsCell(col[r])));
+      return { format: 'fits-table', table: { file, columns, units: t.columns.map((c) => c.unit), rows } };
+    } catch (err) {
+      if (err instanceof FitsError) throw new UnreadableFile(`${file}: the FITS table cannot be read: ${stripSource(err.message, file)}`);
+      throw err;
+    }
+  }
+  const image = hdus.find((h) => (h.kind === 'primary' || h.kind === 'image') && h.dataBytes > 0) ?? hdus[0];
+  if (!image || hdus.every((h) => h.kind !== 'primary' && h.kind !== 'image')) {
+    throw new UnreadableFile(`${file}: the FITS file holds no binary table and no image (${hdus.map((h) => h.kind).join(', ')})`);
+  }
+  try {
+    return imageUpload(readFitsImageHeader(bytes, { source: file }));
+  } catch (err) {
+    if (err instanceof FitsError) throw new UnreadableFile(`${file}: the FITS image header cannot be read: ${stripSource(err.message, file)}`);
+    throw err;
+  }
+}
+
+function imageUpload(meta: ReturnType<typeof readFitsImageHeader>): ReadUpload {
+  const observation: ImageObservation = {
+    object: meta.object,
+    filter: meta.filter,
+    exptimeS: meta.exptimeS,
+    dateObs: meta.dateObs,
+    airmass: meta.airmass,
+    raDeg: meta.raDeg,
+    decDeg: meta.decDeg,
+    zeroPointMag: meta.zeroPointMag,
+    zeroPointErrMag: meta.zeroPointErrMag,
+    zeroPointKeyword: meta.zeroPointKeyword,
+  };
+  for (const [k, errKeys] of MAG_KEYWORDS) {
+    const v = meta.header.get(k) ?? meta.primaryHeader.get(k);
+    if (typeof v !== 'number' || !Number.isFinite(v)) continue;
+    observation.mag = v;
+    observation.magKeyword = k;
+    for (const ek of errKeys) {
+      const e = meta.header.get(ek) ?? meta.primaryHeader.get(ek);
+      if (typeof e === 'number' && Number.isFinite(e)) {
+        observation.magErr = e;
+        break;
+      }
+    }
+    break;
+  }
+  for (const k of Object.keys(observation) as (keyof ImageObservation)[]) if (observation[k] === undefined) delete observation[k];
+  return { format: 'fits-image', observation, warnings: meta.warnings };
+}
+
+function stripSource(message: string, file: string): string {
+  return message.startsWith(`${file}: `) ? message.slice(file.length + 2) : message;
+}
+
+function readTextUpload(bytes: Uint8Array, file: string): ReadUpload {
+  let text: string;
+  try {
+    text = decodeText(bytes, file);
+  } catch (err) {
+    if (err instanceof DelimitedError) {
+      throw new UnreadableFile(`${file}: ${stripSource(err.message, file)}. Upload a CSV or TSV text file, a VOTable or a FITS table.`);
+    }
+    throw err;
+  }
+  let parsed;
+  try {
+    parsed = parseDelimited(text, { source: file });
+  } catch (err) {
+    if (err instanceof DelimitedError) throw new UnreadableFile(`${file}: ${stripSource(err.message, file)}`);
+    throw err;
+  }
+  if (parsed.header.length === 0 || parsed.header.every((h) => h === '')) throw new UnreadableFile(`${file}: the file has no header line with column names`);
+  const seen = new Map<string, number>();
+  parsed.header.forEach((h, i) => {
+    if (h === '') throw new UnreadableFile(`${file}, line ${parsed.headerLine}, column ${i + 1}: the header has an empty column name`);
+    if (seen.has(h)) throw new UnreadableFile(`${file}, line ${parsed.headerLine}: the column name "${h}" appears twice (columns ${seen.get(h)! + 1} and ${i + 1})`);
+    seen.set(h, i);
+  });
+  if (parsed.rows.length === 0) throw new UnreadableFile(`${file}: the file has a header but no data rows`);
+  return {
+    format: parsed.delimiter === '\t' ? 'tsv' : 'csv',
+    table: { file, columns: parsed.header, rows: parsed.rows, lines: parsed.lines },
+  };
+}
+
+export type XmlTableReader = (bytes: Uint8Array, file: string) => ColumnTable;
+
+/** Bytes → format and table. Throws UnreadableFile with a message naming the file. */
+export function readUpload(bytes: Uint8Array, file: string, readVoTable: XmlTableReader): ReadUpload {
+  switch (sniffFormat(bytes)) {
+    case 'empty':
+      throw new UnreadableFile(`${file}: the file is empty`);
+    case 'fits':
+      return readFitsUpload(bytes, file);
+    case 'xml':
+      return { format: 'votable', table: readVoTable(bytes, file) };
+    default:
+      return readTextUpload(bytes, file);
+  }
+}
