@@ -49,6 +49,10 @@ export const OUTLIER_SIGMA = 3;
 export const MAX_CLIPPED = 2;
 /** Newton stops once the next step in ln T is below this (T to 1e-7 relative, far below any error). */
 const NEWTON_TOL = 1e-7;
+/** A_V spacing of the coarse (ln T, A_V) grid when A_V is fitted, mag (LM follows the T–A_V valley). */
+const COARSE_AV_STEP_MAG = 1;
+/** The A_V iteration stops once its step is below this, mag (errors of A_V are ≳ 0.01 mag). */
+const AV_TOL_MAG = 1e-5;
 
 export interface EngineSettings {
   fitAv: boolean;
@@ -257,25 +261,23 @@ export class FitEngine {
     const P0 = this.planes[0], P1 = this.planes[1], P2 = this.planes[2], P3 = this.planes[3];
     const w0 = wA[0], w1 = wA[1], w2 = wA[2], w3 = wA[3];
     const e0 = dwA[0], e1 = dwA[1], e2 = dwA[2], e3 = dwA[3];
+    const L0 = P0.lnPhi, D0 = P0.dLnPhi, L1 = P1.lnPhi, D1 = P1.dLnPhi;
+    const L2 = P2.lnPhi, D2 = P2.dLnPhi, L3 = P3.lnPhi, D3 = P3.dLnPhi;
     for (let k = from; k < to; k++) {
       const o = band[k] * N_T + base;
-      let lv = 0, l1 = 0, l2 = 0, la = 0;
-      for (let q = 0; q < 4; q++) {
-        const P = q === 0 ? P0 : q === 1 ? P1 : q === 2 ? P2 : P3;
-        const wq = q === 0 ? w0 : q === 1 ? w1 : q === 2 ? w2 : w3;
-        const eq = q === 0 ? e0 : q === 1 ? e1 : q === 2 ? e2 : e3;
-        const L = P.lnPhi;
-        const D = P.dLnPhi;
-        const y0 = L[o];
-        const y1 = L[o + 1];
-        const m0 = D[o];
-        const m1 = D[o + 1];
-        const v = h00 * y0 + h10 * m0 + h01 * y1 + h11 * m1;
-        lv += wq * v;
-        la += eq * v;
-        l1 += wq * (g00 * y0 + g10 * m0 + g01 * y1 + g11 * m1);
-        l2 += wq * (q00 * y0 + q10 * m0 + q01 * y1 + q11 * m1);
-      }
+      // The same Hermite basis in every plane: combine the planes' node data first (linear in them).
+      const y0 = w0 * L0[o] + w1 * L1[o] + w2 * L2[o] + w3 * L3[o];
+      const y1 = w0 * L0[o + 1] + w1 * L1[o + 1] + w2 * L2[o + 1] + w3 * L3[o + 1];
+      const m0 = w0 * D0[o] + w1 * D1[o] + w2 * D2[o] + w3 * D3[o];
+      const m1 = w0 * D0[o + 1] + w1 * D1[o + 1] + w2 * D2[o + 1] + w3 * D3[o + 1];
+      const ay0 = e0 * L0[o] + e1 * L1[o] + e2 * L2[o] + e3 * L3[o];
+      const ay1 = e0 * L0[o + 1] + e1 * L1[o + 1] + e2 * L2[o + 1] + e3 * L3[o + 1];
+      const am0 = e0 * D0[o] + e1 * D1[o] + e2 * D2[o] + e3 * D3[o];
+      const am1 = e0 * D0[o + 1] + e1 * D1[o + 1] + e2 * D2[o + 1] + e3 * D3[o + 1];
+      const lv = h00 * y0 + h10 * m0 + h01 * y1 + h11 * m1;
+      const l1 = g00 * y0 + g10 * m0 + g01 * y1 + g11 * m1;
+      const l2 = q00 * y0 + q10 * m0 + q01 * y1 + q11 * m1;
+      const la = h00 * ay0 + h10 * am0 + h01 * ay1 + h11 * am1;
       const p = Math.exp(lv);
       phi[k] = p;
       dphi[k] = p * l1;
@@ -426,39 +428,81 @@ export class FitEngine {
     return best;
   }
 
-  /** Fixed A_V: coarse search then safeguarded Newton on dχ²/du = 0. */
-  private fitFixed(avMag: number): boolean {
-    this.usePlanes(avMag);
-    this.avMag = avMag;
-    // The coarse search reads the nearest plane's node values; off-plane A_V only shifts the start.
-    const coarsePlane = this.singlePlane ? this.planes[0] : this.planes[this.wA[1] >= this.wA[2] ? 1 : 2];
-    const c = this.coarseSearch(coarsePlane);
-    if (this.coarseChi2[c] === Infinity) return false;
-    const uc = LN_T_MIN + c * COARSE_STRIDE * LN_T_STEP;
-    const stride = COARSE_STRIDE * LN_T_STEP;
-    let lo = uc - stride;
+  /** Profile χ² at fine node j (index including ghosts) from node values; limits as in coarseNode. */
+  private fineNode(phiFine: Float64Array, j: number): number {
+    const nDet = this.nDet;
+    const nFit = this.nFit;
+    const band = this.band, wy = this.wyC, w = this.w, y = this.y;
+    let A = 0;
+    let B = 0;
+    for (let k = 0; k < nDet; k++) {
+      const p = phiFine[band[k] * N_T + j];
+      A += wy[k] * p;
+      B += w[k] * p * p;
+    }
+    if (!(A > 0)) return Infinity;
+    let v = this.coarseSyy - (A * A) / B;
+    if (nFit > nDet) {
+      const s = A / B;
+      for (let k = nDet; k < nFit; k++) {
+        const m = s * phiFine[band[k] * N_T + j];
+        if (m > y[k]) v += w[k] * (m - y[k]) * (m - y[k]);
+      }
+    }
+    return v;
+  }
+
+  /**
+   * Walks the fine nodes from the one nearest u downhill (a few steps at most) and returns the vertex of
+   * the parabola through the lowest node and its neighbours.
+   */
+  private fineStart(plane: Plane, u: number): number {
+    const phiFine = plane.phi;
+    let j = Math.round((u - LN_T_MIN) / LN_T_STEP);
+    if (j < 1) j = 1;
+    if (j > N_INTERVALS - 1) j = N_INTERVALS - 1;
+    let fm = this.fineNode(phiFine, GHOST + j - 1);
+    let f0 = this.fineNode(phiFine, GHOST + j);
+    let fp = this.fineNode(phiFine, GHOST + j + 1);
+    for (let steps = 0; steps < COARSE_STRIDE; steps++) {
+      if (fm < f0 && j > 1) {
+        j--;
+        fp = f0;
+        f0 = fm;
+        fm = this.fineNode(phiFine, GHOST + j - 1);
+      } else if (fp < f0 && j < N_INTERVALS - 1) {
+        j++;
+        fm = f0;
+        f0 = fp;
+        fp = this.fineNode(phiFine, GHOST + j + 1);
+      } else break;
+    }
+    const uj = LN_T_MIN + j * LN_T_STEP;
+    const den = fm - 2 * f0 + fp;
+    if (!(den > 0) || !Number.isFinite(den)) return Number.isFinite(f0) ? uj : u;
+    let d = (0.5 * (fm - fp)) / den;
+    if (d > 1) d = 1;
+    else if (d < -1) d = -1;
+    return uj + d * LN_T_STEP;
+  }
+
+  /**
+   * Safeguarded Newton on g = dχ²/du = 0 of the profile at the current planes, from u. Sets this.u,
+   * this.s, this.chi2 and leaves the scratch state of the solution; returns χ².
+   */
+  private newtonU(u0: number, stride: number): number {
+    let u = u0;
+    let lo = u - stride;
     let loSure = false;
     if (lo <= LN_T_MIN) {
       lo = LN_T_MIN;
       loSure = true;
     }
-    let hi = uc + stride;
+    let hi = u + stride;
     let hiSure = false;
     if (hi >= LN_T_MAX) {
       hi = LN_T_MAX;
       hiSure = true;
-    }
-    // Safeguarded Newton on g = dχ²/du: [lo, hi] brackets the minimum once both ends are "sure"
-    // (slope seen pointing inward, or a grid edge); an unsure end is widened by one coarse step when
-    // the iterate reaches it still descending (the coarse search may be slightly off for off-plane A_V).
-    // Start at the vertex of the parabola through the three coarse values around the minimum.
-    let u = uc;
-    if (c > 0 && c < N_COARSE - 1) {
-      const cm = this.coarseChi2[c - 1];
-      const c0 = this.coarseChi2[c];
-      const cp = this.coarseChi2[c + 1];
-      const den = cm - 2 * c0 + cp;
-      if (den > 0 && Number.isFinite(den)) u = uc + 0.5 * ((cm - cp) / den) * stride;
     }
     let chi2 = this.profileAt(u);
     let it = 0;
@@ -496,9 +540,38 @@ export class FitEngine {
       chi2 = this.profileAt(u);
       if (step < NEWTON_TOL || hi - lo < NEWTON_TOL) break;
     }
-    this.iterations = it;
+    this.iterations += it;
     this.u = u;
     this.chi2 = chi2;
+    return chi2;
+  }
+
+  /** Fixed A_V: coarse search then safeguarded Newton on dχ²/du = 0. */
+  private fitFixed(avMag: number): boolean {
+    this.usePlanes(avMag);
+    this.avMag = avMag;
+    // The coarse search reads the nearest plane's node values; off-plane A_V only shifts the start.
+    const coarsePlane = this.singlePlane ? this.planes[0] : this.planes[this.wA[1] >= this.wA[2] ? 1 : 2];
+    const c = this.coarseSearch(coarsePlane);
+    if (this.coarseChi2[c] === Infinity) return false;
+    const uc = LN_T_MIN + c * COARSE_STRIDE * LN_T_STEP;
+    const stride = COARSE_STRIDE * LN_T_STEP;
+    // Safeguarded Newton on g = dχ²/du: [lo, hi] brackets the minimum once both ends are "sure"
+    // (slope seen pointing inward, or a grid edge); an unsure end is widened by one coarse step when
+    // the iterate reaches it still descending (the coarse search may be slightly off for off-plane A_V).
+    // Start at the vertex of the parabola through the three coarse values around the minimum, then
+    // refine it on the fine nodes (node values, no exp) so Newton starts within ~1e-3 in ln T.
+    let u = uc;
+    if (c > 0 && c < N_COARSE - 1) {
+      const cm = this.coarseChi2[c - 1];
+      const c0 = this.coarseChi2[c];
+      const cp = this.coarseChi2[c + 1];
+      const den = cm - 2 * c0 + cp;
+      if (den > 0 && Number.isFinite(den)) u = uc + 0.5 * ((cm - cp) / den) * stride;
+    }
+    u = this.fineStart(coarsePlane, u);
+    const chi2 = this.newtonU(u, stride);
+    u = this.u;
     if (!(this.s > 0) || !Number.isFinite(chi2)) return false;
     // Fisher matrix JᵀWJ of (u, ln s): J_u = sφ', J_lns = sφ.
     const nDet = this.nDet, nFit = this.nFit;
@@ -593,38 +666,116 @@ export class FitEngine {
     m[7] = m[5];
   }
 
-  /** Fitted A_V: coarse grid over (ln T, A_V planes 1 mag apart), then bounded Levenberg–Marquardt. */
+  /**
+   * Fitted A_V: coarse grid over (ln T, A_V planes 1 mag apart), then Newton on the profile χ²_p(A_V) =
+   * min over (ln T, s) — variable projection (Golub & Pereyra 1973): each A_V gets the fast 1-D fit in
+   * ln T with s in closed form, and the A_V step uses the Gauss–Newton curvature of the profile, the
+   * Schur complement M_aa − M_aθ M_θθ⁻¹ M_θa of JᵀWJ. This follows the curved T–A_V valley that makes a
+   * plain 3-parameter LM zig-zag; the LM below remains as the fallback.
+   */
   private fitFree(avMin: number, avMax: number): boolean {
-    // Coarse grid.
+    // Coarse grid: ln T nodes (≈ 20 % steps) × A_V planes COARSE_AV_STEP_MAG apart.
     let bestChi = Infinity;
     let bestC = 0;
-    let bestA = avMin;
+    let bestK = 0;
     const kLo = Math.ceil(avMin / AV_STEP_MAG - 1e-9);
     const kHi = Math.floor(avMax / AV_STEP_MAG + 1e-9);
-    const kStep = Math.max(1, Math.round(1 / AV_STEP_MAG));
+    const kStep = Math.max(1, Math.round(COARSE_AV_STEP_MAG / AV_STEP_MAG));
     for (let k = kLo; k <= kHi; k += kStep) {
       const c = this.coarseSearch(this.tables.plane(k));
-      if (this.coarseChi2[c] < bestChi) {
-        bestChi = this.coarseChi2[c];
+      const v = this.coarseChi2[c];
+      if (v < bestChi) {
+        bestChi = v;
         bestC = c;
-        bestA = k * AV_STEP_MAG;
+        bestK = k;
       }
     }
     if (bestChi === Infinity) return false;
-    let u = LN_T_MIN + bestC * COARSE_STRIDE * LN_T_STEP;
-    let a = Math.min(Math.max(bestA, avMin), avMax);
-    // s* at the start.
+    const bestPlane = this.tables.plane(bestK);
+    // ln T on the best plane refined on the fine nodes. (Moving A_V off the plane without moving T along
+    // the T–A_V valley would start LM far up its wall.)
+    let u = this.fineStart(bestPlane, LN_T_MIN + bestC * COARSE_STRIDE * LN_T_STEP);
+    let a = bestK * AV_STEP_MAG;
+    a = Math.min(Math.max(a, avMin), avMax);
+    const stride = COARSE_STRIDE * LN_T_STEP;
     this.usePlanesFree(a);
-    this.evalModel(u, this.nFit);
-    const s0 = this.solveScale();
-    if (!(s0 > 0)) return false;
-    let lnS = Math.log(s0);
+    let chi2 = this.newtonU(u, stride);
+    u = this.u;
+    if (!(this.s > 0)) return false;
+    const m = this.jtj, v = this.jtr;
+    let lo = avMin;
+    let hi = avMax;
+    let loSure = a <= avMin;
+    let hiSure = a >= avMax;
+    let converged = false;
+    for (let outer = 0; outer < 40; outer++) {
+      this.normalEquations(Math.log(this.s));
+      const det2 = m[0] * m[4] - m[1] * m[1];
+      if (!(det2 > 0)) break;
+      const x0 = (m[4] * m[2] - m[1] * m[5]) / det2;
+      const x1 = (m[0] * m[5] - m[1] * m[2]) / det2;
+      const y0 = (m[4] * v[0] - m[1] * v[1]) / det2;
+      const y1 = (m[0] * v[1] - m[1] * v[0]) / det2;
+      // gp = −½ dχ²_p/dA_V (positive: χ² falls as A_V grows); hp = ½ d²χ²_p/dA_V² (Gauss–Newton).
+      const gp = v[2] - (m[2] * y0 + m[5] * y1);
+      const hp = m[8] - (m[2] * x0 + m[5] * x1);
+      if (gp > 0) {
+        if (a >= avMax) {
+          converged = true;
+          break;
+        }
+        lo = a;
+        loSure = true;
+      } else {
+        if (a <= avMin) {
+          converged = true;
+          break;
+        }
+        hi = a;
+        hiSure = true;
+      }
+      let next = hp > 0 ? a + gp / hp : NaN;
+      if (Math.abs(next - a) < AV_TOL_MAG) {
+        converged = true;
+        break;
+      }
+      if (!(next > lo && next < hi)) {
+        if (gp > 0) next = hiSure ? 0.5 * (a + hi) : hi;
+        else next = loSure ? 0.5 * (a + lo) : lo;
+      }
+      // Follow the valley: the (ln T, ln s) optimum moves by −M_θθ⁻¹ M_θa per unit A_V.
+      let uStart = u - x0 * (next - a);
+      if (uStart < LN_T_MIN) uStart = LN_T_MIN;
+      if (uStart > LN_T_MAX) uStart = LN_T_MAX;
+      const step = Math.abs(next - a);
+      a = next;
+      if (a <= avMin) loSure = true;
+      if (a >= avMax) hiSure = true;
+      this.usePlanesFree(a);
+      chi2 = this.newtonU(uStart, stride);
+      u = this.u;
+      if (!(this.s > 0)) return false;
+      if (step < AV_TOL_MAG || hi - lo < AV_TOL_MAG) {
+        converged = true;
+        break;
+      }
+    }
+    if (!converged) return this.fitFreeLM(avMin, avMax, u, Math.log(this.s), a);
+    this.normalEquations(Math.log(this.s));
+    return this.finishFree(a, avMin, avMax, chi2);
+  }
+
+  /** Bounded Levenberg–Marquardt over (ln T, ln s, A_V) from a start: the fallback of fitFree. */
+  private fitFreeLM(avMin: number, avMax: number, u0: number, lnS0: number, a0: number): boolean {
+    let u = u0;
+    let lnS = lnS0;
+    let a = a0;
     let chi2 = this.chi2Full(u, lnS, a);
     let lambda = 1e-3;
     const m = this.jtj, v = this.jtr, d = this.step3;
     let it = 0;
     let converged = false;
-    for (; it < 200; it++) {
+    for (; it < 100; it++) {
       this.normalEquations(lnS);
       let accepted = false;
       for (let tries = 0; tries < 12; tries++) {
@@ -633,13 +784,22 @@ export class FitEngine {
           lambda *= 10;
           continue;
         }
+        let na = a + d[2];
+        if (na < avMin || na > avMax) {
+          // Bound reached: put A_V on it and re-solve (ln T, ln s) for that A_V change (projected step),
+          // instead of clipping, which leaves a non-descent step that LM would keep rejecting.
+          na = na < avMin ? avMin : avMax;
+          const dA = na - a;
+          if (!solve2(m, v[0] - m[2] * dA, v[1] - m[5] * dA, lambda, d)) {
+            lambda *= 10;
+            continue;
+          }
+          d[2] = dA;
+        }
         let nu = u + d[0];
         const nl = lnS + d[1];
-        let na = a + d[2];
         if (nu < LN_T_MIN) nu = LN_T_MIN;
         if (nu > LN_T_MAX) nu = LN_T_MAX;
-        if (na < avMin) na = avMin;
-        if (na > avMax) na = avMax;
         const nchi = this.chi2Full(nu, nl, na);
         if (nchi <= chi2) {
           const du = Math.abs(nu - u), dl = Math.abs(nl - lnS), da = Math.abs(na - a);
@@ -648,9 +808,10 @@ export class FitEngine {
           lnS = nl;
           a = na;
           chi2 = nchi;
-          lambda = Math.max(lambda * 0.2, 1e-12);
+          lambda = Math.max(lambda * 0.2, 1e-9);
           accepted = true;
-          if ((du < 1e-10 && dl < 1e-10 && da < 1e-9) || gain <= 1e-14 * (chi2 + 1e-300)) converged = true;
+          // Converged when the step is far below any error (1e-7 in ln T and ln s, 1e-6 mag) or χ² stalls.
+          if ((du < 1e-7 && dl < 1e-7 && da < 1e-6) || gain <= 1e-10 * chi2) converged = true;
           break;
         }
         lambda *= 8;
@@ -663,6 +824,12 @@ export class FitEngine {
     this.normalEquations(lnS);
     this.u = u;
     this.s = Math.exp(lnS);
+    return this.finishFree(a, avMin, avMax, chi2);
+  }
+
+  /** Solution bookkeeping and covariance for a fitted A_V; JᵀWJ must be in jtj. */
+  private finishFree(a: number, avMin: number, avMax: number, chi2: number): boolean {
+    const m = this.jtj;
     this.avMag = a;
     this.chi2 = chi2;
     if (!Number.isFinite(chi2) || !(this.s > 0)) return false;
@@ -698,6 +865,7 @@ export class FitEngine {
    */
   run(settings: EngineSettings, avMag: number, parallaxMas: number, parallaxErrMas: number): number {
     this.flags = 0;
+    this.iterations = 0;
     this.nClipped = 0;
     this.teffLowerK = NaN;
     this.irExcessSigma = NaN;
@@ -829,6 +997,16 @@ function solve3(M: Float64Array, v: Float64Array, lambda: number, x: Float64Arra
   x[0] = (c00 * v[0] + c01 * v[1] + c02 * v[2]) / det;
   x[1] = (c01 * v[0] + c11 * v[1] + c12 * v[2]) / det;
   x[2] = (c02 * v[0] + c12 * v[1] + c22 * v[2]) / det;
+  return true;
+}
+
+/** Solve the damped 2×2 (ln T, ln s) block of M for right-hand side (r0, r1); x[0], x[1]. */
+function solve2(M: Float64Array, r0: number, r1: number, lambda: number, x: Float64Array): boolean {
+  const a00 = M[0] * (1 + lambda), a01 = M[1], a11 = M[4] * (1 + lambda);
+  const det = a00 * a11 - a01 * a01;
+  if (!(Math.abs(det) > 0) || !Number.isFinite(det)) return false;
+  x[0] = (a11 * r0 - a01 * r1) / det;
+  x[1] = (a00 * r1 - a01 * r0) / det;
   return true;
 }
 

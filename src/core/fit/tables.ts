@@ -48,6 +48,8 @@ export interface Plane {
   lnPhi: Float64Array;
   dLnPhi: Float64Array;
   phiCoarse: Float64Array;
+  /** φ = exp(ln φ) at every node (lets the start of Newton refine on node values without exp). */
+  phi: Float64Array;
 }
 
 /**
@@ -93,6 +95,9 @@ export class FitTables {
       plane.lnPhi = lnPhi;
       plane.dLnPhi = dLnPhi;
       plane.phiCoarse = phiCoarse;
+      const phi = new Float64Array(newCapacity * N_T);
+      phi.set(plane.phi);
+      plane.phi = phi;
     }
     this.capacity = newCapacity;
   }
@@ -107,6 +112,7 @@ export class FitTables {
         lnPhi: new Float64Array(this.capacity * N_T),
         dLnPhi: new Float64Array(this.capacity * N_T),
         phiCoarse: new Float64Array(this.capacity * N_COARSE),
+        phi: new Float64Array(this.capacity * N_T),
       };
       this.planes.set(k, plane);
     }
@@ -144,6 +150,7 @@ export class FitTables {
     }
     const cb = b * N_COARSE;
     for (let c = 0; c < N_COARSE; c++) plane.phiCoarse[cb + c] = Math.exp(ln[base + GHOST + c * COARSE_STRIDE]);
+    for (let j = 0; j < N_T; j++) plane.phi[base + j] = Math.exp(ln[base + j]);
   }
 }
 
