@@ -6,3 +6,4 @@ export * from './audit';
 export * from './photometry';
 export * from './batches';
 export * from './review';
+export * from './review-settings';
