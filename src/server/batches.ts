@@ -17,7 +17,6 @@ import { FitStarRunner, fitStarJob } from './fit-job';
 import { appVersion } from './health';
 import { newId } from './ids';
 import { createSqliteQueue, type ClaimedJob, type JobQueue, type SqliteQueueOptions } from './queue';
-import { parseInput } from './validation';
 
 const bandKeys: readonly string[] = STARTER_BAND_KEYS;
 
@@ -67,6 +66,19 @@ export const startBatchInput = z.object({
   /** Star ids as the campaign's tables give them; all stars of the campaign when absent. */
   starKeys: z.array(z.string({ error: 'starKeys must list star ids.' }), { error: 'starKeys must be a list of star ids.' }).min(1, 'starKeys, when given, needs at least one star id.').optional(),
 });
+
+/**
+ * Like parseInput, but asks zod to keep the offending value so a wrong type ("rv": "three") is told
+ * apart from a missing field in the message.
+ */
+function parseStartInput(raw: unknown): z.output<typeof startBatchInput> {
+  const result = startBatchInput.safeParse(raw, { reportInput: true });
+  if (result.success) return result.data;
+  const issue = result.error.issues[0];
+  const field = issue.path.length ? issue.path.join('.') : undefined;
+  const missing = issue.code === 'invalid_type' && issue.input === undefined && field;
+  throw new HttpError('validation_failed', missing ? `${field} is required.` : issue.message, field);
+}
 
 /** The analyst's options → the fit engine's full options (defaults filled in, as stored with the batch). */
 export function toFitOptions(o: z.output<typeof batchOptionsInput>): FitOptions {
@@ -172,7 +184,7 @@ export function requireBatch(db: DbOrTx, batchId: string): BatchRow {
 /** Start a batch: the batch row and one job per star, all or nothing. */
 export function startBatch(app: AppServices, actor: Actor, campaignId: string, raw: unknown): BatchSummary {
   const { db } = app;
-  const input = parseInput(startBatchInput, raw);
+  const input = parseStartInput(raw);
   const options = toFitOptions(input.options);
   const sqlite = db.$client;
 
