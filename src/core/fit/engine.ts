@@ -61,6 +61,8 @@ export interface EngineSettings {
   clip: boolean;
   /** Extra fractional Teff error added in quadrature to the reported one (0 = off). */
   modelErrorFraction: number;
+  /** A_V-fitting solver: 'profile' (default, fast) or 'lm' (plain 3-parameter LM, the fallback; for tests). */
+  avSolver?: 'profile' | 'lm';
 }
 
 export class FitEngine {
@@ -673,7 +675,7 @@ export class FitEngine {
    * Schur complement M_aa − M_aθ M_θθ⁻¹ M_θa of JᵀWJ. This follows the curved T–A_V valley that makes a
    * plain 3-parameter LM zig-zag; the LM below remains as the fallback.
    */
-  private fitFree(avMin: number, avMax: number): boolean {
+  private fitFree(avMin: number, avMax: number, solver: 'profile' | 'lm'): boolean {
     // Coarse grid: ln T nodes (≈ 20 % steps) × A_V planes COARSE_AV_STEP_MAG apart.
     let bestChi = Infinity;
     let bestC = 0;
@@ -702,6 +704,7 @@ export class FitEngine {
     let chi2 = this.newtonU(u, stride);
     u = this.u;
     if (!(this.s > 0)) return false;
+    if (solver === 'lm') return this.fitFreeLM(avMin, avMax, u, Math.log(this.s), a);
     const m = this.jtj, v = this.jtr;
     let lo = avMin;
     let hi = avMax;
@@ -877,7 +880,7 @@ export class FitEngine {
       return this.status;
     }
     for (;;) {
-      const ok = settings.fitAv ? this.fitFree(settings.avMinMag, settings.avMaxMag) : this.fitFixed(avMag);
+      const ok = settings.fitAv ? this.fitFree(settings.avMinMag, settings.avMaxMag, settings.avSolver ?? 'profile') : this.fitFixed(avMag);
       if (!ok) {
         this.status = STATUS_NO_CONVERGENCE;
         return this.status;

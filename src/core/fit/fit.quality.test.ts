@@ -6,7 +6,7 @@ import { levenbergMarquardt } from 'ml-levenberg-marquardt';
 import { starterBandLibrary, requireBand } from '../bands';
 import { planckBandMean } from '../photometry';
 import type { BandFlux } from '../types';
-import { prepareFitModel, fitStar, type FitResult, type FitFailure } from './fit-star';
+import { prepareFitModel, fitStar, starEntries, engineSettings, type FitResult, type FitFailure } from './fit-star';
 import { dilutionFromThetaMas } from './derived';
 import { lnPhiAt } from './tables';
 import { FLAG_EXPLANATIONS, FLAG_BITS } from './flags';
@@ -253,8 +253,27 @@ describe('Monte Carlo intervals', () => {
   });
 });
 
-describe('A_V-fitting LM agrees with ml-levenberg-marquardt', () => {
-  it('finds the same minimum on noisy stars (our LM reaches an equal or lower χ²)', () => {
+describe('A_V fitted within bounds', () => {
+  it('an unreddened star stops at the lower bound with a flag and no A_V error', () => {
+    const model = prepareFitModel(lib, { fitAv: true });
+    // Built with A_V = −0.3 (bluer than any reddened blackbody): the unconstrained optimum lies below 0.
+    const bands = mock(['NUV', 'U', 'B', 'V', 'G', 'RP', 'J', 'H', 'Ks'], 6500, 0.5, 0.02, -0.3);
+    const r = ok(fitStar(model, { id: 'b', bandFluxes: bands }));
+    expect(r.avMag).toBe(0);
+    expect(r.flags).toContain('av_at_bound');
+    expect(r.avErrMag).toBeNull();
+    expect(r.covariance.params).toEqual(['teffK', 's']);
+  });
+  it('honours custom bounds', () => {
+    const model = prepareFitModel(lib, { fitAv: true, avBoundsMag: [0.5, 1.0] });
+    const r = ok(fitStar(model, { id: 'b', bandFluxes: mock(['NUV', 'U', 'B', 'V', 'G', 'RP', 'J', 'H', 'Ks'], 6500, 0.5, 0.02, 2.0) }));
+    expect(r.avMag).toBe(1.0);
+    expect(r.flags).toContain('av_at_bound');
+  });
+});
+
+describe('A_V fitting agrees with ml-levenberg-marquardt', () => {
+  it('finds the same minimum on noisy stars (ours reaches an equal or lower χ²), with either engine solver', () => {
     const keys = ['NUV', 'U', 'B', 'V', 'G', 'RP', 'J', 'H', 'Ks'];
     const model = prepareFitModel(lib, { fitAv: true, floorFraction: 0 });
     const rand = mulberry32(42);
@@ -263,6 +282,14 @@ describe('A_V-fitting LM agrees with ml-levenberg-marquardt', () => {
       const av = 0.3 + 2.5 * rand();
       const bands = mock(keys, teffK, 1, 0.02, av).map((b) => ({ ...b, fluxCgs: b.fluxCgs + b.errCgs * normalDeviate(rand) }));
       const r = ok(fitStar(model, { id: 'lm', bandFluxes: bands }));
+      // The engine's fallback solver (plain 3-parameter LM) reaches the same minimum.
+      const entries = starEntries(model, { id: 'lm', bandFluxes: bands }, model.options).entries;
+      model.engine.begin();
+      for (const e of entries) model.engine.add(e.bandIndex, e.flux, e.sigma, e.upper, e.exclude);
+      expect(model.engine.run({ ...engineSettings(model.options), avSolver: 'lm' }, 0, NaN, NaN)).toBe(0);
+      expect(Math.abs(model.engine.derived.teffK / (r.teffK as number) - 1)).toBeLessThan(1e-4);
+      expect(Math.abs(model.engine.avMag - r.avMag)).toBeLessThan(1e-3);
+      expect(model.engine.chi2).toBeCloseTo(r.chi2, 4);
       const idx = bands.map((b) => model.tables.bandIndex(b.bandKey));
       const y = bands.map((b) => b.fluxCgs / b.errCgs);
       // Whitened residuals: model_i(p) = s φ_i(u, A_V)/σ_i with p = (u, ln s + 40, A_V) (offset keeps ln s O(1)).
