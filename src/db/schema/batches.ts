@@ -117,6 +117,9 @@ export const fitResults = sqliteTable(
     softwareVersion: text('software_version').notNull(),
     reviewStatus: text('review_status', { enum: REVIEW_STATUSES }).notNull().default('pending'),
     createdAt: integer('created_at', { mode: 'timestamp_ms' }).notNull().default(now),
+    // 1 for the star's current result (the catalogue's row): its newest successful fit, else its
+    // newest failure. Kept by the trigger fit_results_current (drizzle/0005), whoever inserts.
+    isCurrent: integer('is_current', { mode: 'boolean' }).notNull().default(true),
   },
   (t) => [
     uniqueIndex('fit_results_batch_star_unique').on(t.batchId, t.starId),
@@ -125,5 +128,12 @@ export const fitResults = sqliteTable(
     index('fit_results_star_idx').on(t.starId, t.createdAt),
     // Progress and the failures list count a batch's failed fits without reading every row.
     index('fit_results_batch_ok_idx').on(t.batchId, t.ok),
+    // The catalogue pages through current results sorted by one of these (keyset on value, id).
+    index('fit_results_current_teff_idx').on(t.campaignId, t.teffK).where(sql`is_current = 1`),
+    index('fit_results_current_lum_idx').on(t.campaignId, t.lumLsun).where(sql`is_current = 1`),
+    index('fit_results_current_radius_idx').on(t.campaignId, t.radiusRsun).where(sql`is_current = 1`),
+    index('fit_results_current_chi2_idx').on(t.campaignId, t.chi2Red).where(sql`is_current = 1`),
+    index('fit_results_current_status_idx').on(t.campaignId, t.reviewStatus, t.teffK).where(sql`is_current = 1`),
+    index('fit_results_current_star_idx').on(t.starId).where(sql`is_current = 1`),
   ],
 );
