@@ -307,3 +307,11 @@ describe('A_V fitting agrees with ml-levenberg-marquardt', () => {
     }
   });
 });
+
+describe('documentation', () => {
+  it('the fit README lists every flag code', async () => {
+    const { readFileSync } = await import('node:fs');
+    const readme = readFileSync(new URL('./README.md', import.meta.url), 'utf8');
+    for (const code of Object.keys(FLAG_EXPLANATIONS)) expect(readme, code).toContain(`\`${code}\``);
+  });
+});
