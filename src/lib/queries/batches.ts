@@ -1,0 +1,96 @@
+// Queries and mutations for batches, used by the batch islands. The JSON shapes mirror
+// src/server/batches.ts (islands may not import server code, so they are restated here).
+import { useMutation, useQuery } from '@tanstack/react-query';
+import { apiFetch } from './api';
+
+export interface BatchOptionsView {
+  law: 'f99' | 'ccm89' | 'od94';
+  rv: number;
+  avMag: number;
+  fitAv: boolean;
+  avBoundsMag: [number, number];
+  floorFraction: number;
+  excludeBands: string[];
+  includeLongBands: boolean;
+  clip: boolean;
+}
+
+export interface BatchProgressView {
+  id: string;
+  campaignId: string;
+  status: 'queued' | 'running' | 'finished' | 'cancelled';
+  starCount: number;
+  createdAt: string;
+  finishedAt: string | null;
+  startedBy: { id: string; name: string } | null;
+  options: BatchOptionsView;
+  bandLibraryVersion: string;
+  softwareVersion: string;
+  fitted: number;
+  failed: number;
+  waiting: number;
+  retrying: number;
+  running: number;
+  ratePerSecond: number;
+  secondsLeft: number | null;
+}
+
+export interface BatchFailuresView {
+  total: number;
+  failures: { starId: number; starKey: string; reason: string; kind: 'fit' | 'job' }[];
+  retrying: { starKey: string; attempts: number; maxAttempts: number; lastError: string | null; nextTryAt: string }[];
+  limit: number;
+  offset: number;
+}
+
+/** What the start form sends (POST /api/campaigns/:id/batches). */
+export interface StartBatchBody {
+  options: {
+    law: string;
+    rv: number;
+    avMode: 'fixed' | 'fitted';
+    avMag: number;
+    avMaxMag: number;
+    floorFraction: number;
+    excludeBands: string[];
+    clip: boolean;
+    includeLongBands: boolean;
+  };
+}
+
+export const batchKeys = {
+  all: ['batches'] as const,
+  progress: (id: string) => [...batchKeys.all, 'progress', id] as const,
+  failures: (id: string, offset: number) => [...batchKeys.all, 'failures', id, offset] as const,
+};
+
+const live = (status: string | undefined) => status !== 'finished' && status !== 'cancelled';
+
+/** Polls the progress every 1.5 s until the batch has finished. */
+export function useBatchProgress(batchId: string, initialData?: BatchProgressView) {
+  return useQuery({
+    queryKey: batchKeys.progress(batchId),
+    queryFn: async () => (await apiFetch<{ progress: BatchProgressView }>(`/api/batches/${encodeURIComponent(batchId)}/progress`)).progress,
+    initialData,
+    staleTime: 0,
+    refetchInterval: (q) => (live(q.state.data?.status) ? 1500 : false),
+  });
+}
+
+/** The failures list, refreshed every 5 s while the batch runs (failures only ever grow). */
+export function useBatchFailures(batchId: string, running: boolean, offset = 0, initialData?: BatchFailuresView) {
+  return useQuery({
+    queryKey: batchKeys.failures(batchId, offset),
+    queryFn: () => apiFetch<BatchFailuresView>(`/api/batches/${encodeURIComponent(batchId)}/failures?limit=50&offset=${offset}`),
+    initialData: offset === 0 ? initialData : undefined,
+    staleTime: 0,
+    refetchInterval: running ? 5000 : false,
+  });
+}
+
+export function useStartBatch(campaignId: string) {
+  return useMutation({
+    mutationFn: async (body: StartBatchBody) =>
+      (await apiFetch<{ batch: { id: string } }>(`/api/campaigns/${encodeURIComponent(campaignId)}/batches`, { method: 'POST', body })).batch,
+  });
+}
