@@ -37,7 +37,7 @@ afterEach(() => t.cleanup());
 
 function multipart(name: string, bytes: Uint8Array | string, type = 'text/csv'): Request {
   const form = new FormData();
-  form.append('file', new Blob([bytes], { type }), name);
+  form.append('file', new Blob([bytes as BlobPart], { type }), name);
   return new Request('http://127.0.0.1/upload', { method: 'POST', body: form });
 }
 

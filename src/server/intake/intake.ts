@@ -9,6 +9,7 @@ import {
   COLUMN_ROLES,
   detectMapping,
   previewRows,
+  type ColumnRole,
   type ColumnTable,
   type DetectedMapping,
   type Mapping,
@@ -57,7 +58,7 @@ export function readStoredUpload(storedPath: string, file: string): ReadUpload {
 // Input schemas
 
 const assignment = z.object({
-  role: z.enum(COLUMN_ROLES as [string, ...string[]], `role must be one of ${COLUMN_ROLES.join(', ')}.`),
+  role: z.enum(COLUMN_ROLES as unknown as [ColumnRole, ...ColumnRole[]], `role must be one of ${COLUMN_ROLES.join(', ')}.`),
   band: z.string().max(40).optional(),
   bands: z.array(z.string().max(40)).max(10).optional(),
 });
