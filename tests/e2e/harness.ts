@@ -54,7 +54,11 @@ async function waitForHealth(baseUrl: string, child: ChildProcess, logs: () => s
   throw new Error(`The server did not become healthy within ${timeoutMs} ms:\n${logs()}`);
 }
 
-export async function startApp(options: { seed?: boolean; env?: Record<string, string> } = {}): Promise<RunningApp> {
+/**
+ * `worker: true` also starts one worker process (workers/index.ts through tsx) on the same
+ * database, so batches started in the browser get fitted; stop() ends it with the server.
+ */
+export async function startApp(options: { seed?: boolean; env?: Record<string, string>; worker?: boolean } = {}): Promise<RunningApp> {
   const root = projectRoot();
   const entry = path.join(root, 'dist/server/entry.mjs');
   if (!existsSync(entry)) throw new Error('No build found: run `npm run build` before the browser tests.');
@@ -89,12 +93,25 @@ export async function startApp(options: { seed?: boolean; env?: Record<string, s
   child.stderr!.on('data', (d) => (output += d));
   const logs = () => output;
 
+  const children: ChildProcess[] = [child];
+  if (options.worker) {
+    const worker = spawn(process.execPath, ['--import', 'tsx', path.join(root, 'workers/index.ts'), '--idle-ms', '100'], {
+      cwd: root,
+      env: { ...process.env, ...env, NODE_ENV: 'production' },
+      stdio: ['ignore', 'pipe', 'pipe'],
+    });
+    worker.stdout!.on('data', (d) => (output += `[worker] ${d}`));
+    worker.stderr!.on('data', (d) => (output += `[worker] ${d}`));
+    children.push(worker);
+  }
+
   const stop = async () => {
-    if (child.exitCode === null) {
-      const exited = new Promise((r) => child.once('exit', r));
-      child.kill('SIGTERM');
+    for (const c of children) {
+      if (c.exitCode !== null || c.signalCode !== null) continue;
+      const exited = new Promise((r) => c.once('exit', r));
+      c.kill('SIGTERM');
       await Promise.race([exited, new Promise((r) => setTimeout(r, 5000))]);
-      if (child.exitCode === null) child.kill('SIGKILL');
+      if (c.exitCode === null && c.signalCode === null) c.kill('SIGKILL');
     }
     opened.sqlite.close();
     rmSync(dir, { recursive: true, force: true });

@@ -1,11 +1,12 @@
-// In real Chromium against the built server: the demo analyst adds a CSV through the Uppy
-// dashboard, uploads it, adjusts the detected mapping, imports it and sees the stars stored; a
+// In real Chromium against the built server and a worker process: the demo analyst adds a CSV
+// through the Uppy dashboard, uploads it, adjusts the detected mapping, imports it, starts a batch
+// and sees it complete; a
 // refused import shows its report by row and column; an unreadable file is refused on arrival.
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { Page } from 'playwright-core';
 import { count, eq } from 'drizzle-orm';
 import path from 'node:path';
-import { campaigns, measurements, stars, uploads } from '../../src/db/schema';
+import { batches, campaigns, measurements, stars, uploads } from '../../src/db/schema';
 import { projectRoot } from '../../src/db/paths';
 import { DEMO_CAMPAIGN, demoUsers } from '../../src/db/seed';
 import { launchBrowser, startApp, type Browser, type RunningApp } from './harness';
@@ -15,7 +16,7 @@ let browser: Browser;
 const people = demoUsers();
 
 beforeAll(async () => {
-  run = await startApp();
+  run = await startApp({ worker: true });
   browser = await launchBrowser();
 });
 afterAll(async () => {
@@ -44,7 +45,7 @@ async function addThroughDashboard(page: Page, file: string | { name: string; mi
 }
 
 describe('intake in the browser', () => {
-  it('uploads a CSV through the Uppy dashboard, maps it, imports it', async () => {
+  it('uploads a CSV through the Uppy dashboard, maps it, imports it, starts a batch and sees it complete', async () => {
     const page = await browser.newPage();
     await signIn(page);
     const id = demoCampaignId();
@@ -78,6 +79,17 @@ describe('intake in the browser', () => {
     expect(run.app.db.select({ n: count() }).from(measurements).where(eq(measurements.bandKey, 'W1')).get()!.n).toBe(0);
     const u = run.app.db.select().from(uploads).where(eq(uploads.originalName, 'catalogue_wide.csv')).get()!;
     expect(u).toMatchObject({ status: 'imported', campaignId: id, detectedFormat: 'csv' });
+
+    // On to a batch: the worker started with the server fits the three stars.
+    await Promise.all([page.waitForURL(`${run.baseUrl}/campaigns/${id}/batches`), editor.getByRole('link', { name: 'Start a batch fit' }).click()]);
+    await page.waitForFunction(() => !document.querySelector('astro-island[ssr]'));
+    await Promise.all([page.waitForURL(new RegExp(`/campaigns/${id}/batches/[^/]+$`)), page.getByRole('button', { name: 'Start the batch' }).click()]);
+    const done = page.getByTestId('batch-done');
+    await page.waitForFunction(() => /3 \/ 3 stars · 100\.0 %/.test(document.querySelector('[data-testid="batch-done"]')?.textContent ?? ''), undefined, { timeout: 60_000 }).catch(async (err) => {
+      throw new Error(`${(err as Error).message}\nshown: ${await done.textContent()}\n${run.logs().slice(-3000)}`);
+    });
+    const batch = run.app.db.select().from(batches).where(eq(batches.campaignId, id)).get()!;
+    expect(batch.status).toBe('finished');
     await page.close();
   });
 
