@@ -118,37 +118,47 @@ export function fitPacked(model: FitModel, p: PackedStars, out: PackedResults, o
   const defaultAv = opts.avMag;
   const { offsets, bandIndex, fluxCgs, sigmaCgs, upper, exclude } = p;
   const d = engine.derived;
+  const oStatus = out.status, oFlags = out.flags, oN = out.nBands, oT = out.teffK, oTe = out.teffErrK;
+  const oTf = out.teffErrFormalK, oTl = out.teffLowerK, oTh = out.thetaMas, oThe = out.thetaErrMas;
+  const oR = out.radiusRsun, oRe = out.radiusErrRsun, oL = out.lumLsun, oLe = out.lumErrLsun;
+  const oF = out.fbolCgs, oFe = out.fbolErrCgs, oA = out.avMag, oAe = out.avErrMag, oC = out.chi2;
+  const oCr = out.chi2Red, oIr = out.irExcessSigma;
+  const avIn = p.avMag, plxIn = p.parallaxMas, plxErrIn = p.parallaxErrMas;
   for (let i = start; i < end; i++) {
     engine.begin();
     const a = offsets[i];
     const b = offsets[i + 1];
     for (let k = a; k < b; k++) engine.add(bandIndex[k], fluxCgs[k], sigmaCgs[k], upper[k] === 1, exclude[k]);
-    const av = p.avMag[i];
-    const status = engine.run(settings, av === av ? av : defaultAv, p.parallaxMas[i], p.parallaxErrMas[i]);
-    out.status[i] = status;
-    out.flags[i] = engine.flags;
-    out.nBands[i] = engine.nDet;
+    const av = avIn[i];
+    const status = engine.run(settings, av === av ? av : defaultAv, plxIn[i], plxErrIn[i]);
+    oStatus[i] = status;
+    oFlags[i] = engine.flags;
+    oN[i] = engine.nDet;
     if (status !== STATUS_OK) {
-      out.teffK[i] = NaN;
+      oT[i] = NaN;
       continue;
     }
     const lower = (engine.flags & FLAG_BITS.temp_lower_bound) !== 0;
-    out.teffK[i] = lower ? NaN : d.teffK;
-    out.teffErrK[i] = lower ? NaN : d.teffErrK;
-    out.teffErrFormalK[i] = lower ? NaN : d.teffErrFormalK;
-    out.teffLowerK[i] = engine.teffLowerK;
-    out.thetaMas[i] = lower ? NaN : d.thetaMas;
-    out.thetaErrMas[i] = lower ? NaN : d.thetaErrMas;
-    out.radiusRsun[i] = lower ? NaN : d.radiusRsun;
-    out.radiusErrRsun[i] = lower ? NaN : d.radiusErrRsun;
-    out.lumLsun[i] = lower ? NaN : d.lumLsun;
-    out.lumErrLsun[i] = lower ? NaN : d.lumErrLsun;
-    out.fbolCgs[i] = lower ? NaN : d.fbolCgs;
-    out.fbolErrCgs[i] = lower ? NaN : d.fbolErrCgs;
-    out.avMag[i] = engine.avMag;
-    out.avErrMag[i] = d.avErrMag;
-    out.chi2[i] = engine.chi2;
-    out.chi2Red[i] = engine.chi2Red;
-    out.irExcessSigma[i] = engine.irExcessSigma;
+    if (lower) {
+      oT[i] = oTe[i] = oTf[i] = oTh[i] = oThe[i] = oR[i] = oRe[i] = oL[i] = oLe[i] = oF[i] = oFe[i] = NaN;
+    } else {
+      oT[i] = d.teffK;
+      oTe[i] = d.teffErrK;
+      oTf[i] = d.teffErrFormalK;
+      oTh[i] = d.thetaMas;
+      oThe[i] = d.thetaErrMas;
+      oR[i] = d.radiusRsun;
+      oRe[i] = d.radiusErrRsun;
+      oL[i] = d.lumLsun;
+      oLe[i] = d.lumErrLsun;
+      oF[i] = d.fbolCgs;
+      oFe[i] = d.fbolErrCgs;
+    }
+    oTl[i] = engine.teffLowerK;
+    oA[i] = engine.avMag;
+    oAe[i] = d.avErrMag;
+    oC[i] = engine.chi2;
+    oCr[i] = engine.chi2Red;
+    oIr[i] = engine.irExcessSigma;
   }
 }

@@ -47,8 +47,8 @@ export const LOWER_BOUND_DCHI2 = 2.705543;
 export const CHI2_HIGH = 5;
 export const OUTLIER_SIGMA = 3;
 export const MAX_CLIPPED = 2;
-/** Newton stops once the next step in ln T is below this (T to 1e-7 relative, far below any error). */
-const NEWTON_TOL = 1e-7;
+/** Newton stops once the next step in ln T is below this (T to 1e-6 relative, far below any error). */
+const NEWTON_TOL = 1e-6;
 /** A_V spacing of the coarse (ln T, A_V) grid when A_V is fitted, mag (LM follows the T–A_V valley). */
 const COARSE_AV_STEP_MAG = 1;
 /** The A_V iteration stops once its step is below this, mag (errors of A_V are ≳ 0.01 mag). */
@@ -76,6 +76,8 @@ export class FitEngine {
   readonly sigma: Float64Array;
   readonly w: Float64Array;
   readonly invSigma: Float64Array;
+  /** band·N_T + GHOST: the offset of the band's first interior node in a plane's arrays. */
+  readonly offT: Int32Array;
   readonly upper: Uint8Array;
   readonly exclude: Uint8Array;
   /** Position of each slot in add order (so callers can map residuals back). */
@@ -122,6 +124,7 @@ export class FitEngine {
     this.sigma = new Float64Array(maxBands);
     this.w = new Float64Array(maxBands);
     this.invSigma = new Float64Array(maxBands);
+    this.offT = new Int32Array(maxBands);
     this.upper = new Uint8Array(maxBands);
     this.exclude = new Uint8Array(maxBands);
     this.order = new Int32Array(maxBands);
@@ -150,6 +153,7 @@ export class FitEngine {
     const k = this.n;
     if (k >= this.maxBands) return false;
     this.band[k] = bandIndex;
+    this.offT[k] = bandIndex * N_T + GHOST;
     this.y[k] = fluxCgs;
     this.sigma[k] = sigmaCgs;
     const inv = 1 / sigmaCgs;
@@ -166,6 +170,7 @@ export class FitEngine {
     if (a === b) return;
     let t: number;
     t = this.band[a]; this.band[a] = this.band[b]; this.band[b] = t;
+    t = this.offT[a]; this.offT[a] = this.offT[b]; this.offT[b] = t;
     t = this.y[a]; this.y[a] = this.y[b]; this.y[b] = t;
     t = this.sigma[a]; this.sigma[a] = this.sigma[b]; this.sigma[b] = t;
     t = this.w[a]; this.w[a] = this.w[b]; this.w[b] = t;
@@ -233,16 +238,15 @@ export class FitEngine {
     const q10 = (6 * t - 4) / h;
     const q01 = -q00;
     const q11 = (6 * t - 2) / h;
-    const band = this.band;
+    const offT = this.offT;
     const phi = this.phi;
     const dphi = this.dphi;
     const d2phi = this.d2phi;
-    const base = GHOST + i;
     if (this.singlePlane) {
       const L = this.planes[0].lnPhi;
       const D = this.planes[0].dLnPhi;
       for (let k = from; k < to; k++) {
-        const o = band[k] * N_T + base;
+        const o = offT[k] + i;
         const y0 = L[o];
         const y1 = L[o + 1];
         const m0 = D[o];
@@ -266,7 +270,7 @@ export class FitEngine {
     const L0 = P0.lnPhi, D0 = P0.dLnPhi, L1 = P1.lnPhi, D1 = P1.dLnPhi;
     const L2 = P2.lnPhi, D2 = P2.dLnPhi, L3 = P3.lnPhi, D3 = P3.dLnPhi;
     for (let k = from; k < to; k++) {
-      const o = band[k] * N_T + base;
+      const o = offT[k] + i;
       // The same Hermite basis in every plane: combine the planes' node data first (linear in them).
       const y0 = w0 * L0[o] + w1 * L1[o] + w2 * L2[o] + w3 * L3[o];
       const y1 = w0 * L0[o + 1] + w1 * L1[o + 1] + w2 * L2[o + 1] + w3 * L3[o + 1];
@@ -325,8 +329,76 @@ export class FitEngine {
   private gradU = 0;
   private hessU = 0;
 
+  /**
+   * profileAt for one plane and no upper limits (the common catalogue case) in a single pass: the sums
+   * Σwyφ, Σwφ², Σwyφ', Σwφφ', Σwφ'², Σwyφ'', Σwφφ'' give s*, χ², dχ²/du and the profile Hessian.
+   * χ² = Σwy² − s·Σwyφ loses digits to cancellation on near-perfect fits; run() recomputes the reported
+   * χ² from the residuals.
+   */
+  private profileAtFast(u: number): number {
+    let x = (u - LN_T_MIN) / LN_T_STEP;
+    if (x < 0) x = 0;
+    else if (x > N_INTERVALS) x = N_INTERVALS;
+    let i = Math.floor(x);
+    if (i >= N_INTERVALS) i = N_INTERVALS - 1;
+    const t = x - i;
+    const h = LN_T_STEP;
+    const t2 = t * t;
+    const t3 = t2 * t;
+    const h00 = 2 * t3 - 3 * t2 + 1;
+    const h10 = (t3 - 2 * t2 + t) * h;
+    const h01 = -2 * t3 + 3 * t2;
+    const h11 = (t3 - t2) * h;
+    const g00 = (6 * t2 - 6 * t) / h;
+    const g10 = 3 * t2 - 4 * t + 1;
+    const g11 = 3 * t2 - 2 * t;
+    const q00 = (12 * t - 6) / (h * h);
+    const q10 = (6 * t - 4) / h;
+    const q11 = (6 * t - 2) / h;
+    const L = this.planes[0].lnPhi;
+    const D = this.planes[0].dLnPhi;
+    const offT = this.offT, y = this.y, w = this.w, phi = this.phi, dphi = this.dphi;
+    const n = this.nDet;
+    let syy = 0, swyp = 0, swpp = 0, swyp1 = 0, swpp1 = 0, swp1p1 = 0, swyp2 = 0, swpp2 = 0;
+    for (let k = 0; k < n; k++) {
+      const o = offT[k] + i;
+      const y0 = L[o];
+      const y1 = L[o + 1];
+      const m0 = D[o];
+      const m1 = D[o + 1];
+      const lv = h00 * y0 + h10 * m0 + h01 * y1 + h11 * m1;
+      const l1 = g00 * (y0 - y1) + g10 * m0 + g11 * m1;
+      const l2 = q00 * (y0 - y1) + q10 * m0 + q11 * m1;
+      const p = Math.exp(lv);
+      const p1 = p * l1;
+      const p2 = p * (l2 + l1 * l1);
+      phi[k] = p;
+      dphi[k] = p1;
+      const wk = w[k];
+      const wy = wk * y[k];
+      const wp = wk * p;
+      syy += wy * y[k];
+      swyp += wy * p;
+      swpp += wp * p;
+      swyp1 += wy * p1;
+      swpp1 += wp * p1;
+      swp1p1 += wk * p1 * p1;
+      swyp2 += wy * p2;
+      swpp2 += wp * p2;
+    }
+    const s = swyp / swpp;
+    this.s = s;
+    // r = y − sφ: Σw r² = Σwy² − sΣwyφ at s*; g = −2sΣw r φ'; Huu, Hus, Hss as in profileAt.
+    this.gradU = -2 * s * (swyp1 - s * swpp1);
+    const huu = s * s * swp1p1 - s * swyp2 + s * s * swpp2;
+    const hus = 2 * s * swpp1 - swyp1;
+    this.hessU = 2 * (huu - (hus * hus) / swpp);
+    return syy - s * swyp;
+  }
+
   /** Profile χ²(u) at fixed A_V, with s* and dχ²/du, d²χ²/du² (profile Hessian) stored. */
   private profileAt(u: number): number {
+    if (this.singlePlane && this.nFit === this.nDet) return this.profileAtFast(u);
     this.evalModel(u, this.nFit);
     const s = this.solveScale();
     this.s = s;
@@ -378,9 +450,9 @@ export class FitEngine {
 
   /**
    * Coarse ln T search in one plane (exact node values); returns the best coarse index. Every other
-   * node first (≈ 40 % steps in T) plus the hot edge, then the two nodes beside the best: the profile
-   * of a blackbody is smooth on that scale, and the three values around the minimum feed the parabola
-   * that starts Newton. coarseChi2 holds NaN for nodes not evaluated.
+   * coarse node (≈ 40 % steps in T) plus the hot edge: the profile of a blackbody is smooth on that
+   * scale; the parabola through the best and its evaluated neighbours, a walk on the fine nodes and
+   * the bracketed Newton finish the job. coarseChi2 holds NaN for nodes not evaluated.
    */
   private coarseSearch(plane: Plane): number {
     const nDet = this.nDet;
@@ -398,26 +470,8 @@ export class FitEngine {
     chi.fill(NaN);
     let best = 0;
     let bestChi = Infinity;
-    for (let c = 0; c < N_COARSE; c += 2) {
-      const v = this.coarseNode(pc, c);
-      chi[c] = v;
-      if (v < bestChi) {
-        bestChi = v;
-        best = c;
-      }
-    }
     const last = N_COARSE - 1;
-    if (chi[last] !== chi[last]) {
-      const v = this.coarseNode(pc, last);
-      chi[last] = v;
-      if (v < bestChi) {
-        bestChi = v;
-        best = last;
-      }
-    }
-    const c0 = best;
-    for (let c = c0 - 1; c <= c0 + 1; c += 2) {
-      if (c < 0 || c > last || chi[c] === chi[c]) continue;
+    for (let c = 0; c <= last; c = c + 2 > last && c < last ? last : c + 2) {
       const v = this.coarseNode(pc, c);
       chi[c] = v;
       if (v < bestChi) {
@@ -425,20 +479,18 @@ export class FitEngine {
         best = c;
       }
     }
-    // The new best (if it moved) has its other neighbour among the even nodes; fill any gap left at the edge.
-    for (let c = best - 1; c <= best + 1; c += 2) if (c >= 0 && c <= last && chi[c] !== chi[c]) chi[c] = this.coarseNode(pc, c);
     return best;
   }
 
-  /** Profile χ² at fine node j (index including ghosts) from node values; limits as in coarseNode. */
+  /** Profile χ² at interior fine node j (0 = T_min) from node values; limits as in coarseNode. */
   private fineNode(phiFine: Float64Array, j: number): number {
     const nDet = this.nDet;
     const nFit = this.nFit;
-    const band = this.band, wy = this.wyC, w = this.w, y = this.y;
+    const off = this.offT, wy = this.wyC, w = this.w, y = this.y;
     let A = 0;
     let B = 0;
     for (let k = 0; k < nDet; k++) {
-      const p = phiFine[band[k] * N_T + j];
+      const p = phiFine[off[k] + j];
       A += wy[k] * p;
       B += w[k] * p * p;
     }
@@ -447,7 +499,7 @@ export class FitEngine {
     if (nFit > nDet) {
       const s = A / B;
       for (let k = nDet; k < nFit; k++) {
-        const m = s * phiFine[band[k] * N_T + j];
+        const m = s * phiFine[off[k] + j];
         if (m > y[k]) v += w[k] * (m - y[k]) * (m - y[k]);
       }
     }
@@ -463,20 +515,20 @@ export class FitEngine {
     let j = Math.round((u - LN_T_MIN) / LN_T_STEP);
     if (j < 1) j = 1;
     if (j > N_INTERVALS - 1) j = N_INTERVALS - 1;
-    let fm = this.fineNode(phiFine, GHOST + j - 1);
-    let f0 = this.fineNode(phiFine, GHOST + j);
-    let fp = this.fineNode(phiFine, GHOST + j + 1);
+    let fm = this.fineNode(phiFine, j - 1);
+    let f0 = this.fineNode(phiFine, j);
+    let fp = this.fineNode(phiFine, j + 1);
     for (let steps = 0; steps < COARSE_STRIDE; steps++) {
       if (fm < f0 && j > 1) {
         j--;
         fp = f0;
         f0 = fm;
-        fm = this.fineNode(phiFine, GHOST + j - 1);
+        fm = this.fineNode(phiFine, j - 1);
       } else if (fp < f0 && j < N_INTERVALS - 1) {
         j++;
         fm = f0;
         f0 = fp;
-        fp = this.fineNode(phiFine, GHOST + j + 1);
+        fp = this.fineNode(phiFine, j + 1);
       } else break;
     }
     const uj = LN_T_MIN + j * LN_T_STEP;
@@ -564,12 +616,23 @@ export class FitEngine {
     // Start at the vertex of the parabola through the three coarse values around the minimum, then
     // refine it on the fine nodes (node values, no exp) so Newton starts within ~1e-3 in ln T.
     let u = uc;
-    if (c > 0 && c < N_COARSE - 1) {
-      const cm = this.coarseChi2[c - 1];
-      const c0 = this.coarseChi2[c];
-      const cp = this.coarseChi2[c + 1];
-      const den = cm - 2 * c0 + cp;
-      if (den > 0 && Number.isFinite(den)) u = uc + 0.5 * ((cm - cp) / den) * stride;
+    {
+      const chi = this.coarseChi2;
+      const cl = c - 2;
+      const cr = c + 2 <= N_COARSE - 1 ? c + 2 : N_COARSE - 1;
+      if (cl >= 0 && cr > c) {
+        // Parabola through three nodes at ln T offsets −2·stride, 0, (cr − c)·stride.
+        const fl = chi[cl], f0 = chi[c], fr = chi[cr];
+        const xl = -2, xr = cr - c;
+        const dl = (fl - f0) / xl, dr = (fr - f0) / xr;
+        const curv = (dr - dl) / (xr - xl);
+        if (curv > 0 && Number.isFinite(curv)) {
+          let d = -(dl - curv * xl) / (2 * curv); // vertex of f0 + b·x + curv·x², b = dl − curv·xl
+          if (d < xl) d = xl;
+          if (d > xr) d = xr;
+          u = uc + d * stride;
+        }
+      }
     }
     u = this.fineStart(coarsePlane, u);
     const chi2 = this.newtonU(u, stride);
@@ -886,6 +949,7 @@ export class FitEngine {
         return this.status;
       }
       this.residuals();
+      this.chi2 = this.residualChi2();
       if (!settings.clip || this.nClipped >= MAX_CLIPPED || this.nDet - 1 < minDet) break;
       // Drop the worst fitted detection when it is an outlier, then refit.
       let worst = -1;
@@ -929,6 +993,18 @@ export class FitEngine {
     if (settings.modelErrorFraction > 0) this.flags |= FLAG_BITS.model_error_added;
     this.status = STATUS_OK;
     return this.status;
+  }
+
+  /** χ² of the solution from the residuals (detections, and limits the model exceeds). */
+  private residualChi2(): number {
+    const res = this.residual;
+    let chi2 = 0;
+    for (let k = 0; k < this.nFit; k++) {
+      const r = res[k];
+      if (k >= this.nDet && r >= 0) continue;
+      chi2 += r * r;
+    }
+    return chi2;
   }
 
   /** Residuals (y − sφ)/σ for every band at the solution (excluded ones included). */
