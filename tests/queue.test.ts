@@ -3,6 +3,7 @@
 // and retry, the last attempt makes a job dead with its error and a failure result, and a job
 // finished twice writes one result.
 import { spawn } from 'node:child_process';
+import { writeFileSync } from 'node:fs';
 import path from 'node:path';
 import { afterEach, describe, expect, it } from 'vitest';
 import { openDatabase } from '../src/db/client';
@@ -83,16 +84,23 @@ describe('claim', () => {
     const q = createSqliteQueue(t.db);
     q.enqueue(jobsOf(3000));
     const racer = path.join(projectRoot(), 'tests/support/queue-racer.ts');
-    const run = (owner: string) =>
-      new Promise<number[]>((resolve, reject) => {
-        const child = spawn(process.execPath, ['--import', 'tsx', racer, t.filePath, owner, '5'], { cwd: projectRoot(), stdio: ['ignore', 'pipe', 'pipe'] });
-        let out = '';
-        let err = '';
-        child.stdout.on('data', (d) => (out += d));
-        child.stderr.on('data', (d) => (err += d));
-        child.on('exit', (code) => (code === 0 ? resolve(JSON.parse(out) as number[]) : reject(new Error(`racer ${owner} exited ${code}: ${err}`))));
-      });
-    const [a, b] = await Promise.all([run('racer-a'), run('racer-b')]);
+    const goFile = `${t.filePath}.go`;
+    const run = (owner: string) => {
+      const child = spawn(process.execPath, ['--import', 'tsx', racer, t.filePath, owner, '5', goFile], { cwd: projectRoot(), stdio: ['ignore', 'pipe', 'pipe'] });
+      let out = '';
+      let err = '';
+      child.stderr.on('data', (d) => (err += d));
+      const ready = new Promise<void>((resolve) => child.stdout.on('data', (d) => ((out += d), out.startsWith('ready\n') && resolve())));
+      const ids = new Promise<number[]>((resolve, reject) =>
+        child.on('exit', (code) => (code === 0 ? resolve(JSON.parse(out.trim().split('\n').pop()!) as number[]) : reject(new Error(`racer ${owner} exited ${code}: ${err}`)))),
+      );
+      return { ready, ids };
+    };
+    const racers = [run('racer-a'), run('racer-b')];
+    // Both have opened the database before either claims: the start is simultaneous.
+    await Promise.all(racers.map((r) => r.ready));
+    writeFileSync(goFile, 'go');
+    const [a, b] = await Promise.all(racers.map((r) => r.ids));
     // Both really took part (each got a share), no id twice, every job claimed once.
     expect(a.length).toBeGreaterThan(0);
     expect(b.length).toBeGreaterThan(0);

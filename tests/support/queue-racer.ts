@@ -1,11 +1,15 @@
-// Child process for tests/queue.test.ts: claims jobs from the given database in small chunks until
-// none is left and prints the ids it got as JSON. Two of these race on one file.
+// Child process for tests/queue.test.ts: opens the database, says "ready", waits for the go file so
+// both racers start claiming at the same moment, claims in small chunks until none is left and
+// prints the ids it got as JSON on its last line. Two of these race on one file.
+import { existsSync } from 'node:fs';
 import { openDatabase } from '../../src/db/client';
 import { createSqliteQueue } from '../../src/server/queue';
 
-const [file, owner, chunk] = process.argv.slice(2);
+const [file, owner, chunk, goFile] = process.argv.slice(2);
 const { db, sqlite } = openDatabase(file);
 const queue = createSqliteQueue(db);
+process.stdout.write('ready\n');
+while (!existsSync(goFile)) await new Promise((r) => setTimeout(r, 2));
 const got: number[] = [];
 for (;;) {
   const jobs = queue.claim(owner, Number(chunk), 60_000);
@@ -13,4 +17,4 @@ for (;;) {
   for (const j of jobs) got.push(j.id);
 }
 sqlite.close();
-process.stdout.write(JSON.stringify(got));
+process.stdout.write(JSON.stringify(got) + '\n');
