@@ -17,6 +17,7 @@ import { FitStarRunner, fitStarJob } from './fit-job';
 import { appVersion } from './health';
 import { newId } from './ids';
 import { createSqliteQueue, type ClaimedJob, type JobQueue, type SqliteQueueOptions } from './queue';
+import { notifyReviewersOfBatch } from './review';
 
 const bandKeys: readonly string[] = STARTER_BAND_KEYS;
 
@@ -368,6 +369,8 @@ export async function finishBatchIfDone(app: AppServices, batchId: string): Prom
     { behavior: 'immediate' },
   );
   if (outcome.outboxId !== null) await mailer.dispatch(db, outcome.outboxId);
+  // Reviewers hear once per batch when it leaves fits waiting (idempotent on its own).
+  if (outcome.won) await notifyReviewersOfBatch(app, batchId);
   return outcome.won;
 }
 

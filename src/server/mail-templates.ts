@@ -52,3 +52,29 @@ export function passwordResetMail(input: { to: string; name: string; baseUrl: st
 <p>If it was not you, ignore this message: your password stays as it is.</p>`;
   return { kind: 'password-reset', to: input.to, subject: 'Reset your Starkiln password', text, html };
 }
+
+/** To each reviewer of a campaign when a batch finishes with fits waiting for review. */
+export function reviewNoticeMail(input: {
+  to: string;
+  name: string;
+  campaignName: string;
+  batchId: string;
+  waitingInBatch: number;
+  waitingInCampaign: number;
+  link: string;
+}): MailMessage {
+  const fits = (n: number) => `${n} fit${n === 1 ? '' : 's'}`;
+  const more = input.waitingInCampaign > input.waitingInBatch ? ` (${fits(input.waitingInCampaign)} in the campaign altogether)` : '';
+  const text = [
+    `Hello ${input.name},`,
+    '',
+    `Batch ${input.batchId} in "${input.campaignName}" has finished and ${fits(input.waitingInBatch)} wait for your review${more}.`,
+    '',
+    'Open the review desk:',
+    input.link,
+  ].join('\n');
+  const html = `<p>Hello ${escapeHtml(input.name)},</p>
+<p>Batch ${escapeHtml(input.batchId)} in <strong>${escapeHtml(input.campaignName)}</strong> has finished and ${fits(input.waitingInBatch)} wait for your review${escapeHtml(more)}.</p>
+<p><a href="${escapeHtml(input.link)}">Open the review desk</a></p>`;
+  return { kind: 'review-notice', to: input.to, subject: `${fits(input.waitingInBatch)} to review in "${input.campaignName}"`, text, html };
+}

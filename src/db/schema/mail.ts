@@ -5,7 +5,7 @@ import { index, integer, sqliteTable, text } from 'drizzle-orm/sqlite-core';
 
 const now = sql`(cast(unixepoch('subsecond') * 1000 as integer))`;
 
-export const MAIL_KINDS = ['invitation', 'password-reset', 'notice'] as const;
+export const MAIL_KINDS = ['invitation', 'password-reset', 'notice', 'review-notice'] as const;
 export type MailKind = (typeof MAIL_KINDS)[number];
 
 export const outboxMessages = sqliteTable(

@@ -1,0 +1,17 @@
+// GET /api/campaigns/:id/review/settings: the campaign's review rules (any member, admins).
+// POST {fourEyes}: switch the four-eyes rule on or off (the campaign's analysts and admins; audited).
+import type { APIRoute } from 'astro';
+import { requireCampaignRole } from '../../../../../lib/guards';
+import { handle, json, readJsonBody } from '../../../../../lib/http';
+import { getReviewSettings, setReviewSettings } from '../../../../../server/review';
+
+export const GET: APIRoute = handle(({ locals, params }) => {
+  const { campaign } = requireCampaignRole(locals, params.id ?? '', 'any', { allowAdmin: true });
+  return json({ settings: getReviewSettings(locals.app.db, campaign.id) });
+});
+
+export const POST: APIRoute = handle(async ({ locals, params, request }) => {
+  const { actor, campaign } = requireCampaignRole(locals, params.id ?? '', ['analyst'], { allowAdmin: true });
+  const body = await readJsonBody(request);
+  return json({ settings: setReviewSettings(locals.app.db, actor, campaign.id, body) });
+});

@@ -1,0 +1,357 @@
+// One star on one page: its measurements (with the upload each came from), the newest fit with every
+// band's observed and model flux and residual, the fitted curve sampled for the plot, earlier fits,
+// and the review history. Pages, the JSON API and the review desk all read this.
+import { starterBandLibrary, getBand } from '../core/bands';
+import { extinctionFunction } from '../core/extinction';
+import { dilutionFromThetaMas } from '../core/fit/derived';
+import type { FitOptions } from '../core/fit';
+import { applyFloor } from '../core/photometry';
+import { planckLambdaCgsAngstrom } from '../core/planck';
+import type { ExtinctionLawKey } from '../core/types';
+import type { AppDatabase } from '../db/client';
+import { HttpError } from './errors';
+import { explainFlags, getReviewSettings, starHistory, type DecisionView } from './review';
+
+/** Why a band did not count in the fit, in plain words. */
+export const EXCLUSION_LABELS: Record<string, string> = {
+  excluded_by_option: 'left out by the batch options',
+  long_wavelength: 'beyond ~5 µm: an excess check, not a fit input',
+  clipped: 'dropped by clipping (worst band)',
+  no_valid_error: 'no usable error, so it cannot be weighted',
+};
+
+export const OUTLIER_SIGMA = 3;
+
+export interface SheetMeasurement {
+  id: number;
+  bandKey: string;
+  bandLabel: string | null;
+  pivotUm: number | null;
+  source: string;
+  upload: { id: string; name: string } | null;
+  mag: number | null;
+  magErr: number | null;
+  fnuJy: number | null;
+  fnuErrJy: number | null;
+  upperLimit: boolean;
+  quality: string | null;
+  /** Set when this value did not reach the newest fit (another value in the band won, or it could not be converted). */
+  notUsedReason: string | null;
+}
+
+/** One band of the newest fit, ready to draw. Fluxes are band-mean F_λ (erg s⁻¹ cm⁻² Å⁻¹). */
+export interface SheetBand {
+  key: string;
+  label: string;
+  pivotAngstrom: number;
+  pivotUm: number;
+  observedFluxCgs: number;
+  /** Measurement error alone. */
+  errCgs: number;
+  /** With the systematic floor added in quadrature: the σ of the residual. */
+  sigmaCgs: number;
+  upperLimit: boolean;
+  modelFluxCgs: number | null;
+  residualSigma: number | null;
+  /** λ·F_λ at the pivot, erg s⁻¹ cm⁻². */
+  observedLambdaFlux: number;
+  sigmaLambdaFlux: number;
+  modelLambdaFlux: number | null;
+  /** 'fitted', 'excluded' (did not count), 'upper_limit'. */
+  role: 'fitted' | 'excluded' | 'upper_limit';
+  /** More than 3σ from the curve. */
+  outlier: boolean;
+  /** Plain words for why the band is drawn differently, or null. */
+  note: string | null;
+}
+
+export interface SheetFit {
+  id: number;
+  batchId: string;
+  batchCreatedAt: string;
+  batchStartedBy: { id: string; name: string } | null;
+  createdAt: string;
+  ok: boolean;
+  failureReason: string | null;
+  reviewStatus: string;
+  teffK: number | null;
+  teffErrK: number | null;
+  teffErrFormalK: number | null;
+  teffLowerK: number | null;
+  thetaMas: number | null;
+  thetaErrMas: number | null;
+  radiusRsun: number | null;
+  radiusErrRsun: number | null;
+  lumLsun: number | null;
+  lumErrLsun: number | null;
+  fbolCgs: number | null;
+  fbolErrCgs: number | null;
+  avMag: number | null;
+  avErrMag: number | null;
+  avFitted: boolean;
+  chi2: number | null;
+  chi2Red: number | null;
+  nBands: number | null;
+  bandsUsed: string[];
+  irExcessSigma: number | null;
+  flags: { code: string; explanation: string }[];
+  law: string | null;
+  rv: number | null;
+  floorFraction: number | null;
+  bandLibraryVersion: string;
+  softwareVersion: string;
+}
+
+export interface StarSheet {
+  campaign: { id: string; name: string; fourEyes: boolean };
+  star: { id: number; starKey: string; raDeg: number | null; decDeg: number | null; parallaxMas: number | null; parallaxErrMas: number | null; avMag: number | null };
+  measurements: SheetMeasurement[];
+  fit: SheetFit | null;
+  bands: SheetBand[];
+  /** The fitted curve s · π B_λ(T) · 10^(−0.4 A_V k(λ)) at log-spaced wavelengths, as λF_λ. */
+  curve: { wavelengthUm: number[]; lambdaFlux: number[]; teffK: number; note: string } | null;
+  earlierFits: { id: number; batchId: string; createdAt: string; ok: boolean; teffK: number | null; teffLowerK: number | null; chi2Red: number | null; reviewStatus: string }[];
+  history: DecisionView[];
+}
+
+interface FitRow {
+  id: number;
+  batch_id: string;
+  created_at: number;
+  ok: number;
+  failure_reason: string | null;
+  review_status: string;
+  teff_k: number | null;
+  teff_err_k: number | null;
+  teff_err_formal_k: number | null;
+  teff_lower_k: number | null;
+  theta_mas: number | null;
+  theta_err_mas: number | null;
+  radius_rsun: number | null;
+  radius_err_rsun: number | null;
+  lum_lsun: number | null;
+  lum_err_lsun: number | null;
+  fbol_cgs: number | null;
+  fbol_err_cgs: number | null;
+  av_mag: number | null;
+  av_err_mag: number | null;
+  chi2_red: number | null;
+  n_bands: number | null;
+  bands_used: string | null;
+  ir_excess_sigma: number | null;
+  flags: string;
+  detail: string | null;
+  band_library_version: string;
+  software_version: string;
+  batch_created_at: number;
+  started_by_id: string | null;
+  started_by_name: string | null;
+}
+
+interface FitDetail {
+  chi2?: number;
+  avFitted?: boolean;
+  residualsSigma?: Record<string, number>;
+  modelFluxesCgs?: Record<string, number>;
+  observed?: Record<string, { fluxCgs: number; errCgs: number; upperLimit: boolean }>;
+  excluded?: { band: string; reason: string }[];
+  skipped?: { band: string; source: string; reason: string }[];
+  options?: Partial<FitOptions>;
+}
+
+/** The star by numeric id or by its key in the campaign; 404 when it is not in this campaign. */
+function findStar(db: AppDatabase, campaignId: string, starRef: string | number) {
+  const sqlite = db.$client;
+  type Row = { id: number; star_key: string; ra_deg: number | null; dec_deg: number | null; parallax_mas: number | null; parallax_err_mas: number | null; av_mag: number | null };
+  const cols = 'id, star_key, ra_deg, dec_deg, parallax_mas, parallax_err_mas, av_mag';
+  let row: Row | undefined;
+  const asNumber = typeof starRef === 'number' ? starRef : /^\d+$/.test(starRef) ? Number(starRef) : NaN;
+  if (Number.isSafeInteger(asNumber)) row = sqlite.prepare(`SELECT ${cols} FROM stars WHERE campaign_id = ? AND id = ?`).get(campaignId, asNumber) as Row | undefined;
+  if (!row && typeof starRef === 'string') row = sqlite.prepare(`SELECT ${cols} FROM stars WHERE campaign_id = ? AND star_key = ?`).get(campaignId, starRef) as Row | undefined;
+  if (!row) throw new HttpError('not_found', 'No star with that id in this campaign.');
+  return row;
+}
+
+const CURVE_MIN_UM = 0.1;
+const CURVE_MAX_UM = 30;
+const CURVE_POINTS = 300;
+
+/**
+ * λF_λ of the fitted model over 0.1–30 µm: F_λ = s · π B_λ(T) · 10^(−0.4 A_V k(λ)) (product.md 1, 4)
+ * with s = (θ/2)². Drawn for the eye; the fit itself compares band means, never this curve.
+ */
+export function sampleCurve(teffK: number, thetaMas: number, avMag: number, law: ExtinctionLawKey, rv: number): { wavelengthUm: number[]; lambdaFlux: number[] } {
+  const s = dilutionFromThetaMas(thetaMas);
+  const k = avMag !== 0 ? extinctionFunction({ law, rv }) : null;
+  const wavelengthUm: number[] = [];
+  const lambdaFlux: number[] = [];
+  const lnMin = Math.log(CURVE_MIN_UM);
+  const step = (Math.log(CURVE_MAX_UM) - lnMin) / (CURVE_POINTS - 1);
+  for (let i = 0; i < CURVE_POINTS; i++) {
+    const um = Math.exp(lnMin + i * step);
+    const angstrom = um * 1e4;
+    let f = s * Math.PI * planckLambdaCgsAngstrom(angstrom, teffK);
+    if (k) {
+      const a = k(angstrom);
+      f *= Number.isFinite(a) ? Math.pow(10, -0.4 * avMag * a) : NaN;
+    }
+    if (!(f > 0) || !Number.isFinite(f)) continue;
+    wavelengthUm.push(um);
+    lambdaFlux.push(f * angstrom);
+  }
+  return { wavelengthUm, lambdaFlux };
+}
+
+export function starSheet(db: AppDatabase, campaignId: string, starRef: string | number): StarSheet {
+  const sqlite = db.$client;
+  const campaign = sqlite.prepare('SELECT id, name FROM campaigns WHERE id = ?').get(campaignId) as { id: string; name: string } | undefined;
+  if (!campaign) throw new HttpError('not_found', 'No campaign with that id.');
+  const star = findStar(db, campaignId, starRef);
+  const library = starterBandLibrary();
+
+  const fits = sqlite
+    .prepare(
+      `SELECT r.*, b.created_at AS batch_created_at, b.started_by_id, u.name AS started_by_name
+       FROM fit_results r JOIN batches b ON b.id = r.batch_id LEFT JOIN user u ON u.id = b.started_by_id
+       WHERE r.star_id = ? ORDER BY b.created_at DESC, r.id DESC`,
+    )
+    .all(star.id) as FitRow[];
+  const latest = fits[0] ?? null;
+  const detail: FitDetail = latest?.detail ? (JSON.parse(latest.detail) as FitDetail) : {};
+  const options = detail.options ?? {};
+
+  const skippedBy = new Map<string, string>();
+  for (const s of detail.skipped ?? []) skippedBy.set(`${s.band}\u0000${s.source}`, s.reason);
+  const measurementRows = sqlite
+    .prepare(
+      `SELECT m.id, m.band_key, m.source, m.upload_id, up.original_name, m.mag, m.mag_err, m.fnu_jy, m.fnu_err_jy, m.upper_limit, m.quality
+       FROM measurements m LEFT JOIN uploads up ON up.id = m.upload_id WHERE m.star_id = ? ORDER BY m.band_key, m.source`,
+    )
+    .all(star.id) as {
+    id: number; band_key: string; source: string; upload_id: string | null; original_name: string | null; mag: number | null; mag_err: number | null;
+    fnu_jy: number | null; fnu_err_jy: number | null; upper_limit: number; quality: string | null;
+  }[];
+  const measurements: SheetMeasurement[] = measurementRows.map((m) => {
+    const band = getBand(library, m.band_key);
+    return {
+      id: m.id,
+      bandKey: m.band_key,
+      bandLabel: band?.label ?? null,
+      pivotUm: band ? band.pivotAngstrom / 1e4 : null,
+      source: m.source,
+      upload: m.upload_id ? { id: m.upload_id, name: m.original_name ?? m.upload_id } : null,
+      mag: m.mag,
+      magErr: m.mag_err,
+      fnuJy: m.fnu_jy,
+      fnuErrJy: m.fnu_err_jy,
+      upperLimit: m.upper_limit === 1,
+      quality: m.quality,
+      notUsedReason: skippedBy.get(`${m.band_key}\u0000${m.source}`) ?? null,
+    };
+  });
+
+  const bands: SheetBand[] = [];
+  let curve: StarSheet['curve'] = null;
+  let fit: SheetFit | null = null;
+  if (latest) {
+    const floor = typeof options.floorFraction === 'number' ? options.floorFraction : 0;
+    const excludedBy = new Map((detail.excluded ?? []).map((e) => [e.band, e.reason]));
+    for (const [key, obs] of Object.entries(detail.observed ?? {})) {
+      const band = getBand(library, key);
+      if (!band) continue;
+      const pivot = band.pivotAngstrom;
+      const sigma = applyFloor({ bandKey: key, fluxCgs: obs.fluxCgs, errCgs: obs.errCgs, upperLimit: obs.upperLimit }, floor).errCgs;
+      const model = detail.modelFluxesCgs?.[key];
+      const residual = detail.residualsSigma?.[key];
+      const excludedReason = excludedBy.get(key);
+      const outlier = typeof residual === 'number' && !obs.upperLimit && !excludedReason && Math.abs(residual) > OUTLIER_SIGMA;
+      const role: SheetBand['role'] = excludedReason ? 'excluded' : obs.upperLimit ? 'upper_limit' : 'fitted';
+      let note: string | null = null;
+      if (excludedReason) note = `Not in the fit: ${EXCLUSION_LABELS[excludedReason] ?? excludedReason}.`;
+      else if (obs.upperLimit) note = 'Upper limit: counts only where the curve would exceed it.';
+      else if (outlier) note = `More than ${OUTLIER_SIGMA}σ from the curve.`;
+      bands.push({
+        key,
+        label: band.label,
+        pivotAngstrom: pivot,
+        pivotUm: pivot / 1e4,
+        observedFluxCgs: obs.fluxCgs,
+        errCgs: obs.errCgs,
+        sigmaCgs: sigma,
+        upperLimit: obs.upperLimit,
+        modelFluxCgs: typeof model === 'number' && Number.isFinite(model) ? model : null,
+        residualSigma: typeof residual === 'number' && Number.isFinite(residual) ? residual : null,
+        observedLambdaFlux: obs.fluxCgs * pivot,
+        sigmaLambdaFlux: sigma * pivot,
+        modelLambdaFlux: typeof model === 'number' && Number.isFinite(model) ? model * pivot : null,
+        role,
+        outlier,
+        note,
+      });
+    }
+    bands.sort((a, b) => a.pivotAngstrom - b.pivotAngstrom);
+
+    const law = (options.law ?? 'f99') as ExtinctionLawKey;
+    const rv = typeof options.rv === 'number' ? options.rv : 3.1;
+    const curveTeff = latest.teff_k;
+    if (latest.ok === 1 && curveTeff !== null && latest.theta_mas !== null) {
+      curve = { ...sampleCurve(curveTeff, latest.theta_mas, latest.av_mag ?? 0, law, rv), teffK: curveTeff, note: `blackbody, T = ${Math.round(curveTeff)} K` };
+    }
+    fit = {
+      id: latest.id,
+      batchId: latest.batch_id,
+      batchCreatedAt: new Date(latest.batch_created_at).toISOString(),
+      batchStartedBy: latest.started_by_id ? { id: latest.started_by_id, name: latest.started_by_name ?? 'former user' } : null,
+      createdAt: new Date(latest.created_at).toISOString(),
+      ok: latest.ok === 1,
+      failureReason: latest.failure_reason,
+      reviewStatus: latest.review_status,
+      teffK: latest.teff_k,
+      teffErrK: latest.teff_err_k,
+      teffErrFormalK: latest.teff_err_formal_k,
+      teffLowerK: latest.teff_lower_k,
+      thetaMas: latest.theta_mas,
+      thetaErrMas: latest.theta_err_mas,
+      radiusRsun: latest.radius_rsun,
+      radiusErrRsun: latest.radius_err_rsun,
+      lumLsun: latest.lum_lsun,
+      lumErrLsun: latest.lum_err_lsun,
+      fbolCgs: latest.fbol_cgs,
+      fbolErrCgs: latest.fbol_err_cgs,
+      avMag: latest.av_mag,
+      avErrMag: latest.av_err_mag,
+      avFitted: detail.avFitted === true,
+      chi2: typeof detail.chi2 === 'number' ? detail.chi2 : null,
+      chi2Red: latest.chi2_red,
+      nBands: latest.n_bands,
+      bandsUsed: latest.bands_used ? latest.bands_used.split(' ') : [],
+      irExcessSigma: latest.ir_excess_sigma,
+      flags: explainFlags(latest.flags ? latest.flags.split(' ') : []),
+      law: options.law ?? null,
+      rv: typeof options.rv === 'number' ? options.rv : null,
+      floorFraction: typeof options.floorFraction === 'number' ? options.floorFraction : null,
+      bandLibraryVersion: latest.band_library_version,
+      softwareVersion: latest.software_version,
+    };
+  }
+
+  return {
+    campaign: { id: campaign.id, name: campaign.name, fourEyes: getReviewSettings(db, campaignId).fourEyes },
+    star: { id: star.id, starKey: star.star_key, raDeg: star.ra_deg, decDeg: star.dec_deg, parallaxMas: star.parallax_mas, parallaxErrMas: star.parallax_err_mas, avMag: star.av_mag },
+    measurements,
+    fit,
+    bands,
+    curve,
+    earlierFits: fits.slice(1).map((f) => ({
+      id: f.id,
+      batchId: f.batch_id,
+      createdAt: new Date(f.created_at).toISOString(),
+      ok: f.ok === 1,
+      teffK: f.teff_k,
+      teffLowerK: f.teff_lower_k,
+      chi2Red: f.chi2_red,
+      reviewStatus: f.review_status,
+    })),
+    history: starHistory(db, star.id),
+  };
+}

@@ -1,0 +1,372 @@
+// Review through its API handlers and use cases on a real migrated SQLite, with stars fitted by the
+// real path (startBatch + a worker draining the queue): the star sheet's numbers against the core,
+// single and bulk decisions with their audit trail, the four-eyes rule, supersession on re-fit,
+// server paging of the queue, the notice to reviewers, and who may call each endpoint.
+import { afterEach, describe, expect, it } from 'vitest';
+import { GET as starRoute } from '../src/pages/api/campaigns/[id]/stars/[starId]';
+import { GET as queueRoute } from '../src/pages/api/campaigns/[id]/review-queue';
+import { POST as bulkRoute } from '../src/pages/api/campaigns/[id]/review/bulk';
+import { GET as getSettingsRoute, POST as setSettingsRoute } from '../src/pages/api/campaigns/[id]/review/settings';
+import { POST as decisionRoute } from '../src/pages/api/fits/[fitId]/decision';
+import { GET as historyRoute } from '../src/pages/api/fits/[fitId]/history';
+import { requireBand, starterBandLibrary } from '../src/core/bands';
+import { dilutionFromThetaMas } from '../src/core/fit/derived';
+import { FLAG_EXPLANATIONS } from '../src/core/fit/flags';
+import { planckBandMean, previewPlanckAtPivot } from '../src/core/photometry';
+import { finishBatchIfDone } from '../src/server/batches';
+import type { Actor } from '../src/server/context';
+import { FOUR_EYES_MESSAGE, notifyReviewersOfBatch } from '../src/server/review';
+import { addToCampaign, makeCampaign, makeUser } from './factories';
+import { LANTERNFIELD_STARS, REVIEW_BANDS, fitAndDrain, fitIdOf, insertReviewStars } from './factories-review';
+import { createTestApp, type TestApp } from './setup/db';
+
+const apps: TestApp[] = [];
+afterEach(() => {
+  for (const a of apps.splice(0)) a.cleanup();
+});
+
+/**
+ * lead: analyst and reviewer, starts the batch (so the four-eyes rule applies to them);
+ * reviewer: reviewer only; analyst: analyst only; collaborator; outsider; admin (not a member).
+ */
+async function world() {
+  const t = createTestApp();
+  apps.push(t);
+  const lead = await makeUser(t.app, { name: 'Ada Lead' });
+  const reviewer = await makeUser(t.app, { name: 'Rhea Reviewer' });
+  const analyst = await makeUser(t.app, { name: 'Anil Analyst' });
+  const collaborator = await makeUser(t.app, { kind: 'guest', name: 'Cole Guest' });
+  const outsider = await makeUser(t.app);
+  const admin = await makeUser(t.app, { kind: 'admin', name: 'Ama Admin' });
+  const campaign = makeCampaign(t.app, lead, { name: 'Lanternfield review test' });
+  // The creator is the campaign's analyst; give them the reviewer role too (no use case changes roles yet).
+  t.sqlite.prepare("INSERT INTO campaign_member_roles (campaign_id, user_id, role) VALUES (?, ?, 'reviewer')").run(campaign.id, lead.id);
+  await addToCampaign(t.app, lead, campaign.id, reviewer, ['reviewer']);
+  await addToCampaign(t.app, lead, campaign.id, analyst, ['analyst']);
+  await addToCampaign(t.app, lead, campaign.id, collaborator, ['collaborator']);
+  // One upload row, so the sheet can name the file each measurement came from.
+  t.sqlite
+    .prepare("INSERT INTO uploads (id, campaign_id, original_name, stored_path, size_bytes, sha256, status) VALUES ('up1', ?, 'lanternfield-s1.csv', 'unused', 1, 'x', 'imported')")
+    .run(campaign.id);
+  const stars = insertReviewStars(t.db, campaign.id, LANTERNFIELD_STARS, { uploadId: 'up1' });
+  const batchId = await fitAndDrain(t.app, lead, campaign.id);
+  return { t, lead, reviewer, analyst, collaborator, outsider, admin, campaign, stars, batchId };
+}
+
+type Route = (ctx: never) => Promise<Response> | Response;
+
+/** Call an Astro API route the way Astro does: locals from the middleware, params, request. */
+async function call(route: Route, t: TestApp, actor: Actor | null, params: Record<string, string>, init: { url?: string; body?: unknown } = {}) {
+  const url = new URL(init.url ?? 'http://127.0.0.1/api/test');
+  const request = new Request(url, init.body === undefined ? {} : { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify(init.body) });
+  const res = await route({ locals: { app: t.app, actor }, params, request, url } as never);
+  return { status: res.status, body: (await res.json()) as Record<string, any> }; // eslint-disable-line @typescript-eslint/no-explicit-any
+}
+
+const one = <T>(t: TestApp, sql: string, ...args: unknown[]) => t.sqlite.prepare(sql).pluck().get(...args) as T;
+
+describe('the star sheet', () => {
+  it('draws each measured band at its pivot, with model band means the core integrates again and a curve through them', async () => {
+    const w = await world();
+    const library = starterBandLibrary();
+    const r = await call(starRoute, w.t, w.collaborator, { id: w.campaign.id, starId: 'Cindermoor' });
+    expect(r.status).toBe(200);
+    const sheet = r.body;
+    expect(sheet.star.starKey).toBe('Cindermoor');
+    // Every band the star was measured in, in wavelength order, at the band library's pivot.
+    expect(sheet.bands.map((b: { key: string }) => b.key).sort()).toEqual([...REVIEW_BANDS].sort());
+    for (const b of sheet.bands) expect(b.pivotUm).toBeCloseTo(requireBand(library, b.key).pivotAngstrom / 1e4, 12);
+    const pivots = sheet.bands.map((b: { pivotUm: number }) => b.pivotUm);
+    expect(pivots).toEqual([...pivots].sort((a, b) => a - b));
+    // W3 and W4 (beyond ~5 µm) are excess checks, not fit inputs (product.md §8), and say so.
+    for (const key of ['W3', 'W4']) {
+      const b = sheet.bands.find((x: { key: string }) => x.key === key);
+      expect(b.role).toBe('excluded');
+      expect(b.note).toMatch(/beyond ~5 µm/);
+    }
+    // The fit recovers the invented star's temperature within its noise (0.02 mag, 10 bands).
+    expect(Math.abs(sheet.fit.teffK / 5610 - 1)).toBeLessThan(0.03);
+    // Model band means are s·⟨πB_λ⟩ through each real passband: integrate again directly with the
+    // core (not the fit's interpolation tables) and compare (tables agree to 1e-5, src/core/fit/README.md).
+    const s = dilutionFromThetaMas(sheet.fit.thetaMas);
+    for (const b of sheet.bands) {
+      const direct = s * planckBandMean(requireBand(library, b.key), sheet.fit.teffK, 0, { law: 'f99', rv: 3.1 });
+      expect(Math.abs(b.modelFluxCgs / direct - 1)).toBeLessThan(1e-4);
+      expect(b.modelLambdaFlux).toBeCloseTo(b.modelFluxCgs * b.pivotAngstrom, 20);
+      // Residual in σ: (data − model)/σ with the 2 % floor (product.md §5, §6).
+      expect(b.residualSigma).toBeCloseTo((b.observedFluxCgs - b.modelFluxCgs) / b.sigmaCgs, 6);
+    }
+    // The curve is s·πB_λ(T) (A_V = 0 here): at the V pivot it equals the core's one-wavelength preview.
+    const v = requireBand(library, 'V');
+    const curve = sheet.curve;
+    expect(curve.wavelengthUm[0]).toBeCloseTo(0.1, 10);
+    expect(curve.wavelengthUm[curve.wavelengthUm.length - 1]).toBeCloseTo(30, 8);
+    const i = curve.wavelengthUm.findIndex((um: number) => um >= v.pivotAngstrom / 1e4);
+    const um = curve.wavelengthUm[i];
+    const expected = s * previewPlanckAtPivot({ ...v, wavelengthAngstrom: [um * 1e4 - 1, um * 1e4, um * 1e4 + 1], response: [0, 1, 0] }, sheet.fit.teffK, 0, { law: 'f99', rv: 3.1 }) * um * 1e4;
+    expect(Math.abs(curve.lambdaFlux[i] / expected - 1)).toBeLessThan(1e-6);
+    // Measurements name the file they came from.
+    expect(sheet.measurements).toHaveLength(REVIEW_BANDS.length);
+    expect(sheet.measurements.every((m: { upload: { name: string } }) => m.upload?.name === 'lanternfield-s1.csv')).toBe(true);
+    // By numeric id too; a star of another campaign is not found.
+    expect((await call(starRoute, w.t, w.reviewer, { id: w.campaign.id, starId: String(sheet.star.id) })).body.star.starKey).toBe('Cindermoor');
+    expect((await call(starRoute, w.t, w.reviewer, { id: w.campaign.id, starId: 'Nowhere' })).status).toBe(404);
+  });
+
+  it('marks the flagged and excluded bands with their reasons, and explains each flag', async () => {
+    const w = await world();
+    const harth = (await call(starRoute, w.t, w.reviewer, { id: w.campaign.id, starId: 'Harthglow' })).body;
+    const codes = harth.fit.flags.map((f: { code: string }) => f.code);
+    expect(codes).toContain('ir_excess');
+    expect(harth.fit.flags.find((f: { code: string }) => f.code === 'ir_excess').explanation).toBe(FLAG_EXPLANATIONS.ir_excess);
+    expect(harth.fit.irExcessSigma).toBeGreaterThan(3);
+    const orro = (await call(starRoute, w.t, w.reviewer, { id: w.campaign.id, starId: 'Orrowind' })).body;
+    const j = orro.bands.find((b: { key: string }) => b.key === 'J');
+    expect(j.outlier).toBe(true);
+    expect(Math.abs(j.residualSigma)).toBeGreaterThan(3);
+    expect(j.note).toMatch(/More than 3σ/);
+    expect(orro.fit.flags.map((f: { code: string }) => f.code)).toContain('outlier');
+  });
+});
+
+describe('decisions', () => {
+  it('keeps every decision with reviewer and time, supersedes the earlier one and writes the audit trail', async () => {
+    const w = await world();
+    const fitId = fitIdOf(w.t.db, w.batchId, 'Orrowind');
+    const before = Date.now();
+    const flagged = await call(decisionRoute, w.t, w.reviewer, { fitId: String(fitId) }, { body: { decision: 'flagged', reason: 'bad_photometry', comment: 'J is far too bright.' } });
+    expect(flagged.status).toBe(201);
+    expect(flagged.body.decision).toMatchObject({ decision: 'flagged', reason: 'bad_photometry', reasonLabel: 'One or more measurements look wrong', reviewer: { id: w.reviewer.id, name: 'Rhea Reviewer' }, supersededAt: null });
+    expect(one<string>(w.t, 'SELECT review_status FROM fit_results WHERE id = ?', fitId)).toBe('flagged');
+
+    const accepted = await call(decisionRoute, w.t, w.admin, { fitId: String(fitId) }, { body: { decision: 'accepted', comment: 'J checked against the images: fine after all.' } });
+    expect(accepted.status).toBe(201);
+    expect(one<string>(w.t, 'SELECT review_status FROM fit_results WHERE id = ?', fitId)).toBe('accepted');
+
+    const history = (await call(historyRoute, w.t, w.collaborator, { fitId: String(fitId) })).body.history;
+    expect(history).toHaveLength(2);
+    expect(history[0]).toMatchObject({ decision: 'accepted', reviewer: { id: w.admin.id }, supersededAt: null });
+    expect(history[1]).toMatchObject({ decision: 'flagged', reviewer: { id: w.reviewer.id }, supersededReason: 'changed' });
+    expect(Date.parse(history[1].supersededAt)).toBeGreaterThanOrEqual(Date.parse(history[1].createdAt));
+
+    const audit = w.t.sqlite
+      .prepare("SELECT actor_id AS actorId, action, details, created_at AS createdAt FROM audit_events WHERE action IN ('review.flagged', 'review.accepted') ORDER BY id")
+      .all() as { actorId: string; action: string; details: string; createdAt: number }[];
+    expect(audit.map((a) => [a.action, a.actorId])).toEqual([
+      ['review.flagged', w.reviewer.id],
+      ['review.accepted', w.admin.id],
+    ]);
+    for (const a of audit) expect(a.createdAt).toBeGreaterThanOrEqual(before - 1000);
+    expect(JSON.parse(audit[0].details)).toMatchObject({ fitResultId: fitId, starKey: 'Orrowind', reason: 'bad_photometry', comment: 'J is far too bright.' });
+    expect(JSON.parse(audit[1].details).supersedes).toEqual([flagged.body.decision.id]);
+  });
+
+  it('refuses incomplete or unknown input with a 400 naming the field, and writes nothing', async () => {
+    const w = await world();
+    const fitId = String(fitIdOf(w.t.db, w.batchId, 'Velloran'));
+    const cases: [unknown, string, RegExp][] = [
+      [{ decision: 'flagged' }, 'reason', /A flag needs a reason/],
+      [{ decision: 'flagged', reason: 'vibes' }, 'reason', /reason must be one of poor_fit/],
+      [{ decision: 'flagged', reason: 'other' }, 'comment', /say what is wrong/],
+      [{ decision: 'accepted', reason: 'poor_fit' }, 'reason', /takes no reason/],
+      [{ decision: 'maybe' }, 'decision', /accepted or flagged/],
+      [{ decision: 'accepted', comment: 'x'.repeat(2001) }, 'comment', /at most 2000/],
+    ];
+    for (const [body, field, message] of cases) {
+      const r = await call(decisionRoute, w.t, w.reviewer, { fitId }, { body });
+      expect(r.status, JSON.stringify(body)).toBe(400);
+      expect(r.body.error.field).toBe(field);
+      expect(r.body.error.message).toMatch(message);
+    }
+    expect(one<number>(w.t, 'SELECT count(*) FROM review_decisions')).toBe(0);
+    expect((await call(decisionRoute, w.t, w.reviewer, { fitId: '999999' }, { body: { decision: 'accepted' } })).status).toBe(404);
+    expect((await call(decisionRoute, w.t, w.reviewer, { fitId: 'abc' }, { body: { decision: 'accepted' } })).status).toBe(404);
+  });
+
+  it('keeps the four-eyes rule: whoever started the batch cannot accept its fits until the campaign switches the rule off', async () => {
+    const w = await world();
+    const fitId = String(fitIdOf(w.t.db, w.batchId, 'Velloran'));
+    const refused = await call(decisionRoute, w.t, w.lead, { fitId }, { body: { decision: 'accepted' } });
+    expect(refused.status).toBe(403);
+    expect(refused.body.error.message).toBe(FOUR_EYES_MESSAGE);
+    expect(one<number>(w.t, 'SELECT count(*) FROM review_decisions')).toBe(0);
+    // Flagging is not accepting: allowed.
+    expect((await call(decisionRoute, w.t, w.lead, { fitId }, { body: { decision: 'flagged', reason: 'needs_refit' } })).status).toBe(201);
+    // Bulk accept leaves out the fits of the caller's own batch and says how many.
+    const bulk = await call(bulkRoute, w.t, w.lead, { id: w.campaign.id }, { body: { filter: { chi2RedBelow: 100 }, decision: 'accepted' } });
+    expect(bulk.status).toBe(200);
+    expect(bulk.body.decided).toBe(0);
+    expect(bulk.body.skippedFourEyes).toBe(one<number>(w.t, "SELECT count(*) FROM fit_results WHERE ok = 1 AND review_status = 'pending' AND chi2_red < 100"));
+
+    // Only the campaign's analysts (and admins) switch the rule; the change is audited.
+    expect((await call(setSettingsRoute, w.t, w.reviewer, { id: w.campaign.id }, { body: { fourEyes: false } })).status).toBe(403);
+    expect((await call(setSettingsRoute, w.t, w.analyst, { id: w.campaign.id }, { body: { fourEyes: 'no' } })).status).toBe(400);
+    const off = await call(setSettingsRoute, w.t, w.analyst, { id: w.campaign.id }, { body: { fourEyes: false } });
+    expect(off.body.settings).toEqual({ fourEyes: false });
+    expect((await call(getSettingsRoute, w.t, w.collaborator, { id: w.campaign.id })).body.settings).toEqual({ fourEyes: false });
+    expect(one<string>(w.t, "SELECT actor_id FROM audit_events WHERE action = 'review.four_eyes_off'")).toBe(w.analyst.id);
+    expect((await call(decisionRoute, w.t, w.lead, { fitId }, { body: { decision: 'accepted' } })).status).toBe(201);
+  });
+});
+
+describe('bulk decisions', () => {
+  it('accepts exactly the pending fits the filter selects, in one go, each decision recording the filter', async () => {
+    const w = await world();
+    const filter = { chi2RedBelow: 3, noFlags: true };
+    const expected = (w.t.sqlite
+      .prepare("SELECT id FROM fit_results WHERE campaign_id = ? AND ok = 1 AND review_status = 'pending' AND chi2_red < 3 AND flags = '' ORDER BY id")
+      .pluck()
+      .all(w.campaign.id) as number[]);
+    // The invented stars with an excess or a bad band carry flags, so some stay out.
+    expect(expected.length).toBeGreaterThan(0);
+    expect(expected.length).toBeLessThan(LANTERNFIELD_STARS.length);
+    const r = await call(bulkRoute, w.t, w.reviewer, { id: w.campaign.id }, { body: { filter, decision: 'accepted', comment: 'clean fits' } });
+    expect(r.status).toBe(200);
+    expect(r.body).toMatchObject({ decided: expected.length, skippedFourEyes: 0 });
+    const rows = w.t.sqlite.prepare('SELECT fit_result_id AS fitId, reviewer_id AS reviewerId, bulk_filter AS bulkFilter FROM review_decisions ORDER BY fit_result_id').all() as { fitId: number; reviewerId: string; bulkFilter: string }[];
+    expect(rows.map((x) => x.fitId)).toEqual(expected);
+    for (const x of rows) {
+      expect(x.reviewerId).toBe(w.reviewer.id);
+      expect(JSON.parse(x.bulkFilter)).toEqual(filter);
+    }
+    expect(one<number>(w.t, "SELECT count(*) FROM audit_events WHERE action = 'review.accepted' AND actor_id = ?", w.reviewer.id)).toBe(expected.length);
+    expect(JSON.parse(one<string>(w.t, "SELECT details FROM audit_events WHERE action = 'review.bulk'"))).toMatchObject({ filter, decided: expected.length });
+    // The queue now holds only the rest.
+    const queue = await call(queueRoute, w.t, w.reviewer, { id: w.campaign.id });
+    expect(queue.body.total).toBe(LANTERNFIELD_STARS.length - expected.length);
+
+    // A bulk action without any filter is refused, so nothing is decided by accident.
+    const none = await call(bulkRoute, w.t, w.reviewer, { id: w.campaign.id }, { body: { filter: {}, decision: 'accepted' } });
+    expect(none.status).toBe(400);
+    expect(none.body.error.message).toMatch(/at least one filter/);
+    const unknown = await call(bulkRoute, w.t, w.reviewer, { id: w.campaign.id }, { body: { filter: { chi2: 3 }, decision: 'accepted' } });
+    expect(unknown.status).toBe(400);
+    expect(unknown.body.error.message).toMatch(/unknown field "chi2"/);
+  });
+});
+
+describe('re-fit after review', () => {
+  it('marks the old decisions and fits superseded, never deletes them, and queues the new fits', async () => {
+    const w = await world();
+    const oldFit = fitIdOf(w.t.db, w.batchId, 'Ashbright');
+    expect((await call(decisionRoute, w.t, w.reviewer, { fitId: String(oldFit) }, { body: { decision: 'accepted' } })).status).toBe(201);
+    const flaggedFit = fitIdOf(w.t.db, w.batchId, 'Harthglow');
+    expect((await call(decisionRoute, w.t, w.reviewer, { fitId: String(flaggedFit) }, { body: { decision: 'flagged', reason: 'ir_excess' } })).status).toBe(201);
+
+    const second = await fitAndDrain(w.t.app, w.analyst, w.campaign.id, { floorFraction: 0.03 }, ['Ashbright', 'Harthglow']);
+    const newFit = fitIdOf(w.t.db, second, 'Ashbright');
+    const decisions = w.t.sqlite.prepare('SELECT fit_result_id AS fitId, superseded_at AS supersededAt, superseded_reason AS why FROM review_decisions ORDER BY id').all() as { fitId: number; supersededAt: number | null; why: string }[];
+    expect(decisions).toHaveLength(2);
+    for (const d of decisions) {
+      expect(d.supersededAt).not.toBeNull();
+      expect(d.why).toBe('refit');
+    }
+    expect(one<string>(w.t, 'SELECT review_status FROM fit_results WHERE id = ?', oldFit)).toBe('superseded');
+    expect(one<string>(w.t, 'SELECT review_status FROM fit_results WHERE id = ?', newFit)).toBe('pending');
+    // Each superseded decision leaves an audit event naming the fit that replaced it.
+    const events = (w.t.sqlite.prepare("SELECT details FROM audit_events WHERE action = 'review.superseded' ORDER BY id").pluck().all() as string[]).map((d) => JSON.parse(d));
+    expect(events).toHaveLength(2);
+    expect(events.find((e) => e.fitResultId === oldFit)).toMatchObject({ byFitResultId: newFit, batchId: second, reason: 'refit' });
+    // The old fit can no longer be decided on; its history is still there.
+    const late = await call(decisionRoute, w.t, w.reviewer, { fitId: String(oldFit) }, { body: { decision: 'accepted' } });
+    expect(late.status).toBe(409);
+    expect(late.body.error.message).toMatch(/replaced by a newer fit/);
+    expect((await call(historyRoute, w.t, w.reviewer, { fitId: String(oldFit) })).body.history).toHaveLength(1);
+    // The star sheet shows the new fit, the old one among earlier fits, and the whole history.
+    const sheet = (await call(starRoute, w.t, w.reviewer, { id: w.campaign.id, starId: 'Ashbright' })).body;
+    expect(sheet.fit).toMatchObject({ id: newFit, batchId: second, reviewStatus: 'pending', floorFraction: 0.03 });
+    expect(sheet.earlierFits.map((f: { id: number }) => f.id)).toEqual([oldFit]);
+    expect(sheet.history).toHaveLength(1);
+    expect(sheet.history[0]).toMatchObject({ fitResultId: oldFit, supersededReason: 'refit' });
+    // One pending fit per star in the queue: the new fits for the re-fitted stars.
+    const queue = (await call(queueRoute, w.t, w.reviewer, { id: w.campaign.id }, { url: 'http://127.0.0.1/api/x?limit=200' })).body;
+    expect(queue.total).toBe(LANTERNFIELD_STARS.length);
+    expect(queue.items.find((i: { starKey: string }) => i.starKey === 'Ashbright').fitResultId).toBe(newFit);
+  });
+});
+
+describe('the queue', () => {
+  it('pages on the server by star key and filters by χ²_ν, flags and Teff', async () => {
+    const w = await world();
+    const seen: string[] = [];
+    let cursor: string | null = null;
+    let pages = 0;
+    do {
+      const q: string = `http://127.0.0.1/api/x?limit=3${cursor ? `&cursor=${encodeURIComponent(cursor)}` : ''}`;
+      const r = await call(queueRoute, w.t, w.reviewer, { id: w.campaign.id }, { url: q });
+      expect(r.status).toBe(200);
+      expect(r.body.items.length).toBeLessThanOrEqual(3);
+      expect(r.body.total).toBe(LANTERNFIELD_STARS.length);
+      seen.push(...r.body.items.map((i: { starKey: string }) => i.starKey));
+      cursor = r.body.nextCursor;
+      pages++;
+    } while (cursor);
+    expect(pages).toBe(3);
+    expect(seen).toEqual(LANTERNFIELD_STARS.map((s) => s.starKey).sort());
+
+    const hot = await call(queueRoute, w.t, w.reviewer, { id: w.campaign.id }, { url: 'http://127.0.0.1/api/x?teffMinK=5500&teffMaxK=7000' });
+    const expectedHot = w.t.sqlite.prepare("SELECT count(*) FROM fit_results WHERE ok = 1 AND teff_k BETWEEN 5500 AND 7000").pluck().get() as number;
+    expect(hot.body.total).toBe(expectedHot);
+    for (const i of hot.body.items) expect(i.teffK).toBeGreaterThanOrEqual(5500);
+    const clean = await call(queueRoute, w.t, w.reviewer, { id: w.campaign.id }, { url: 'http://127.0.0.1/api/x?noFlags=1&chi2RedBelow=3' });
+    for (const i of clean.body.items) {
+      expect(i.flags).toEqual([]);
+      expect(i.chi2Red).toBeLessThan(3);
+    }
+    const bad = await call(queueRoute, w.t, w.reviewer, { id: w.campaign.id }, { url: 'http://127.0.0.1/api/x?teffMinK=warm' });
+    expect(bad.status).toBe(400);
+    expect(bad.body.error.field).toBe('teffMinK');
+    expect((await call(queueRoute, w.t, w.reviewer, { id: w.campaign.id }, { url: 'http://127.0.0.1/api/x?limit=0' })).status).toBe(400);
+  });
+});
+
+describe('notice to reviewers', () => {
+  it('e-mails each reviewer of the campaign once when a batch finishes with fits waiting', async () => {
+    const w = await world();
+    const mails = w.t.sqlite.prepare("SELECT to_address AS toAddress, subject, text_body AS text FROM outbox_messages WHERE kind = 'review-notice' ORDER BY to_address").all() as { toAddress: string; subject: string; text: string }[];
+    expect(mails.map((m) => m.toAddress)).toEqual([w.lead.email, w.reviewer.email].sort());
+    for (const m of mails) {
+      expect(m.subject).toBe(`${LANTERNFIELD_STARS.length} fits to review in "Lanternfield review test"`);
+      expect(m.text).toContain(`/campaigns/${w.campaign.id}/review`);
+    }
+    // Finishing again (another worker) or asking again sends nothing more.
+    expect(await finishBatchIfDone(w.t.app, w.batchId)).toBe(false);
+    expect(await notifyReviewersOfBatch(w.t.app, w.batchId)).toBe(0);
+    expect(one<number>(w.t, "SELECT count(*) FROM outbox_messages WHERE kind = 'review-notice'")).toBe(2);
+    // The analyst's own "batch finished" e-mail is still the only plain notice.
+    expect(one<number>(w.t, "SELECT count(*) FROM outbox_messages WHERE kind = 'notice'")).toBe(1);
+  });
+});
+
+describe('who may call each endpoint', () => {
+  it('answers 401 to anonymous callers and 403 to those without the role, for every review endpoint', async () => {
+    const w = await world();
+    const fitId = String(fitIdOf(w.t.db, w.batchId, 'Quillmark'));
+    const id = w.campaign.id;
+    const decisionBody = { decision: 'flagged', reason: 'poor_fit' };
+    const bulkBody = { filter: { teffMinK: 100000 }, decision: 'flagged', reason: 'poor_fit' };
+    type Who = 'anonymous' | 'outsider' | 'collaborator' | 'analyst' | 'reviewer' | 'admin';
+    const actors: Record<Who, Actor | null> = { anonymous: null, outsider: w.outsider, collaborator: w.collaborator, analyst: w.analyst, reviewer: w.reviewer, admin: w.admin };
+    const endpoints: { name: string; route: Route; params: Record<string, string>; body?: unknown; expect: Record<Who, number> }[] = [
+      { name: 'GET star', route: starRoute, params: { id, starId: 'Quillmark' }, expect: { anonymous: 401, outsider: 403, collaborator: 200, analyst: 200, reviewer: 200, admin: 200 } },
+      { name: 'GET queue', route: queueRoute, params: { id }, expect: { anonymous: 401, outsider: 403, collaborator: 403, analyst: 200, reviewer: 200, admin: 200 } },
+      { name: 'POST decision', route: decisionRoute, params: { fitId }, body: decisionBody, expect: { anonymous: 401, outsider: 403, collaborator: 403, analyst: 403, reviewer: 201, admin: 201 } },
+      { name: 'POST bulk', route: bulkRoute, params: { id }, body: bulkBody, expect: { anonymous: 401, outsider: 403, collaborator: 403, analyst: 403, reviewer: 200, admin: 200 } },
+      { name: 'GET history', route: historyRoute, params: { fitId }, expect: { anonymous: 401, outsider: 403, collaborator: 200, analyst: 200, reviewer: 200, admin: 200 } },
+      { name: 'GET settings', route: getSettingsRoute, params: { id }, expect: { anonymous: 401, outsider: 403, collaborator: 200, analyst: 200, reviewer: 200, admin: 200 } },
+      { name: 'POST settings', route: setSettingsRoute, params: { id }, body: { fourEyes: true }, expect: { anonymous: 401, outsider: 403, collaborator: 403, analyst: 200, reviewer: 403, admin: 200 } },
+    ];
+    for (const e of endpoints) {
+      for (const who of Object.keys(actors) as Who[]) {
+        const r = await call(e.route, w.t, actors[who], e.params, e.body === undefined ? {} : { body: e.body });
+        expect(r.status, `${e.name} as ${who}: ${JSON.stringify(r.body)}`).toBe(e.expect[who]);
+        if (r.status >= 400) {
+          expect(r.body.error.code).toBe(r.status === 401 ? 'unauthenticated' : 'forbidden');
+          expect(r.body.error.message.length).toBeGreaterThan(10);
+        }
+      }
+    }
+    // Only the reviewer's and the admin's decisions were written, by them.
+    expect(w.t.sqlite.prepare('SELECT DISTINCT reviewer_id FROM review_decisions ORDER BY reviewer_id').pluck().all()).toEqual([w.reviewer.id, w.admin.id].sort());
+  });
+});
