@@ -16,7 +16,6 @@ import {
   type MappingResult,
   type MappingRules,
 } from '../../core/mapping';
-import { readVoTable, VoTableError } from '../../core/tables/votable';
 import type { DbOrTx } from '../../db/client';
 import { measurements, stars, uploads } from '../../db/schema';
 import type { Actor, AppServices } from '../context';
@@ -24,7 +23,7 @@ import { newId } from '../ids';
 import { parseInput } from '../validation';
 import { recordAudit } from '../audit';
 import { IntakeError } from './errors';
-import { FORMAT_LABELS, readUpload, UnreadableFile, type DetectedFormat, type ImageObservation, type ReadUpload } from './formats';
+import { FORMAT_LABELS, readUpload, UnreadableFile, type DetectedFormat, type ImageObservation, type ReadUpload } from '../../core/tables/table-file';
 import { fileProblem, toReport, type ReportEntry } from './report';
 import { intakeConfigFromEnv, receiveUpload, type IntakeConfig } from './storage';
 
@@ -38,20 +37,10 @@ export function intakeConfig(app: AppServices): IntakeConfig {
   return intakeConfigFromEnv(app.env.databasePath);
 }
 
-function voTableAsColumns(bytes: Uint8Array, file: string): ColumnTable {
-  try {
-    const t = readVoTable(bytes, { source: file });
-    return { file, columns: t.fields.map((f) => f.name), units: t.fields.map((f) => f.unit), rows: t.rows };
-  } catch (err) {
-    if (err instanceof VoTableError) throw new UnreadableFile(err.message);
-    throw err;
-  }
-}
-
 /** Reads the stored file of an upload again (uploads are read on each step, never cached). */
 export function readStoredUpload(storedPath: string, file: string): ReadUpload {
   const bytes = new Uint8Array(readFileSync(storedPath));
-  return readUpload(bytes, file, voTableAsColumns);
+  return readUpload(bytes, file);
 }
 
 // ---------------------------------------------------------------------------------------------

@@ -1,8 +1,11 @@
-// What an uploaded file is, decided from its bytes (never from its name or the browser's type),
-// and its table in the one shape the column mapping reads (core/mapping ColumnTable).
-import type { ColumnTable, TableCell } from '../../core/mapping';
-import { DelimitedError, decodeText, parseDelimited } from '../../core/tables/delimited';
-import { FitsError, readFits, readFitsImageHeader, readFitsTable, type FitsCell } from '../../core/tables/fits';
+// What an input file is, decided from its bytes (never from its name or the browser's type),
+// and its table in the one shape the column mapping reads (core/mapping ColumnTable). The web
+// intake and the `starkiln fit` command both read files through here, so they accept the same
+// formats and say the same things about a file they cannot read.
+import type { ColumnTable, TableCell } from '../mapping';
+import { DelimitedError, decodeText, parseDelimited } from './delimited';
+import { FitsError, readFits, readFitsImageHeader, readFitsTable, type FitsCell } from './fits';
+import { readVoTable, VoTableError } from './votable';
 
 export const DETECTED_FORMATS = ['csv', 'tsv', 'votable', 'fits-table', 'fits-image'] as const;
 export type DetectedFormat = (typeof DETECTED_FORMATS)[number];
@@ -81,7 +84,7 @@ const MAG_KEYWORDS: [string, string[]][] = [
   ['MAGNITUD', ['MAGERR']],
 ];
 
-function readFitsUpload(bytes: Uint8Array, file: string): ReadUpload {
+function readFitsUpload(bytes: Uint8Array, file: string, hdu?: number | string): ReadUpload {
   let hdus;
   try {
     hdus = readFits(bytes, { source: file }).hdus;
@@ -98,7 +101,7 @@ function readFitsUpload(bytes: Uint8Array, file: string): ReadUpload {
   }
   if (hdus.some((h) => h.kind === 'bintable')) {
     try {
-      const t = readFitsTable(bytes, { source: file });
+      const t = readFitsTable(bytes, { source: file, hdu });
       const columns = t.columns.map((c) => c.name);
       const data = columns.map((name) => t.getColumn(name));
       const rows: TableCell[][] = [];
@@ -189,15 +192,31 @@ function readTextUpload(bytes: Uint8Array, file: string): ReadUpload {
 
 export type XmlTableReader = (bytes: Uint8Array, file: string) => ColumnTable;
 
+/** A VOTable (TABLEDATA) as a ColumnTable; anything else in XML is an UnreadableFile. */
+export function voTableAsColumns(bytes: Uint8Array, file: string): ColumnTable {
+  try {
+    const t = readVoTable(bytes, { source: file });
+    return { file, columns: t.fields.map((f) => f.name), units: t.fields.map((f) => f.unit), rows: t.rows };
+  } catch (err) {
+    if (err instanceof VoTableError) throw new UnreadableFile(err.message);
+    throw err;
+  }
+}
+
+export interface ReadUploadOptions {
+  /** FITS: HDU index or EXTNAME of the table (default: the first binary table). */
+  hdu?: number | string;
+}
+
 /** Bytes → format and table. Throws UnreadableFile with a message naming the file. */
-export function readUpload(bytes: Uint8Array, file: string, readVoTable: XmlTableReader): ReadUpload {
+export function readUpload(bytes: Uint8Array, file: string, readXmlTable: XmlTableReader = voTableAsColumns, options: ReadUploadOptions = {}): ReadUpload {
   switch (sniffFormat(bytes)) {
     case 'empty':
       throw new UnreadableFile(`${file}: the file is empty`);
     case 'fits':
-      return readFitsUpload(bytes, file);
+      return readFitsUpload(bytes, file, options.hdu);
     case 'xml':
-      return { format: 'votable', table: readVoTable(bytes, file) };
+      return { format: 'votable', table: readXmlTable(bytes, file) };
     default:
       return readTextUpload(bytes, file);
   }
