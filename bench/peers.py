@@ -41,7 +41,7 @@ def main(d):
     teff_err = np.empty(n)
     theta = np.empty(n)
     t0 = time.perf_counter()
-    c0 = time.process_time()
+    cpu0 = time.process_time()
     chunk = 4096
     for a in range(0, n, chunk):
         b = min(n, a + chunk)
@@ -66,14 +66,14 @@ def main(d):
         teff_err[a:b] = teff[a:b] * sig_u
         theta[a:b] = 2 * np.sqrt(np.maximum(s, 0)) * MAS_PER_RAD
     t_np = time.perf_counter() - t0
-    c_np = time.process_time() - c0
+    c_np = time.process_time() - cpu0
     np_rel = float(np.nanmedian(np.abs(teff / truth - 1)))
 
     # scipy peer (subset)
     m = min(n, meta["scipySubset"])
     lnphi = np.log(phi)
     t0 = time.perf_counter()
-    c0 = time.process_time()
+    cpu0 = time.process_time()
     fails = 0
     teff_sp = np.full(m, np.nan)
     for i in range(m):
@@ -98,7 +98,7 @@ def main(d):
         except Exception:
             fails += 1
     t_sp = time.perf_counter() - t0
-    c_sp = time.process_time() - c0
+    c_sp = time.process_time() - cpu0
     sp_rel = float(np.nanmedian(np.abs(teff_sp / truth[:m] - 1)))
     out = {
         "numpy": {"seconds": t_np, "cpuSeconds": c_np, "fitsPerSec": n / t_np, "medianRelErr": np_rel},

@@ -54,8 +54,9 @@ describe('upper limits are censored', () => {
     const base = ok(fitStar(model, { id: 'a', bandFluxes: det }));
     const ul: BandFlux = { bandKey: 'U', fluxCgs: 10 * flux('U', 5200, 1), errCgs: flux('U', 5200, 1), upperLimit: true };
     const withUl = ok(fitStar(model, { id: 'a', bandFluxes: [...det, ul] }));
-    expect(withUl.teffK).toBe(base.teffK);
-    expect(withUl.chi2).toBe(base.chi2);
+    // Same minimum (the two runs take different code paths, so equal to rounding only).
+    expect(Math.abs((withUl.teffK as number) / (base.teffK as number) - 1)).toBeLessThan(1e-12);
+    expect(Math.abs(withUl.chi2 / base.chi2 - 1)).toBeLessThan(1e-10);
     expect(withUl.flags).not.toContain('upper_limit_active');
     expect(withUl.bandsUsed).not.toContain('U');
   });
