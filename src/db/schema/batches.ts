@@ -133,7 +133,7 @@ export const fitResults = sqliteTable(
     index('fit_results_current_lum_idx').on(t.campaignId, t.lumLsun).where(sql`is_current = 1`),
     index('fit_results_current_radius_idx').on(t.campaignId, t.radiusRsun).where(sql`is_current = 1`),
     index('fit_results_current_chi2_idx').on(t.campaignId, t.chi2Red).where(sql`is_current = 1`),
-    index('fit_results_current_status_idx').on(t.campaignId, t.reviewStatus, t.teffK).where(sql`is_current = 1`),
+    index('fit_results_current_review_idx').on(t.campaignId, t.reviewStatus).where(sql`is_current = 1`),
     index('fit_results_current_star_idx').on(t.starId).where(sql`is_current = 1`),
   ],
 );

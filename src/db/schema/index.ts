@@ -7,3 +7,4 @@ export * from './photometry';
 export * from './batches';
 export * from './review';
 export * from './review-settings';
+export * from './catalogue';

@@ -1,0 +1,555 @@
+// The catalogue of a campaign: each star's current result (fit_results.is_current, kept by a
+// trigger: its newest successful fit, else its newest failure) with its review status. Pages are
+// read by keyset on (sort value, fit id) through the partial indexes of drizzle/0005, so a page
+// costs the same on page 1 and page 20 000. Missing values (no parallax → no radius) sort last in
+// both directions. The same filter drives the table, the diagrams and the downloads.
+import type Database from 'better-sqlite3';
+import { z } from 'zod';
+import type { DbOrTx } from '../db/client';
+import { FLAG_EXPLANATIONS } from '../core/fit';
+import { HttpError } from './errors';
+import { parseInput } from './validation';
+
+export const CATALOGUE_SORTS = ['teff_k', 'lum_lsun', 'radius_rsun', 'chi2_red', 'star_key', 'review_status'] as const;
+export type CatalogueSort = (typeof CATALOGUE_SORTS)[number];
+/** Review states a current result can have (superseded fits are never current). */
+export const CATALOGUE_STATUSES = ['pending', 'accepted', 'flagged'] as const;
+export type CatalogueStatus = (typeof CATALOGUE_STATUSES)[number];
+export const FLAG_CODES = Object.keys(FLAG_EXPLANATIONS);
+
+export const DEFAULT_PAGE_SIZE = 50;
+export const MAX_PAGE_SIZE = 500;
+/** Above this many points the temperature–luminosity diagram is sent as a 2-D histogram. */
+export const DIAGRAM_POINT_LIMIT = 20_000;
+/**
+ * A filter that leaves fewer rows than smallSet is read from its own index and sorted in memory.
+ * Tests set it to 0 to walk the index-ordered plans on a small catalogue.
+ */
+export const catalogueTuning = { smallSet: 4_000 };
+
+export interface CatalogueFilter {
+  status?: CatalogueStatus[];
+  teffMinK?: number;
+  teffMaxK?: number;
+  chi2Max?: number;
+  flag?: string;
+  /** Rows without `flag` instead of with it. */
+  flagAbsent?: boolean;
+  /** Star ids starting with this text (case-sensitive, as the input tables give them). */
+  starPrefix?: string;
+}
+
+export interface CataloguePageRequest extends CatalogueFilter {
+  sort: CatalogueSort;
+  dir: 'asc' | 'desc';
+  limit: number;
+  /** Rows after this position (from a previous page's nextCursor). */
+  after?: string;
+  /** Rows before this position (from a previous page's prevCursor). */
+  before?: string;
+}
+
+export interface CatalogueRowView {
+  fitId: number;
+  starId: number;
+  starKey: string;
+  raDeg: number | null;
+  decDeg: number | null;
+  ok: boolean;
+  teffK: number | null;
+  teffErrK: number | null;
+  teffLowerK: number | null;
+  thetaMas: number | null;
+  radiusRsun: number | null;
+  radiusErrRsun: number | null;
+  lumLsun: number | null;
+  lumErrLsun: number | null;
+  avMag: number | null;
+  chi2Red: number | null;
+  nBands: number | null;
+  flags: string;
+  reviewStatus: string;
+  batchId: string;
+}
+
+export interface CataloguePage {
+  rows: CatalogueRowView[];
+  nextCursor: string | null;
+  prevCursor: string | null;
+}
+
+// ---------------------------------------------------------------------------------------------
+// Input: the query string of GET /api/campaigns/:id/catalogue (and the downloads, diagrams).
+
+const optionalNumber = (name: string) =>
+  z
+    .string()
+    .optional()
+    .transform((s, ctx) => {
+      if (s === undefined || s.trim() === '') return undefined;
+      const n = Number(s);
+      if (!Number.isFinite(n)) {
+        ctx.addIssue({ code: 'custom', message: `${name} must be a number, got "${s}".` });
+        return z.NEVER;
+      }
+      return n;
+    });
+
+const filterShape = {
+  status: z
+    .string()
+    .optional()
+    .transform((s, ctx) => {
+      if (s === undefined || s === '' || s === 'all') return undefined;
+      const list = s.split(',').map((x) => x.trim()).filter(Boolean);
+      const bad = list.filter((x) => !(CATALOGUE_STATUSES as readonly string[]).includes(x));
+      if (bad.length) {
+        ctx.addIssue({ code: 'custom', message: `status: "${bad[0]}" is not a review status; use ${CATALOGUE_STATUSES.join(', ')} (comma-separated) or all.` });
+        return z.NEVER;
+      }
+      return [...new Set(list)] as CatalogueStatus[];
+    }),
+  teffMin: optionalNumber('teffMin'),
+  teffMax: optionalNumber('teffMax'),
+  chi2Max: optionalNumber('chi2Max'),
+  flag: z
+    .string()
+    .optional()
+    .refine((f) => !f || FLAG_CODES.includes(f), { message: `flag must be one of ${FLAG_CODES.join(', ')}.` }),
+  flagAbsent: z.enum(['0', '1', 'true', 'false']).optional(),
+  q: z.string().max(200, 'q (star id prefix) can have at most 200 characters.').optional(),
+};
+
+const pageShape = z.object({
+  ...filterShape,
+  sort: z.enum(CATALOGUE_SORTS, `sort must be one of ${CATALOGUE_SORTS.join(', ')}.`).default('teff_k'),
+  dir: z.enum(['asc', 'desc'], 'dir must be asc or desc.').default('asc'),
+  limit: optionalNumber('limit'),
+  after: z.string().max(2000).optional(),
+  before: z.string().max(2000).optional(),
+});
+
+function toFilter(p: { status?: CatalogueStatus[]; teffMin?: number; teffMax?: number; chi2Max?: number; flag?: string; flagAbsent?: string; q?: string }): CatalogueFilter {
+  const f: CatalogueFilter = {};
+  if (p.status) f.status = p.status;
+  if (p.teffMin !== undefined) f.teffMinK = p.teffMin;
+  if (p.teffMax !== undefined) f.teffMaxK = p.teffMax;
+  if (p.chi2Max !== undefined) f.chi2Max = p.chi2Max;
+  if (p.flag) {
+    f.flag = p.flag;
+    f.flagAbsent = p.flagAbsent === '1' || p.flagAbsent === 'true';
+  }
+  if (p.q && p.q.trim() !== '') f.starPrefix = p.q.trim();
+  return f;
+}
+
+const paramsObject = (params: URLSearchParams) => Object.fromEntries([...params.entries()]);
+
+export function parseCatalogueFilter(params: URLSearchParams): CatalogueFilter {
+  return toFilter(parseInput(z.object(filterShape), paramsObject(params)));
+}
+
+export function parseCataloguePageRequest(params: URLSearchParams): CataloguePageRequest {
+  const p = parseInput(pageShape, paramsObject(params));
+  const limit = p.limit ?? DEFAULT_PAGE_SIZE;
+  if (!Number.isInteger(limit) || limit < 1 || limit > MAX_PAGE_SIZE) {
+    throw new HttpError('validation_failed', `limit must be a whole number from 1 to ${MAX_PAGE_SIZE}.`, 'limit');
+  }
+  if (p.after && p.before) throw new HttpError('validation_failed', 'Give after or before, not both.', 'before');
+  return { ...toFilter(p), sort: p.sort, dir: p.dir, limit, after: p.after, before: p.before };
+}
+
+/** The filter as query-string parameters (for download links and release records). */
+export function filterToParams(f: CatalogueFilter): URLSearchParams {
+  const p = new URLSearchParams();
+  p.set('status', f.status && f.status.length ? f.status.join(',') : 'all');
+  if (f.teffMinK !== undefined) p.set('teffMin', String(f.teffMinK));
+  if (f.teffMaxK !== undefined) p.set('teffMax', String(f.teffMaxK));
+  if (f.chi2Max !== undefined) p.set('chi2Max', String(f.chi2Max));
+  if (f.flag) {
+    p.set('flag', f.flag);
+    if (f.flagAbsent) p.set('flagAbsent', '1');
+  }
+  if (f.starPrefix) p.set('q', f.starPrefix);
+  return p;
+}
+
+/** A short plain-words description of a filter (provenance headers, release notes). */
+export function describeFilter(f: CatalogueFilter): string {
+  const parts: string[] = [];
+  parts.push(f.status && f.status.length ? `review status ${f.status.join(' or ')}` : 'any review status');
+  if (f.teffMinK !== undefined) parts.push(`Teff ≥ ${f.teffMinK} K`);
+  if (f.teffMaxK !== undefined) parts.push(`Teff ≤ ${f.teffMaxK} K`);
+  if (f.chi2Max !== undefined) parts.push(`reduced χ² ≤ ${f.chi2Max}`);
+  if (f.flag) parts.push(f.flagAbsent ? `without flag ${f.flag}` : `with flag ${f.flag}`);
+  if (f.starPrefix) parts.push(`star id starting with "${f.starPrefix}"`);
+  return parts.join('; ');
+}
+
+// ---------------------------------------------------------------------------------------------
+// SQL
+
+type Params = Record<string, string | number>;
+
+const SORT_SQL: Record<CatalogueSort, { col: string; nullable: boolean; index?: string; flagIndex?: string }> = {
+  teff_k: { col: 'teff_k', nullable: true, index: 'fit_results_current_teff_idx', flagIndex: 'fit_result_flags_teff_idx' },
+  lum_lsun: { col: 'lum_lsun', nullable: true, index: 'fit_results_current_lum_idx', flagIndex: 'fit_result_flags_lum_idx' },
+  radius_rsun: { col: 'radius_rsun', nullable: true, index: 'fit_results_current_radius_idx', flagIndex: 'fit_result_flags_radius_idx' },
+  chi2_red: { col: 'chi2_red', nullable: true, index: 'fit_results_current_chi2_idx', flagIndex: 'fit_result_flags_chi2_idx' },
+  review_status: { col: 'review_status', nullable: false, index: 'fit_results_current_review_idx' },
+  star_key: { col: 'star_key', nullable: false, flagIndex: 'fit_result_flags_star_idx' },
+};
+
+/** Bytes after every string that starts with the prefix (UTF-8 order = SQLite's BINARY order). */
+const PREFIX_END = '\u{10FFFF}';
+
+/** WHERE terms (beyond campaign and is_current) for a filter, with their parameters. */
+export function filterSql(f: CatalogueFilter, params: Params): string[] {
+  const where: string[] = [];
+  if (f.status && f.status.length) {
+    where.push(`f.review_status IN (${f.status.map((s, i) => ((params[`st${i}`] = s), `@st${i}`)).join(', ')})`);
+  }
+  if (f.teffMinK !== undefined) {
+    params.teffMin = f.teffMinK;
+    where.push('f.teff_k >= @teffMin');
+  }
+  if (f.teffMaxK !== undefined) {
+    params.teffMax = f.teffMaxK;
+    where.push('f.teff_k <= @teffMax');
+  }
+  if (f.chi2Max !== undefined) {
+    params.chi2Max = f.chi2Max;
+    where.push('f.chi2_red <= @chi2Max');
+  }
+  if (f.flag) {
+    params.flag = ` ${f.flag} `;
+    where.push(`instr(' ' || f.flags || ' ', @flag) ${f.flagAbsent ? '=' : '>'} 0`);
+  }
+  if (f.starPrefix) {
+    params.pfx = f.starPrefix;
+    params.pfxEnd = f.starPrefix + PREFIX_END;
+    where.push('s.star_key >= @pfx AND s.star_key < @pfxEnd');
+  }
+  return where;
+}
+
+const statementCache = new WeakMap<Database.Database, Map<string, Database.Statement>>();
+
+export function prepared(sqlite: Database.Database, text: string): Database.Statement {
+  let m = statementCache.get(sqlite);
+  if (!m) statementCache.set(sqlite, (m = new Map()));
+  let s = m.get(text);
+  if (!s) {
+    s = sqlite.prepare(text);
+    m.set(text, s);
+  }
+  return s;
+}
+
+const ROW_COLUMNS = `f.id AS fitId, f.star_id AS starId, s.star_key AS starKey, s.ra_deg AS raDeg, s.dec_deg AS decDeg,
+  f.ok AS ok, f.teff_k AS teffK, f.teff_err_k AS teffErrK, f.teff_lower_k AS teffLowerK, f.theta_mas AS thetaMas,
+  f.radius_rsun AS radiusRsun, f.radius_err_rsun AS radiusErrRsun, f.lum_lsun AS lumLsun, f.lum_err_lsun AS lumErrLsun,
+  f.av_mag AS avMag, f.chi2_red AS chi2Red, f.n_bands AS nBands, f.flags AS flags, f.review_status AS reviewStatus,
+  f.batch_id AS batchId`;
+
+interface Cursor {
+  /** 'v': among rows with a value; 'n': among rows without one (they come last). */
+  p: 'v' | 'n';
+  v?: string | number;
+  i: number;
+}
+
+function encodeCursor(c: Cursor): string {
+  return Buffer.from(JSON.stringify(c)).toString('base64url');
+}
+
+function decodeCursor(s: string, sort: CatalogueSort): Cursor {
+  try {
+    const c = JSON.parse(Buffer.from(s, 'base64url').toString('utf8')) as Cursor;
+    const valueOk = c.p === 'n' || (sort === 'star_key' || sort === 'review_status' ? typeof c.v === 'string' : typeof c.v === 'number');
+    if ((c.p === 'v' || c.p === 'n') && Number.isInteger(c.i) && valueOk) return c;
+  } catch {
+    // fall through
+  }
+  throw new HttpError('validation_failed', 'The page cursor is not valid for this sort; start again from the first page.', 'after');
+}
+
+function sortValue(row: CatalogueRowView, sort: CatalogueSort): string | number | null {
+  switch (sort) {
+    case 'teff_k':
+      return row.teffK;
+    case 'lum_lsun':
+      return row.lumLsun;
+    case 'radius_rsun':
+      return row.radiusRsun;
+    case 'chi2_red':
+      return row.chi2Red;
+    case 'star_key':
+      return row.starKey;
+    case 'review_status':
+      return row.reviewStatus;
+  }
+}
+
+function cursorOf(row: CatalogueRowView, sort: CatalogueSort): string {
+  const v = sortValue(row, sort);
+  return encodeCursor(v === null ? { p: 'n', i: row.fitId } : { p: 'v', v, i: row.fitId });
+}
+
+interface Plan {
+  from: string;
+  where: string[];
+  params: Params;
+  /** The sort column and the id as this plan's tables name them. */
+  col: string;
+  id: string;
+  /** Read from a small set and sort in memory (no index hint on the sort). */
+  small: boolean;
+}
+
+/** Counts rows matching one indexed condition, stopping at SMALL_SET (cheap on its own index). */
+function cappedCount(sqlite: Database.Database, text: string, params: Params): number {
+  return (prepared(sqlite, `SELECT count(*) AS n FROM (${text} LIMIT ${catalogueTuning.smallSet})`).get(params) as { n: number }).n;
+}
+
+/**
+ * Picks the way to read. Normally in sort order straight from the sort's index, stopping after one
+ * page. When one selective condition (star id prefix, Teff range, a rare review status) leaves only
+ * a few thousand rows: from that condition's index with an in-memory sort. With "flag present": from
+ * the flag index (fit_result_flags), which keeps the sort values beside each flag, in sort order.
+ * So a narrow filter never walks the whole campaign.
+ */
+function plan(sqlite: Database.Database, campaignId: string, f: CatalogueFilter, sort: CatalogueSort): Plan {
+  const params: Params = { campaign: campaignId };
+  const where = ['f.campaign_id = @campaign', 'f.is_current = 1', ...filterSql(f, params)];
+  const s = SORT_SQL[sort];
+  const fcol = sort === 'star_key' ? 's.star_key' : `f.${s.col}`;
+  const byStars = (small: boolean): Plan => ({
+    from: 'stars s INDEXED BY stars_campaign_key_unique CROSS JOIN fit_results f',
+    where: ['s.campaign_id = @campaign', 'f.star_id = s.id', ...where],
+    params,
+    col: fcol,
+    id: 'f.id',
+    small,
+  });
+  const forced = (index: string, small: boolean): Plan => ({ from: `fit_results f INDEXED BY ${index} JOIN stars s ON s.id = f.star_id`, where, params, col: fcol, id: 'f.id', small });
+  const byFlag = (small: boolean): Plan => ({
+    from: `fit_result_flags g${small || !s.flagIndex ? '' : ` INDEXED BY ${s.flagIndex}`} CROSS JOIN fit_results f CROSS JOIN stars s`,
+    where: ['g.campaign_id = @campaign', 'g.code = @code', 'f.id = g.fit_result_id', 's.id = f.star_id', ...where],
+    params: { ...params, code: f.flag! },
+    col: small || !s.flagIndex ? fcol : `g.${s.col}`,
+    id: small || !s.flagIndex ? 'f.id' : 'g.fit_result_id',
+    small,
+  });
+
+  if (f.starPrefix) {
+    const n = cappedCount(sqlite, 'SELECT 1 FROM stars WHERE campaign_id = @campaign AND star_key >= @pfx AND star_key < @pfxEnd', { campaign: campaignId, pfx: params.pfx, pfxEnd: params.pfxEnd });
+    if (n < catalogueTuning.smallSet) return byStars(true);
+  }
+  if (sort !== 'teff_k' && (f.teffMinK !== undefined || f.teffMaxK !== undefined)) {
+    const range: Params = { campaign: campaignId, lo: f.teffMinK ?? -1e308, hi: f.teffMaxK ?? 1e308 };
+    const n = cappedCount(sqlite, 'SELECT 1 FROM fit_results INDEXED BY fit_results_current_teff_idx WHERE campaign_id = @campaign AND is_current = 1 AND teff_k BETWEEN @lo AND @hi', range);
+    if (n < catalogueTuning.smallSet) return forced('fit_results_current_teff_idx', true);
+  }
+  if (sort !== 'review_status' && f.status && f.status.length) {
+    const st: Params = { campaign: campaignId };
+    const list = f.status.map((x, i) => ((st[`s${i}`] = x), `@s${i}`)).join(', ');
+    const n = cappedCount(sqlite, `SELECT 1 FROM fit_results INDEXED BY fit_results_current_review_idx WHERE campaign_id = @campaign AND is_current = 1 AND review_status IN (${list})`, st);
+    if (n < catalogueTuning.smallSet) return forced('fit_results_current_review_idx', true);
+  }
+  if (f.flag && !f.flagAbsent) {
+    if (s.flagIndex) return byFlag(false);
+    const n = cappedCount(sqlite, 'SELECT 1 FROM fit_result_flags WHERE campaign_id = @campaign AND code = @code', { campaign: campaignId, code: f.flag });
+    if (n < catalogueTuning.smallSet) return byFlag(true);
+  }
+  if (sort === 'star_key') return byStars(false);
+  return forced(s.index!, false);
+}
+
+/**
+ * One step of the walk in display order: rows with a value in (value, id) order (direction `dir`),
+ * then rows without one by id. `reverse` walks backwards (for "previous page").
+ */
+function readPhase(
+  sqlite: Database.Database,
+  p: Plan,
+  sort: CatalogueSort,
+  dir: 'asc' | 'desc',
+  phase: 'v' | 'n',
+  from: Cursor | null,
+  reverse: boolean,
+  limit: number,
+): CatalogueRowView[] {
+  const s = SORT_SQL[sort];
+  const params: Params = { ...p.params };
+  const where = [...p.where];
+  // A unary + keeps SQLite from walking the sort's index when the plan is to read a small set and sort it.
+  const key = p.small ? `+${p.col}` : p.col;
+  const id = p.small ? `+${p.id}` : p.id;
+  let order: string;
+  if (phase === 'v') {
+    const ascending = (dir === 'asc') !== reverse;
+    if (s.nullable) where.push(`${p.col} IS NOT NULL`);
+    if (from && from.p === 'v') {
+      params.cv = from.v!;
+      params.ci = from.i;
+      if (sort === 'review_status' && !p.small) {
+        // Few values, many ties: SQLite would range-scan on the status alone and skip ties one by
+        // one, so read the rest of the cursor's status, then the statuses after it.
+        const op = ascending ? '>' : '<';
+        const tie = readWhere(sqlite, p, [...where, `${p.col} = @cv`, `${p.id} ${op} @ci`], params, `${id} ${ascending ? 'ASC' : 'DESC'}`, limit);
+        if (tie.length >= limit) return tie;
+        const o = ascending ? 'ASC' : 'DESC';
+        return tie.concat(readWhere(sqlite, p, [...where, `${p.col} ${op} @cv`], params, `${key} ${o}, ${id} ${o}`, limit - tie.length));
+      }
+      where.push(`(${p.col}, ${p.id}) ${ascending ? '>' : '<'} (@cv, @ci)`);
+    }
+    const o = ascending ? 'ASC' : 'DESC';
+    order = `${key} ${o}, ${id} ${o}`;
+  } else {
+    where.push(`${p.col} IS NULL`);
+    if (from && from.p === 'n') {
+      params.ci = from.i;
+      where.push(`${p.id} ${reverse ? '<' : '>'} @ci`);
+    }
+    order = `${id} ${reverse ? 'DESC' : 'ASC'}`;
+  }
+  return readWhere(sqlite, p, where, params, order, limit);
+}
+
+function readWhere(sqlite: Database.Database, p: Plan, where: string[], params: Params, order: string, limit: number): CatalogueRowView[] {
+  const text = `SELECT ${ROW_COLUMNS} FROM ${p.from} WHERE ${where.join(' AND ')} ORDER BY ${order} LIMIT ${limit}`;
+  const rows = prepared(sqlite, text).all(params) as (Omit<CatalogueRowView, 'ok'> & { ok: number })[];
+  return rows.map((r) => ({ ...r, ok: r.ok === 1 }));
+}
+
+/** One page of a campaign's catalogue. */
+export function cataloguePage(db: DbOrTx, campaignId: string, req: CataloguePageRequest): CataloguePage {
+  const sqlite = (db as unknown as { $client: Database.Database }).$client;
+  const p = plan(sqlite, campaignId, req, req.sort);
+  const nullable = SORT_SQL[req.sort].nullable;
+  const want = req.limit + 1;
+  if (req.before) {
+    const c = decodeCursor(req.before, req.sort);
+    let rows = readPhase(sqlite, p, req.sort, req.dir, c.p, c, true, want);
+    if (c.p === 'n' && rows.length < want) rows = rows.concat(readPhase(sqlite, p, req.sort, req.dir, 'v', null, true, want - rows.length));
+    const more = rows.length > req.limit;
+    const page = rows.slice(0, req.limit).reverse();
+    return {
+      rows: page,
+      prevCursor: more && page.length ? cursorOf(page[0], req.sort) : null,
+      nextCursor: page.length ? cursorOf(page[page.length - 1], req.sort) : null,
+    };
+  }
+  const c = req.after ? decodeCursor(req.after, req.sort) : null;
+  let rows = readPhase(sqlite, p, req.sort, req.dir, c?.p ?? 'v', c, false, want);
+  if (nullable && (c?.p ?? 'v') === 'v' && rows.length < want) rows = rows.concat(readPhase(sqlite, p, req.sort, req.dir, 'n', null, false, want - rows.length));
+  const more = rows.length > req.limit;
+  const page = rows.slice(0, req.limit);
+  return {
+    rows: page,
+    nextCursor: more ? cursorOf(page[page.length - 1], req.sort) : null,
+    prevCursor: c && page.length ? cursorOf(page[0], req.sort) : null,
+  };
+}
+
+/** How many rows a filter leaves (a separate request: it reads every matching row). */
+export function catalogueCount(db: DbOrTx, campaignId: string, f: CatalogueFilter): { total: number; campaignTotal: number } {
+  const sqlite = (db as unknown as { $client: Database.Database }).$client;
+  const params: Params = { campaign: campaignId };
+  const where = ['f.campaign_id = @campaign', 'f.is_current = 1', ...filterSql(f, params)];
+  const needsStars = Boolean(f.starPrefix);
+  const text = `SELECT count(*) AS n FROM fit_results f${needsStars ? ' JOIN stars s ON s.id = f.star_id' : ''} WHERE ${where.join(' AND ')}`;
+  const total = (prepared(sqlite, text).get(params) as { n: number }).n;
+  const campaignTotal = (
+    prepared(sqlite, 'SELECT count(*) AS n FROM fit_results INDEXED BY fit_results_current_review_idx WHERE campaign_id = ? AND is_current = 1').get(campaignId) as { n: number }
+  ).n;
+  return { total, campaignTotal };
+}
+
+// ---------------------------------------------------------------------------------------------
+// Diagrams: temperature–luminosity and the temperature histogram.
+
+export interface DiagramPoint {
+  starId: number;
+  starKey: string;
+  teffK: number;
+  lumLsun: number;
+  reviewStatus: string;
+}
+
+export interface DensityGrid {
+  /** Bin edges in Teff [K] (n+1) and log10(L/L☉) (m+1); counts[j][i] for log L bin j, Teff bin i. */
+  teffEdgesK: number[];
+  logLumEdges: number[];
+  counts: number[][];
+}
+
+export interface CatalogueDiagrams {
+  /** Rows with both Teff and L (the others cannot be placed on the diagram). */
+  placed: number;
+  /** Rows with a Teff but no luminosity (no or weak parallax). */
+  withoutLum: number;
+  points: DiagramPoint[] | null;
+  density: DensityGrid | null;
+  histogram: { edgesK: number[]; counts: number[] };
+}
+
+/** Edges of `bins` equal bins over [lo, hi] (a single value gets a bin of ±0.5 % around it). */
+function edges(lo: number, hi: number, bins: number): number[] {
+  if (!(hi > lo)) {
+    const pad = Math.max(Math.abs(lo) * 0.005, 1e-3);
+    lo -= pad;
+    hi += pad;
+  }
+  return Array.from({ length: bins + 1 }, (_, i) => lo + ((hi - lo) * i) / bins);
+}
+
+export function catalogueDiagrams(db: DbOrTx, campaignId: string, f: CatalogueFilter, options: { pointLimit?: number; densityBins?: [number, number]; histogramBins?: number } = {}): CatalogueDiagrams {
+  const sqlite = (db as unknown as { $client: Database.Database }).$client;
+  const limit = options.pointLimit ?? DIAGRAM_POINT_LIMIT;
+  const params: Params = { campaign: campaignId };
+  const where = ['f.campaign_id = @campaign', 'f.is_current = 1', 'f.teff_k IS NOT NULL', ...filterSql(f, params)];
+  const from = `fit_results f${f.starPrefix ? ' JOIN stars s ON s.id = f.star_id' : ''}`;
+  const stats = prepared(
+    sqlite,
+    `SELECT count(*) AS n, sum(f.lum_lsun > 0) AS placed, min(f.teff_k) AS tlo, max(f.teff_k) AS thi,
+       min(CASE WHEN f.lum_lsun > 0 THEN log10(f.lum_lsun) END) AS llo, max(CASE WHEN f.lum_lsun > 0 THEN log10(f.lum_lsun) END) AS lhi
+     FROM ${from} WHERE ${where.join(' AND ')}`,
+  ).get(params) as { n: number; placed: number | null; tlo: number | null; thi: number | null; llo: number | null; lhi: number | null };
+  const placed = stats.placed ?? 0;
+  const hBins = options.histogramBins ?? 40;
+  const histogram = { edgesK: [] as number[], counts: [] as number[] };
+  if (stats.n > 0) {
+    histogram.edgesK = edges(stats.tlo!, stats.thi!, hBins);
+    const lo = histogram.edgesK[0];
+    const w = (histogram.edgesK[hBins] - lo) / hBins;
+    histogram.counts = new Array<number>(hBins).fill(0);
+    const rows = prepared(
+      sqlite,
+      `SELECT min(${hBins - 1}, CAST((f.teff_k - @lo) / @w AS INTEGER)) AS b, count(*) AS n FROM ${from} WHERE ${where.join(' AND ')} GROUP BY b`,
+    ).all({ ...params, lo, w }) as { b: number; n: number }[];
+    for (const r of rows) histogram.counts[r.b] += r.n;
+  }
+  if (placed <= limit) {
+    const points = prepared(
+      sqlite,
+      `SELECT f.star_id AS starId, s.star_key AS starKey, f.teff_k AS teffK, f.lum_lsun AS lumLsun, f.review_status AS reviewStatus
+       FROM fit_results f JOIN stars s ON s.id = f.star_id WHERE ${where.join(' AND ')} AND f.lum_lsun > 0`,
+    ).all(params) as DiagramPoint[];
+    return { placed, withoutLum: stats.n - placed, points, density: null, histogram };
+  }
+  const [nt, nl] = options.densityBins ?? [120, 90];
+  const teffEdgesK = edges(stats.tlo!, stats.thi!, nt);
+  const logLumEdges = edges(stats.llo!, stats.lhi!, nl);
+  const wt = (teffEdgesK[nt] - teffEdgesK[0]) / nt;
+  const wl = (logLumEdges[nl] - logLumEdges[0]) / nl;
+  const counts = Array.from({ length: nl }, () => new Array<number>(nt).fill(0));
+  const cells = prepared(
+    sqlite,
+    `SELECT min(${nt - 1}, CAST((f.teff_k - @t0) / @wt AS INTEGER)) AS i, min(${nl - 1}, CAST((log10(f.lum_lsun) - @l0) / @wl AS INTEGER)) AS j, count(*) AS n
+     FROM ${from} WHERE ${where.join(' AND ')} AND f.lum_lsun > 0 GROUP BY i, j`,
+  ).all({ ...params, t0: teffEdgesK[0], wt, l0: logLumEdges[0], wl }) as { i: number; j: number; n: number }[];
+  for (const c of cells) counts[c.j][c.i] += c.n;
+  return { placed, withoutLum: stats.n - placed, points: null, density: { teffEdgesK, logLumEdges, counts }, histogram };
+}

@@ -1,0 +1,318 @@
+// The catalogue's queries on a real migrated SQLite with real fits: which result is current per
+// star (the is_current and flag-index triggers), keyset paging forwards and backwards under every
+// sort and a spread of filters (compared with a plain reference computed here in JavaScript from
+// all rows), both reading plans (index order, and small set sorted in memory), and the diagrams'
+// binning into a 2-D histogram.
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { GET as pageRoute } from '../src/pages/api/campaigns/[id]/catalogue/index';
+import { GET as countRoute } from '../src/pages/api/campaigns/[id]/catalogue/count';
+import { GET as diagramsRoute } from '../src/pages/api/campaigns/[id]/catalogue/diagrams';
+import {
+  CATALOGUE_SORTS,
+  catalogueCount,
+  catalogueDiagrams,
+  cataloguePage,
+  catalogueTuning,
+  parseCataloguePageRequest,
+  type CatalogueRowView,
+  type CatalogueSort,
+} from '../src/server/catalogue';
+import { mulberry32 } from '../src/core/fit/random';
+import type { Actor } from '../src/server/context';
+import { addToCampaign, makeCampaign, makeUser } from './factories';
+import { makeFittedCatalogue, refit, type FittedCatalogue } from './factories-catalogue';
+import { createTestApp, type TestApp } from './setup/db';
+
+let t: TestApp;
+let analyst: Actor;
+let collaborator: Actor;
+let outsider: Actor;
+let campaignId: string;
+let fitted: FittedCatalogue;
+let refitKeys: string[];
+let failingBatchId: string;
+
+interface RefRow {
+  id: number;
+  star_id: number;
+  star_key: string;
+  ok: number;
+  teff_k: number | null;
+  lum_lsun: number | null;
+  radius_rsun: number | null;
+  chi2_red: number | null;
+  flags: string;
+  review_status: string;
+  batch_created: number;
+}
+
+beforeAll(async () => {
+  t = createTestApp();
+  analyst = await makeUser(t.app, { name: 'Ada Analyst' });
+  collaborator = await makeUser(t.app, { kind: 'guest' });
+  outsider = await makeUser(t.app);
+  campaignId = makeCampaign(t.app, analyst, { name: 'Hollowmere survey' }).id;
+  await addToCampaign(t.app, analyst, campaignId, collaborator, ['collaborator']);
+  // 240 stars: every 13th has one band only (the fit fails, all values empty), every 7th no parallax
+  // (no radius or luminosity), so missing values appear under every sort.
+  fitted = await makeFittedCatalogue(t.app, analyst, campaignId, { count: 240, fewBandsEvery: 13, noParallaxEvery: 7, seed: 5 });
+  // Re-fit 20 stars with other options: their new results replace the old ones in the catalogue.
+  refitKeys = fitted.stars.filter((_, i) => i % 12 === 1).map((s) => s.starKey);
+  await refit(t.app, analyst, campaignId, refitKeys, { law: 'ccm89', floorFraction: 0.05 });
+  // Re-fit 3 of those with every band but one excluded: the fits fail, and a failure does not
+  // replace a successful fit.
+  failingBatchId = await refit(t.app, analyst, campaignId, refitKeys.slice(0, 3), { excludeBands: ['B', 'V', 'G', 'BP', 'RP', 'J', 'H'] });
+});
+afterAll(() => t?.cleanup());
+
+/** The current result per star computed here from all rows: newest success, else newest failure. */
+function reference(): RefRow[] {
+  const all = t.sqlite
+    .prepare(
+      `SELECT f.id, f.star_id, s.star_key, f.ok, f.teff_k, f.lum_lsun, f.radius_rsun, f.chi2_red, f.flags, f.review_status, b.created_at AS batch_created
+       FROM fit_results f JOIN stars s ON s.id = f.star_id JOIN batches b ON b.id = f.batch_id WHERE f.campaign_id = ?`,
+    )
+    .all(campaignId) as RefRow[];
+  const best = new Map<number, RefRow>();
+  const rank = (r: RefRow) => [r.ok, r.batch_created, r.id];
+  for (const r of all) {
+    const cur = best.get(r.star_id);
+    if (!cur) {
+      best.set(r.star_id, r);
+      continue;
+    }
+    const a = rank(r);
+    const b = rank(cur);
+    if (a[0] > b[0] || (a[0] === b[0] && (a[1] > b[1] || (a[1] === b[1] && a[2] > b[2])))) best.set(r.star_id, r);
+  }
+  return [...best.values()];
+}
+
+const sortValue = (r: RefRow, sort: CatalogueSort): string | number | null => (sort === 'star_key' ? r.star_key : r[sort]);
+
+function expected(params: URLSearchParams): number[] {
+  const sort = (params.get('sort') ?? 'teff_k') as CatalogueSort;
+  const dir = params.get('dir') ?? 'asc';
+  const status = params.get('status');
+  const lo = params.get('teffMin');
+  const hi = params.get('teffMax');
+  const chi = params.get('chi2Max');
+  const flag = params.get('flag');
+  const absent = params.get('flagAbsent') === '1';
+  const q = params.get('q');
+  const rows = reference().filter((r) => {
+    if (status && status !== 'all' && !status.split(',').includes(r.review_status)) return false;
+    if (lo !== null && !(r.teff_k !== null && r.teff_k >= Number(lo))) return false;
+    if (hi !== null && !(r.teff_k !== null && r.teff_k <= Number(hi))) return false;
+    if (chi !== null && !(r.chi2_red !== null && r.chi2_red <= Number(chi))) return false;
+    if (flag) {
+      const has = r.flags.split(' ').includes(flag);
+      if (has === absent) return false;
+    }
+    if (q && !r.star_key.startsWith(q)) return false;
+    return true;
+  });
+  const withValue = rows.filter((r) => sortValue(r, sort) !== null);
+  const without = rows.filter((r) => sortValue(r, sort) === null).sort((a, b) => a.id - b.id);
+  const sign = dir === 'asc' ? 1 : -1;
+  withValue.sort((a, b) => {
+    const va = sortValue(a, sort)!;
+    const vb = sortValue(b, sort)!;
+    if (va < vb) return -sign;
+    if (va > vb) return sign;
+    return sign * (a.id - b.id);
+  });
+  return [...withValue, ...without].map((r) => r.id);
+}
+
+function walkForward(params: URLSearchParams, limit: number): { ids: number[]; pages: { rows: CatalogueRowView[]; prevCursor: string | null; nextCursor: string | null }[] } {
+  const pages = [];
+  let after: string | null = null;
+  for (let guard = 0; guard < 1000; guard++) {
+    const p = new URLSearchParams(params);
+    p.set('limit', String(limit));
+    if (after) p.set('after', after);
+    const page = cataloguePage(t.db, campaignId, parseCataloguePageRequest(p));
+    pages.push(page);
+    if (!page.nextCursor) break;
+    after = page.nextCursor;
+  }
+  return { ids: pages.flatMap((p) => p.rows.map((r) => r.fitId)), pages };
+}
+
+function walkBackward(params: URLSearchParams, limit: number, from: string): number[] {
+  const out: number[][] = [];
+  let before: string | null = from;
+  for (let guard = 0; before && guard < 1000; guard++) {
+    const p = new URLSearchParams(params);
+    p.set('limit', String(limit));
+    p.set('before', before);
+    const page = cataloguePage(t.db, campaignId, parseCataloguePageRequest(p));
+    out.unshift(page.rows.map((r) => r.fitId));
+    before = page.prevCursor;
+  }
+  return out.flat();
+}
+
+function filterCombos(): URLSearchParams[] {
+  const rand = mulberry32(99);
+  const combos: URLSearchParams[] = [new URLSearchParams()];
+  const flags = ['plx_missing', 'few_bands', 'outlier', 'clipped', 'chi2_high'];
+  for (let i = 0; i < 14; i++) {
+    const p = new URLSearchParams();
+    if (rand() < 0.5) p.set('status', ['accepted', 'pending', 'flagged', 'accepted,flagged'][Math.floor(rand() * 4)]);
+    if (rand() < 0.4) {
+      const lo = 4000 + rand() * 3000;
+      p.set('teffMin', lo.toFixed(1));
+      p.set('teffMax', (lo + 400 + rand() * 2000).toFixed(1));
+    }
+    if (rand() < 0.3) p.set('chi2Max', (0.01 + rand()).toFixed(3));
+    if (rand() < 0.4) {
+      p.set('flag', flags[Math.floor(rand() * flags.length)]);
+      if (rand() < 0.5) p.set('flagAbsent', '1');
+    }
+    if (rand() < 0.25) p.set('q', `KST-0000${Math.floor(rand() * 3)}`);
+    combos.push(p);
+  }
+  // The accepted catalogue and two pointed cases: only rows without values, and nothing at all.
+  combos.push(new URLSearchParams({ status: 'accepted' }), new URLSearchParams({ flag: 'plx_missing' }), new URLSearchParams({ q: 'NOPE' }));
+  return combos;
+}
+
+describe('which result is current', () => {
+  it('is the newest successful fit of each star, else its newest failure, and the flag index follows', () => {
+    const ref = reference();
+    const current = t.sqlite.prepare('SELECT id FROM fit_results WHERE campaign_id = ? AND is_current = 1 ORDER BY id').pluck().all(campaignId);
+    expect(current).toEqual(ref.map((r) => r.id).sort((a, b) => a - b));
+    expect(ref).toHaveLength(240);
+    // The re-fitted stars show their second fit (ccm89), also the three whose third fit failed.
+    const byKey = new Map(ref.map((r) => [r.star_key, r]));
+    for (const key of refitKeys.filter((k) => byKey.get(k)!.ok === 1)) {
+      const law = t.sqlite.prepare("SELECT json_extract(b.options, '$.law') FROM fit_results f JOIN batches b ON b.id = f.batch_id WHERE f.id = ?").pluck().get(byKey.get(key)!.id);
+      expect(law).toBe('ccm89');
+    }
+    // Their third fits failed: current only for a star that never had a successful fit.
+    const third = t.sqlite
+      .prepare('SELECT f.ok, f.flags, f.is_current, (SELECT count(*) FROM fit_results o WHERE o.star_id = f.star_id AND o.ok = 1) AS successes FROM fit_results f WHERE f.batch_id = ?')
+      .all(failingBatchId) as { ok: number; flags: string; is_current: number; successes: number }[];
+    expect(third).toHaveLength(3);
+    for (const r of third) expect(r).toEqual({ ok: 0, flags: 'few_bands', is_current: r.successes === 0 ? 1 : 0, successes: r.successes });
+    expect(third.filter((r) => r.successes > 0).length).toBeGreaterThan(0);
+    // fit_result_flags holds exactly the flags of current results.
+    const indexed = t.sqlite.prepare('SELECT fit_result_id || \':\' || code FROM fit_result_flags WHERE campaign_id = ? ORDER BY 1').pluck().all(campaignId);
+    const want = ref.flatMap((r) => (r.flags ? r.flags.split(' ').map((c) => `${r.id}:${c}`) : [])).sort();
+    expect(indexed).toEqual(want);
+    expect(want.length).toBeGreaterThan(20);
+  });
+});
+
+describe('catalogue pages', () => {
+  for (const smallSet of [4000, 0]) {
+    it(`walk forwards and backwards through every sort and filter in reference order (${smallSet ? 'small sets sorted in memory' : 'index order'})`, () => {
+      catalogueTuning.smallSet = smallSet;
+      try {
+        let checked = 0;
+        for (const filter of filterCombos()) {
+          for (const sort of CATALOGUE_SORTS) {
+            for (const dir of ['asc', 'desc']) {
+              const params = new URLSearchParams(filter);
+              params.set('sort', sort);
+              params.set('dir', dir);
+              const want = expected(params);
+              const limit = 1 + ((checked * 7) % 23);
+              const fwd = walkForward(params, limit);
+              expect(fwd.ids, `${params}`).toEqual(want);
+              // Backwards from the end: every page's prevCursor leads to the page before it.
+              const last = fwd.pages[fwd.pages.length - 1];
+              if (last.rows.length) {
+                const tail = last.rows.map((r) => r.fitId);
+                const before = walkBackward(params, limit, last.prevCursor ?? '');
+                expect(last.prevCursor === null ? tail : [...before, ...tail], `${params} backwards`).toEqual(want);
+              }
+              checked++;
+            }
+          }
+        }
+        expect(checked).toBe(filterCombos().length * CATALOGUE_SORTS.length * 2);
+      } finally {
+        catalogueTuning.smallSet = 4000;
+      }
+    });
+  }
+
+  it('counts what the filter leaves', () => {
+    for (const filter of filterCombos()) {
+      const { total, campaignTotal } = catalogueCount(t.db, campaignId, parseCataloguePageRequest(filter));
+      expect(total, `${filter}`).toBe(expected(filter).length);
+      expect(campaignTotal).toBe(240);
+    }
+  });
+
+  it('refuses bad parameters with the parameter named', () => {
+    const bad = (q: string) => () => parseCataloguePageRequest(new URLSearchParams(q));
+    expect(bad('sort=mass')).toThrow(/sort must be one of/);
+    expect(bad('status=approved')).toThrow(/"approved" is not a review status/);
+    expect(bad('teffMin=hot')).toThrow(/teffMin must be a number/);
+    expect(bad('flag=sparkly')).toThrow(/flag must be one of/);
+    expect(bad('limit=0')).toThrow(/limit must be a whole number from 1 to 500/);
+    expect(() => cataloguePage(t.db, campaignId, parseCataloguePageRequest(new URLSearchParams('sort=teff_k&after=garbage')))).toThrow(/cursor is not valid/);
+  });
+});
+
+describe('diagrams', () => {
+  it('sends points when there are few, each with its star, and a Teff histogram of every row with a Teff', () => {
+    const d = catalogueDiagrams(t.db, campaignId, {});
+    const ref = reference();
+    const placed = ref.filter((r) => r.teff_k !== null && r.lum_lsun !== null && r.lum_lsun > 0);
+    expect(d.density).toBeNull();
+    expect(d.points!.map((p) => p.starId).sort((a, b) => a - b)).toEqual(placed.map((r) => r.star_id).sort((a, b) => a - b));
+    expect(d.placed).toBe(placed.length);
+    expect(d.withoutLum).toBe(ref.filter((r) => r.teff_k !== null).length - placed.length);
+    expect(d.histogram.counts.reduce((a, b) => a + b, 0)).toBe(ref.filter((r) => r.teff_k !== null).length);
+    const teffs = ref.filter((r) => r.teff_k !== null).map((r) => r.teff_k!);
+    expect(d.histogram.edgesK[0]).toBe(Math.min(...teffs));
+    expect(d.histogram.edgesK[d.histogram.edgesK.length - 1]).toBeCloseTo(Math.max(...teffs), 6);
+  });
+
+  it('bins into a 2-D histogram on Teff × log L above the point limit, every star in its own cell', () => {
+    const points = catalogueDiagrams(t.db, campaignId, { status: ['accepted', 'pending'] }).points!;
+    const d = catalogueDiagrams(t.db, campaignId, { status: ['accepted', 'pending'] }, { pointLimit: 50, densityBins: [12, 9] });
+    expect(d.points).toBeNull();
+    const g = d.density!;
+    expect(g.teffEdgesK).toHaveLength(13);
+    expect(g.logLumEdges).toHaveLength(10);
+    const want = Array.from({ length: 9 }, () => new Array<number>(12).fill(0));
+    const cell = (edges: number[], x: number) => {
+      let i = edges.findIndex((e, k) => k > 0 && x < e) - 1;
+      if (i < 0) i = edges.length - 2; // the top edge belongs to the last bin
+      return i;
+    };
+    for (const p of points) want[cell(g.logLumEdges, Math.log10(p.lumLsun))][cell(g.teffEdgesK, p.teffK)]++;
+    expect(g.counts).toEqual(want);
+    expect(g.counts.flat().reduce((a, b) => a + b, 0)).toBe(points.length);
+  });
+});
+
+describe('catalogue API', () => {
+  async function call(route: (ctx: never) => Promise<Response> | Response, actor: Actor | null, query = '') {
+    const url = new URL(`http://127.0.0.1/api/campaigns/${campaignId}/catalogue${query}`);
+    const res = await route({ locals: { app: t.app, actor }, params: { id: campaignId }, request: new Request(url), url } as never);
+    return { status: res.status, body: (await res.json()) as Record<string, any> }; // eslint-disable-line @typescript-eslint/no-explicit-any
+  }
+
+  it('serves members, refuses outsiders (403) and anonymous callers (401), and names a bad parameter (400)', async () => {
+    for (const route of [pageRoute, countRoute, diagramsRoute]) {
+      expect((await call(route, null)).status).toBe(401);
+      expect((await call(route, outsider)).status).toBe(403);
+      expect((await call(route, collaborator)).status).toBe(200);
+    }
+    const page = await call(pageRoute, collaborator, '?status=accepted&sort=star_key&limit=5');
+    expect(page.body.rows.map((r: CatalogueRowView) => r.fitId)).toEqual(expected(new URLSearchParams('status=accepted&sort=star_key')).slice(0, 5));
+    expect(page.body.nextCursor).toEqual(expect.any(String));
+    const count = await call(countRoute, analyst, '?status=accepted');
+    expect(count.body.total).toBe(expected(new URLSearchParams('status=accepted')).length);
+    const bad = await call(pageRoute, collaborator, '?chi2Max=lots');
+    expect(bad.status).toBe(400);
+    expect(bad.body.error.message).toMatch(/chi2Max must be a number/);
+  });
+});
