@@ -187,7 +187,7 @@ async function main(): Promise<void> {
   // 1. Single thread, packed (complete fits).
   const out = createPackedResults(N);
   fitPacked(model, packed, out, undefined, 0, Math.min(N, 5000)); // warm-up
-  const single = timeBest(5, () => fitPacked(model, packed, out));
+  const single = timeBest(7, () => fitPacked(model, packed, out));
   const singleRate = N / single.seconds;
   rows.push({ what: 'Starkiln core, 1 thread (fitPacked, A_V fixed)', stars: N, seconds: single.seconds, fitsPerSec: singleRate, fitsPerCpuSec: N / single.cpuSeconds, note: `complete fits; median |ΔT/T| ${medianRelErr(out.teffK, cat.teffK, N).toExponential(2)}` });
 

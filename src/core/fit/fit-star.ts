@@ -175,6 +175,10 @@ export interface Entry {
   exclude: number;
 }
 
+function reasonOf(code: number): ExclusionReason {
+  return code === EXCLUDE_USER ? 'excluded_by_option' : code === EXCLUDE_LONG ? 'long_wavelength' : 'clipped';
+}
+
 function finiteOrNaN(v: number | null | undefined): number {
   return typeof v === 'number' && Number.isFinite(v) ? v : NaN;
 }
@@ -211,7 +215,7 @@ export function engineSettings(opts: FitOptions): EngineSettings {
 export function starEntries(model: FitModel, star: StarInput, opts: FitOptions): { entries: Entry[]; excluded: { band: string; reason: ExclusionReason }[] } {
   const excluded: { band: string; reason: ExclusionReason }[] = [];
   const entries: Entry[] = [];
-  const excludeSet = new Set(opts.excludeBands);
+  const excludeList = opts.excludeBands;
   for (const bf of star.bandFluxes) {
     const band = getBand(model.library, bf.bandKey);
     if (!band) throw new Error(`star ${star.id}: band ${bf.bandKey} is not in band library ${model.library.version}`);
@@ -224,7 +228,7 @@ export function starEntries(model: FitModel, star: StarInput, opts: FitOptions):
       continue;
     }
     let exclude = EXCLUDE_NONE;
-    if (excludeSet.has(bf.bandKey)) exclude = EXCLUDE_USER;
+    if (excludeList.length > 0 && excludeList.includes(bf.bandKey)) exclude = EXCLUDE_USER;
     else if (!opts.includeLongBands && band.pivotAngstrom > LONG_BAND_PIVOT_ANGSTROM) exclude = EXCLUDE_LONG;
     entries.push({
       bandKey: bf.bandKey,
@@ -252,8 +256,6 @@ export function fitStar(model: FitModel, star: StarInput, options?: Partial<FitO
   const engine = model.engine;
   loadEngine(engine, entries);
   const status = engine.run(settings, av, plx, plxErr);
-  const reasonOf = (code: number): ExclusionReason =>
-    code === EXCLUDE_USER ? 'excluded_by_option' : code === EXCLUDE_LONG ? 'long_wavelength' : 'clipped';
   for (let k = engine.nFit; k < engine.n; k++) excluded.push({ band: entries[engine.order[k]].bandKey, reason: reasonOf(engine.exclude[k]) });
   if (status !== STATUS_OK) {
     const minDet = opts.fitAv ? 3 : 2;

@@ -55,6 +55,7 @@ export const FLAG_ORDER: FlagCode[] = [
 
 export function flagCodes(bits: number): FlagCode[] {
   const codes: FlagCode[] = [];
+  if (bits === 0) return codes;
   for (const code of FLAG_ORDER) if (bits & FLAG_BITS[code]) codes.push(code);
   return codes;
 }
