@@ -8,7 +8,6 @@ const XML_ESCAPES: Record<string, string> = { '&': '&amp;', '<': '&lt;', '>': '&
 
 /** Escapes text for XML and drops characters XML 1.0 cannot carry at all. */
 export function xmlText(s: string): string {
-  // eslint-disable-next-line no-control-regex
   return s.replace(/[\u0000-\u0008\u000B\u000C\u000E-\u001F\uFFFE\uFFFF]/g, '').replace(/[&<>"']/g, (c) => XML_ESCAPES[c]);
 }
 
