@@ -1,5 +1,5 @@
 import type { BetterSQLite3Database } from 'drizzle-orm/better-sqlite3';
-import { migrate } from 'drizzle-orm/better-sqlite3/migrator';
+import { readMigrationFiles } from 'drizzle-orm/migrator';
 import { readFileSync } from 'node:fs';
 import path from 'node:path';
 import { migrationsFolder } from './paths';
@@ -7,9 +7,30 @@ import { migrationsFolder } from './paths';
 // eslint-disable-next-line @typescript-eslint/no-explicit-any
 type AnyDb = BetterSQLite3Database<any>;
 
-/** Apply every migration under drizzle/ that the database has not seen yet. Safe to call repeatedly. */
+/**
+ * Apply every migration under drizzle/ that the database has not seen yet. Safe to call repeatedly,
+ * and from several processes at once (web server and workers all migrate at start-up): unlike
+ * drizzle's own migrator, which reads the last applied migration before taking the write lock, this
+ * takes the lock first (BEGIN IMMEDIATE) and decides inside it. Same bookkeeping table as drizzle's.
+ */
 export function migrateDatabase(db: AnyDb, folder: string = migrationsFolder()): void {
-  migrate(db, { migrationsFolder: folder });
+  const sqlite = (db as unknown as { $client: import('better-sqlite3').Database }).$client;
+  const migrations = readMigrationFiles({ migrationsFolder: folder });
+  sqlite.exec(
+    'CREATE TABLE IF NOT EXISTS __drizzle_migrations (id SERIAL PRIMARY KEY, hash text NOT NULL, created_at numeric)',
+  );
+  const apply = sqlite.transaction(() => {
+    const last = sqlite.prepare('SELECT created_at AS createdAt FROM __drizzle_migrations ORDER BY created_at DESC LIMIT 1').get() as
+      | { createdAt: number }
+      | undefined;
+    const insert = sqlite.prepare('INSERT INTO __drizzle_migrations (hash, created_at) VALUES (?, ?)');
+    for (const migration of migrations) {
+      if (last && Number(last.createdAt) >= migration.folderMillis) continue;
+      for (const statement of migration.sql) if (statement.trim()) sqlite.exec(statement);
+      insert.run(migration.hash, migration.folderMillis);
+    }
+  });
+  apply.immediate();
 }
 
 interface Journal {
