@@ -3,7 +3,8 @@ import { HttpError } from './errors';
 
 /** Validate input with a zod schema; the first problem becomes a 400 naming the field. */
 export function parseInput<S extends z.ZodType>(schema: S, input: unknown): z.output<S> {
-  const result = schema.safeParse(input);
+  // reportInput keeps the offending value on each issue, so a wrong type is not mistaken for a missing field.
+  const result = schema.safeParse(input, { reportInput: true });
   if (result.success) return result.data;
   const issue = result.error.issues[0];
   const field = issue.path.length ? issue.path.join('.') : undefined;
