@@ -534,6 +534,33 @@ export class FitEngine {
     return v;
   }
 
+  /** coarseNode for two nodes in one pass over the bands; writes coarseChi2[c0], coarseChi2[c1]. */
+  private coarsePair(pc: Float64Array, c0: number, c1: number): void {
+    const nDet = this.nDet;
+    const chi = this.coarseChi2;
+    if (this.nFit > nDet) {
+      // Limits need s per node: the single-node path handles them.
+      chi[c0] = this.coarseNode(pc, c0);
+      chi[c1] = this.coarseNode(pc, c1);
+      return;
+    }
+    const off = this.offC, wy = this.wyC, w = this.w;
+    let A0 = 0, B0 = 0, A1 = 0, B1 = 0;
+    for (let k = 0; k < nDet; k++) {
+      const o = off[k];
+      const p0 = pc[o + c0];
+      const p1 = pc[o + c1];
+      const wk = w[k];
+      const wyk = wy[k];
+      A0 += wyk * p0;
+      B0 += wk * p0 * p0;
+      A1 += wyk * p1;
+      B1 += wk * p1 * p1;
+    }
+    chi[c0] = A0 > 0 ? this.coarseSyy - (A0 * A0) / B0 : Infinity;
+    chi[c1] = A1 > 0 ? this.coarseSyy - (A1 * A1) / B1 : Infinity;
+  }
+
   /**
    * Coarse ln T search in one plane (exact node values); returns the best coarse index. Every other
    * coarse node (≈ 40 % steps in T) plus the hot edge: the profile of a blackbody is smooth on that
@@ -557,9 +584,15 @@ export class FitEngine {
     let best = 0;
     let bestChi = Infinity;
     const last = N_COARSE - 1;
-    for (let c = 0; c <= last; c = c + 2 > last && c < last ? last : c + 2) {
-      const v = this.coarseNode(pc, c);
-      chi[c] = v;
+    // Even nodes two at a time (independent sums keep the FPU busy), then the hot edge.
+    for (let c = 0; c <= last; c += 4) {
+      const c2 = c + 2 <= last ? c + 2 : -1;
+      if (c2 >= 0) this.coarsePair(pc, c, c2);
+      else chi[c] = this.coarseNode(pc, c);
+    }
+    if (chi[last] !== chi[last]) chi[last] = this.coarseNode(pc, last);
+    for (let c = 0; c <= last; c++) {
+      const v = chi[c];
       if (v < bestChi) {
         bestChi = v;
         best = c;
@@ -601,9 +634,34 @@ export class FitEngine {
     let j = Math.round((u - LN_T_MIN) / LN_T_STEP);
     if (j < 1) j = 1;
     if (j > N_INTERVALS - 1) j = N_INTERVALS - 1;
-    let fm = this.fineNode(phiFine, j - 1);
-    let f0 = this.fineNode(phiFine, j);
-    let fp = this.fineNode(phiFine, j + 1);
+    let fm: number, f0: number, fp: number;
+    if (this.nFit === this.nDet) {
+      // Three neighbouring nodes in one pass over the bands.
+      const off = this.offT, wy = this.wyC, w = this.w;
+      let Am = 0, Bm = 0, A0 = 0, B0 = 0, Ap = 0, Bp = 0;
+      for (let k = 0; k < this.nDet; k++) {
+        const o = off[k] + j;
+        const pm = phiFine[o - 1];
+        const p0 = phiFine[o];
+        const pp = phiFine[o + 1];
+        const wk = w[k];
+        const wyk = wy[k];
+        Am += wyk * pm;
+        Bm += wk * pm * pm;
+        A0 += wyk * p0;
+        B0 += wk * p0 * p0;
+        Ap += wyk * pp;
+        Bp += wk * pp * pp;
+      }
+      const syy = this.coarseSyy;
+      fm = Am > 0 ? syy - (Am * Am) / Bm : Infinity;
+      f0 = A0 > 0 ? syy - (A0 * A0) / B0 : Infinity;
+      fp = Ap > 0 ? syy - (Ap * Ap) / Bp : Infinity;
+    } else {
+      fm = this.fineNode(phiFine, j - 1);
+      f0 = this.fineNode(phiFine, j);
+      fp = this.fineNode(phiFine, j + 1);
+    }
     for (let steps = 0; steps < COARSE_STRIDE; steps++) {
       if (fm < f0 && j > 1) {
         j--;
