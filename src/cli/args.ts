@@ -15,11 +15,16 @@ export const HELP = `Usage: starkiln fit <input> -o <output> [options]
 Fits a blackbody through each star's band photometry and writes a catalogue with
 Teff, angular diameter, radius, luminosity and quality flags.
 
-Input: CSV or TSV (wide: one row per star; long: one row per star and band, recognised
-by a "band" column) or a FITS binary table, with the canonical column names:
+Input: CSV or TSV text (wide: one row per star; long: one row per star and band), a
+VOTable (TABLEDATA) or a FITS binary table, told apart by their content. Columns are
+recognised by name, as in the web intake: the canonical names
   id, ra, dec, parallax_mas, parallax_err_mas, av, and per band <key>, <key>_err (mag),
-  <key>_jy, <key>_jy_err (Jy), <key>_ul, <key>_jy_ul (upper limits).
+  <key>_jy, <key>_jy_err (Jy), <key>_ul, <key>_jy_ul (upper limits),
+and catalogue names such as source_id, parallax, phot_g_mean_flux (Gaia, e-/s), j_m and
+j_msigcom with ph_qual (2MASS), w1mpro (WISE), Vmag and e_Vmag, Plx, RA_ICRS (VizieR).
 Band keys (case-sensitive): U B V R I  J H Ks  G BP RP  u g r i z  W1 W2 W3 W4  BT VT Hp  FUV NUV
+Quality letters (2MASS and WISE ph_qual): by default a band's value is used only where
+its letter is A or B.
 
 Options:
   -o, --output <file>     catalogue to write (.csv or .json); "-" writes CSV to stdout
@@ -33,8 +38,16 @@ Options:
   --clip                  refit without the worst band (at most two) when it lies > 3σ off
   --include-long          use bands beyond ~5 µm in the fit (default: excess diagnostics only)
   --format <csv|json>     output format (default: from the output file's extension, else csv)
-  --columns <map>         rename input columns, e.g. "hip=id,j_m=J,j_msigcom=J_err,junk=-"
-                          ("-" drops a column)
+  --columns <map>         say what a column holds, overriding the detection, with a name
+                          Starkiln knows: "hd=id,Jmag2=J,e_Jmag2=J_err,junk=-" ("-": not used)
+  --quality <col>=<letters>
+                          quality letters to keep for a quality column (its name, or 2mass
+                          or wise), e.g. --quality 2mass=ABC (default: A and B)
+  --no-quality-rules      use every value whatever its quality letter
+  --mapping <file.json>   use a saved column mapping (a preset exported from the app, or one
+                          written by --save-mapping) instead of the detection
+  --save-mapping <file>   write the mapping used, in the same form, for the next run
+  --show-mapping          print the column mapping used to stderr
   --hdu <n|name>          FITS: the HDU holding the table (default: the first binary table)
   --quiet                 no progress bar and no summary
   -h, --help              this help
@@ -58,6 +71,12 @@ export interface FitCommandArgs {
   clip: boolean;
   includeLongBands: boolean;
   columnMap?: Record<string, string>;
+  /** --quality: letters to keep per quality column ('2mass' and 'wise' name the column by its bands). */
+  qualityKeep: { column: string; letters: string[] }[];
+  noQualityRules: boolean;
+  mappingFile?: string;
+  saveMappingFile?: string;
+  showMapping: boolean;
   hdu?: number | string;
   quiet: boolean;
 }
@@ -90,6 +109,11 @@ export function parseCommandLine(argv: string[]): ParsedCommand {
         'include-long': { type: 'boolean' },
         format: { type: 'string' },
         columns: { type: 'string', multiple: true },
+        quality: { type: 'string', multiple: true },
+        'no-quality-rules': { type: 'boolean' },
+        mapping: { type: 'string' },
+        'save-mapping': { type: 'string' },
+        'show-mapping': { type: 'boolean' },
         hdu: { type: 'string' },
         quiet: { type: 'boolean', short: 'q' },
         help: { type: 'boolean', short: 'h' },
@@ -125,6 +149,21 @@ export function parseCommandLine(argv: string[]): ParsedCommand {
       columnMap[pair.slice(0, eq).trim()] = pair.slice(eq + 1).trim() || '-';
     }
   }
+  const qualityKeep: FitCommandArgs['qualityKeep'] = [];
+  for (const spec of v.quality ?? []) {
+    const eq = spec.indexOf('=');
+    const column = spec.slice(0, Math.max(0, eq)).trim();
+    const letters = spec
+      .slice(eq + 1)
+      .toUpperCase()
+      .split(/[\s,]*/)
+      .filter((c) => c !== '');
+    if (eq <= 0 || column === '' || letters.length === 0 || letters.some((c) => !/^[A-Z]$/.test(c))) {
+      throw new UsageError(`--quality takes <column>=<letters to keep>, e.g. 2mass=ABC or ph_qual=A; got "${spec}"`);
+    }
+    qualityKeep.push({ column, letters: [...new Set(letters)] });
+  }
+  if (v['save-mapping'] !== undefined && v['save-mapping'] === v.output) throw new UsageError('--save-mapping and -o name the same file');
   let hdu: number | string | undefined;
   if (v.hdu !== undefined) hdu = /^\d+$/.test(v.hdu) ? Number(v.hdu) : v.hdu;
   return {
@@ -142,6 +181,11 @@ export function parseCommandLine(argv: string[]): ParsedCommand {
       clip: v.clip === true,
       includeLongBands: v['include-long'] === true,
       columnMap,
+      qualityKeep,
+      noQualityRules: v['no-quality-rules'] === true,
+      mappingFile: v.mapping,
+      saveMappingFile: v['save-mapping'],
+      showMapping: v['show-mapping'] === true,
       hdu,
       quiet: v.quiet === true,
     },

@@ -1,5 +1,7 @@
-// `starkiln fit`: read a photometry table, fit every good star with the same core the worker uses,
-// and write the catalogue atomically (temporary file, then rename) with its provenance.
+// `starkiln fit`: read a photometry table the way the web intake reads an upload (format from the
+// content, column mapping detected from the names, quality rules), fit every good star with the same
+// core the worker uses, and write the catalogue atomically (temporary file, then rename) with its
+// provenance.
 import { createHash } from 'node:crypto';
 import { closeSync, fsyncSync, openSync, readFileSync, renameSync, rmSync, writeSync } from 'node:fs';
 import path from 'node:path';
@@ -18,9 +20,12 @@ import {
 import { extrapolatedBandKeys } from '../core/extinction';
 import { measurementToBandFlux } from '../core/photometry';
 import { fitStar, prepareFitModel, type FitFailure, type FitResult } from '../core/fit';
-import { closestBandKey, formatProblem, readPhotometryFile, type StarInput, type TableProblem } from '../core/tables';
+import { applyMapping, type ColumnTable, type MappedStar, type MappingProblem } from '../core/mapping';
+import { closestBandKey } from '../core/tables';
+import { FORMAT_LABELS, readUpload, UnreadableFile, type ReadUpload } from '../core/tables/table-file';
 import type { BandFlux } from '../core/types';
 import { UsageError, type FitCommandArgs } from './args';
+import { describeMapping, mappingFileJson, resolveMapping } from './column-mapping';
 import { Progress } from './progress';
 
 export interface Io {
@@ -88,23 +93,33 @@ function* jsonChunks(provenance: Provenance, rows: CatalogueRow[]): Generator<st
   yield ']\n}\n';
 }
 
+/**
+ * Like a compiler, so editors can jump to it: `file:line:column: message`. Text files give the
+ * file line; VOTable and FITS tables give the table row instead; header problems give no line.
+ */
+export function formatProblem(p: MappingProblem): string {
+  const line = p.line ?? p.row;
+  const where = p.row === 0 && p.line === undefined ? (p.column ? `${p.file}:${p.column.name}` : p.file) : `${p.file}:${line}${p.column ? `:${p.column.number}` : ''}`;
+  return `${where}: ${p.severity === 'warning' ? 'warning: ' : ''}${p.message}`;
+}
+
 interface Converted {
   fluxes: BandFlux[];
-  problems: TableProblem[];
+  problems: MappingProblem[];
 }
 
 /** Measurements → band fluxes; a measurement the band library cannot convert is an input error of that star. */
-function convertStar(star: StarInput, file: string, excluded: Set<string>): Converted {
+function convertStar(star: MappedStar, table: ColumnTable, excluded: Set<string>): Converted {
   const library = starterBandLibrary();
   const fluxes: BandFlux[] = [];
-  const problems: TableProblem[] = [];
+  const problems: MappingProblem[] = [];
   for (const m of star.measurements) {
     if (excluded.has(m.bandKey)) continue;
     const band = getBand(library, m.bandKey)!;
     try {
       fluxes.push(measurementToBandFlux(band, m));
     } catch (e) {
-      problems.push({ file, row: star.row, line: star.line, severity: 'error', message: `data row ${star.row} (star ${star.id}): ${(e as Error).message}; the star was left out (or leave the band out with --exclude ${m.bandKey})` });
+      problems.push({ file: table.file, row: star.row, line: table.lines?.[star.row - 1], severity: 'error', message: `row ${star.row} (star ${star.id}): ${(e as Error).message}; the star was left out (or leave the band out with --exclude ${m.bandKey})` });
     }
   }
   return { fluxes, problems };
@@ -128,8 +143,47 @@ export async function runFit(args: FitCommandArgs, io: Io): Promise<number> {
     return 1;
   }
   const sha256 = createHash('sha256').update(bytes).digest('hex');
-  const table = readPhotometryFile(bytes, { file: args.input, bandKeys, columnMap: args.columnMap, hdu: args.hdu });
-  const problems: TableProblem[] = [...table.problems];
+  let read: ReadUpload;
+  try {
+    read = readUpload(bytes, args.input, undefined, { hdu: args.hdu });
+  } catch (e) {
+    if (!(e instanceof UnreadableFile)) throw e;
+    io.stderr.write(`starkiln: ${e.message}\n`);
+    return 1;
+  }
+  if (read.format === 'fits-image') {
+    io.stderr.write(`starkiln: ${args.input} is a FITS image, not a table: its header describes one observation (filter ${read.observation.filter ?? 'unknown'}); put the star's measured magnitudes in a table to fit them\n`);
+    return 1;
+  }
+  const columnTable = read.table;
+  const formatLabel = FORMAT_LABELS[read.format];
+  const resolved = resolveMapping(columnTable, library, {
+    mappingFile: args.mappingFile,
+    columnMap: args.columnMap,
+    qualityKeep: args.qualityKeep,
+    noQualityRules: args.noQualityRules,
+    excludeBands: args.excludeBands,
+  });
+  if (args.showMapping) io.stderr.write(describeMapping(resolved, columnTable, formatLabel));
+  const table = applyMapping(columnTable, resolved.mapping, resolved.rules, { bandKeys });
+  const problems: MappingProblem[] = [...resolved.warnings, ...table.problems];
+  // A mistake in the mapping itself (no id column, two columns for one thing …) concerns every row:
+  // stop before fitting and writing anything.
+  const mappingErrors = table.problems.filter((p) => p.row === 0 && p.severity === 'error');
+  if (mappingErrors.length > 0) {
+    for (const p of problems) io.stderr.write(formatProblem(p) + '\n');
+    io.stderr.write(`starkiln: the column mapping cannot be used, nothing was written; see it with --show-mapping and correct it with --columns (or --mapping <file>)\n`);
+    return 1;
+  }
+  if (args.saveMappingFile) {
+    try {
+      writeFileAtomic(args.saveMappingFile, [mappingFileJson(resolved, path.basename(args.input))]);
+    } catch (e) {
+      io.stderr.write(`starkiln: cannot write ${args.saveMappingFile}: ${(e as Error).message}\n`);
+      return 1;
+    }
+  }
+  const usedBandKeys = [...new Set(Object.values(resolved.mapping.columns).flatMap((a) => (a.band && a.role !== 'ignore' ? [a.band] : [])))];
 
   const model = prepareFitModel(library, {
     law: args.law,
@@ -148,7 +202,7 @@ export async function runFit(args: FitCommandArgs, io: Io): Promise<number> {
   const failures: Record<string, number> = {};
   for (let i = 0; i < table.stars.length; i++) {
     const star = table.stars[i];
-    const { fluxes, problems: conv } = convertStar(star, args.input, excluded);
+    const { fluxes, problems: conv } = convertStar(star, columnTable, excluded);
     if (conv.length > 0) {
       problems.push(...conv);
       starsLeftOut++;
@@ -184,12 +238,17 @@ export async function runFit(args: FitCommandArgs, io: Io): Promise<number> {
       exclude: args.excludeBands,
       clip: args.clip,
       include_long: args.includeLongBands,
-      ...(args.columnMap ? { columns: Object.entries(args.columnMap).map(([a, b]) => `${a}=${b}`) } : {}),
+      mapping: `${resolved.origin}${args.columnMap ? ', with --columns' : ''}`,
+      columns: Object.entries(resolved.mapping.columns)
+        .filter(([, a]) => a.role !== 'ignore')
+        .map(([c, a]) => `${c}=${a.role === 'quality' ? `quality:${(a.bands ?? []).join('/')}` : a.band ? `${a.band}:${a.role}` : a.role}`),
+      quality_rules: resolved.rules.quality.map((q) => `${q.column} keep ${q.keep.join('')}`),
     },
+    notes: table.excludedByQuality > 0 ? [`${table.excludedByQuality} band values were left out by the quality rules`] : undefined,
     createdAt: io.now().toISOString(),
-    input: { file: path.basename(args.input), sha256, format: table.kind === 'fits' ? 'FITS binary table' : `${table.format} ${table.delimiter === '\t' ? 'TSV' : 'CSV'}`, rows: table.rowCount, stars: table.stars.length, rejectedRows: table.rejectedRows + starsLeftOut },
+    input: { file: path.basename(args.input), sha256, format: `${formatLabel}, ${resolved.mapping.layout} layout`, rows: table.rowCount, stars: table.stars.length, rejectedRows: table.rejectedRows + starsLeftOut },
     extrapolatedBands: extrapolatedBandKeys(
-      table.bandKeys.map((k) => getBand(library, k)!).filter((b) => b !== null),
+      usedBandKeys.map((k) => getBand(library, k)!).filter((b) => b !== null),
       args.law,
     ),
   };
@@ -214,8 +273,10 @@ export async function runFit(args: FitCommandArgs, io: Io): Promise<number> {
     io.stderr.write(
       `starkiln: ${fitted} star${fitted === 1 ? '' : 's'} fitted` +
         (failText ? `, ${rows.length - fitted} not fitted (${failText})` : '') +
-        `, ${rejected} input row${rejected === 1 ? '' : 's'} left out, ${errors.length} error${errors.length === 1 ? '' : 's'} and ${problems.length - errors.length} warning${problems.length - errors.length === 1 ? '' : 's'} in the input` +
-        ` (positions are file:line:column, data rows counted from 1 after the header)` +
+        `, ${rejected} input row${rejected === 1 ? '' : 's'} left out` +
+        (table.excludedByQuality > 0 ? `, ${table.excludedByQuality} band value${table.excludedByQuality === 1 ? '' : 's'} left out by quality rules` : '') +
+        `, ${errors.length} error${errors.length === 1 ? '' : 's'} and ${problems.length - errors.length} warning${problems.length - errors.length === 1 ? '' : 's'} in the input` +
+        (problems.length > 0 ? ` (positions are file:line:column; for VOTable and FITS the table row)` : '') +
         `; wrote ${args.output === '-' ? 'stdout' : args.output} in ${seconds} s\n`,
     );
   }

@@ -73,7 +73,8 @@ export function sniffFormat(bytes: Uint8Array): 'fits' | 'xml' | 'text' | 'empty
 
 function fitsCell(v: FitsCell): TableCell {
   if (v === null || typeof v === 'string' || typeof v === 'number' || typeof v === 'boolean') return v;
-  if (typeof v === 'bigint') return Number(v);
+  // 64-bit integers stay exact: Gaia source_id values pass 2^53, and rounding them would merge stars.
+  if (typeof v === 'bigint') return v;
   // Arrays and complex numbers are not photometry; the mapping reports them as non-numbers.
   return Array.isArray(v) ? `[${v.length} values]` : `(${v.re}, ${v.im})`;
 }
