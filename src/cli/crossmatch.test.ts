@@ -176,3 +176,16 @@ describe('saved mappings', () => {
     expect(broken.stderr).toMatch(/--mapping: broken\.json: column "j_m": role must be one of ignore, id, ra/);
   });
 });
+
+describe('other inputs the intake takes', () => {
+  it('a long CSV (one row per star and band) is recognised by its band column; a FITS image is refused with a reason', () => {
+    const long = run('fit', path.join(root, 'fixtures/tables/long_small.csv'), '-o', 'long.csv', '--show-mapping');
+    expect(long.code).toBe(0);
+    expect(long.stderr).toMatch(/CSV text, long layout, 11 rows/);
+    expect(catalogue('long.csv').rows.map((x) => x.id)).toEqual(['ember-01', 'ember-02', 'ember-03']);
+    const image = run('fit', path.join(root, 'fixtures/fits/image_header.fits'), '-o', 'image.csv');
+    expect(image.code).toBe(1);
+    expect(image.stderr).toMatch(/image_header\.fits is a FITS image, not a table/);
+    expect(existsSync(path.join(dir, 'image.csv'))).toBe(false);
+  });
+});
