@@ -6,7 +6,7 @@
 import { and, desc, eq, sql } from 'drizzle-orm';
 import { z } from 'zod';
 import type { AppDatabase, DbOrTx } from '../db/client';
-import { batches, user } from '../db/schema';
+import { batches, user, type BatchStatus } from '../db/schema';
 import { STARTER_BAND_KEYS, starterBandLibrary } from '../core/bands';
 import { resolveFitOptions, type FitOptions } from '../core/fit';
 import type { MailMessage } from '../lib/mail';
@@ -122,7 +122,7 @@ export function batchQueue(db: AppDatabase, options?: Omit<SqliteQueueOptions, '
 export interface BatchSummary {
   id: string;
   campaignId: string;
-  status: string;
+  status: BatchStatus;
   starCount: number;
   createdAt: string;
   finishedAt: string | null;
