@@ -182,7 +182,7 @@ describe('other inputs the intake takes', () => {
     const long = run('fit', path.join(root, 'fixtures/tables/long_small.csv'), '-o', 'long.csv', '--show-mapping');
     expect(long.code).toBe(0);
     expect(long.stderr).toMatch(/CSV text, long layout, 11 rows/);
-    expect(catalogue('long.csv').rows.map((x) => x.id)).toEqual(['ember-01', 'ember-02', 'ember-03']);
+    expect(catalogue('long.csv').rows.map((x) => x.id)).toEqual(['ember-01', 'ember-02', 'ember-03, B']);
     const image = run('fit', path.join(root, 'fixtures/fits/image_header.fits'), '-o', 'image.csv');
     expect(image.code).toBe(1);
     expect(image.stderr).toMatch(/image_header\.fits is a FITS image, not a table/);
