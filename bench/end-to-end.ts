@@ -1,4 +1,4 @@
-// `npm run bench` section (or `npx tsx bench/end-to-end.ts [--stars N] [--workers W]`): the whole path
+// Bench section "end-to-end" (or `npx tsx bench/end-to-end.ts [--stars N] [--workers W]`): the whole path
 // for a large campaign — a canonical wide CSV of invented stars uploaded and imported through the
 // intake (src/server/intake), a batch started, and W real worker processes (`workers/index.ts
 // --drain`) fitting every star into fit_results. Reports stars per second per stage and end to end,

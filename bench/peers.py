@@ -1,6 +1,6 @@
-"""Python peers for `npm run bench` (run by bench/index.ts with /usr/bin/python3, one thread).
+"""Python peers for `npm run bench` (run by bench/core.ts with /usr/bin/python3, one thread).
 
-Input (written by bench/index.ts into a temporary directory): per-star dense arrays y, w (N x P, zero
+Input (written by bench/core.ts into a temporary directory): per-star dense arrays y, w (N x P, zero
 where a band is missing; w = 1/sigma^2 with the same systematic floor as Starkiln), the true Teff, and
 phi: band means of pi*B_lambda(T) for s = 1 on 1200 ln T nodes from 2000 to 50 000 K (P x 1200,
 computed by direct integration through the same curves).
