@@ -6,5 +6,7 @@ declare namespace App {
     app: import('./server/context').AppServices;
     /** The signed-in person, or null. Set by src/middleware.ts; authorisation happens in handlers. */
     actor: import('./server/context').Actor | null;
+    /** How the actor was identified: a session cookie, or a personal API token (bearer). */
+    authMethod: 'session' | 'token' | null;
   }
 }

@@ -2,14 +2,29 @@
 // route checks authorisation itself with the guards in src/lib/guards.ts.
 import { defineMiddleware } from 'astro:middleware';
 import { getApp, resolveActor } from './lib/app';
+import { json } from './lib/http';
+import { actorFromBearer, bearerSecret } from './server/api-tokens';
 
 export const onRequest = defineMiddleware(async (context, next) => {
   const app = getApp();
   context.locals.app = app;
   context.locals.actor = null;
+  context.locals.authMethod = null;
   // better-auth's own routes read the session themselves.
   if (!context.url.pathname.startsWith('/api/auth/')) {
     context.locals.actor = await resolveActor(app, context.request.headers);
+    if (context.locals.actor) context.locals.authMethod = 'session';
+    // Scripts: a personal API token as a bearer token (src/server/api-tokens.ts), no cookie needed.
+    const secret = context.locals.actor ? null : bearerSecret(context.request.headers);
+    if (secret !== null) {
+      const found = actorFromBearer(app.db, secret);
+      if (found.ok) {
+        context.locals.actor = found.actor;
+        context.locals.authMethod = 'token';
+      } else if (context.url.pathname.startsWith('/api/')) {
+        return json({ error: { code: 'unauthenticated', message: found.message } }, 401, { 'www-authenticate': 'Bearer realm="starkiln"' });
+      }
+    }
   }
   const response = await next();
   response.headers.set('x-content-type-options', 'nosniff');
