@@ -15,6 +15,8 @@ export const user = sqliteTable(
     emailVerified: integer('email_verified', { mode: 'boolean' }).notNull().default(false),
     image: text('image'),
     kind: text('kind', { enum: ['admin', 'member', 'guest'] }).notNull().default('member'),
+    // Set by an admin: the person can no longer sign in, and their sessions and API tokens stop working.
+    deactivatedAt: integer('deactivated_at', { mode: 'timestamp_ms' }),
     createdAt: integer('created_at', { mode: 'timestamp_ms' }).notNull().default(now),
     updatedAt: integer('updated_at', { mode: 'timestamp_ms' })
       .notNull()

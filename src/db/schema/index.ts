@@ -8,3 +8,4 @@ export * from './batches';
 export * from './review';
 export * from './review-settings';
 export * from './catalogue';
+export * from './band-library';
