@@ -33,7 +33,7 @@ export function bandLibraryByVersion(version: string): BandLibrary {
   throw new Error(`band library version ${version} is not available to this worker (it has ${starter.version})`);
 }
 
-interface BatchInfo {
+export interface BatchInfo {
   id: string;
   campaignId: string;
   options: FitOptions;
@@ -41,7 +41,7 @@ interface BatchInfo {
   softwareVersion: string;
 }
 
-interface StarRow {
+export interface StarRow {
   id: number;
   star_key: string;
   parallax_mas: number | null;
@@ -49,7 +49,7 @@ interface StarRow {
   av_mag: number | null;
 }
 
-interface MeasurementRow {
+export interface MeasurementRow {
   star_id: number;
   band_key: string;
   source: string;
@@ -162,7 +162,8 @@ function provenanceJson(batch: BatchInfo, extrapolated: string[]): string {
   return p;
 }
 
-function resultRow(batch: BatchInfo, starId: number, fit: FitResult | FitFailure, bandFluxes: BandFlux[], skipped: SkippedMeasurement[], extrapolated: string[]): FitResultRow {
+/** One star's fit (or data failure) as a fit_results row; shared by the SQLite and Redis workers so both write the same. */
+export function resultRow(batch: BatchInfo, starId: number, fit: FitResult | FitFailure, bandFluxes: BandFlux[], skipped: SkippedMeasurement[], extrapolated: string[]): FitResultRow {
   const observed: Record<string, { fluxCgs: number; errCgs: number; upperLimit: boolean }> = {};
   for (const f of bandFluxes) observed[f.bandKey] = { fluxCgs: f.fluxCgs, errCgs: f.errCgs, upperLimit: f.upperLimit };
   // The provenance is the same for every star of a batch: serialised once, spliced into each detail.
