@@ -9,6 +9,7 @@ import { mulberry32, normalDeviate } from '../src/core/fit/random';
 import { flambdaCgsToMagnitude, planckBandMean } from '../src/core/photometry';
 import { startBatch, type BatchOptionsInput } from '../src/server/batches';
 import type { Actor, AppServices } from '../src/server/context';
+import { decide } from '../src/server/review';
 import { createWorker } from '../workers/runner';
 
 export const REVIEW_BANDS = ['B', 'V', 'G', 'BP', 'RP', 'J', 'H', 'Ks', 'W1', 'W2', 'W3', 'W4'] as const;
@@ -104,4 +105,18 @@ export function fitIdOf(db: AppDatabase, batchId: string, starKey: string): numb
     .get(batchId, starKey) as number | undefined;
   if (id === undefined) throw new Error(`no fit of ${starKey} in batch ${batchId}`);
   return id;
+}
+
+/**
+ * The demo's review material: the Lanternfield stars with mock photometry, fitted in one batch
+ * started by the analyst, and one fit already accepted by the reviewer so the history shows how a
+ * decision looks. Skipped when the campaign already has fits.
+ */
+export async function seedReviewDemo(app: AppServices, analyst: Actor, reviewer: Actor, campaignId: string): Promise<string | null> {
+  const existing = app.db.$client.prepare('SELECT 1 FROM fit_results WHERE campaign_id = ? LIMIT 1').get(campaignId);
+  if (existing) return null;
+  insertReviewStars(app.db, campaignId);
+  const batchId = await fitAndDrain(app, analyst, campaignId);
+  decide(app.db, reviewer, fitIdOf(app.db, batchId, 'Cindermoor'), { decision: 'accepted', comment: 'Smooth photometry, χ²_ν near 1; the curve follows every band.' });
+  return batchId;
 }

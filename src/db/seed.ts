@@ -3,6 +3,7 @@
 import { pathToFileURL } from 'node:url';
 import { eq } from 'drizzle-orm';
 import { addToCampaign, makeCampaign, makeUser } from '../../tests/factories';
+import { seedReviewDemo } from '../../tests/factories-review';
 import { createApp } from '../lib/app';
 import { getEnv } from '../lib/env';
 import type { AppServices } from '../server/context';
@@ -70,6 +71,8 @@ export async function seedDemo(app: AppServices): Promise<{ campaignId: string; 
   // One open invitation, so the outbox and the member list show how inviting works.
   const invited = app.db.select().from(invitations).where(eq(invitations.email, DEMO_INVITEE)).get();
   if (!invited) await addToCampaign(app, analyst, campaign.id, { email: DEMO_INVITEE }, ['collaborator']);
+  // Fitted stars waiting on the review desk (mock photometry of the invented stars, fitted by the worker path).
+  await seedReviewDemo(app, analyst, reviewer, campaign.id);
   return { campaignId: campaign.id, created: true };
 }
 

@@ -10,11 +10,14 @@ import type { AppDatabase, DbOrTx } from '../db/client';
 import { campaignReviewSettings } from '../db/schema';
 import { FLAG_EXPLANATIONS } from '../core/fit/flags';
 import { REVIEW_REASON_CODES, reviewReasonLabel, type ReviewFilter } from '../lib/review-reasons';
+import type { BulkOutcome, DecisionView, QueueItem, QueuePage, ReviewSettings } from '../lib/review-types';
 import { recordAudit } from './audit';
 import type { Actor, AppServices } from './context';
 import { forbidden, HttpError } from './errors';
 import { reviewNoticeMail } from './mail-templates';
 import { parseInput } from './validation';
+
+export type { BulkOutcome, DecisionView, QueueItem, QueuePage, ReviewSettings } from '../lib/review-types';
 
 // ---------------------------------------------------------------------------------------------
 // Input
@@ -75,10 +78,6 @@ export const reviewSettingsInput = z.strictObject({ fourEyes: z.boolean({ error:
 // ---------------------------------------------------------------------------------------------
 // Settings
 
-export interface ReviewSettings {
-  fourEyes: boolean;
-}
-
 export function getReviewSettings(db: DbOrTx, campaignId: string): ReviewSettings {
   const row = db.select().from(campaignReviewSettings).where(eq(campaignReviewSettings.campaignId, campaignId)).get();
   return { fourEyes: row ? row.fourEyes : true };
@@ -101,31 +100,6 @@ export function setReviewSettings(db: AppDatabase, actor: Actor, campaignId: str
 
 // ---------------------------------------------------------------------------------------------
 // The queue
-
-export interface QueueItem {
-  fitResultId: number;
-  starId: number;
-  starKey: string;
-  batchId: string;
-  batchStartedById: string | null;
-  teffK: number | null;
-  teffErrK: number | null;
-  teffLowerK: number | null;
-  thetaMas: number | null;
-  radiusRsun: number | null;
-  chi2Red: number | null;
-  nBands: number | null;
-  flags: string[];
-  createdAt: string;
-}
-
-export interface QueuePage {
-  items: QueueItem[];
-  /** Pending fits matching the filter, all pages together. */
-  total: number;
-  /** Pass back as `cursor` for the next page; null on the last page. */
-  nextCursor: string | null;
-}
 
 interface FitRowLite {
   id: number;
@@ -212,23 +186,6 @@ export function reviewQueue(db: AppDatabase, campaignId: string, options: { filt
 
 // ---------------------------------------------------------------------------------------------
 // Decisions
-
-export interface DecisionView {
-  id: number;
-  fitResultId: number;
-  batchId: string;
-  decision: 'accepted' | 'flagged';
-  reason: string | null;
-  reasonLabel: string;
-  comment: string;
-  reviewer: { id: string; name: string } | null;
-  createdAt: string;
-  bulk: boolean;
-  bulkFilter: Record<string, unknown> | null;
-  supersededAt: string | null;
-  /** 'changed': a later decision on the same fit; 'refit': the star was fitted again. */
-  supersededReason: string | null;
-}
 
 interface DecisionRow {
   id: number;
@@ -353,13 +310,6 @@ export function decide(db: AppDatabase, actor: Actor, fitResultId: number, raw: 
     { behavior: 'immediate' },
   );
   return toDecision(sqlite.prepare(`${DECISION_SELECT} WHERE d.id = ?`).get(id) as DecisionRow);
-}
-
-export interface BulkOutcome {
-  decided: number;
-  /** Matching fits left alone because the four-eyes rule keeps the caller from accepting them. */
-  skippedFourEyes: number;
-  decisionIds: number[];
 }
 
 /**

@@ -9,8 +9,11 @@ import { applyFloor } from '../core/photometry';
 import { planckLambdaCgsAngstrom } from '../core/planck';
 import type { ExtinctionLawKey } from '../core/types';
 import type { AppDatabase } from '../db/client';
+import type { SheetBand, SheetFit, SheetMeasurement, StarSheet } from '../lib/review-types';
 import { HttpError } from './errors';
-import { explainFlags, getReviewSettings, starHistory, type DecisionView } from './review';
+import { explainFlags, getReviewSettings, starHistory } from './review';
+
+export type { SheetBand, SheetFit, SheetMeasurement, StarSheet } from '../lib/review-types';
 
 /** Why a band did not count in the fit, in plain words. */
 export const EXCLUSION_LABELS: Record<string, string> = {
@@ -21,98 +24,6 @@ export const EXCLUSION_LABELS: Record<string, string> = {
 };
 
 export const OUTLIER_SIGMA = 3;
-
-export interface SheetMeasurement {
-  id: number;
-  bandKey: string;
-  bandLabel: string | null;
-  pivotUm: number | null;
-  source: string;
-  upload: { id: string; name: string } | null;
-  mag: number | null;
-  magErr: number | null;
-  fnuJy: number | null;
-  fnuErrJy: number | null;
-  upperLimit: boolean;
-  quality: string | null;
-  /** Set when this value did not reach the newest fit (another value in the band won, or it could not be converted). */
-  notUsedReason: string | null;
-}
-
-/** One band of the newest fit, ready to draw. Fluxes are band-mean F_λ (erg s⁻¹ cm⁻² Å⁻¹). */
-export interface SheetBand {
-  key: string;
-  label: string;
-  pivotAngstrom: number;
-  pivotUm: number;
-  observedFluxCgs: number;
-  /** Measurement error alone. */
-  errCgs: number;
-  /** With the systematic floor added in quadrature: the σ of the residual. */
-  sigmaCgs: number;
-  upperLimit: boolean;
-  modelFluxCgs: number | null;
-  residualSigma: number | null;
-  /** λ·F_λ at the pivot, erg s⁻¹ cm⁻². */
-  observedLambdaFlux: number;
-  sigmaLambdaFlux: number;
-  modelLambdaFlux: number | null;
-  /** 'fitted', 'excluded' (did not count), 'upper_limit'. */
-  role: 'fitted' | 'excluded' | 'upper_limit';
-  /** More than 3σ from the curve. */
-  outlier: boolean;
-  /** Plain words for why the band is drawn differently, or null. */
-  note: string | null;
-}
-
-export interface SheetFit {
-  id: number;
-  batchId: string;
-  batchCreatedAt: string;
-  batchStartedBy: { id: string; name: string } | null;
-  createdAt: string;
-  ok: boolean;
-  failureReason: string | null;
-  reviewStatus: string;
-  teffK: number | null;
-  teffErrK: number | null;
-  teffErrFormalK: number | null;
-  teffLowerK: number | null;
-  thetaMas: number | null;
-  thetaErrMas: number | null;
-  radiusRsun: number | null;
-  radiusErrRsun: number | null;
-  lumLsun: number | null;
-  lumErrLsun: number | null;
-  fbolCgs: number | null;
-  fbolErrCgs: number | null;
-  avMag: number | null;
-  avErrMag: number | null;
-  avFitted: boolean;
-  chi2: number | null;
-  chi2Red: number | null;
-  nBands: number | null;
-  bandsUsed: string[];
-  irExcessSigma: number | null;
-  flags: { code: string; explanation: string }[];
-  law: string | null;
-  rv: number | null;
-  floorFraction: number | null;
-  bandLibraryVersion: string;
-  softwareVersion: string;
-}
-
-export interface StarSheet {
-  campaign: { id: string; name: string; fourEyes: boolean };
-  star: { id: number; starKey: string; raDeg: number | null; decDeg: number | null; parallaxMas: number | null; parallaxErrMas: number | null; avMag: number | null };
-  measurements: SheetMeasurement[];
-  fit: SheetFit | null;
-  bands: SheetBand[];
-  /** The fitted curve s · π B_λ(T) · 10^(−0.4 A_V k(λ)) at log-spaced wavelengths, as λF_λ. */
-  curve: { wavelengthUm: number[]; lambdaFlux: number[]; teffK: number; note: string } | null;
-  earlierFits: { id: number; batchId: string; createdAt: string; ok: boolean; teffK: number | null; teffLowerK: number | null; chi2Red: number | null; reviewStatus: string }[];
-  history: DecisionView[];
-}
 
 interface FitRow {
   id: number;

@@ -1,0 +1,155 @@
+// In real Chromium against the built server, on the seeded demo (the invented Lanternfield stars,
+// fitted by the worker path): the reviewer opens a star sheet and the SED plot draws the star's
+// measured bands at their pivot wavelengths (the band library's values) with the fitted curve;
+// then flags the fit from the keyboard on the review desk and finds the decision in the history.
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import type { Page } from 'playwright-core';
+import { eq } from 'drizzle-orm';
+import { requireBand, starterBandLibrary } from '../../src/core/bands';
+import { WIEN_B_M_K } from '../../src/core/constants';
+import { campaigns } from '../../src/db/schema';
+import { DEMO_CAMPAIGN, demoUsers } from '../../src/db/seed';
+import { nameKey } from '../../src/server/campaigns';
+import { launchBrowser, startApp, type Browser, type RunningApp } from './harness';
+
+let run: RunningApp;
+let browser: Browser;
+let campaignId: string;
+const people = demoUsers();
+
+beforeAll(async () => {
+  run = await startApp();
+  browser = await launchBrowser();
+  campaignId = run.app.db.select().from(campaigns).where(eq(campaigns.nameKey, nameKey(DEMO_CAMPAIGN.name))).get()!.id;
+});
+afterAll(async () => {
+  await browser?.close();
+  await run?.stop();
+});
+
+async function signIn(page: Page, who: keyof typeof people) {
+  // One browser profile for the whole file: start each person from a signed-out state.
+  await browser.context.clearCookies();
+  await page.goto(`${run.baseUrl}/sign-in`);
+  await page.getByLabel('E-mail').fill(people[who].email);
+  await page.getByLabel('Password').fill(people[who].password);
+  await Promise.all([page.waitForURL(`${run.baseUrl}/campaigns`), page.getByRole('button', { name: 'Sign in' }).click()]);
+}
+
+interface TraceView {
+  role: string | undefined;
+  name: string | undefined;
+  x: number[];
+  y: number[];
+  bands: string[] | undefined;
+  hovertext: string[] | undefined;
+}
+
+/** Plotly keeps the drawn traces on the graph element as `data`. */
+async function drawnTraces(page: Page): Promise<TraceView[]> {
+  await page.locator('[data-testid="sed-plot"][data-ready="true"]').waitFor();
+  return page.evaluate(() => {
+    const el = document.querySelector('[data-testid="sed-plot"] .js-plotly-plot') as unknown as { data: Record<string, unknown>[] } | null;
+    if (!el) throw new Error('no Plotly graph on the page');
+    return el.data.map((t) => ({
+      role: (t.meta as { role?: string } | undefined)?.role,
+      name: t.name as string | undefined,
+      x: Array.from(t.x as number[]),
+      y: Array.from(t.y as number[]),
+      bands: t.customdata ? Array.from(t.customdata as string[]) : undefined,
+      hovertext: t.hovertext ? Array.from(t.hovertext as string[]) : undefined,
+    }));
+  });
+}
+
+describe('review in the browser', () => {
+  it('draws the star’s bands at their pivots with the fitted curve, then takes a keyboard flag into the history', async () => {
+    const page = await browser.newPage();
+    await signIn(page, 'reviewer');
+    const star = run.app.db.$client.prepare("SELECT id FROM stars WHERE campaign_id = ? AND star_key = 'Orrowind'").pluck().get(campaignId) as number;
+    const measured = run.app.db.$client.prepare('SELECT DISTINCT band_key FROM measurements WHERE star_id = ? ORDER BY band_key').pluck().all(star) as string[];
+    expect(measured.length).toBeGreaterThanOrEqual(10);
+
+    await page.goto(`${run.baseUrl}/campaigns/${campaignId}/stars/${star}`);
+    await expect(page.getByTestId('star-key').textContent()).resolves.toBe('Orrowind');
+    await expect(page.getByTestId('colour-temperature-note').textContent()).resolves.toMatch(/blackbody colour temperature/);
+    const traces = await drawnTraces(page);
+
+    // Every measured band is drawn once among the data traces, at the band library's pivot wavelength.
+    const library = starterBandLibrary();
+    const dataTraces = traces.filter((t) => ['measured', 'outlier', 'excluded', 'upper_limit'].includes(t.role ?? ''));
+    const drawn = dataTraces.flatMap((t) => t.bands!.map((band, i) => ({ band, x: t.x[i], role: t.role })));
+    expect(drawn.map((d) => d.band).sort()).toEqual(measured);
+    for (const d of drawn) expect(Math.abs(d.x - requireBand(library, d.band).pivotAngstrom / 1e4)).toBeLessThan(1e-9);
+    // The mock J value was made 0.45 mag too bright: drawn as an outlier, the reason on hover.
+    const outlier = traces.find((t) => t.role === 'outlier')!;
+    expect(outlier.bands).toContain('J');
+    expect(outlier.hovertext![outlier.bands!.indexOf('J')]).toMatch(/More than 3σ from the curve/);
+    // W3 and W4 lie beyond ~5 µm: drawn as not in the fit, with the reason.
+    const excluded = traces.find((t) => t.role === 'excluded')!;
+    expect(excluded.bands!.sort()).toEqual(['W3', 'W4']);
+    expect(excluded.hovertext!.every((h) => /beyond ~5 µm/.test(h))).toBe(true);
+    // The fitted band means and the residual panel cover the same bands.
+    expect(traces.find((t) => t.role === 'model')!.bands!.sort()).toEqual(measured);
+    expect(traces.find((t) => t.role === 'residual')!.bands!.sort()).toEqual(measured);
+
+    // The fitted curve spans 0.1–30 µm; F_λ = λF_λ/λ peaks at Wien's λ_max = b/T (CODATA 2018 b) for the shown T.
+    const curve = traces.find((t) => t.role === 'curve')!;
+    expect(curve.x.length).toBeGreaterThan(100);
+    expect(curve.x[0]).toBeCloseTo(0.1, 6);
+    expect(curve.x[curve.x.length - 1]).toBeCloseTo(30, 4);
+    const teffK = run.app.db.$client.prepare("SELECT teff_k FROM fit_results WHERE star_id = ? AND review_status = 'pending'").pluck().get(star) as number;
+    const flambda = curve.y.map((y, i) => y / curve.x[i]);
+    const peakUm = curve.x[flambda.indexOf(Math.max(...flambda))];
+    // The curve is sampled every 2 % in λ, so the peak is found to about that.
+    expect(Math.abs(peakUm / ((WIEN_B_M_K / teffK) * 1e6) - 1)).toBeLessThan(0.025);
+    await expect(page.getByTestId('sed-summary').textContent()).resolves.toMatch(/J at 1\.2\d\d µm/);
+
+    // The review desk: walk to Orrowind with j, flag with f, reason 2, a comment, Enter.
+    await page.goto(`${run.baseUrl}/campaigns/${campaignId}/review`);
+    await page.getByTestId('queue-list').waitFor();
+    const current = page.getByTestId('current-star');
+    for (let i = 0; i < 10 && (await current.textContent()) !== 'Orrowind'; i++) await page.keyboard.press('j');
+    await expect(current.textContent()).resolves.toBe('Orrowind');
+    await page.keyboard.press('?');
+    await page.getByRole('dialog', { name: 'Keys of the review desk' }).waitFor();
+    await page.keyboard.press('Escape');
+    await page.keyboard.press('f');
+    await page.getByTestId('flag-form').waitFor();
+    await page.keyboard.press('2');
+    await expect(page.getByRole('radio', { name: /One or more measurements look wrong/ }).isChecked()).resolves.toBe(true);
+    await page.keyboard.press('Tab');
+    await page.keyboard.type('J is 0.45 mag brighter than the curve; check the 2MASS match.');
+    await page.keyboard.press('Enter');
+    await page.getByTestId('desk-status').getByText('Flagged Orrowind: One or more measurements look wrong.').waitFor();
+    // It left the queue, and the database holds the decision with the reviewer.
+    await expect(page.getByTestId('queue-list').locator('[data-star="Orrowind"]').count()).resolves.toBe(0);
+    const row = run.app.db.$client
+      .prepare("SELECT d.decision, d.reason, d.comment, u.email FROM review_decisions d JOIN fit_results r ON r.id = d.fit_result_id JOIN user u ON u.id = d.reviewer_id WHERE r.star_id = ? AND d.superseded_at IS NULL")
+      .get(star) as Record<string, string>;
+    expect(row).toEqual({ decision: 'flagged', reason: 'bad_photometry', comment: 'J is 0.45 mag brighter than the curve; check the 2MASS match.', email: people.reviewer.email });
+
+    // The star sheet's history shows it, server-rendered.
+    await page.goto(`${run.baseUrl}/campaigns/${campaignId}/stars/${star}`);
+    const latest = page.getByTestId('review-history').locator('li').first();
+    await expect(latest.getAttribute('data-decision')).resolves.toBe('flagged');
+    await expect(latest.getAttribute('data-reason')).resolves.toBe('bad_photometry');
+    await expect(latest.textContent()).resolves.toContain(people.reviewer.name);
+    await expect(page.getByTestId('review-status').textContent()).resolves.toBe('flagged');
+    await page.close();
+  });
+
+  it('keeps the desk and the decision form from collaborators', async () => {
+    const page = await browser.newPage();
+    await signIn(page, 'collaborator');
+    const desk = await page.goto(`${run.baseUrl}/campaigns/${campaignId}/review`);
+    expect(desk?.status()).toBe(403);
+    // The star sheet is open to every member, without the decision form.
+    const star = run.app.db.$client.prepare("SELECT id FROM stars WHERE campaign_id = ? AND star_key = 'Velloran'").pluck().get(campaignId) as number;
+    const sheet = await page.goto(`${run.baseUrl}/campaigns/${campaignId}/stars/${star}`);
+    expect(sheet?.status()).toBe(200);
+    await expect(page.getByRole('heading', { name: 'Decide' }).count()).resolves.toBe(0);
+    await expect(page.getByTestId('band-table').locator('tr[data-band]').count()).resolves.toBe(12);
+    await page.close();
+  });
+});
