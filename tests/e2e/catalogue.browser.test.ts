@@ -1,0 +1,142 @@
+// In real Chromium against the built server: the demo collaborator opens the catalogue of the demo
+// campaign (real fits, partly accepted), downloads the CSV through the page's link, and its rows
+// match the accepted fits in the database. Also over plain HTTP, as a script would: the first page
+// is in the HTML (no JavaScript needed), and a personal API token works as a bearer token without
+// cookie or Origin header, with its owner's roles, and stops working once revoked.
+import { readFileSync } from 'node:fs';
+import { eq } from 'drizzle-orm';
+import { parse as parseCsv } from 'csv-parse/sync';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { campaigns, user } from '../../src/db/schema';
+import { DEMO_CAMPAIGN, demoUsers } from '../../src/db/seed';
+import { toActor } from '../../src/lib/app';
+import { createApiToken, revokeApiToken } from '../../src/server/api-tokens';
+import { makeFittedCatalogue } from '../factories-catalogue';
+import { launchBrowser, signInCookie, startApp, type Browser, type RunningApp } from './harness';
+
+let run: RunningApp;
+let browser: Browser;
+let campaignId: string;
+const people = demoUsers();
+
+const actorOf = (email: string) => toActor(run.app.db.select().from(user).where(eq(user.email, email)).get()!);
+
+beforeAll(async () => {
+  run = await startApp();
+  browser = await launchBrowser();
+  campaignId = run.app.db.select().from(campaigns).where(eq(campaigns.name, DEMO_CAMPAIGN.name)).get()!.id;
+  // Real fits of invented stars, drained by the worker loop in this process into the server's database.
+  await makeFittedCatalogue(run.app, actorOf(people.analyst.email), campaignId, { count: 70, prefix: 'QE2E', seed: 17, noParallaxEvery: 9 });
+});
+afterAll(async () => {
+  await browser?.close();
+  await run?.stop();
+});
+
+/** The accepted catalogue read straight from the database. */
+function acceptedRows(): { id: string; teff_k: number | null; lum_lsun: number | null; flags: string }[] {
+  return run.app.db.$client
+    .prepare(
+      `SELECT s.star_key AS id, f.teff_k, f.lum_lsun, f.flags FROM fit_results f JOIN stars s ON s.id = f.star_id
+       WHERE f.campaign_id = ? AND f.is_current = 1 AND f.review_status = 'accepted' ORDER BY s.star_key`,
+    )
+    .all(campaignId) as { id: string; teff_k: number | null; lum_lsun: number | null; flags: string }[];
+}
+
+function compareCsv(csv: string) {
+  expect(csv.startsWith('# campaign: ')).toBe(true);
+  const records = parseCsv(csv, { comment: '#', columns: true }) as Record<string, string>[];
+  const want = acceptedRows();
+  expect(want.length).toBeGreaterThan(30);
+  expect(records.map((r) => r.id)).toEqual(want.map((r) => r.id));
+  records.forEach((r, i) => {
+    // teff_k is written to 6 significant digits, lum_lsun to 5 (src/core/catalogue.ts).
+    expect(Math.abs(Number(r.teff_k) - want[i].teff_k!)).toBeLessThanOrEqual(want[i].teff_k! * 5e-6);
+    if (want[i].lum_lsun === null) expect(r.lum_lsun).toBe('');
+    else expect(Math.abs(Number(r.lum_lsun) - want[i].lum_lsun!)).toBeLessThanOrEqual(want[i].lum_lsun! * 5e-5);
+    expect(r.flags).toBe(want[i].flags);
+    expect(r.review_status).toBe('accepted');
+  });
+}
+
+describe('catalogue in the browser', () => {
+  it('lets the demo collaborator open the catalogue and download the accepted CSV through the page link', async () => {
+    const page = await browser.newPage();
+    await page.goto(`${run.baseUrl}/sign-in`);
+    await page.getByLabel('E-mail').fill(people.collaborator.email);
+    await page.getByLabel('Password').fill(people.collaborator.password);
+    await Promise.all([page.waitForURL(`${run.baseUrl}/campaigns`), page.getByRole('button', { name: 'Sign in' }).click()]);
+    await page.goto(`${run.baseUrl}/campaigns/${campaignId}`);
+    await Promise.all([page.waitForURL(/\/catalogue$/), page.getByTestId('catalogue-link').click()]);
+    await page.waitForFunction(() => !document.querySelector('astro-island[ssr]'));
+    const want = acceptedRows();
+    await expect(page.getByTestId('catalogue-count').textContent()).resolves.toContain(`${want.length} of`);
+    await expect(page.getByTestId('catalogue-table').locator('tbody tr').count()).resolves.toBe(Math.min(50, want.length));
+    // The diagrams island draws (Plotly, in the browser).
+    await page.getByTestId('catalogue-diagrams').waitFor();
+
+    const [download] = await Promise.all([page.waitForEvent('download'), page.getByTestId('download-csv').click()]);
+    expect(download.suggestedFilename()).toMatch(/-catalogue-\d{4}-\d\d-\d\d\.csv$/);
+    compareCsv(readFileSync((await download.path())!, 'utf8'));
+    await page.close();
+  });
+
+  it('sorts and filters on the server when the reader clicks a header and applies a filter', async () => {
+    const page = await browser.newPage();
+    const cookie = await signInCookie(run.baseUrl, people.collaborator.email, people.collaborator.password);
+    await page.context().addCookies(cookie.split('; ').map((c) => ({ name: c.split('=')[0], value: c.slice(c.indexOf('=') + 1), url: run.baseUrl })));
+    await page.goto(`${run.baseUrl}/campaigns/${campaignId}/catalogue`);
+    await page.waitForFunction(() => !document.querySelector('astro-island[ssr]'));
+    await page.getByRole('link', { name: /^Star/ }).click();
+    await page.waitForURL(/sort=star_key/);
+    const first = acceptedRows()[0].id;
+    await expect(page.getByTestId('catalogue-table').locator('tbody tr').first().locator('td').first().textContent()).resolves.toBe(first);
+    await page.getByLabel('Star id starts with').fill(first);
+    await page.getByRole('button', { name: 'Apply' }).click();
+    await page.waitForURL(new RegExp(`q=${first}`));
+    await expect(page.getByTestId('catalogue-table').locator('tbody tr').count()).resolves.toBe(1);
+    // The download link follows the filter.
+    await expect(page.getByTestId('download-csv').getAttribute('href')).resolves.toContain(`q=${first}`);
+    await page.close();
+  });
+});
+
+describe('catalogue over HTTP, as a script', () => {
+  it('renders the first page into the HTML (no JavaScript needed)', async () => {
+    const cookie = await signInCookie(run.baseUrl, people.collaborator.email, people.collaborator.password);
+    const res = await fetch(`${run.baseUrl}/campaigns/${campaignId}/catalogue?sort=star_key`, { headers: { cookie } });
+    expect(res.status).toBe(200);
+    const html = await res.text();
+    for (const r of acceptedRows().slice(0, 5)) expect(html).toContain(`>${r.id}</a>`);
+  });
+
+  it('accepts a personal API token as a bearer token without cookie or Origin, with the owner’s roles, until it is revoked', async () => {
+    const collaborator = actorOf(people.collaborator.email);
+    const { token, secret } = createApiToken(run.app.db, collaborator, { name: 'e2e script' });
+    const auth = { authorization: `Bearer ${secret}` };
+    const csv = await fetch(`${run.baseUrl}/api/campaigns/${campaignId}/downloads/csv?status=accepted`, { headers: auth });
+    expect(csv.status).toBe(200);
+    expect(csv.headers.get('content-disposition')).toMatch(/^attachment; filename=".+\.csv"$/);
+    compareCsv(await csv.text());
+    // A collaborator's token cannot release; an analyst's can, posting JSON with no cookie and no Origin.
+    const post = (headers: Record<string, string>) =>
+      fetch(`${run.baseUrl}/api/campaigns/${campaignId}/releases`, { method: 'POST', headers: { ...headers, 'content-type': 'application/json' }, body: JSON.stringify({ title: 'Scripted release' }) });
+    expect((await post(auth)).status).toBe(403);
+    const analystToken = createApiToken(run.app.db, actorOf(people.analyst.email), { name: 'release script' });
+    const released = await post({ authorization: `Bearer ${analystToken.secret}` });
+    expect(released.status).toBe(201);
+    const outbox = run.app.db.$client.prepare("SELECT to_address FROM outbox_messages WHERE subject = ?").pluck().all(`Catalogue released: Scripted release (${DEMO_CAMPAIGN.name})`);
+    expect(outbox).toContain(people.collaborator.email);
+
+    revokeApiToken(run.app.db, collaborator, token.id);
+    const refused = await fetch(`${run.baseUrl}/api/campaigns/${campaignId}/catalogue`, { headers: auth });
+    expect(refused.status).toBe(401);
+    expect(((await refused.json()) as { error: { message: string } }).error.message).toMatch(/revoked/);
+    const unknown = await fetch(`${run.baseUrl}/api/campaigns/${campaignId}/catalogue`, { headers: { authorization: 'Bearer sk_not-a-real-token' } });
+    expect(unknown.status).toBe(401);
+    // The OpenAPI description is served to anyone.
+    const doc = await fetch(`${run.baseUrl}/api/openapi.json`);
+    expect(doc.status).toBe(200);
+    expect(((await doc.json()) as { openapi: string }).openapi).toBe('3.1.0');
+  });
+});
