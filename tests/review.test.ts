@@ -5,6 +5,7 @@
 import { afterEach, describe, expect, it } from 'vitest';
 import { GET as starRoute } from '../src/pages/api/campaigns/[id]/stars/[starId]';
 import { GET as queueRoute } from '../src/pages/api/campaigns/[id]/review-queue';
+import { GET as auditRoute } from '../src/pages/api/campaigns/[id]/review/audit';
 import { POST as bulkRoute } from '../src/pages/api/campaigns/[id]/review/bulk';
 import { GET as getSettingsRoute, POST as setSettingsRoute } from '../src/pages/api/campaigns/[id]/review/settings';
 import { POST as decisionRoute } from '../src/pages/api/fits/[fitId]/decision';
@@ -159,6 +160,13 @@ describe('decisions', () => {
     for (const a of audit) expect(a.createdAt).toBeGreaterThanOrEqual(before - 1000);
     expect(JSON.parse(audit[0].details)).toMatchObject({ fitResultId: fitId, starKey: 'Orrowind', reason: 'bad_photometry', comment: 'J is far too bright.' });
     expect(JSON.parse(audit[1].details).supersedes).toEqual([flagged.body.decision.id]);
+    // The same trail through the API, newest first.
+    const trail = (await call(auditRoute, w.t, w.reviewer, { id: w.campaign.id })).body.events as { action: string; actorId: string; createdAt: string }[];
+    expect(trail.slice(0, 2).map((e) => [e.action, e.actorId])).toEqual([
+      ['review.accepted', w.admin.id],
+      ['review.flagged', w.reviewer.id],
+    ]);
+    expect(Date.parse(trail[0].createdAt)).toBeGreaterThanOrEqual(Date.parse(trail[1].createdAt));
   });
 
   it('refuses incomplete or unknown input with a 400 naming the field, and writes nothing', async () => {
@@ -354,6 +362,7 @@ describe('who may call each endpoint', () => {
       { name: 'POST bulk', route: bulkRoute, params: { id }, body: bulkBody, expect: { anonymous: 401, outsider: 403, collaborator: 403, analyst: 403, reviewer: 200, admin: 200 } },
       { name: 'GET history', route: historyRoute, params: { fitId }, expect: { anonymous: 401, outsider: 403, collaborator: 200, analyst: 200, reviewer: 200, admin: 200 } },
       { name: 'GET settings', route: getSettingsRoute, params: { id }, expect: { anonymous: 401, outsider: 403, collaborator: 200, analyst: 200, reviewer: 200, admin: 200 } },
+      { name: 'GET audit', route: auditRoute, params: { id }, expect: { anonymous: 401, outsider: 403, collaborator: 403, analyst: 200, reviewer: 200, admin: 200 } },
       { name: 'POST settings', route: setSettingsRoute, params: { id }, body: { fourEyes: true }, expect: { anonymous: 401, outsider: 403, collaborator: 403, analyst: 200, reviewer: 403, admin: 200 } },
     ];
     for (const e of endpoints) {

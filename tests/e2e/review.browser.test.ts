@@ -10,7 +10,7 @@ import { WIEN_B_M_K } from '../../src/core/constants';
 import { campaigns } from '../../src/db/schema';
 import { DEMO_CAMPAIGN, demoUsers } from '../../src/db/seed';
 import { nameKey } from '../../src/server/campaigns';
-import { launchBrowser, startApp, type Browser, type RunningApp } from './harness';
+import { launchBrowser, signInCookie, startApp, type Browser, type RunningApp } from './harness';
 
 let run: RunningApp;
 let browser: Browser;
@@ -151,5 +151,34 @@ describe('review in the browser', () => {
     await expect(page.getByRole('heading', { name: 'Decide' }).count()).resolves.toBe(0);
     await expect(page.getByTestId('band-table').locator('tr[data-band]').count()).resolves.toBe(12);
     await page.close();
+  });
+
+  it('serves the star sheet and takes a decision without JavaScript', async () => {
+    const star = run.app.db.$client.prepare("SELECT id FROM stars WHERE campaign_id = ? AND star_key = 'Quillmark'").pluck().get(campaignId) as number;
+    const fitId = run.app.db.$client.prepare("SELECT id FROM fit_results WHERE star_id = ? AND review_status = 'pending'").pluck().get(star) as number;
+    const url = `${run.baseUrl}/campaigns/${campaignId}/stars/${star}`;
+    const reviewer = await signInCookie(run.baseUrl, people.reviewer.email, people.reviewer.password);
+    const html = await (await fetch(url, { headers: { cookie: reviewer } })).text();
+    // Numbers, the colour-temperature note and every band with its pivot are in the HTML itself.
+    expect(html).toMatch(/data-testid="teff">\d{4} ± \d+ K/);
+    expect(html).toContain('blackbody colour temperature');
+    const library = starterBandLibrary();
+    for (const key of ['B', 'V', 'G', 'J', 'Ks', 'W1', 'W4']) {
+      expect(html).toContain(`data-band="${key}" data-pivot-um="${requireBand(library, key).pivotAngstrom / 1e4}"`);
+    }
+    const post = (cookie: string, fields: Record<string, string>) =>
+      fetch(url, { method: 'POST', headers: { cookie, origin: run.baseUrl, 'content-type': 'application/x-www-form-urlencoded' }, body: new URLSearchParams(fields).toString(), redirect: 'manual' });
+    // A flag without a reason is refused with the reason named, and nothing is written.
+    const refused = await post(reviewer, { fitId: String(fitId), decision: 'flagged', reason: '', comment: '' });
+    expect(refused.status).toBe(400);
+    expect(await refused.text()).toMatch(/A flag needs a reason/);
+    // An analyst without the reviewer role cannot decide through the form either.
+    const analyst = await signInCookie(run.baseUrl, people.analyst.email, people.analyst.password);
+    expect((await post(analyst, { fitId: String(fitId), decision: 'flagged', reason: 'poor_fit' })).status).toBe(403);
+    const ok = await post(reviewer, { fitId: String(fitId), decision: 'flagged', reason: 'poor_fit', comment: 'Optical bands sit high.' });
+    expect(ok.status).toBe(200);
+    expect(await ok.text()).toContain('Fit flagged: The curve does not follow the photometry.');
+    const rows = run.app.db.$client.prepare('SELECT decision, reason, comment FROM review_decisions WHERE fit_result_id = ?').all(fitId);
+    expect(rows).toEqual([{ decision: 'flagged', reason: 'poor_fit', comment: 'Optical bands sit high.' }]);
   });
 });

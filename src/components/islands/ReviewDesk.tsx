@@ -193,8 +193,8 @@ function Desk({ campaignId, actorId, canDecide, fourEyes, initialFilter = {} }: 
                     className={`px-4 py-2 border-t border-rule cursor-pointer flex items-baseline gap-2 ${selected ? 'bg-ember-100' : 'hover:bg-paper-deep'}`}
                   >
                     <span className="font-medium truncate">{it.starKey}</span>
-                    <span className="num ml-auto text-ink-600">{it.teffK !== null ? `${num(it.teffK)} K` : it.teffLowerK !== null ? `> ${num(it.teffLowerK)} K` : '—'}</span>
-                    <span className="num text-ink-500 w-16 text-right" title="reduced χ²">χ²ν {num(it.chi2Red, 2)}</span>
+                    <span className="num ml-auto text-ink-600 whitespace-nowrap">{it.teffK !== null ? `${num(it.teffK)} K` : it.teffLowerK !== null ? `> ${num(it.teffLowerK)} K` : '—'}</span>
+                    <span className="num text-ink-500 w-24 text-right whitespace-nowrap" title="reduced χ²">χ²ν {num(it.chi2Red, 2)}</span>
                     {it.flags.length > 0 && <span className="role-chip bg-alarm-100 text-alarm-700" title={it.flags.join(' ')}>{it.flags.length}</span>}
                   </li>
                 );
@@ -213,7 +213,7 @@ function Desk({ campaignId, actorId, canDecide, fourEyes, initialFilter = {} }: 
       </div>
 
       <section className="card p-5 min-h-[24rem]" aria-labelledby="current-heading">
-        <div role="status" aria-live="polite" className="min-h-[1.5rem]" data-testid="desk-status">
+        <div role="status" aria-live="polite" data-testid="desk-status">
           {message && <p className={`notice ${message.kind === 'ok' ? 'notice-ok' : 'notice-error'} mb-3`}>{message.text}</p>}
         </div>
         {!current ? (
@@ -377,7 +377,7 @@ function BulkForm({ campaignId, filter, total, fourEyes }: { campaignId: string;
     <section className="card p-4 text-sm flex flex-col gap-3" aria-labelledby="bulk-heading">
       <h2 id="bulk-heading" className="text-lg">All fits of this filter</h2>
       {!hasFilter ? (
-        <p className="text-ink-600">Apply a filter first (χ²_ν below, no flags or a Teff range); a bulk decision never applies to the whole queue by accident.</p>
+        <p className="text-ink-600">Apply a filter first (reduced χ² below, no flags or a Teff range); a bulk decision never applies to the whole queue by accident.</p>
       ) : (
         <>
           <div className="flex gap-4">

@@ -21,11 +21,13 @@ export type SedTraceRole = 'measured' | 'outlier' | 'excluded' | 'upper_limit' |
 
 const fmt = (v: number) => v.toExponential(3);
 
+const TICKS_UM = [0.1, 0.2, 0.3, 0.5, 1, 2, 3, 5, 10, 20, 30];
+
 function hover(b: SheetBand): string {
   const lines = [
     `<b>${b.key}</b> · ${b.label}`,
     `pivot ${b.pivotUm.toFixed(4)} µm`,
-    `λF_λ ${fmt(b.observedLambdaFlux)} ± ${fmt(b.sigmaLambdaFlux)} erg s⁻¹ cm⁻²`,
+    `λF<sub>λ</sub> ${fmt(b.observedLambdaFlux)} ± ${fmt(b.sigmaLambdaFlux)} erg s⁻¹ cm⁻²`,
   ];
   if (b.modelLambdaFlux !== null) lines.push(`model ${fmt(b.modelLambdaFlux)}`);
   if (b.residualSigma !== null) lines.push(`residual ${b.residualSigma.toFixed(2)} σ`);
@@ -84,7 +86,7 @@ export function sedFigure(sheet: Pick<StarSheet, 'bands' | 'curve'>, options: { 
       x: withModel.map((b) => b.pivotUm),
       y: withModel.map((b) => b.modelLambdaFlux as number),
       customdata: withModel.map((b) => b.key),
-      hovertext: withModel.map((b) => `<b>${b.key}</b> fitted band mean<br>λF_λ ${fmt(b.modelLambdaFlux as number)} erg s⁻¹ cm⁻²`),
+      hovertext: withModel.map((b) => `<b>${b.key}</b> fitted band mean<br>λF<sub>λ</sub> ${fmt(b.modelLambdaFlux as number)} erg s⁻¹ cm⁻²`),
       hoverinfo: 'text',
       marker: { symbol: 'circle-open', size: size + 5, color: SED_COLOURS.model, line: { width: 1.6 } },
       xaxis: 'x',
@@ -97,6 +99,11 @@ export function sedFigure(sheet: Pick<StarSheet, 'bands' | 'curve'>, options: { 
   if (limits.length) data.push(bandTrace('upper_limit', 'upper limit', limits, { symbol: 'triangle-down', size: size + 2, color: SED_COLOURS.limit }, false));
 
   const withResidual = bands.filter((b) => b.residualSigma !== null);
+  // The panel's range follows the bands of the fit; a band outside it (an excluded infrared excess,
+  // say) sits at the edge, its true value in the hover text.
+  const fitResiduals = withResidual.filter((b) => b.role !== 'excluded').map((b) => Math.abs(b.residualSigma as number));
+  const maxRes = Math.max(4, ...fitResiduals.map((r) => r + 0.8));
+  const edge = maxRes * 0.92;
   if (withResidual.length) {
     data.push({
       type: 'scatter',
@@ -105,9 +112,9 @@ export function sedFigure(sheet: Pick<StarSheet, 'bands' | 'curve'>, options: { 
       showlegend: false,
       meta: { role: 'residual', bands: withResidual.map((b) => b.key) },
       x: withResidual.map((b) => b.pivotUm),
-      y: withResidual.map((b) => b.residualSigma as number),
+      y: withResidual.map((b) => Math.max(-edge, Math.min(edge, b.residualSigma as number))),
       customdata: withResidual.map((b) => b.key),
-      hovertext: withResidual.map((b) => `<b>${b.key}</b> residual ${(b.residualSigma as number).toFixed(2)} σ${b.note ? `<br>${b.note}` : ''}`),
+      hovertext: withResidual.map((b) => `<b>${b.key}</b> residual ${(b.residualSigma as number).toFixed(2)} σ${Math.abs(b.residualSigma as number) > edge ? ' (off the scale)' : ''}${b.note ? `<br>${b.note}` : ''}`),
       hoverinfo: 'text',
       marker: {
         size: size - 1,
@@ -126,7 +133,6 @@ export function sedFigure(sheet: Pick<StarSheet, 'bands' | 'curve'>, options: { 
   const xs = bands.map((b) => b.pivotUm);
   const xlo = Math.log10(Math.min(0.25, ...xs) * 0.8);
   const xhi = Math.log10(Math.max(5, ...xs) * 1.25);
-  const maxRes = Math.max(4, ...withResidual.map((b) => Math.abs(b.residualSigma as number) + 0.8));
   const font = { family: 'Inter Variable, ui-sans-serif, system-ui, sans-serif', size: options.compact ? 11 : 12, color: '#354057' };
 
   const layout: Partial<Layout> = {
@@ -139,8 +145,17 @@ export function sedFigure(sheet: Pick<StarSheet, 'bands' | 'curve'>, options: { 
     showlegend: !options.compact,
     legend: { orientation: 'h', x: 0, y: 1.02, yanchor: 'bottom', font: { size: 11 } },
     hovermode: 'closest',
-    xaxis: { type: 'log', title: { text: 'wavelength λ (µm)' }, range: [xlo, xhi], anchor: 'y2', gridcolor: SED_COLOURS.grid, zeroline: false },
-    yaxis: { type: 'log', title: { text: 'λF_λ (erg s⁻¹ cm⁻²)' }, domain: [0.34, 1], range: lo !== undefined && hi !== undefined ? [lo, hi] : undefined, exponentformat: 'power', gridcolor: SED_COLOURS.grid },
+    xaxis: {
+      type: 'log',
+      title: { text: 'wavelength λ (µm)' },
+      range: [xlo, xhi],
+      anchor: 'y2',
+      tickvals: TICKS_UM,
+      ticktext: TICKS_UM.map(String),
+      gridcolor: SED_COLOURS.grid,
+      zeroline: false,
+    },
+    yaxis: { type: 'log', title: { text: 'λF<sub>λ</sub> (erg s⁻¹ cm⁻²)' }, domain: [0.34, 1], range: lo !== undefined && hi !== undefined ? [lo, hi] : undefined, exponentformat: 'power', gridcolor: SED_COLOURS.grid },
     yaxis2: { title: { text: 'residual (σ)' }, domain: [0, 0.26], range: [-maxRes, maxRes], zeroline: true, zerolinecolor: '#66728b', gridcolor: SED_COLOURS.grid },
     shapes: [-3, 3].map((y) => ({ type: 'line', xref: 'paper', x0: 0, x1: 1, yref: 'y2', y0: y, y1: y, line: { color: SED_COLOURS.outlier, width: 1, dash: 'dot' } })),
   };
