@@ -1,5 +1,7 @@
 // `npm run worker`: one worker process draining the SQLite job queue of the app's database
 // (DATABASE_PATH). Run as many as there are cores to spare; see workers/README.md.
+// With `--backend redis` (or STARKILN_QUEUE=redis) it is a BullMQ fit worker that needs no database,
+// or with `--role writer` the web host's one result writer (workers/redis-main.ts).
 import os from 'node:os';
 import { parseArgs } from 'node:util';
 import { closeDb } from '../src/db/client';
@@ -14,7 +16,11 @@ const usage = `Usage: npm run worker -- [options]
   --backoff-ms <ms>    first retry delay, doubled per attempt (default 1000)
   --slow-ms <ms>       hold each chunk this long before fitting it (simulates slow jobs)
   --drain              exit when no job is waiting or running
-  --quiet              no line per chunk`;
+  --quiet              no line per chunk
+  --backend <b>        sqlite (default, or STARKILN_QUEUE) | redis
+  --redis-url <url>    Redis for --backend redis (default REDIS_URL or redis://127.0.0.1:6379)
+  --role <r>           with redis: fit (default; any machine, no database) | writer (web host, one)
+  --max-in-flight <n>  writer: stars handed to Redis and not yet written back, at most (default 50000)`;
 
 function intOption(values: Record<string, unknown>, name: string, min: number): number | undefined {
   const raw = values[name];
@@ -39,6 +45,10 @@ try {
       'slow-ms': { type: 'string' },
       drain: { type: 'boolean' },
       quiet: { type: 'boolean' },
+      backend: { type: 'string' },
+      'redis-url': { type: 'string' },
+      role: { type: 'string' },
+      'max-in-flight': { type: 'string' },
       help: { type: 'boolean', short: 'h' },
     },
   });
@@ -50,6 +60,32 @@ const { values } = parsed;
 if (values.help) {
   console.log(usage);
   process.exit(0);
+}
+
+const backend = values.backend ?? process.env.STARKILN_QUEUE ?? 'sqlite';
+if (backend !== 'sqlite' && backend !== 'redis') {
+  console.error(`--backend must be sqlite or redis, got "${backend}".\n${usage}`);
+  process.exit(2);
+}
+if (backend === 'redis') {
+  const { runRedisRole } = await import('./redis-main');
+  await runRedisRole({
+    id: values.id,
+    role: values.role,
+    redisUrl: values['redis-url'],
+    chunk: intOption(values, 'chunk', 1),
+    leaseMs: intOption(values, 'lease-ms', 100),
+    idleMs: intOption(values, 'idle-ms', 10),
+    backoffMs: intOption(values, 'backoff-ms', 0),
+    slowMs: intOption(values, 'slow-ms', 0),
+    maxInFlight: intOption(values, 'max-in-flight', 1),
+    drain: values.drain ?? false,
+    quiet: values.quiet ?? false,
+    usage,
+  });
+} else if (values.role !== undefined || values['redis-url'] !== undefined || values['max-in-flight'] !== undefined) {
+  console.error(`--role, --redis-url and --max-in-flight belong to --backend redis.\n${usage}`);
+  process.exit(2);
 }
 
 const owner = values.id ?? `${os.hostname()}:${process.pid}`;

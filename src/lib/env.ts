@@ -22,6 +22,12 @@ const envSchema = z
     MAIL_FROM: z.string().default('Starkiln <no-reply@starkiln.test>'),
     SIGNUP_OPEN: z.enum(['true', 'false']).default('false'),
     AUTH_RATE_LIMIT: z.enum(['on', 'off']).default('on'),
+    // Queue backend: sqlite (embedded, default) or redis (BullMQ; workers on other machines).
+    STARKILN_QUEUE: z.enum(['sqlite', 'redis'], 'STARKILN_QUEUE must be sqlite or redis').default('sqlite'),
+    REDIS_URL: z
+      .string()
+      .regex(/^rediss?:\/\/[^\s]+$/, 'REDIS_URL must look like redis://host:6379 (or rediss:// for TLS)')
+      .default('redis://127.0.0.1:6379'),
     DEMO_ADMIN_PASSWORD: optionalPassword,
     DEMO_ANALYST_PASSWORD: optionalPassword,
     DEMO_REVIEWER_PASSWORD: optionalPassword,
@@ -43,6 +49,8 @@ export interface AppEnv {
   signupOpen: boolean;
   authRateLimit: boolean;
   demoPasswords: { admin?: string; analyst?: string; reviewer?: string; collaborator?: string };
+  queueBackend: 'sqlite' | 'redis';
+  redisUrl: string;
 }
 
 /** Load `.env` from the project root into process.env (values already set win). */
@@ -93,6 +101,8 @@ export function parseEnv(source: Record<string, string | undefined>): AppEnv {
     mailFrom: e.MAIL_FROM,
     signupOpen: e.SIGNUP_OPEN === 'true',
     authRateLimit: e.AUTH_RATE_LIMIT === 'on',
+    queueBackend: e.STARKILN_QUEUE,
+    redisUrl: e.REDIS_URL,
     demoPasswords: {
       admin: e.DEMO_ADMIN_PASSWORD,
       analyst: e.DEMO_ANALYST_PASSWORD,
