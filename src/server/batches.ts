@@ -7,10 +7,10 @@ import { and, desc, eq, sql } from 'drizzle-orm';
 import { z } from 'zod';
 import type { AppDatabase, DbOrTx } from '../db/client';
 import { batches, user, type BatchStatus } from '../db/schema';
-import { STARTER_BAND_KEYS, starterBandLibrary } from '../core/bands';
 import { resolveFitOptions, type FitOptions } from '../core/fit';
 import type { MailMessage } from '../lib/mail';
 import { recordAudit } from './audit';
+import { getCurrentLibrary, getCurrentVersion } from './band-library';
 import type { Actor, AppServices } from './context';
 import { HttpError } from './errors';
 import { FitStarRunner, fitStarJob } from './fit-job';
@@ -18,8 +18,6 @@ import { appVersion } from './health';
 import { newId } from './ids';
 import { createSqliteQueue, type ClaimedJob, type JobQueue, type SqliteQueueOptions } from './queue';
 import { notifyReviewersOfBatch } from './review';
-
-const bandKeys: readonly string[] = STARTER_BAND_KEYS;
 
 /** Fit options as the analyst gives them (API and start form). Every field has a default. */
 export const batchOptionsInput = z.strictObject(
@@ -48,12 +46,11 @@ export const batchOptionsInput = z.strictObject(
       .default(0.02),
     excludeBands: z
       .array(
-        z.string({ error: 'excludeBands must list band keys.' }).refine((k) => bandKeys.includes(k), {
-          error: (issue) => `excludeBands: "${String(issue.input)}" is not a band key; known keys are ${bandKeys.join(' ')} (case-sensitive).`,
-        }),
+        // Checked against the current band library when the batch starts (bands can be added).
+        z.string({ error: 'excludeBands must list band keys.' }),
         { error: 'excludeBands must be a list of band keys.' },
       )
-      .max(bandKeys.length)
+      .max(200)
       .default([]),
     clip: z.boolean({ error: 'clip must be true or false.' }).default(false),
     includeLongBands: z.boolean({ error: 'includeLongBands must be true or false.' }).default(false),
@@ -130,6 +127,7 @@ export interface BatchSummary {
   options: FitOptions;
   bandLibraryVersion: string;
   softwareVersion: string;
+  refitOfBatchId: string | null;
 }
 
 export interface BatchProgress extends BatchSummary {
@@ -163,6 +161,7 @@ function summary(row: BatchRow, startedBy: { id: string; name: string } | null):
     options: row.options as unknown as FitOptions,
     bandLibraryVersion: row.bandLibraryVersion,
     softwareVersion: row.softwareVersion,
+    refitOfBatchId: row.refitOfBatchId,
   };
 }
 
@@ -186,6 +185,12 @@ export function requireBatch(db: DbOrTx, batchId: string): BatchRow {
 export function startBatch(app: AppServices, actor: Actor, campaignId: string, raw: unknown): BatchSummary {
   const { db } = app;
   const input = parseStartInput(raw);
+  const bandKeys = Object.keys(getCurrentLibrary(db).bands);
+  const unknownAt = input.options.excludeBands.findIndex((k) => !bandKeys.includes(k));
+  if (unknownAt >= 0) {
+    const unknownBand = input.options.excludeBands[unknownAt];
+    throw new HttpError('validation_failed', `excludeBands: "${unknownBand}" is not a band key; known keys are ${bandKeys.join(' ')} (case-sensitive).`, `options.excludeBands.${unknownAt}`);
+  }
   const options = toFitOptions(input.options);
   const sqlite = db.$client;
 
@@ -212,17 +217,27 @@ export function startBatch(app: AppServices, actor: Actor, campaignId: string, r
     throw new HttpError('validation_failed', 'This campaign has no stars yet: import photometry on the intake page first.', 'starKeys');
   }
 
+  return insertBatch(app, actor, campaignId, options, starIds, null);
+}
+
+/**
+ * Writes a batch and its jobs with already-resolved options, on the current band library version
+ * (the batch stores that version; its workers load exactly it). Also used to re-fit stars whose
+ * fits went stale (src/server/stale.ts) with the options of their earlier batch.
+ */
+export function insertBatch(app: AppServices, actor: Actor, campaignId: string, options: FitOptions, starIds: number[], refitOfBatchId: string | null): BatchSummary {
+  const { db } = app;
   const id = newId();
   const queue = batchQueue(db);
-  const bandLibraryVersion = starterBandLibrary().version;
+  const bandLibraryVersion = getCurrentVersion(db).label;
   const softwareVersion = appVersion();
   db.transaction(
     (tx) => {
       tx.insert(batches)
-        .values({ id, campaignId, startedById: actor.id, options: options as unknown as Record<string, unknown>, bandLibraryVersion, softwareVersion, status: 'queued', starCount: starIds.length })
+        .values({ id, campaignId, startedById: actor.id, options: options as unknown as Record<string, unknown>, bandLibraryVersion, softwareVersion, status: 'queued', starCount: starIds.length, refitOfBatchId })
         .run();
       queue.enqueue(starIds.map((starId) => fitStarJob(id, starId)));
-      recordAudit(tx, { actorId: actor.id, action: 'batch.started', campaignId, details: { batchId: id, stars: starIds.length, options } });
+      recordAudit(tx, { actorId: actor.id, action: 'batch.started', campaignId, details: { batchId: id, stars: starIds.length, options, bandLibraryVersion, ...(refitOfBatchId ? { refitOfBatchId } : {}) } });
     },
     { behavior: 'immediate' },
   );

@@ -8,11 +8,12 @@
 // retries it with backoff; after its last attempt the job is dead and a failure result names the error.
 import type Database from 'better-sqlite3';
 import type { AppDatabase } from '../db/client';
-import { getBand, starterBandLibrary, type BandLibrary } from '../core/bands';
+import { getBand, type BandLibrary } from '../core/bands';
 import { extrapolatedBandKeys } from '../core/extinction';
 import { fitStar, prepareFitModel, type FitFailure, type FitModel, type FitOptions, type FitResult } from '../core/fit';
 import { measurementToBandFlux } from '../core/photometry';
 import type { Band, BandFlux } from '../core/types';
+import { findLibrary } from './band-library';
 import type { ClaimedJob, JobFailure, NewJob } from './queue';
 
 export const FIT_STAR_JOB = 'fit-star';
@@ -26,11 +27,11 @@ export function fitStarJob(batchId: string, starId: number, priority = 0): NewJo
   return { kind: FIT_STAR_JOB, batchId, payload: { starId }, idempotencyKey: fitStarJobKey(batchId, starId), priority };
 }
 
-/** Band libraries a worker can fit with, by version. Only the starter library exists so far. */
-export function bandLibraryByVersion(version: string): BandLibrary {
-  const starter = starterBandLibrary();
-  if (version === starter.version) return starter;
-  throw new Error(`band library version ${version} is not available to this worker (it has ${starter.version})`);
+/** The band library a batch was started with, exactly (versions are immutable; see band-library.ts). */
+export function bandLibraryByVersion(db: AppDatabase, version: string): BandLibrary {
+  const library = findLibrary(db, version);
+  if (!library) throw new Error(`band library version ${version} does not exist in this database`);
+  return library;
 }
 
 export interface BatchInfo {
@@ -230,6 +231,7 @@ export function resultRow(batch: BatchInfo, starId: number, fit: FitResult | Fit
  * each built once and reused (a model's tables are the expensive part).
  */
 export class FitStarRunner {
+  private readonly db: AppDatabase;
   private readonly sqlite: Database.Database;
   private readonly batches = new Map<string, BatchInfo>();
   private readonly models = new Map<string, { model: FitModel; extrapolated: string[] }>();
@@ -239,6 +241,7 @@ export class FitStarRunner {
   private readonly insertResult;
 
   constructor(db: AppDatabase) {
+    this.db = db;
     this.sqlite = db.$client;
     this.selectBatch = this.sqlite.prepare('SELECT id, campaign_id, options, band_library_version, software_version FROM batches WHERE id = ?');
     this.selectStars = this.sqlite.prepare(
@@ -277,7 +280,7 @@ export class FitStarRunner {
     const key = `${batch.bandLibraryVersion}\u0000${JSON.stringify(batch.options)}`;
     let m = this.models.get(key);
     if (!m) {
-      const library = bandLibraryByVersion(batch.bandLibraryVersion);
+      const library = bandLibraryByVersion(this.db, batch.bandLibraryVersion);
       m = { model: prepareFitModel(library, batch.options), extrapolated: extrapolatedBandKeys(Object.values(library.bands), batch.options.law) };
       this.models.set(key, m);
     }
