@@ -87,7 +87,7 @@ describe('catalogue in the browser', () => {
     await page.context().addCookies(cookie.split('; ').map((c) => ({ name: c.split('=')[0], value: c.slice(c.indexOf('=') + 1), url: run.baseUrl })));
     await page.goto(`${run.baseUrl}/campaigns/${campaignId}/catalogue`);
     await page.waitForFunction(() => !document.querySelector('astro-island[ssr]'));
-    await page.getByRole('link', { name: /^Star/ }).click();
+    await page.getByTestId('catalogue-table').getByRole('link', { name: 'Star', exact: true }).click();
     await page.waitForURL(/sort=star_key/);
     const first = acceptedRows()[0].id;
     await expect(page.getByTestId('catalogue-table').locator('tbody tr').first().locator('td').first().textContent()).resolves.toBe(first);
