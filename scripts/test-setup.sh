@@ -9,6 +9,8 @@ for mod in astropy synphot extinction scipy numpy; do
   /usr/bin/python3 -c "import $mod" 2>/dev/null || need+=("python3-$mod")
 done
 command -v redis-server >/dev/null 2>&1 || need+=(redis-server)
+# The Redis backend tests put workers in network namespaces (ip netns) where that is permitted.
+command -v ip >/dev/null 2>&1 || need+=(iproute2)
 if [ ${#need[@]} -gt 0 ]; then
   echo "test:setup: installing ${need[*]}"
   SUDO=""; [ "$(id -u)" -eq 0 ] || SUDO="sudo"
