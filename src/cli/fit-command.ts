@@ -20,8 +20,7 @@ import {
 import { extrapolatedBandKeys } from '../core/extinction';
 import { measurementToBandFlux } from '../core/photometry';
 import { fitStar, prepareFitModel, type FitFailure, type FitResult } from '../core/fit';
-import { applyMapping, type ColumnTable, type MappedStar, type MappingProblem } from '../core/mapping';
-import { closestBandKey } from '../core/tables';
+import { applyMapping, closestBandKey, type ColumnTable, type MappedStar, type MappingProblem } from '../core/mapping';
 import { FORMAT_LABELS, readUpload, UnreadableFile, type ReadUpload } from '../core/tables/table-file';
 import type { BandFlux } from '../core/types';
 import { UsageError, type FitCommandArgs } from './args';

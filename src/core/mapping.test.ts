@@ -1,6 +1,6 @@
 import { describe, expect, it } from 'vitest';
 import { STARTER_BAND_KEYS } from './bands';
-import { applyMapping, checkMapping, detectMapping, matchBandColumn, readCellNumber, type ColumnTable, type Mapping } from './mapping';
+import { applyMapping, checkMapping, closestBandKey, detectMapping, matchBandColumn, mistypedBandColumn, readCellNumber, type ColumnTable, type Mapping } from './mapping';
 
 const keys = STARTER_BAND_KEYS;
 
@@ -162,7 +162,7 @@ describe('applyMapping', () => {
     expect(r.stars.map((s) => s.id)).toEqual(['a']);
     expect(r.stars[0]).toMatchObject({ parallaxMas: 21, measurements: [{ bandKey: 'V', mag: 8.9, magErr: 0.02 }, { bandKey: 'W1', fnuJy: 1.2, fnuErrJy: 0.03 }, { bandKey: 'W4', mag: 8.1, upperLimit: true }] });
     const msgs = r.problems.map((p) => `${p.row}:${p.column?.name ?? ''}:${p.message}`);
-    expect(msgs).toContain('4:band:row 4, column band: unknown band "v" (band keys are case-sensitive; did you mean V?)');
+    expect(msgs).toContain(`4:band:row 4, column band: unknown band "v" (band keys are case-sensitive; did you mean 'V'?)`);
     expect(msgs.some((x) => x.startsWith('7:band:') && x.includes('already has band G in row 6'))).toBe(true);
     expect(msgs.some((x) => x.startsWith('9:parallax_mas:') && x.includes('parallax 5 differs from 4'))).toBe(true);
     expect(r.rejectedRows).toBe(6);
@@ -178,6 +178,41 @@ describe('applyMapping', () => {
     const r = applyMapping(table(cols, [['a', 1, 1, 1]]), bad, { quality: [] }, { bandKeys: keys });
     expect(r.stars).toEqual([]);
     expect(r.errorCount).toBeGreaterThanOrEqual(3);
+  });
+});
+
+describe('closestBandKey and mistyped band columns', () => {
+  it('guesses the band key meant: another case, a magnitude decoration, or the one key one edit away', () => {
+    expect(closestBandKey('w1', keys)).toBe('W1');
+    expect(closestBandKey('KS', keys)).toBe('Ks');
+    expect(closestBandKey('ksmag', keys)).toBe('Ks');
+    expect(closestBandKey('RPP', keys)).toBe('RP');
+    expect(closestBandKey('parallax', keys)).toBeUndefined();
+    // Two one-edit neighbours (W1, W2 … from 'W5'): no guess rather than a wrong one.
+    expect(closestBandKey('W5', keys)).toBeUndefined();
+  });
+
+  it('names the canonical column a mistyped band column meant, and nothing for names detection knows', () => {
+    expect(mistypedBandColumn('KS', keys)).toBe('Ks');
+    expect(mistypedBandColumn('KS_err', keys)).toBe('Ks_err');
+    expect(mistypedBandColumn('v_jy', keys)).toBe('V_jy');
+    expect(mistypedBandColumn('RPP', keys)).toBe('RP');
+    for (const known of ['Vmag', 'Ks_err', 'hd', 'plx', 'band', 'notes', 'Teff', 'b', 'l']) expect(mistypedBandColumn(known, keys)).toBeUndefined();
+    // Column names of the Gaia FGK benchmark table (Soubiran et al. 2024), as in the detection test above: no false alarm.
+    const benchmark = ['hip', 'hd', 'ra_j2000', 'dec_j2000', 'hp_mag', 'e_hp_mag', 'ph_qual_tmass', 'j_m', 'j_msigcom', 'ks_m', 'ks_msigcom', 'ra', 'dec', 'parallax', 'parallax_error', 'l', 'b', 'logg', 'w1mpro', 'w1mpro_error', 'w4mpro', 'w4mpro_error', 'ph_qual_allwise', 'grvs_mag', 'bp_rp'];
+    expect(benchmark.filter((c) => mistypedBandColumn(c, keys))).toEqual([]);
+  });
+
+  it('checkMapping warns about an unmapped column that looks like a mistyped band, and suggests a key for an unknown band', () => {
+    const cols = ['id', 'V', 'V_err', 'KS'];
+    const m: Mapping = { layout: 'wide', columns: { id: { role: 'id' }, V: { role: 'mag', band: 'V' }, V_err: { role: 'mag_err', band: 'V' } } };
+    expect(checkMapping(m, cols, keys, 'f.csv')).toEqual([
+      { file: 'f.csv', row: 0, column: { name: 'KS', number: 4 }, severity: 'warning', message: `unknown band column "KS" (band keys are case-sensitive); did you mean 'Ks'? The column was not read` },
+    ]);
+    // Mapped on purpose to the band it meant: no warning.
+    expect(checkMapping({ layout: 'wide', columns: { ...m.columns, KS: { role: 'mag_ul', band: 'Ks' } } }, cols, keys, 'f.csv')).toEqual([]);
+    const wrongBand: Mapping = { layout: 'wide', columns: { id: { role: 'id' }, V: { role: 'mag', band: 'v' } } };
+    expect(checkMapping(wrongBand, ['id', 'V'], keys, 'f.csv').map((p) => p.message)).toEqual([`column V: unknown band "v" (band keys are case-sensitive; did you mean 'V'?)`]);
   });
 });
 

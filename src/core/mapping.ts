@@ -266,6 +266,66 @@ export function matchBandColumn(name: string, bandKeys: readonly string[]): { ba
   return best;
 }
 
+function levenshtein(a: string, b: string): number {
+  const dp = Array.from({ length: b.length + 1 }, (_, j) => j);
+  for (let i = 1; i <= a.length; i++) {
+    let prev = dp[0];
+    dp[0] = i;
+    for (let j = 1; j <= b.length; j++) {
+      const tmp = dp[j];
+      dp[j] = Math.min(dp[j] + 1, dp[j - 1] + 1, prev + (a[i - 1] === b[j - 1] ? 0 : 1));
+      prev = tmp;
+    }
+  }
+  return dp[b.length];
+}
+
+/** `sure` when only case or a magnitude decoration differs (then it is surely meant as that band). */
+function bandKeyGuess(name: string, bandKeys: readonly string[]): { key: string; sure: boolean } | undefined {
+  const lower = name.toLowerCase();
+  const exactCase = bandKeys.filter((k) => k.toLowerCase() === lower);
+  if (exactCase.length > 0) return { key: exactCase.join("' or '"), sure: true };
+  const stripped = name.replace(/^(e_|err_|sig_)/i, '').replace(/(mag|_mag|_m)$/i, '');
+  if (stripped !== name && stripped.length > 0) {
+    const hit = bandKeys.find((k) => k === stripped) ?? bandKeys.find((k) => k.toLowerCase() === stripped.toLowerCase());
+    if (hit) return { key: hit, sure: true };
+  }
+  // One edit away may be a coincidence ('hd' vs 'Hp'), so short keys and ties give no guess.
+  if (name.length >= 2) {
+    const near = bandKeys.filter((k) => k.length >= 2 && levenshtein(k.toLowerCase(), lower) === 1);
+    if (near.length === 1) return { key: near[0], sure: false };
+  }
+  return undefined;
+}
+
+/** The band key a mistyped one most likely meant: same letters in another case, a 'mag' decoration, or one edit away. */
+export function closestBandKey(name: string, bandKeys: readonly string[]): string | undefined {
+  return bandKeyGuess(name, bandKeys)?.key;
+}
+
+/** Canonical wide-format suffixes, longest first, so 'V_jy_err' strips to 'V'. */
+const CANONICAL_SUFFIXES = ['_jy_err', '_jy_ul', '_err', '_jy', '_ul'] as const;
+
+/**
+ * A column name that is neither a known star column nor a band column Starkiln recognises, but
+ * looks like a band column with the key mistyped ('KS', 'KS_err', 'v_jy'): the canonical name it
+ * most likely meant. Names the detection knows for something else (hd, plx, band …) give nothing.
+ */
+export function mistypedBandColumn(name: string, bandKeys: readonly string[]): string | undefined {
+  const lower = name.toLowerCase();
+  if (STAR_NAMES.some((s) => s.names.includes(lower)) || LONG_NAMES.some((s) => s.names.includes(lower))) return undefined;
+  if (matchBandColumn(name, bandKeys)) return undefined;
+  const suffix = CANONICAL_SUFFIXES.find((s) => name.length > s.length && lower.endsWith(s)) ?? '';
+  const base = name.slice(0, name.length - suffix.length);
+  // A bare letter in another case is as likely something else ('b' and 'l' are galactic
+  // coordinates); with a band suffix ('v_jy') it is a band column.
+  if (suffix === '' && base.length < 2) return undefined;
+  const guess = bandKeyGuess(base, bandKeys);
+  if (!guess) return undefined;
+  // Several keys differing only by case ('u' or 'U'): name them all rather than pick one.
+  return guess.key.includes("'") ? guess.key : `${guess.key}${suffix}`;
+}
+
 function textOf(cell: TableCell): string {
   if (cell === null || cell === undefined) return '';
   return typeof cell === 'string' ? cell.trim() : String(cell);
@@ -365,6 +425,11 @@ export function detectMapping(columns: readonly string[], sampleRows: readonly T
         out.notes[columns[flux.col]] = `not used: no ${key} flux error column was found`;
       }
     }
+    for (const name of columns) {
+      if (out.columns[name].role !== 'ignore' || out.notes[name]) continue;
+      const meant = mistypedBandColumn(name, bandKeys);
+      if (meant) out.notes[name] = `unknown band column "${name}" (band keys are case-sensitive); did you mean '${meant}'?`;
+    }
   }
 
   // Quality letters: 2MASS ph_qual (J H Ks), AllWISE ph_qual (W1–W4).
@@ -414,7 +479,10 @@ export function checkMapping(mapping: Mapping, columns: readonly string[], bandK
       }
       if (!BAND_ROLES.includes(a.role)) continue;
       if (!a.band) header(`column ${name} is mapped to ${ROLE_LABELS[a.role]} but no band is chosen`, name);
-      else if (!bandKeys.includes(a.band)) header(`column ${name}: unknown band "${a.band}" (band keys are case-sensitive; known bands: ${bandKeys.join(' ')})`, name);
+      else if (!bandKeys.includes(a.band)) {
+        const guess = closestBandKey(a.band, bandKeys);
+        header(`column ${name}: unknown band "${a.band}" (band keys are case-sensitive; ${guess ? `did you mean '${guess}'?` : `known bands: ${bandKeys.join(' ')}`})`, name);
+      }
       else if ((a.role === 'gaia_flux' || a.role === 'gaia_flux_err') && !(a.band in GAIA_VEGA_ZERO_POINT_MAG)) {
         header(`column ${name}: Gaia fluxes in e⁻/s only convert for G, BP and RP, not ${a.band}`, name);
       } else {
@@ -439,6 +507,15 @@ export function checkMapping(mapping: Mapping, columns: readonly string[], bandK
     for (const [band, set] of kinds) {
       if (set.size > 1) header(`band ${band} has more than one value column (${[...set].map((r) => ROLE_LABELS[r as ColumnRole]).join(', ')}); keep one per file, or import them as separate sources`);
     }
+    // A band column with its key mistyped would lose its data without a word: say so, and what it
+    // most likely meant. A warning, not an error: the analyst may leave the column out on purpose.
+    columns.forEach((name, i) => {
+      if ((mapping.columns[name]?.role ?? 'ignore') !== 'ignore') return;
+      const meant = mistypedBandColumn(name, bandKeys);
+      if (meant) {
+        problems.push({ file, row: 0, column: { name, number: i + 1 }, severity: 'warning', message: `unknown band column "${name}" (band keys are case-sensitive); did you mean '${meant}'? The column was not read` });
+      }
+    });
   }
   for (const [name, a] of used) {
     if (a.role !== 'quality') continue;
@@ -724,8 +801,8 @@ export function applyMapping(table: ColumnTable, mapping: Mapping, rules: Mappin
     readStarValues(s, true);
     const key = textOf(cells[c.band]);
     if (!bandKeys.includes(key)) {
-      const guess = bandKeys.find((k) => k.toLowerCase() === key.toLowerCase());
-      problem(c.band, key === '' ? 'missing band' : `unknown band "${key}" (band keys are case-sensitive${guess ? `; did you mean ${guess}?` : `; known bands: ${bandKeys.join(' ')}`})`);
+      const guess = key === '' ? undefined : closestBandKey(key, bandKeys);
+      problem(c.band, key === '' ? 'missing band' : `unknown band "${key}" (band keys are case-sensitive${guess ? `; did you mean '${guess}'?` : `; known bands: ${bandKeys.join(' ')}`})`);
     } else {
       const prior = s.bandRow.get(key);
       if (prior !== undefined) problem(c.band, `duplicate: star "${id}" already has band ${key} in row ${prior}`);

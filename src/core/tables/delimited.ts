@@ -19,6 +19,8 @@ export interface DelimitedTable {
   lines: number[];
   /** Leading '#' lines (without the '#'), e.g. a provenance header. */
   comments: string[];
+  /** Units per column from a units line under the header (VizieR TSV); undefined where blank. */
+  units?: (string | undefined)[];
 }
 
 export class DelimitedError extends Error {
@@ -71,14 +73,42 @@ export function parseDelimited(text: string, options: { delimiter?: Delimiter; s
   });
   const header = records.shift() ?? [];
   const headerLine = lines.shift() ?? endLine;
-  return { delimiter, header: header.map((h) => h.trim()), headerLine, rows: records, lines, comments };
+  const under = linesUnderHeader(header, records);
+  records.splice(0, under.skip);
+  lines.splice(0, under.skip);
+  return { delimiter, header: header.map((h) => h.trim()), headerLine, rows: records, lines, comments, ...(under.units ? { units: under.units } : {}) };
+}
+
+const RULE = /^\s*-+\s*$/;
+
+function isNumberText(field: string): boolean {
+  const t = field.trim();
+  return t !== '' && Number.isFinite(Number(t));
 }
 
 /**
- * Calls onRecord for each record (the header first) with its fields and 1-based starting line.
- * Streaming keeps each row's strings short-lived, which matters for large tables (garbage collection).
+ * VizieR's tab-separated output puts a line of units and a line of dashes right under the column
+ * names (common practice of VizieR's TSV download, from memory):
+ *   RAJ2000  Vmag  e_Vmag        column names
+ *   deg      mag   mag           units, blank for a column without one
+ *   -------  ----  ------        dashes under each column
+ * Neither line is data. A dashes line alone (no units) is skipped the same way. A units line is
+ * only taken as such when the dashes follow it and none of its fields is a number.
  */
-export function scanDelimited(
+function linesUnderHeader(header: string[], records: string[][]): { skip: number; units?: (string | undefined)[] } {
+  // One column is no photometry table, and there a lone '--' is more likely a missing value.
+  if (header.length < 2) return { skip: 0 };
+  const isRule = (r: string[] | undefined) => r !== undefined && r.length === header.length && r.every((f) => RULE.test(f));
+  if (isRule(records[0])) return { skip: 1 };
+  const unitsLine = records[0];
+  if (unitsLine && unitsLine.length === header.length && isRule(records[1]) && !unitsLine.some(isNumberText)) {
+    return { skip: 2, units: unitsLine.map((u) => u.trim() || undefined) };
+  }
+  return { skip: 0 };
+}
+
+/** Calls onRecord for each record (the header first) with its fields and 1-based starting line. */
+function scanDelimited(
   text: string,
   options: { delimiter?: Delimiter; source?: string },
   onRecord: (fields: string[], line: number) => void,

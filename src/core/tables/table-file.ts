@@ -187,7 +187,7 @@ function readTextUpload(bytes: Uint8Array, file: string): ReadUpload {
   if (parsed.rows.length === 0) throw new UnreadableFile(`${file}: the file has a header but no data rows`);
   return {
     format: parsed.delimiter === '\t' ? 'tsv' : 'csv',
-    table: { file, columns: parsed.header, rows: parsed.rows, lines: parsed.lines },
+    table: { file, columns: parsed.header, rows: parsed.rows, lines: parsed.lines, ...(parsed.units ? { units: parsed.units } : {}) },
   };
 }
 
