@@ -4,7 +4,7 @@
 // Bulk actions apply one decision to every fit the filter selects. Hydrated with client:only="react"
 // (the plot needs the browser); the page renders the queue as plain links without JavaScript.
 import { QueryClientProvider } from '@tanstack/react-query';
-import { useCallback, useEffect, useMemo, useRef, useState, type FormEvent } from 'react';
+import { useCallback, useEffect, useMemo, useRef, useState, type SubmitEvent } from 'react';
 import { ApiError } from '../../lib/queries/api';
 import { useBulkDecide, useDecide, useReviewQueue, useStarSheet } from '../../lib/queries/review';
 import { getQueryClient } from '../../lib/query-client';
@@ -249,7 +249,7 @@ function Desk({ campaignId, actorId, canDecide, fourEyes, initialFilter = {} }: 
               mode === 'flag' ? (
                 <form
                   className="mt-4 border-t border-rule pt-4 flex flex-col gap-3"
-                  onSubmit={(e: FormEvent) => { e.preventDefault(); submit('flagged'); }}
+                  onSubmit={(e: SubmitEvent) => { e.preventDefault(); submit('flagged'); }}
                   data-testid="flag-form"
                 >
                   <fieldset ref={reasonRef} className="flex flex-col gap-1">
