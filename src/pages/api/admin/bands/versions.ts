@@ -1,0 +1,14 @@
+// GET /api/admin/bands/versions?limit=&offset=: band library versions, newest first (any signed-in person).
+import type { APIRoute } from 'astro';
+import { requireUser } from '../../../../lib/guards';
+import { handle, json } from '../../../../lib/http';
+import { listVersions } from '../../../../server/band-library';
+
+export const GET: APIRoute = handle(({ locals, url }) => {
+  requireUser(locals);
+  const num = (name: string) => {
+    const v = url.searchParams.get(name);
+    return v === null || !/^\d+$/.test(v) ? undefined : Number(v);
+  };
+  return json(listVersions(locals.app.db, { limit: num('limit'), offset: num('offset') }));
+});

@@ -1,0 +1,124 @@
+// Stale fits: a fit is stale when a band it used has different numbers (curve, convention,
+// systems or zero-point values) in the current band library version than in the version the fit
+// was made with. A stale fit stays exactly as it was — readable with its own version — and is
+// marked so the analyst can re-fit its star as a new batch (refitStaleStars).
+import type { AppDatabase } from '../db/client';
+import type { FitOptions } from '../core/fit';
+import { getCurrentVersion, versionBandHashes } from './band-library';
+import { getBatch, insertBatch, type BatchSummary } from './batches';
+import type { Actor, AppServices } from './context';
+import { HttpError } from './errors';
+
+// Versions are immutable, so the set of changed bands between two of them never changes either.
+const changedCache = new WeakMap<object, Map<string, ReadonlySet<string>>>();
+
+/** Band keys whose numbers differ between two versions (a band missing from either counts as changed). */
+export function changedBands(db: AppDatabase, fromVersion: string, toVersion: string): ReadonlySet<string> {
+  if (fromVersion === toVersion) return new Set();
+  let byPair = changedCache.get(db.$client);
+  if (!byPair) changedCache.set(db.$client, (byPair = new Map()));
+  const key = `${fromVersion}\u0000${toVersion}`;
+  const cached = byPair.get(key);
+  if (cached) return cached;
+  const from = versionBandHashes(db, fromVersion);
+  const to = versionBandHashes(db, toVersion);
+  const changed = new Set<string>();
+  if (!from || !to) {
+    // An unknown version (never written here): every band of the other counts as changed.
+    for (const k of (from ?? to ?? new Map()).keys()) changed.add(k);
+  } else {
+    for (const [k, h] of from) if (to.get(k) !== h) changed.add(k);
+  }
+  byPair.set(key, changed);
+  return changed;
+}
+
+export interface StaleCheck {
+  stale: boolean;
+  /** The bands the fit used whose numbers changed since its version. */
+  changedBands: string[];
+  fitVersion: string;
+  currentVersion: string;
+}
+
+/** Is a fit made with `fitVersion` through `bandsUsed` (space-separated or a list) stale now? */
+export function checkStale(db: AppDatabase, fit: { bandLibraryVersion: string; bandsUsed: string | readonly string[] | null }, currentVersion = getCurrentVersion(db).label): StaleCheck {
+  const used = fit.bandsUsed === null ? [] : typeof fit.bandsUsed === 'string' ? fit.bandsUsed.split(' ').filter(Boolean) : fit.bandsUsed;
+  const changed = changedBands(db, fit.bandLibraryVersion, currentVersion);
+  const hit = used.filter((k) => changed.has(k));
+  return { stale: hit.length > 0, changedBands: hit, fitVersion: fit.bandLibraryVersion, currentVersion };
+}
+
+export function isStale(db: AppDatabase, fit: { bandLibraryVersion: string; bandsUsed: string | readonly string[] | null }, currentVersion?: string): boolean {
+  return checkStale(db, fit, currentVersion).stale;
+}
+
+/**
+ * A checker for many rows at once (catalogue pages): one current-version lookup, then a set
+ * lookup per row. Failed fits (no bands used) are never stale.
+ */
+export function staleChecker(db: AppDatabase): (row: { bandLibraryVersion: string; bandsUsed: string | null }) => boolean {
+  const current = getCurrentVersion(db).label;
+  return (row) => row.bandLibraryVersion !== current && checkStale(db, row, current).stale;
+}
+
+export interface StaleFit {
+  fitId: number;
+  starId: number;
+  starKey: string;
+  batchId: string;
+  bandLibraryVersion: string;
+  changedBands: string[];
+}
+
+/** The campaign's current results that are stale, by star id (a page of them, and the total). */
+export function staleFits(db: AppDatabase, campaignId: string, page: { limit?: number; offset?: number } = {}): { total: number; currentVersion: string; fits: StaleFit[] } {
+  const current = getCurrentVersion(db).label;
+  const all = allStaleFits(db, campaignId, current);
+  const limit = Math.min(1000, Math.max(1, page.limit ?? 100));
+  const offset = Math.max(0, page.offset ?? 0);
+  return { total: all.length, currentVersion: current, fits: all.slice(offset, offset + limit) };
+}
+
+// Only fits made with an older version are read, and each is a set lookup per band.
+function allStaleFits(db: AppDatabase, campaignId: string, current: string): StaleFit[] {
+  const rows = db.$client
+    .prepare(
+      `SELECT r.id, r.star_id, s.star_key, r.batch_id, r.band_library_version, r.bands_used
+       FROM fit_results r JOIN stars s ON s.id = r.star_id
+       WHERE r.campaign_id = ? AND r.is_current = 1 AND r.ok = 1 AND r.band_library_version != ?
+       ORDER BY s.star_key`,
+    )
+    .all(campaignId, current) as { id: number; star_id: number; star_key: string; batch_id: string; band_library_version: string; bands_used: string | null }[];
+  const all: StaleFit[] = [];
+  for (const r of rows) {
+    const c = checkStale(db, { bandLibraryVersion: r.band_library_version, bandsUsed: r.bands_used }, current);
+    if (c.stale) all.push({ fitId: r.id, starId: r.star_id, starKey: r.star_key, batchId: r.batch_id, bandLibraryVersion: r.band_library_version, changedBands: c.changedBands });
+  }
+  return all;
+}
+
+/**
+ * One action for the analyst: re-fit every star whose current fit is stale, on the current band
+ * library version, with the options of the batch that made the stale fit. Stars from batches with
+ * different options go into one new batch per earlier batch (each keeps its options, and its
+ * refitOfBatchId says where it came from).
+ */
+export function refitStaleStars(app: AppServices, actor: Actor, campaignId: string): { batches: BatchSummary[]; stars: number } {
+  const { db } = app;
+  const all = allStaleFits(db, campaignId, getCurrentVersion(db).label);
+  if (all.length === 0) throw new HttpError('conflict', 'No fit in this campaign is stale: every current fit uses bands unchanged in the current band library version.');
+  const byBatch = new Map<string, number[]>();
+  for (const f of all) {
+    let list = byBatch.get(f.batchId);
+    if (!list) byBatch.set(f.batchId, (list = []));
+    list.push(f.starId);
+  }
+  const started: BatchSummary[] = [];
+  for (const [batchId, starIds] of byBatch) {
+    const source = getBatch(db, batchId);
+    if (!source) continue;
+    started.push(insertBatch(app, actor, campaignId, source.options as unknown as FitOptions, starIds.sort((a, b) => a - b), batchId));
+  }
+  return { batches: started, stars: all.length };
+}
