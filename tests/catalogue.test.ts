@@ -240,6 +240,46 @@ describe('catalogue pages', () => {
     });
   }
 
+  it('starts after (or before) any cursor, also one taken from another view, e.g. outside the filter’s Teff range', () => {
+    const rand = mulberry32(7);
+    const all = reference();
+    const byId = new Map(all.map((r) => [r.id, r]));
+    for (const smallSet of [4000, 0]) {
+      catalogueTuning.smallSet = smallSet;
+      try {
+        for (const filter of filterCombos()) {
+          for (const sort of CATALOGUE_SORTS) {
+            for (const dir of ['asc', 'desc']) {
+              const params = new URLSearchParams(filter);
+              params.set('sort', sort);
+              params.set('dir', dir);
+              // The full order of every row (no filter) gives each row its position.
+              const everyParams = new URLSearchParams({ sort, dir, status: 'all' });
+              const order = expected(everyParams);
+              const rank = new Map(order.map((id, i) => [id, i]));
+              const at = byId.get(order[Math.floor(rand() * order.length)])!;
+              const v = sortValue(at, sort);
+              const cursor = Buffer.from(JSON.stringify(v === null ? { p: 'n', i: at.id } : { p: 'v', v, i: at.id })).toString('base64url');
+              const want = expected(params);
+              const after = new URLSearchParams(params);
+              after.set('after', cursor);
+              after.set('limit', '9');
+              const got = cataloguePage(t.db, campaignId, parseCataloguePageRequest(after)).rows.map((r) => r.fitId);
+              expect(got, `${after}`).toEqual(want.filter((id) => rank.get(id)! > rank.get(at.id)!).slice(0, 9));
+              const before = new URLSearchParams(params);
+              before.set('before', cursor);
+              before.set('limit', '9');
+              const gotBefore = cataloguePage(t.db, campaignId, parseCataloguePageRequest(before)).rows.map((r) => r.fitId);
+              expect(gotBefore, `${before}`).toEqual(want.filter((id) => rank.get(id)! < rank.get(at.id)!).slice(-9));
+            }
+          }
+        }
+      } finally {
+        catalogueTuning.smallSet = 4000;
+      }
+    }
+  });
+
   it('counts what the filter leaves', () => {
     for (const filter of filterCombos()) {
       const { total, campaignTotal } = catalogueCount(t.db, campaignId, parseCataloguePageRequest(filter));

@@ -390,7 +390,23 @@ function readPhase(
   if (phase === 'v') {
     const ascending = (dir === 'asc') !== reverse;
     if (s.nullable) where.push(`${p.col} IS NOT NULL`);
-    if (from && from.p === 'v') {
+    let cursor = from && from.p === 'v' ? from : null;
+    if (sort === 'teff_k' && !p.small) {
+      // The Teff filter bounds the same index the walk uses. SQLite takes one lower and one upper
+      // bound per column, so give it only the tighter one of filter bound and cursor (else a cursor
+      // far outside the filter's range walks everything in between).
+      const lo = params.teffMin as number | undefined;
+      const hi = params.teffMax as number | undefined;
+      const filterTerms = new Set(['f.teff_k >= @teffMin', 'f.teff_k <= @teffMax']);
+      for (let i = where.length - 1; i >= 0; i--) if (filterTerms.has(where[i])) where.splice(i, 1);
+      const cv = cursor ? Number(cursor.v) : undefined;
+      if (cursor && ascending && lo !== undefined && cv! < lo) cursor = null;
+      if (cursor && !ascending && hi !== undefined && cv! > hi) cursor = null;
+      if (lo !== undefined && !(cursor && ascending)) where.push(`${p.col} >= @teffMin`);
+      if (hi !== undefined && !(cursor && !ascending)) where.push(`${p.col} <= @teffMax`);
+    }
+    if (cursor) {
+      const from = cursor;
       params.cv = from.v!;
       params.ci = from.i;
       if (sort === 'review_status' && !p.small) {

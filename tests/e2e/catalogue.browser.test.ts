@@ -110,6 +110,24 @@ describe('catalogue over HTTP, as a script', () => {
     for (const r of acceptedRows().slice(0, 5)) expect(html).toContain(`>${r.id}</a>`);
   });
 
+  it('makes and revokes a token through the account page forms (no JavaScript), showing the secret once', async () => {
+    const cookie = await signInCookie(run.baseUrl, people.reviewer.email, people.reviewer.password);
+    const form = (fields: Record<string, string>) =>
+      fetch(`${run.baseUrl}/account/tokens`, { method: 'POST', headers: { cookie, origin: run.baseUrl, 'content-type': 'application/x-www-form-urlencoded' }, body: new URLSearchParams(fields).toString() });
+    const made = await form({ action: 'create', name: 'form token', expiresInDays: '' });
+    expect(made.status).toBe(200);
+    const html = await made.text();
+    const secret = /data-testid="new-token-secret"[^>]*>(sk_[A-Za-z0-9_-]+)</.exec(html)?.[1];
+    expect(secret).toBeDefined();
+    const again = await (await fetch(`${run.baseUrl}/account/tokens`, { headers: { cookie } })).text();
+    expect(again).toContain('form token');
+    expect(again).not.toContain(secret!);
+    expect((await fetch(`${run.baseUrl}/api/me`, { headers: { authorization: `Bearer ${secret}` } })).status).toBe(200);
+    const id = run.app.db.$client.prepare("SELECT id FROM api_tokens WHERE name = 'form token'").pluck().get() as string;
+    expect((await form({ action: 'revoke', tokenId: id })).status).toBe(200);
+    expect((await fetch(`${run.baseUrl}/api/me`, { headers: { authorization: `Bearer ${secret}` } })).status).toBe(401);
+  });
+
   it('accepts a personal API token as a bearer token without cookie or Origin, with the owner’s roles, until it is revoked', async () => {
     const collaborator = actorOf(people.collaborator.email);
     const { token, secret } = createApiToken(run.app.db, collaborator, { name: 'e2e script' });
