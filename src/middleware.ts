@@ -4,6 +4,7 @@ import { defineMiddleware } from 'astro:middleware';
 import { getApp, resolveActor } from './lib/app';
 import { json } from './lib/http';
 import { actorFromBearer, bearerSecret } from './server/api-tokens';
+import { activeActor, DEACTIVATED_MESSAGE } from './server/people';
 
 export const onRequest = defineMiddleware(async (context, next) => {
   const app = getApp();
@@ -23,6 +24,15 @@ export const onRequest = defineMiddleware(async (context, next) => {
         context.locals.authMethod = 'token';
       } else if (context.url.pathname.startsWith('/api/')) {
         return json({ error: { code: 'unauthenticated', message: found.message } }, 401, { 'www-authenticate': 'Bearer realm="starkiln"' });
+      }
+    }
+    // Both ways of being identified end here: a deactivated account is nobody (src/server/people.ts).
+    if (context.locals.actor && !activeActor(app.db, context.locals.actor)) {
+      const byToken = context.locals.authMethod === 'token';
+      context.locals.actor = null;
+      context.locals.authMethod = null;
+      if (byToken && context.url.pathname.startsWith('/api/')) {
+        return json({ error: { code: 'unauthenticated', message: DEACTIVATED_MESSAGE } }, 401, { 'www-authenticate': 'Bearer realm="starkiln"' });
       }
     }
   }

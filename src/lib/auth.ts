@@ -60,6 +60,18 @@ export function createAuth(config: AuthConfig) {
     },
     rateLimit: { enabled: config.rateLimit, window: 60, max: 200 },
     databaseHooks: {
+      // A deactivated account (src/server/people.ts) cannot sign in again.
+      session: {
+        create: {
+          before: async (data) => {
+            const deactivated = db.$client.prepare('SELECT deactivated_at FROM user WHERE id = ?').pluck().get(data.userId);
+            if (deactivated !== null && deactivated !== undefined) {
+              throw new APIError('FORBIDDEN', { message: 'This account has been deactivated by an admin.' });
+            }
+            return { data };
+          },
+        },
+      },
       user: {
         create: {
           before: async (data) => {

@@ -1,0 +1,10 @@
+// POST /api/admin/people/:userId/reactivate: let a deactivated person sign in again (admins).
+import type { APIRoute } from 'astro';
+import { requireAdmin } from '../../../../../lib/guards';
+import { handle, json } from '../../../../../lib/http';
+import { reactivatePerson } from '../../../../../server/people';
+
+export const POST: APIRoute = handle(({ locals, params }) => {
+  const actor = requireAdmin(locals);
+  return json({ person: reactivatePerson(locals.app.db, actor, params.userId ?? '') });
+});
