@@ -116,8 +116,7 @@ describe('demo seed', () => {
     expect(kinds).toEqual({ admin: 'admin', analyst: 'member', reviewer: 'member', collaborator: 'guest' });
     const analyst = s.db.select().from(user).all().find((u) => u.email.startsWith('analyst@'))!;
     expect(listCampaignsForUser(s.db, analyst.id)[0].myRoles).toEqual(['analyst']);
-    // The invitation, then the demo batch's mails: the analyst's "batch finished" and the reviewer's notice.
-    expect(s.db.select().from(outboxMessages).all().map((m) => m.kind)).toEqual(['invitation', 'notice', 'review-notice']);
+    expect(s.db.select().from(outboxMessages).all().map((m) => m.kind)).toEqual(['invitation']);
   });
 
   it('uses the demo passwords written in .env.example', () => {

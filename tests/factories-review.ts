@@ -116,7 +116,7 @@ export async function seedReviewDemo(app: AppServices, analyst: Actor, reviewer:
   const existing = app.db.$client.prepare('SELECT 1 FROM fit_results WHERE campaign_id = ? LIMIT 1').get(campaignId);
   if (existing) return null;
   insertReviewStars(app.db, campaignId);
-  const batchId = await fitAndDrain(app, analyst, campaignId);
+  const batchId = await fitAndDrain(app, analyst, campaignId, {}, LANTERNFIELD_STARS.map((s) => s.starKey));
   decide(app.db, reviewer, fitIdOf(app.db, batchId, 'Cindermoor'), { decision: 'accepted', comment: 'Smooth photometry, χ²_ν near 1; the curve follows every band.' });
   return batchId;
 }

@@ -14,6 +14,7 @@ import { requireBand, starterBandLibrary } from '../src/core/bands';
 import { dilutionFromThetaMas } from '../src/core/fit/derived';
 import { FLAG_EXPLANATIONS } from '../src/core/fit/flags';
 import { planckBandMean, previewPlanckAtPivot } from '../src/core/photometry';
+import { DEMO_CAMPAIGN, demoUsers, seedDemo } from '../src/db/seed';
 import { finishBatchIfDone } from '../src/server/batches';
 import type { Actor } from '../src/server/context';
 import { FOUR_EYES_MESSAGE, notifyReviewersOfBatch } from '../src/server/review';
@@ -377,5 +378,29 @@ describe('who may call each endpoint', () => {
     }
     // Only the reviewer's and the admin's decisions were written, by them.
     expect(w.t.sqlite.prepare('SELECT DISTINCT reviewer_id FROM review_decisions ORDER BY reviewer_id').pluck().all()).toEqual([w.reviewer.id, w.admin.id].sort());
+  });
+});
+
+describe('demo seed with fits', () => {
+  it('gives the demo campaign the invented stars fitted and waiting for review, once', async () => {
+    const t = createTestApp();
+    apps.push(t);
+    const first = await seedDemo(t.app, { fits: true });
+    const again = await seedDemo(t.app, { fits: true });
+    expect(again).toEqual({ campaignId: first.campaignId, created: false });
+    expect(one<string>(t, 'SELECT name FROM campaigns WHERE id = ?', first.campaignId)).toBe(DEMO_CAMPAIGN.name);
+    const fits = t.sqlite
+      .prepare('SELECT s.star_key AS starKey, r.ok, r.review_status AS status FROM fit_results r JOIN stars s ON s.id = r.star_id WHERE r.campaign_id = ? ORDER BY s.star_key')
+      .all(first.campaignId) as { starKey: string; ok: number; status: string }[];
+    expect(fits.map((f) => f.starKey)).toEqual(LANTERNFIELD_STARS.map((s) => s.starKey).sort());
+    expect(fits.every((f) => f.ok === 1)).toBe(true);
+    expect(fits.filter((f) => f.status === 'accepted').map((f) => f.starKey)).toEqual(['Cindermoor']);
+    expect(one<string>(t, 'SELECT u.email FROM review_decisions d JOIN user u ON u.id = d.reviewer_id')).toBe(demoUsers().reviewer.email);
+    // The analyst's "batch finished" and one notice to the reviewer, besides the demo invitation.
+    expect(t.sqlite.prepare('SELECT kind, to_address AS toAddress FROM outbox_messages ORDER BY id').all()).toEqual([
+      { kind: 'invitation', toAddress: expect.stringMatching(/^visitor@/) },
+      { kind: 'notice', toAddress: demoUsers().analyst.email },
+      { kind: 'review-notice', toAddress: demoUsers().reviewer.email },
+    ]);
   });
 });

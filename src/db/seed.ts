@@ -54,7 +54,12 @@ export function demoUsers(passwords: Partial<Record<keyof typeof DEMO_DEFAULT_PA
   };
 }
 
-export async function seedDemo(app: AppServices): Promise<{ campaignId: string; created: boolean }> {
+/**
+ * fits: also give the demo campaign fitted stars waiting for review (mock photometry of the invented
+ * stars, fitted by the worker path; tests/factories-review.ts). `npm run db:seed` and `npm run demo`
+ * ask for them; tests that need an empty campaign leave it off.
+ */
+export async function seedDemo(app: AppServices, options: { fits?: boolean } = {}): Promise<{ campaignId: string; created: boolean }> {
   const people = demoUsers(app.env.demoPasswords);
   const admin = await makeUser(app, people.admin);
   const analyst = await makeUser(app, people.analyst);
@@ -63,7 +68,10 @@ export async function seedDemo(app: AppServices): Promise<{ campaignId: string; 
   void admin;
 
   const existing = app.db.select().from(campaigns).where(eq(campaigns.nameKey, nameKey(DEMO_CAMPAIGN.name))).get();
-  if (existing) return { campaignId: existing.id, created: false };
+  if (existing) {
+    if (options.fits) await seedReviewDemo(app, analyst, reviewer, existing.id);
+    return { campaignId: existing.id, created: false };
+  }
 
   const campaign = makeCampaign(app, analyst, DEMO_CAMPAIGN);
   await addToCampaign(app, analyst, campaign.id, reviewer, ['reviewer']);
@@ -71,14 +79,13 @@ export async function seedDemo(app: AppServices): Promise<{ campaignId: string; 
   // One open invitation, so the outbox and the member list show how inviting works.
   const invited = app.db.select().from(invitations).where(eq(invitations.email, DEMO_INVITEE)).get();
   if (!invited) await addToCampaign(app, analyst, campaign.id, { email: DEMO_INVITEE }, ['collaborator']);
-  // Fitted stars waiting on the review desk (mock photometry of the invented stars, fitted by the worker path).
-  await seedReviewDemo(app, analyst, reviewer, campaign.id);
+  if (options.fits) await seedReviewDemo(app, analyst, reviewer, campaign.id);
   return { campaignId: campaign.id, created: true };
 }
 
 async function main() {
   const app = createApp(getDb(), getEnv());
-  const result = await seedDemo(app);
+  const result = await seedDemo(app, { fits: true });
   const people = demoUsers(app.env.demoPasswords);
   console.log(result.created ? 'db:seed: demo scenario created' : 'db:seed: demo scenario already present');
   for (const [role, p] of Object.entries(people)) console.log(`  ${role.padEnd(12)} ${p.email}`);

@@ -1,5 +1,5 @@
-// In real Chromium against the built server, on the seeded demo (the invented Lanternfield stars,
-// fitted by the worker path): the reviewer opens a star sheet and the SED plot draws the star's
+// In real Chromium against the built server, on the demo with its review material (the invented
+// Lanternfield stars, fitted by the worker path, as `npm run db:seed` makes it): the reviewer opens a star sheet and the SED plot draws the star's
 // measured bands at their pivot wavelengths (the band library's values) with the fitted curve;
 // then flags the fit from the keyboard on the review desk and finds the decision in the history.
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
@@ -7,9 +7,10 @@ import type { Page } from 'playwright-core';
 import { eq } from 'drizzle-orm';
 import { requireBand, starterBandLibrary } from '../../src/core/bands';
 import { WIEN_B_M_K } from '../../src/core/constants';
-import { campaigns } from '../../src/db/schema';
+import { campaigns, user } from '../../src/db/schema';
 import { DEMO_CAMPAIGN, demoUsers } from '../../src/db/seed';
 import { nameKey } from '../../src/server/campaigns';
+import { seedReviewDemo } from '../factories-review';
 import { launchBrowser, signInCookie, startApp, type Browser, type RunningApp } from './harness';
 
 let run: RunningApp;
@@ -21,6 +22,13 @@ beforeAll(async () => {
   run = await startApp();
   browser = await launchBrowser();
   campaignId = run.app.db.select().from(campaigns).where(eq(campaigns.nameKey, nameKey(DEMO_CAMPAIGN.name))).get()!.id;
+  // The demo's review material (what `npm run db:seed` adds), fitted here by a worker in this process
+  // on the server's database file.
+  const actor = (email: string) => {
+    const u = run.app.db.select().from(user).where(eq(user.email, email)).get()!;
+    return { id: u.id, name: u.name, email: u.email, kind: u.kind };
+  };
+  await seedReviewDemo(run.app, actor(people.analyst.email), actor(people.reviewer.email), campaignId);
 });
 afterAll(async () => {
   await browser?.close();
