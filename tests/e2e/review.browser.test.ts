@@ -11,7 +11,7 @@ import { campaigns, user } from '../../src/db/schema';
 import { DEMO_CAMPAIGN, demoUsers } from '../../src/db/seed';
 import { nameKey } from '../../src/server/campaigns';
 import { seedReviewDemo } from '../factories-review';
-import { launchBrowser, signInCookie, startApp, type Browser, type RunningApp } from './harness';
+import { callApi, launchBrowser, signInCookie, startApp, type Browser, type RunningApp } from './harness';
 
 let run: RunningApp;
 let browser: Browser;
@@ -188,5 +188,28 @@ describe('review in the browser', () => {
     expect(await ok.text()).toContain('Fit flagged: The curve does not follow the photometry.');
     const rows = run.app.db.$client.prepare('SELECT decision, reason, comment FROM review_decisions WHERE fit_result_id = ?').all(fitId);
     expect(rows).toEqual([{ decision: 'flagged', reason: 'poor_fit', comment: 'Optical bands sit high.' }]);
+  });
+
+  it('routes every review endpoint in the built server, with 401 JSON for anonymous callers', async () => {
+    const fitId = run.app.db.$client.prepare("SELECT r.id FROM fit_results r JOIN stars s ON s.id = r.star_id WHERE s.star_key = 'Tamsel Minor'").pluck().get() as number;
+    const endpoints: [string, string, unknown?][] = [
+      ['GET', `/api/campaigns/${campaignId}/stars/Tamsel%20Minor`],
+      ['GET', `/api/campaigns/${campaignId}/review-queue?noFlags=1`],
+      ['POST', `/api/fits/${fitId}/decision`, { decision: 'flagged', reason: 'blend_suspected' }],
+      ['GET', `/api/fits/${fitId}/history`],
+      ['POST', `/api/campaigns/${campaignId}/review/bulk`, { filter: { teffMinK: 90000 }, decision: 'accepted' }],
+      ['GET', `/api/campaigns/${campaignId}/review/settings`],
+      ['POST', `/api/campaigns/${campaignId}/review/settings`, { fourEyes: true }],
+      ['GET', `/api/campaigns/${campaignId}/review/audit`],
+    ];
+    const reviewer = await signInCookie(run.baseUrl, people.reviewer.email, people.reviewer.password);
+    for (const [method, p, json] of endpoints) {
+      const anonymous = await callApi(run.baseUrl, p, { method, json });
+      expect(anonymous.status, `${method} ${p}`).toBe(401);
+      expect(anonymous.contentType).toMatch(/application\/json/);
+      const asReviewer = await callApi(run.baseUrl, p, { method, json, cookie: reviewer });
+      // The reviewer may do all of it except switching the rule (analysts and admins).
+      expect(asReviewer.status, `${method} ${p}: ${JSON.stringify(asReviewer.body)}`).toBe(p.endsWith('/settings') && method === 'POST' ? 403 : p.endsWith('/decision') ? 201 : 200);
+    }
   });
 });
