@@ -257,6 +257,16 @@ export function previewCurve(raw: unknown): ParsedCurve {
   }
 }
 
+/** parseInput, with the field named from the request body's top level (zeroPoint.source, reason …). */
+function parseAt<S extends z.ZodType>(schema: S, raw: unknown, at: string): z.output<S> {
+  try {
+    return parseInput(schema, raw);
+  } catch (err) {
+    if (err instanceof HttpError) throw new HttpError(err.code, err.message, err.field ? `${at}.${err.field}` : at);
+    throw err;
+  }
+}
+
 function toZeroPoint(z: z.output<typeof zeroPointInput> | null): ZeroPoint | null {
   if (!z) return null;
   const zp: ZeroPoint = { relErr: z.relErr, source: z.source };
@@ -276,7 +286,7 @@ function checkBand(band: Band): void {
     }
     if (band.zeroPoint) zeroMagnitudeFlambdaCgs({ ...band });
   } catch (err) {
-    throw new HttpError('validation_failed', err instanceof Error ? err.message : String(err), 'zeroPoint');
+    throw new HttpError('validation_failed', err instanceof Error ? err.message : String(err), 'band.zeroPoint');
   }
 }
 
@@ -342,9 +352,9 @@ function writeVersion(db: AppDatabase, v: NewVersion): { version: BandLibraryVer
  * file cannot be read, the key exists already, or the zero-point does not fit the magnitude system.
  */
 export function createBand(db: AppDatabase, actor: Actor, raw: { band: unknown; curve: unknown; reason: unknown }): { version: BandLibraryVersionInfo; band: Band } {
-  const meta = parseInput(newBandInput, raw.band);
+  const meta = parseAt(newBandInput, raw.band, 'band');
   const parsed = previewCurve(raw.curve);
-  const reason = parseInput(reasonInput, raw.reason);
+  const reason = parseAt(reasonInput, raw.reason, 'reason');
   const band: Band = {
     key: meta.key,
     label: meta.label,
@@ -371,7 +381,7 @@ export function createBand(db: AppDatabase, actor: Actor, raw: { band: unknown; 
     build: (current) => {
       const existing = Object.prototype.hasOwnProperty.call(current.bands, band.key) ? current.bands[band.key] : null;
       if (existing) {
-        throw new HttpError('conflict', `A band with the key "${band.key}" exists already (${existing.label}, ${existing.system}). Keys are case-sensitive; choose another key or change the existing band.`, 'key');
+        throw new HttpError('conflict', `A band with the key "${band.key}" exists already (${existing.label}, ${existing.system}). Keys are case-sensitive; choose another key or change the existing band.`, 'band.key');
       }
       return { bands: [band], change: { action: 'band_added', bandKey: band.key, pivotAngstrom: band.pivotAngstrom, convention: band.convention, file: parsed.fileName } };
     },
@@ -385,8 +395,8 @@ export function createBand(db: AppDatabase, actor: Actor, raw: { band: unknown; 
  * version too (the wording is part of the record) but leaves fits as they are.
  */
 export function updateZeroPoint(db: AppDatabase, actor: Actor, key: string, rawZeroPoint: unknown, rawReason: unknown): { version: BandLibraryVersionInfo; band: Band } {
-  const zeroPoint = toZeroPoint(parseInput(zeroPointInput, rawZeroPoint));
-  const reason = parseInput(reasonInput, rawReason);
+  const zeroPoint = toZeroPoint(parseAt(zeroPointInput, rawZeroPoint, 'zeroPoint'));
+  const reason = parseAt(reasonInput, rawReason, 'reason');
   const { version, bands } = writeVersion(db, {
     actor,
     reason,
