@@ -305,7 +305,8 @@ describe('the queue', () => {
       const r = await call(queueRoute, w.t, w.reviewer, { id: w.campaign.id }, { url: q });
       expect(r.status).toBe(200);
       expect(r.body.items.length).toBeLessThanOrEqual(3);
-      expect(r.body.total).toBe(LANTERNFIELD_STARS.length);
+      // Counted with the first page only.
+      expect(r.body.total).toBe(pages === 0 ? LANTERNFIELD_STARS.length : null);
       seen.push(...r.body.items.map((i: { starKey: string }) => i.starKey));
       cursor = r.body.nextCursor;
       pages++;

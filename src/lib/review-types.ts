@@ -112,8 +112,8 @@ export interface QueueItem {
 
 export interface QueuePage {
   items: QueueItem[];
-  /** Pending fits matching the filter, all pages together. */
-  total: number;
+  /** Pending fits matching the filter, all pages together; given with the first page only (null on later pages). */
+  total: number | null;
   /** Pass back as `cursor` for the next page; null on the last page. */
   nextCursor: string | null;
 }

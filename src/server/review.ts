@@ -171,14 +171,17 @@ export function reviewQueue(db: AppDatabase, campaignId: string, options: { filt
   const limit = Math.min(200, Math.max(1, options.limit ?? 50));
   const { where, args } = filterSql(campaignId, filter);
   const sqlite = db.$client;
-  const total = sqlite.prepare(`SELECT count(*) FROM fit_results r WHERE ${where}`).pluck().get(...args) as number;
+  // Counted on the first page only: later pages come from the same view and need no second count.
+  const total = options.cursor ? null : (sqlite.prepare(`SELECT count(*) FROM fit_results r WHERE ${where}`).pluck().get(...args) as number);
   const cursorSql = options.cursor ? ' AND s.star_key > ?' : '';
+  // CROSS JOIN keeps the stars as the outer loop: the campaign's key index yields them already in
+  // page order, so a page reads about `limit` stars instead of sorting every pending fit.
   const rows = sqlite
     .prepare(
-      `SELECT ${LITE_COLUMNS} FROM fit_results r JOIN stars s ON s.id = r.star_id JOIN batches b ON b.id = r.batch_id
-       WHERE ${where}${cursorSql} ORDER BY s.star_key LIMIT ?`,
+      `SELECT ${LITE_COLUMNS} FROM stars s CROSS JOIN fit_results r ON r.star_id = s.id JOIN batches b ON b.id = r.batch_id
+       WHERE s.campaign_id = ? AND ${where}${cursorSql} ORDER BY s.star_key LIMIT ?`,
     )
-    .all(...args, ...(options.cursor ? [options.cursor] : []), limit + 1) as FitRowLite[];
+    .all(campaignId, ...args, ...(options.cursor ? [options.cursor] : []), limit + 1) as FitRowLite[];
   const more = rows.length > limit;
   const items = rows.slice(0, limit).map(toItem);
   return { items, total, nextCursor: more ? items[items.length - 1].starKey : null };
