@@ -18,6 +18,8 @@ import { DEMO_CAMPAIGN, demoUsers, seedDemo } from '../src/db/seed';
 import { finishBatchIfDone } from '../src/server/batches';
 import type { Actor } from '../src/server/context';
 import { FOUR_EYES_MESSAGE, notifyReviewersOfBatch } from '../src/server/review';
+import { starSheet } from '../src/server/star-sheet';
+import { sedFigure } from '../src/components/ui/review/sed-figure';
 import { addToCampaign, makeCampaign, makeUser } from './factories';
 import { LANTERNFIELD_STARS, REVIEW_BANDS, fitAndDrain, fitIdOf, insertReviewStars } from './factories-review';
 import { createTestApp, type TestApp } from './setup/db';
@@ -128,6 +130,29 @@ describe('the star sheet', () => {
     expect(Math.abs(j.residualSigma)).toBeGreaterThan(3);
     expect(j.note).toMatch(/More than 3σ/);
     expect(orro.fit.flags.map((f: { code: string }) => f.code)).toContain('outlier');
+  });
+});
+
+describe('the plot figure', () => {
+  it('puts each band in one data trace at its pivot and keeps off-scale residuals at the panel edge', async () => {
+    const w = await world();
+    const sheet = starSheet(w.t.db, w.campaign.id, 'Harthglow');
+    const { data, layout } = sedFigure(sheet);
+    type T = { meta: { role: string; bands?: string[] }; x: number[]; y: number[]; hovertext?: string[] };
+    const traces = data as unknown as T[];
+    const roleOf = (key: string) => traces.filter((t) => ['measured', 'outlier', 'excluded', 'upper_limit'].includes(t.meta.role) && t.meta.bands!.includes(key)).map((t) => t.meta.role);
+    for (const b of sheet.bands) expect(roleOf(b.key)).toEqual([b.role === 'fitted' ? (b.outlier ? 'outlier' : 'measured') : b.role]);
+    expect(roleOf('W3')).toEqual(['excluded']);
+    // The excess bands lie 10σ and more above the curve; the panel's range follows the fitted bands.
+    const residual = traces.find((t) => t.meta.role === 'residual')!;
+    const range = (layout.yaxis2 as { range: [number, number] }).range;
+    const w4 = residual.meta.bands!.indexOf('W4');
+    expect(sheet.bands.find((b) => b.key === 'W4')!.residualSigma!).toBeGreaterThan(range[1]);
+    expect(residual.y[w4]).toBeLessThan(range[1]);
+    expect(residual.y[w4]).toBeGreaterThan(0.9 * range[1]);
+    expect(residual.hovertext![w4]).toMatch(/off the scale/);
+    const curve = traces.find((t) => t.meta.role === 'curve')!;
+    expect(curve.x.length).toBe(curve.y.length);
   });
 });
 
