@@ -19,6 +19,7 @@ import {
   updateZeroPoint,
 } from '../src/server/band-library';
 import { getBatch, startBatch } from '../src/server/batches';
+import { cataloguePage, parseCataloguePageRequest } from '../src/server/catalogue';
 import { decide, fitHistory } from '../src/server/review';
 import { checkStale, refitStaleStars, staleChecker, staleFits } from '../src/server/stale';
 import { GET as listBandsRoute, POST as createBandRoute } from '../src/pages/api/admin/bands/index';
@@ -151,6 +152,9 @@ describe('stale fits and re-fitting', () => {
     expect(checkStale(t.db, { bandLibraryVersion: 'starter-1', bandsUsed: oldFits[0].bands_used })).toMatchObject({ stale: true, changedBands: ['Ks'], currentVersion: 'v4' });
     expect(checkStale(t.db, { bandLibraryVersion: 'starter-1', bandsUsed: 'B V G' }).stale).toBe(false);
     expect(staleChecker(t.db)({ bandLibraryVersion: 'v3', bandsUsed: 'J H Ks' })).toBe(true);
+    // The catalogue marks the same rows.
+    const catalogueRows = () => cataloguePage(t.db, w.campaign.id, parseCataloguePageRequest(new URLSearchParams('limit=50'))).rows;
+    expect(catalogueRows().map((r) => [r.starKey, r.stale, r.bandLibraryVersion]).sort()).toEqual(stale.fits.map((f) => [f.starKey, true, 'starter-1']).sort());
 
     // Over HTTP: the reviewer may read the list, only an analyst may re-fit.
     expect((await call(t, staleRoute, w.reviewer, { id: w.campaign.id })).body.total).toBe(6);
@@ -180,6 +184,7 @@ describe('stale fits and re-fitting', () => {
     }
     expect(zeroMagnitudeFlambdaCgs(getLibrary(t.db, 'v4').bands.Ks) / zeroMagnitudeFlambdaCgs(getLibrary(t.db, 'starter-1').bands.Ks)).toBeCloseTo(1.05, 12);
     expect(staleFits(t.db, w.campaign.id).total).toBe(0);
+    expect(catalogueRows().every((r) => !r.stale && r.bandLibraryVersion === 'v4')).toBe(true);
 
     // The old result is unchanged and still says which version made it; its decision is kept.
     const again = t.sqlite.prepare('SELECT * FROM fit_results WHERE id = ?').get(oldFits[0].id) as Record<string, any>; // eslint-disable-line @typescript-eslint/no-explicit-any

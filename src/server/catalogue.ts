@@ -5,9 +5,10 @@
 // both directions. The same filter drives the table, the diagrams and the downloads.
 import type Database from 'better-sqlite3';
 import { z } from 'zod';
-import type { DbOrTx } from '../db/client';
+import type { AppDatabase, DbOrTx } from '../db/client';
 import { FLAG_EXPLANATIONS } from '../core/fit';
 import { HttpError } from './errors';
+import { staleChecker } from './stale';
 import { parseInput } from './validation';
 
 export const CATALOGUE_SORTS = ['teff_k', 'lum_lsun', 'radius_rsun', 'chi2_red', 'star_key', 'review_status'] as const;
@@ -70,6 +71,10 @@ export interface CatalogueRowView {
   flags: string;
   reviewStatus: string;
   batchId: string;
+  bandLibraryVersion: string;
+  bandsUsed: string | null;
+  /** A band this fit used changed in the current band library version (src/server/stale.ts). */
+  stale: boolean;
 }
 
 export interface CataloguePage {
@@ -250,7 +255,7 @@ const ROW_COLUMNS = `f.id AS fitId, f.star_id AS starId, s.star_key AS starKey, 
   f.ok AS ok, f.teff_k AS teffK, f.teff_err_k AS teffErrK, f.teff_lower_k AS teffLowerK, f.theta_mas AS thetaMas,
   f.radius_rsun AS radiusRsun, f.radius_err_rsun AS radiusErrRsun, f.lum_lsun AS lumLsun, f.lum_err_lsun AS lumErrLsun,
   f.av_mag AS avMag, f.chi2_red AS chi2Red, f.n_bands AS nBands, f.flags AS flags, f.review_status AS reviewStatus,
-  f.batch_id AS batchId`;
+  f.batch_id AS batchId, f.band_library_version AS bandLibraryVersion, f.bands_used AS bandsUsed`;
 
 interface Cursor {
   /** 'v': among rows with a value; 'n': among rows without one (they come last). */
@@ -435,12 +440,19 @@ function readPhase(
 
 function readWhere(sqlite: Database.Database, p: Plan, where: string[], params: Params, order: string, limit: number): CatalogueRowView[] {
   const text = `SELECT ${ROW_COLUMNS} FROM ${p.from} WHERE ${where.join(' AND ')} ORDER BY ${order} LIMIT ${limit}`;
-  const rows = prepared(sqlite, text).all(params) as (Omit<CatalogueRowView, 'ok'> & { ok: number })[];
-  return rows.map((r) => ({ ...r, ok: r.ok === 1 }));
+  const rows = prepared(sqlite, text).all(params) as (Omit<CatalogueRowView, 'ok' | 'stale'> & { ok: number })[];
+  return rows.map((r) => ({ ...r, ok: r.ok === 1, stale: false }));
 }
 
-/** One page of a campaign's catalogue. */
+/** One page of a campaign's catalogue, each row marked stale or not. */
 export function cataloguePage(db: DbOrTx, campaignId: string, req: CataloguePageRequest): CataloguePage {
+  const page = readCataloguePage(db, campaignId, req);
+  const isStale = staleChecker(db as AppDatabase);
+  for (const r of page.rows) r.stale = r.ok && isStale(r);
+  return page;
+}
+
+function readCataloguePage(db: DbOrTx, campaignId: string, req: CataloguePageRequest): CataloguePage {
   const sqlite = (db as unknown as { $client: Database.Database }).$client;
   const p = plan(sqlite, campaignId, req, req.sort);
   const nullable = SORT_SQL[req.sort].nullable;

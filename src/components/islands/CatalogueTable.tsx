@@ -123,6 +123,11 @@ function Table({ campaignId, initialQuery, initialPage, initialCount }: Props) {
         header: 'Flags',
         cell: (c) => (
           <span className="flex flex-wrap gap-1">
+            {c.row.original.stale && (
+              <span className="text-xs px-1.5 rounded bg-alarm-100 text-alarm-700 font-semibold" data-testid="stale-badge" title={`A band this fit used changed after band library ${c.row.original.bandLibraryVersion}; re-fit it from the batches page`}>
+                stale
+              </span>
+            )}
             {c
               .getValue()
               .split(' ')
