@@ -1,7 +1,7 @@
 // One star on one page: its measurements (with the upload each came from), the newest fit with every
 // band's observed and model flux and residual, the fitted curve sampled for the plot, earlier fits,
 // and the review history. Pages, the JSON API and the review desk all read this.
-import { starterBandLibrary, getBand } from '../core/bands';
+import { getBand } from '../core/bands';
 import { extinctionFunction } from '../core/extinction';
 import { dilutionFromThetaMas } from '../core/fit/derived';
 import type { FitOptions } from '../core/fit';
@@ -10,6 +10,7 @@ import { planckLambdaCgsAngstrom } from '../core/planck';
 import type { ExtinctionLawKey } from '../core/types';
 import type { AppDatabase } from '../db/client';
 import type { SheetBand, SheetFit, SheetMeasurement, StarSheet } from '../lib/review-types';
+import { findLibrary, getCurrentLibrary } from './band-library';
 import { HttpError } from './errors';
 import { explainFlags, getReviewSettings, starHistory } from './review';
 
@@ -118,7 +119,9 @@ export function starSheet(db: AppDatabase, campaignId: string, starRef: string |
   const campaign = sqlite.prepare('SELECT id, name FROM campaigns WHERE id = ?').get(campaignId) as { id: string; name: string } | undefined;
   if (!campaign) throw new HttpError('not_found', 'No campaign with that id.');
   const star = findStar(db, campaignId, starRef);
-  const library = starterBandLibrary();
+  // Measurements are shown against the current band library; a fit's bands against the version it
+  // was made with (versions are immutable), so a later change never moves an old fit's points.
+  const current = getCurrentLibrary(db);
 
   const fits = sqlite
     .prepare(
@@ -143,7 +146,7 @@ export function starSheet(db: AppDatabase, campaignId: string, starRef: string |
     fnu_jy: number | null; fnu_err_jy: number | null; upper_limit: number; quality: string | null;
   }[];
   const measurements: SheetMeasurement[] = measurementRows.map((m) => {
-    const band = getBand(library, m.band_key);
+    const band = getBand(current, m.band_key);
     return {
       id: m.id,
       bandKey: m.band_key,
@@ -165,6 +168,7 @@ export function starSheet(db: AppDatabase, campaignId: string, starRef: string |
   let curve: StarSheet['curve'] = null;
   let fit: SheetFit | null = null;
   if (latest) {
+    const library = findLibrary(db, latest.band_library_version) ?? current;
     const floor = typeof options.floorFraction === 'number' ? options.floorFraction : 0;
     const excludedBy = new Map((detail.excluded ?? []).map((e) => [e.band, e.reason]));
     for (const [key, obs] of Object.entries(detail.observed ?? {})) {
