@@ -4,7 +4,8 @@
 // open (the web server's other requests would fail), and WAL gives the download one consistent
 // snapshot however long the client takes to read it.
 import Database from 'better-sqlite3';
-import { requireBand, starterBandLibrary, type BandLibrary } from '../../core/bands';
+import { requireBand, type BandLibrary } from '../../core/bands';
+import { findLibrary } from '../band-library';
 import { catalogueColumns, PROVENANCE_CONSTANTS, provenanceLines, type CatalogueColumn, type CatalogueRow, type Provenance } from '../../core/catalogue';
 import { extrapolatedBandKeys } from '../../core/extinction';
 import type { ExtinctionLawKey } from '../../core/types';
@@ -68,9 +69,10 @@ const SELECT = `s.star_key AS id, s.ra_deg AS ra, s.dec_deg AS dec, f.teff_k, f.
   f.av_mag AS av, f.av_err_mag AS av_err, f.chi2_red, coalesce(f.n_bands, 0) AS n_bands, coalesce(f.bands_used, '') AS bands_used,
   f.ir_excess_sigma, f.flags, CASE f.review_status WHEN 'pending' THEN 'unreviewed' ELSE f.review_status END AS review_status`;
 
-function libraryFor(version: string): BandLibrary | null {
-  const starter = starterBandLibrary();
-  return starter.version === version ? starter : null;
+// Band library versions are immutable rows in the database (src/server/band-library.ts), so the
+// zero-points a fit used can always be listed with it.
+function libraryFor(db: AppDatabase, version: string): BandLibrary | null {
+  return findLibrary(db, version);
 }
 
 /** Opens the rows of a campaign's catalogue under `filter`, ordered by star id. Call close() when done. */
@@ -115,7 +117,7 @@ export function openExport(db: AppDatabase, campaign: { id: string; name: string
       const b = batchInfo.get(id) as { id: string; created_at: number; band_library_version: string; software_version: string; options: string };
       const options = JSON.parse(b.options) as Record<string, unknown>;
       const law = String(options.law ?? 'f99');
-      const library = libraryFor(b.band_library_version);
+      const library = libraryFor(db, b.band_library_version);
       const batchBands = new Set<string>();
       for (const g of groups) if (g.batchId === id) for (const k of g.bands.split(' ')) if (k) batchBands.add(k);
       batches.push({
@@ -138,7 +140,7 @@ export function openExport(db: AppDatabase, campaign: { id: string; name: string
     const notes: string[] = [];
     const zeroPoints: ZeroPointUsed[] = [];
     for (const [version, keys] of bandsByLibrary) {
-      const library = libraryFor(version);
+      const library = libraryFor(db, version);
       if (!library) {
         notes.push(`band library ${version} is not part of this software version; its zero-points are listed in the release that made those fits`);
         continue;
