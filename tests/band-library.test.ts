@@ -20,6 +20,7 @@ import {
 } from '../src/server/band-library';
 import { getBatch, startBatch } from '../src/server/batches';
 import { cataloguePage, parseCataloguePageRequest } from '../src/server/catalogue';
+import { bandKeys as intakeBandKeys } from '../src/server/intake/intake';
 import { decide, fitHistory } from '../src/server/review';
 import { checkStale, refitStaleStars, staleChecker, staleFits } from '../src/server/stale';
 import { GET as listBandsRoute, POST as createBandRoute } from '../src/pages/api/admin/bands/index';
@@ -207,6 +208,8 @@ describe('stale fits and re-fitting', () => {
     createBand(t.db, admin, { band: zBand(), curve: zCurve(), reason: 'Survey z band' });
     const b = startBatch(t.app, w.analyst, w.campaign.id, { options: { excludeBands: ['Lz'] } });
     expect(b.bandLibraryVersion).toBe('v2');
+    // The intake maps columns to the bands of the current version, the new one included.
+    expect(intakeBandKeys(t.db)).toContain('Lz');
     expect(() => startBatch(t.app, w.analyst, w.campaign.id, { options: { excludeBands: ['Lq'] } })).toThrow(/"Lq" is not a band key; known keys are .* Lz/);
   });
 });

@@ -3,7 +3,6 @@
 import { and, count, desc, eq, inArray } from 'drizzle-orm';
 import { readFileSync, rmSync } from 'node:fs';
 import { z } from 'zod';
-import { starterBandLibrary } from '../../core/bands';
 import {
   applyMapping,
   COLUMN_ROLES,
@@ -16,12 +15,13 @@ import {
   type MappingResult,
   type MappingRules,
 } from '../../core/mapping';
-import type { DbOrTx } from '../../db/client';
+import type { AppDatabase, DbOrTx } from '../../db/client';
 import { measurements, stars, uploads } from '../../db/schema';
 import type { Actor, AppServices } from '../context';
 import { newId } from '../ids';
 import { parseInput } from '../validation';
 import { recordAudit } from '../audit';
+import { getCurrentLibrary } from '../band-library';
 import { IntakeError } from './errors';
 import { FORMAT_LABELS, readUpload, UnreadableFile, type DetectedFormat, type ImageObservation, type ReadUpload } from '../../core/tables/table-file';
 import { fileProblem, toReport, type ReportEntry } from './report';
@@ -29,8 +29,9 @@ import { intakeConfigFromEnv, receiveUpload, type IntakeConfig } from './storage
 
 export const PREVIEW_ROWS = 8;
 
-export function bandKeys(): string[] {
-  return Object.keys(starterBandLibrary().bands);
+/** Band keys of the current band library version (admins may add bands). */
+export function bandKeys(db: DbOrTx): string[] {
+  return Object.keys(getCurrentLibrary(db as AppDatabase).bands);
 }
 
 export function intakeConfig(app: AppServices): IntakeConfig {
@@ -145,8 +146,8 @@ export function bandForFilter(filter: string | undefined, keys: readonly string[
   return ci.length === 1 ? ci[0] : undefined;
 }
 
-function detail(u: UploadRow, read: ReadUpload | null): UploadDetail {
-  const keys = bandKeys();
+function detail(db: DbOrTx, u: UploadRow, read: ReadUpload | null): UploadDetail {
+  const keys = bandKeys(db);
   const base = { ...summary(u), bandKeys: keys, report: (u.report ?? []) as ReportEntry[] };
   if (!read) return { ...base, columns: [], units: [], preview: [], detected: null };
   if (read.format === 'fits-image') {
@@ -211,7 +212,7 @@ export async function createUpload(app: AppServices, actor: Actor, campaignId: s
     rmSync(stored.storedPath, { force: true });
     throw new IntakeError(422, 'unreadable_file', problem, { uploadId: id, report: row.report });
   }
-  return detail(getUploadRow(app.db, campaignId, id), read);
+  return detail(app.db, getUploadRow(app.db, campaignId, id), read);
 }
 
 export function listUploads(db: DbOrTx, campaignId: string, limit = 50): UploadSummary[] {
@@ -220,11 +221,11 @@ export function listUploads(db: DbOrTx, campaignId: string, limit = 50): UploadS
 
 export function getUpload(db: DbOrTx, campaignId: string, uploadId: string): UploadDetail {
   const u = getUploadRow(db, campaignId, uploadId);
-  if (u.status === 'rejected') return detail(u, null);
+  if (u.status === 'rejected') return detail(db, u, null);
   try {
-    return detail(u, readStoredUpload(u.storedPath, u.originalName));
+    return detail(db, u, readStoredUpload(u.storedPath, u.originalName));
   } catch (err) {
-    if (err instanceof UnreadableFile) return detail(u, null);
+    if (err instanceof UnreadableFile) return detail(db, u, null);
     throw err;
   }
 }
@@ -262,15 +263,15 @@ function readTableOf(u: UploadRow): ColumnTable {
   return read.table;
 }
 
-function mapUpload(u: UploadRow, mapping: Mapping, rules: MappingRules): MappingResult {
-  return applyMapping(readTableOf(u), mapping, rules, { bandKeys: bandKeys() });
+function mapUpload(db: DbOrTx, u: UploadRow, mapping: Mapping, rules: MappingRules): MappingResult {
+  return applyMapping(readTableOf(u), mapping, rules, { bandKeys: bandKeys(db) });
 }
 
 /** Applies the mapping to every row and keeps the report with the upload. Writes no stars. */
 export function checkUpload(app: AppServices, actor: Actor, campaignId: string, uploadId: string, raw: unknown): CheckSummary {
   const input = parseInput(checkInput, raw);
   const u = getUploadRow(app.db, campaignId, uploadId);
-  const result = checkSummary(uploadId, mapUpload(u, input.mapping as Mapping, input.rules));
+  const result = checkSummary(uploadId, mapUpload(app.db, u, input.mapping as Mapping, input.rules));
   app.db
     .update(uploads)
     .set({ report: result.report, ...(u.status === 'imported' ? {} : { status: 'checked' as const }) })
@@ -310,7 +311,7 @@ export function importUpload(app: AppServices, actor: Actor, campaignId: string,
     const read = readStoredUpload(u.storedPath, u.originalName);
     if (read.format !== 'fits-image') throw new Error('stored image changed format');
     if (!input.image) throw new IntakeError(400, 'validation_failed', 'A FITS image needs the star id, band and magnitude measured on it (image.starId, image.band, image.mag, image.magErr).');
-    const keys = bandKeys();
+    const keys = bandKeys(app.db);
     const problems = keys.includes(input.image.band)
       ? []
       : [{ file: u.originalName, row: 0, severity: 'error' as const, message: `unknown band "${input.image.band}" (band keys are case-sensitive; known bands: ${keys.join(' ')})` }];
@@ -326,7 +327,7 @@ export function importUpload(app: AppServices, actor: Actor, campaignId: string,
     };
   } else {
     if (!input.mapping) throw new IntakeError(400, 'validation_failed', 'mapping is required.');
-    result = mapUpload(u, input.mapping as Mapping, input.rules);
+    result = mapUpload(app.db, u, input.mapping as Mapping, input.rules);
   }
   const check = checkSummary(uploadId, result);
   if (result.errorCount > 0 && !input.importValidRows) {
