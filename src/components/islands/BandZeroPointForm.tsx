@@ -147,7 +147,11 @@ function EditForm({ bandKey, magnitudeSystem, current }: Props) {
           Reason for the change (required, kept with the new version)
         </label>
         <textarea id="reason" name="reason" className="field-input" rows={2} aria-invalid={error?.field === 'reason'} />
-        {error?.field === 'reason' && <p className="field-error">{error.message}</p>}
+        {error?.field === 'reason' && (
+          <p className="field-error" role="alert">
+            {error.message}
+          </p>
+        )}
       </div>
       {(localError || (error && !error.field?.startsWith('zeroPoint') && error.field !== 'reason')) && (
         <p className="notice notice-error" role="alert">
