@@ -1,5 +1,5 @@
 // The band library as the app keeps it: immutable versions in SQLite (src/db/schema/band-library.ts,
-// docs/decisions/0009-versioned-band-library.md). Every change — a new band, a new zero-point or
+// docs/decisions/0012-versioned-band-library.md). Every change — a new band, a new zero-point or
 // source — writes a new version that shares every band it did not change; nothing is edited in
 // place, so a fit made with version X can always be redone and explained with version X.
 // The first version is the starter library (src/core/bands/starter-library.json) under its own

@@ -1,4 +1,4 @@
-// The band library as immutable versions (docs/decisions/0009-versioned-band-library.md). A version
+// The band library as immutable versions (docs/decisions/0012-versioned-band-library.md). A version
 // is a full list of (band key → definition); a definition row is written once and never changed,
 // and a new version shares every definition it did not change (copy-on-write). So any old version
 // can be loaded exactly, and "did band K change between versions A and B" is a comparison of two
