@@ -212,7 +212,7 @@ const reasonInput = z
   .min(5, 'reason is required: say why the band library changes (at least a few words).')
   .max(2000, 'reason can have at most 2000 characters.');
 
-const positive = (what: string) => z.number({ error: `${what} must be a number.` }).finite(`${what} must be a finite number.`).positive(`${what} must be above 0.`);
+const positive = (what: string) => z.number({ error: `${what} must be a number.` }).positive(`${what} must be above 0.`);
 
 /** A zero-point as the admin gives it: F_λ,0 (Vega-type quoted in F_λ) or F_ν,0 (Jy), with its source. */
 export const zeroPointInput = z
