@@ -22,7 +22,7 @@ import { getBatch, startBatch } from '../src/server/batches';
 import { cataloguePage, parseCataloguePageRequest } from '../src/server/catalogue';
 import { bandKeys as intakeBandKeys } from '../src/server/intake/intake';
 import { decide, fitHistory } from '../src/server/review';
-import { checkStale, refitStaleStars, staleChecker, staleFits } from '../src/server/stale';
+import { bandUsage, checkStale, refitStaleStars, staleChecker, staleFits } from '../src/server/stale';
 import { GET as listBandsRoute, POST as createBandRoute } from '../src/pages/api/admin/bands/index';
 import { POST as previewRoute } from '../src/pages/api/admin/bands/preview';
 import { POST as zeroPointRoute } from '../src/pages/api/admin/bands/[key]/zero-point';
@@ -137,6 +137,10 @@ describe('stale fits and re-fitting', () => {
     expect(oldFits.every((f) => f.band_library_version === 'starter-1' && / Ks( |$)/.test(' ' + f.bands_used))).toBe(true);
     decide(t.db, w.reviewer, oldFits[0].id, { decision: 'accepted', comment: 'fine' });
     expect(staleFits(t.db, w.campaign.id).total).toBe(0);
+    // The band page says how many current fits a change would affect (keys case-sensitive).
+    expect(bandUsage(t.db, 'Ks')).toEqual([{ campaignId: w.campaign.id, campaignName: w.campaign.name, fits: 6 }]);
+    expect(bandUsage(t.db, 'KS')).toEqual([]);
+    expect(bandUsage(t.db, 'W4')).toEqual([]);
 
     // A change to a band the fits did not use, and a change of wording only: nothing goes stale.
     updateZeroPoint(t.db, admin, 'W4', { fnuJy: 8.4, relErr: 0.015, isophotalWavelengthAngstrom: 220883, source: 'invented recalibration' }, 'W4 recalibration');

@@ -122,3 +122,27 @@ export function refitStaleStars(app: AppServices, actor: Actor, campaignId: stri
   }
   return { batches: started, stars: all.length };
 }
+
+export interface BandUsage {
+  campaignId: string;
+  campaignName: string;
+  /** Current successful fits that used the band. */
+  fits: number;
+}
+
+/**
+ * Which campaigns' current fits used a band — what a change of its numbers would mark stale. One
+ * pass over current results (admin pages only); keys are compared case-sensitively (`u` ≠ `U`).
+ */
+export function bandUsage(db: AppDatabase, key: string): BandUsage[] {
+  return (
+    db.$client
+      .prepare(
+        `SELECT r.campaign_id AS campaignId, c.name AS campaignName, count(*) AS fits
+         FROM fit_results r JOIN campaigns c ON c.id = r.campaign_id
+         WHERE r.is_current = 1 AND r.ok = 1 AND instr(' ' || r.bands_used || ' ', ' ' || ? || ' ') > 0
+         GROUP BY r.campaign_id ORDER BY fits DESC, c.name`,
+      )
+      .all(key) as BandUsage[]
+  );
+}
