@@ -149,7 +149,12 @@ describe('stale fits and re-fitting', () => {
     expect(staleFits(t.db, w.campaign.id).total).toBe(0);
 
     // The Ks zero-point changes: every fit that used Ks is stale, and says which band changed.
-    updateZeroPoint(t.db, admin, 'Ks', KS_ZP, 'New Ks calibration');
+    const changed = await call(t, zeroPointRoute, admin, { key: 'Ks' }, { zeroPoint: KS_ZP, reason: 'New Ks calibration' });
+    expect(changed.status).toBe(201);
+    // The campaign's analyst hears about it through the outbox (the reviewer does not: analysts re-fit).
+    expect(changed.body.notified).toBe(1);
+    const mail = t.sqlite.prepare("SELECT to_address, subject FROM outbox_messages WHERE subject LIKE 'Band Ks changed%'").all() as { to_address: string; subject: string }[];
+    expect(mail).toEqual([{ to_address: w.analyst.email, subject: `Band Ks changed: 6 current fits in "${w.campaign.name}" are stale` }]);
     const stale = staleFits(t.db, w.campaign.id);
     expect(stale.total).toBe(6);
     expect(stale.currentVersion).toBe('v4');

@@ -146,3 +146,41 @@ export function bandUsage(db: AppDatabase, key: string): BandUsage[] {
       .all(key) as BandUsage[]
   );
 }
+
+/**
+ * After a band's numbers change: one e-mail per analyst of each campaign whose current fits used
+ * the band, saying how many fits are stale and where to re-fit them (through the outbox). Returns
+ * the number of messages.
+ */
+export async function notifyAnalystsOfStaleFits(app: AppServices, bandKey: string, versionLabel: string, reason: string): Promise<number> {
+  const { db, mailer, env } = app;
+  let sent = 0;
+  const esc = (s: string) => s.replace(/[&<>"']/g, (c) => ({ '&': '&amp;', '<': '&lt;', '>': '&gt;', '"': '&quot;', "'": '&#39;' })[c]!);
+  for (const usage of bandUsage(db, bandKey)) {
+    const analysts = db.$client
+      .prepare(
+        `SELECT u.name, u.email FROM campaign_member_roles r JOIN user u ON u.id = r.user_id
+         WHERE r.campaign_id = ? AND r.role = 'analyst' AND u.deactivated_at IS NULL ORDER BY u.email`,
+      )
+      .all(usage.campaignId) as { name: string; email: string }[];
+    const link = `${env.baseUrl}/campaigns/${usage.campaignId}/batches`;
+    for (const a of analysts) {
+      const what = `${usage.fits} current ${usage.fits === 1 ? 'fit' : 'fits'}`;
+      await mailer.send(db, {
+        kind: 'notice',
+        to: a.email,
+        subject: `Band ${bandKey} changed: ${what} in "${usage.campaignName}" ${usage.fits === 1 ? 'is' : 'are'} stale`,
+        text: [
+          `Hello ${a.name},`,
+          '',
+          `An admin changed band ${bandKey} in band library version ${versionLabel} (${reason}).`,
+          `${what} in "${usage.campaignName}" used it and ${usage.fits === 1 ? 'is' : 'are'} now marked stale. Their results stay as they were made until you re-fit them:`,
+          link,
+        ].join('\n'),
+        html: `<p>Hello ${esc(a.name)},</p><p>An admin changed band <strong>${esc(bandKey)}</strong> in band library version ${esc(versionLabel)} (${esc(reason)}).</p><p>${what} in <strong>${esc(usage.campaignName)}</strong> used it and ${usage.fits === 1 ? 'is' : 'are'} now marked stale. Their results stay as they were made until you <a href="${esc(link)}">re-fit them</a>.</p>`,
+      });
+      sent++;
+    }
+  }
+  return sent;
+}
