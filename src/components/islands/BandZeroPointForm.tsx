@@ -24,7 +24,9 @@ export function ZeroPointFields({ current, magnitudeSystem, allowNone, error }: 
   const initial: ZeroPointKind = current?.fLambdaCgs !== undefined ? 'flambda' : current?.fnuJy !== undefined ? 'fnu' : allowNone ? 'none' : magnitudeSystem === 'ab' ? 'fnu' : 'flambda';
   const [kind, setKind] = useState<ZeroPointKind>(initial);
   const fieldError = error?.field?.startsWith('zeroPoint') || error?.field?.startsWith('band.zeroPoint') ? error.message : null;
-  const value = kind === 'flambda' ? current?.fLambdaCgs : kind === 'fnu' ? (current?.fnuJy ?? (magnitudeSystem === 'ab' ? 3631 : undefined)) : undefined;
+  const raw = kind === 'flambda' ? current?.fLambdaCgs : kind === 'fnu' ? (current?.fnuJy ?? (magnitudeSystem === 'ab' ? 3631 : undefined)) : undefined;
+  // Stored values can carry binary noise from unit conversions (4.2829999999999996e-11): show 10 digits.
+  const value = raw === undefined ? undefined : Number(raw.toPrecision(10));
   return (
     <fieldset className="flex flex-col gap-3">
       <legend className="field-label">Zero-point (flux of magnitude 0)</legend>
