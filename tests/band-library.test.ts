@@ -113,6 +113,9 @@ describe('versions', () => {
     expect(() => updateZeroPoint(t.db, admin, 'Ks', { ...KS_ZP, fnuJy: 600 }, 'both given')).toThrow(/either as fLambdaCgs .* or as fnuJy/);
     expect(() => updateZeroPoint(t.db, admin, 'G', { fnuJy: 3000, relErr: 0, source: 'wrong AB value' }, 'AB must stay 3631')).toThrow(/AB band: its zero-point is F_ν,0 = 3631 Jy/);
     expect(() => updateZeroPoint(t.db, admin, 'Nope', KS_ZP, 'no such band')).toThrow(/no band "Nope"/);
+    // The form shows 4.2829999999999996e-11 as 4.283e-11; sent back unchanged, it is no change.
+    const ks = starterBandLibrary().bands.Ks.zeroPoint!;
+    expect(() => updateZeroPoint(t.db, admin, 'Ks', { ...ks, fLambdaCgs: Number(ks.fLambdaCgs!.toPrecision(10)) }, 'resubmitted as shown')).toThrow(/already has exactly this zero-point/);
     expect(count(t, 'band_library_versions')).toBe(n);
   });
 });

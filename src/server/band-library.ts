@@ -390,6 +390,19 @@ export function createBand(db: AppDatabase, actor: Actor, raw: { band: unknown; 
 }
 
 /**
+ * A form shows stored numbers to 10 digits (4.283e-11 for 4.2829999999999996e-11); sent back
+ * unchanged they must not count as a new value, or every fit using the band would go stale.
+ */
+function keepEqualNumbers(next: ZeroPoint, old: ZeroPoint): void {
+  const fields = ['fLambdaCgs', 'fnuJy', 'relErr', 'catalogueOffsetMag', 'isophotalWavelengthAngstrom'] as const;
+  for (const f of fields) {
+    const a = next[f];
+    const b = old[f];
+    if (a !== undefined && b !== undefined && a !== b && Math.abs(a - b) <= 1e-9 * Math.max(Math.abs(a), Math.abs(b))) next[f] = b;
+  }
+}
+
+/**
  * Sets a band's zero-point and its source — a new library version; fits made with the old numbers
  * become stale. A reason is required. Giving the same numbers with another source makes a new
  * version too (the wording is part of the record) but leaves fits as they are.
@@ -403,6 +416,7 @@ export function updateZeroPoint(db: AppDatabase, actor: Actor, key: string, rawZ
     build: (current) => {
       const old = Object.prototype.hasOwnProperty.call(current.bands, key) ? current.bands[key] : null;
       if (!old) throw new HttpError('not_found', `There is no band "${key}" in band library ${current.version}.`);
+      if (zeroPoint && old.zeroPoint) keepEqualNumbers(zeroPoint, old.zeroPoint);
       if (JSON.stringify(old.zeroPoint) === JSON.stringify(zeroPoint)) {
         throw new HttpError('validation_failed', `Band ${key} already has exactly this zero-point and source; nothing to change.`, 'zeroPoint');
       }
