@@ -402,6 +402,12 @@ function keepEqualNumbers(next: ZeroPoint, old: ZeroPoint): void {
   }
 }
 
+function sameZeroPoint(a: ZeroPoint | null, b: ZeroPoint | null): boolean {
+  if (!a || !b) return a === b;
+  const fields = ['fLambdaCgs', 'fnuJy', 'relErr', 'catalogueOffsetMag', 'isophotalWavelengthAngstrom', 'source'] as const;
+  return fields.every((f) => a[f] === b[f]);
+}
+
 /**
  * Sets a band's zero-point and its source — a new library version; fits made with the old numbers
  * become stale. A reason is required. Giving the same numbers with another source makes a new
@@ -417,7 +423,7 @@ export function updateZeroPoint(db: AppDatabase, actor: Actor, key: string, rawZ
       const old = Object.prototype.hasOwnProperty.call(current.bands, key) ? current.bands[key] : null;
       if (!old) throw new HttpError('not_found', `There is no band "${key}" in band library ${current.version}.`);
       if (zeroPoint && old.zeroPoint) keepEqualNumbers(zeroPoint, old.zeroPoint);
-      if (JSON.stringify(old.zeroPoint) === JSON.stringify(zeroPoint)) {
+      if (sameZeroPoint(old.zeroPoint, zeroPoint)) {
         throw new HttpError('validation_failed', `Band ${key} already has exactly this zero-point and source; nothing to change.`, 'zeroPoint');
       }
       const band: Band = { ...old, zeroPoint, version: old.version + 1 };
