@@ -80,7 +80,7 @@ export async function runCatalogueBench(options: { stars?: number; requests?: nu
     console.log(`catalogue bench: ${N.toLocaleString('en-US')} stars, ${current.toLocaleString('en-US')} current results, loaded in ${loadS.toFixed(1)} s`);
 
     const maxId = (sqlite.prepare('SELECT max(id) AS m FROM fit_results').get() as { m: number }).m;
-    const rowAt = sqlite.prepare('SELECT f.id, f.teff_k, f.lum_lsun, f.radius_rsun, f.chi2_red, f.review_status, s.star_key FROM fit_results f JOIN stars s ON s.id = f.star_id WHERE f.id >= ? AND f.is_current = 1 LIMIT 1');
+    const rowAt = sqlite.prepare('SELECT f.id, f.teff_k, f.lum_lsun, f.radius_rsun, f.chi2_red, f.review_status, s.star_key FROM fit_results f NOT INDEXED JOIN stars s ON s.id = f.star_id WHERE f.id >= ? AND f.is_current = 1 ORDER BY f.id LIMIT 1');
     const pick = <T>(xs: readonly T[]) => xs[Math.floor(rand() * xs.length)];
     const pageMs: number[] = [];
     const countMs: number[] = [];

@@ -238,6 +238,9 @@ export function filterSql(f: CatalogueFilter, params: Params): string[] {
   return where;
 }
 
+/** Stars by key, then each one's current result (index hints: see plan()). */
+export const STARS_THEN_RESULTS = 'stars s INDEXED BY stars_campaign_key_unique CROSS JOIN fit_results f INDEXED BY fit_results_current_star_idx';
+
 const statementCache = new WeakMap<Database.Database, Map<string, Database.Statement>>();
 
 export function prepared(sqlite: Database.Database, text: string): Database.Statement {
@@ -330,7 +333,9 @@ function plan(sqlite: Database.Database, campaignId: string, f: CatalogueFilter,
   const s = SORT_SQL[sort];
   const fcol = sort === 'star_key' ? 's.star_key' : `f.${s.col}`;
   const byStars = (small: boolean): Plan => ({
-    from: 'stars s INDEXED BY stars_campaign_key_unique CROSS JOIN fit_results f',
+    // Both index hints matter: without table statistics SQLite would probe each star's result
+    // through the (campaign, review status) index, which is two equalities but not selective.
+    from: 'stars s INDEXED BY stars_campaign_key_unique CROSS JOIN fit_results f INDEXED BY fit_results_current_star_idx',
     where: ['s.campaign_id = @campaign', 'f.star_id = s.id', ...where],
     params,
     col: fcol,
@@ -487,7 +492,9 @@ export function catalogueCount(db: DbOrTx, campaignId: string, f: CatalogueFilte
   const params: Params = { campaign: campaignId };
   const where = ['f.campaign_id = @campaign', 'f.is_current = 1', ...filterSql(f, params)];
   const needsStars = Boolean(f.starPrefix);
-  const text = `SELECT count(*) AS n FROM fit_results f${needsStars ? ' JOIN stars s ON s.id = f.star_id' : ''} WHERE ${where.join(' AND ')}`;
+  const text = needsStars
+    ? `SELECT count(*) AS n FROM ${STARS_THEN_RESULTS} WHERE s.campaign_id = @campaign AND f.star_id = s.id AND ${where.join(' AND ')}`
+    : `SELECT count(*) AS n FROM fit_results f WHERE ${where.join(' AND ')}`;
   const total = (prepared(sqlite, text).get(params) as { n: number }).n;
   const campaignTotal = (
     prepared(sqlite, 'SELECT count(*) AS n FROM fit_results INDEXED BY fit_results_current_review_idx WHERE campaign_id = ? AND is_current = 1').get(campaignId) as { n: number }
@@ -537,8 +544,8 @@ export function catalogueDiagrams(db: DbOrTx, campaignId: string, f: CatalogueFi
   const sqlite = (db as unknown as { $client: Database.Database }).$client;
   const limit = options.pointLimit ?? DIAGRAM_POINT_LIMIT;
   const params: Params = { campaign: campaignId };
-  const where = ['f.campaign_id = @campaign', 'f.is_current = 1', 'f.teff_k IS NOT NULL', ...filterSql(f, params)];
-  const from = `fit_results f${f.starPrefix ? ' JOIN stars s ON s.id = f.star_id' : ''}`;
+  const where = ['f.campaign_id = @campaign', 'f.is_current = 1', 'f.teff_k IS NOT NULL', ...filterSql(f, params), ...(f.starPrefix ? ['s.campaign_id = @campaign', 's.id = f.star_id'] : [])];
+  const from = f.starPrefix ? STARS_THEN_RESULTS : 'fit_results f';
   const stats = prepared(
     sqlite,
     `SELECT count(*) AS n, sum(f.lum_lsun > 0) AS placed, min(f.teff_k) AS tlo, max(f.teff_k) AS thi,

@@ -10,7 +10,7 @@ import { catalogueColumns, PROVENANCE_CONSTANTS, provenanceLines, type Catalogue
 import { extrapolatedBandKeys } from '../../core/extinction';
 import type { ExtinctionLawKey } from '../../core/types';
 import type { AppDatabase } from '../../db/client';
-import { describeFilter, filterSql, type CatalogueFilter } from '../catalogue';
+import { describeFilter, filterSql, STARS_THEN_RESULTS, type CatalogueFilter } from '../catalogue';
 import { appVersion } from '../health';
 
 export interface BatchProvenance {
@@ -91,7 +91,7 @@ export function openExport(db: AppDatabase, campaign: { id: string; name: string
     conn.exec('BEGIN');
     const params: Record<string, string | number> = { campaign: campaign.id };
     const where = ['s.campaign_id = @campaign', 'f.star_id = s.id', 'f.campaign_id = @campaign', 'f.is_current = 1', ...filterSql(filter, params)];
-    const from = 'stars s INDEXED BY stars_campaign_key_unique CROSS JOIN fit_results f';
+    const from = STARS_THEN_RESULTS;
     // One pass for the count, the widest strings and which batches and band sets the rows come from.
     const groups = conn
       .prepare(
