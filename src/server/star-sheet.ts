@@ -11,6 +11,7 @@ import type { ExtinctionLawKey } from '../core/types';
 import type { AppDatabase } from '../db/client';
 import type { SheetBand, SheetFit, SheetMeasurement, StarSheet } from '../lib/review-types';
 import { findLibrary, getCurrentLibrary } from './band-library';
+import type { FitResultRow } from './fit-job';
 import { HttpError } from './errors';
 import { explainFlags, getReviewSettings, starHistory } from './review';
 
@@ -26,35 +27,12 @@ export const EXCLUSION_LABELS: Record<string, string> = {
 
 export const OUTLIER_SIGMA = 3;
 
-interface FitRow {
+/** A stored fit as the sheet reads it: the written row plus its id, review status and batch. */
+interface FitRow extends Omit<FitResultRow, 'campaign_id' | 'star_id' | 'detail'> {
   id: number;
-  batch_id: string;
   created_at: number;
-  ok: number;
-  failure_reason: string | null;
   review_status: string;
-  teff_k: number | null;
-  teff_err_k: number | null;
-  teff_err_formal_k: number | null;
-  teff_lower_k: number | null;
-  theta_mas: number | null;
-  theta_err_mas: number | null;
-  radius_rsun: number | null;
-  radius_err_rsun: number | null;
-  lum_lsun: number | null;
-  lum_err_lsun: number | null;
-  fbol_cgs: number | null;
-  fbol_err_cgs: number | null;
-  av_mag: number | null;
-  av_err_mag: number | null;
-  chi2_red: number | null;
-  n_bands: number | null;
-  bands_used: string | null;
-  ir_excess_sigma: number | null;
-  flags: string;
   detail: string | null;
-  band_library_version: string;
-  software_version: string;
   batch_created_at: number;
   started_by_id: string | null;
   started_by_name: string | null;
