@@ -415,6 +415,20 @@ function readPhase(
       if (lo !== undefined && !(cursor && ascending)) where.push(`${p.col} >= @teffMin`);
       if (hi !== undefined && !(cursor && !ascending)) where.push(`${p.col} <= @teffMax`);
     }
+    if (sort === 'star_key' && !p.small && params.pfx !== undefined) {
+      // Same for a star id prefix under the star-id sort: the prefix range and the cursor bound the
+      // same index; keep only the tighter bound on each side.
+      const lo = String(params.pfx);
+      const hi = String(params.pfxEnd);
+      const i = where.indexOf('s.star_key >= @pfx AND s.star_key < @pfxEnd');
+      if (i >= 0) where.splice(i, 1);
+      const cv = cursor ? String(cursor.v) : undefined;
+      if (cursor && ascending && cv! < lo) cursor = null;
+      if (cursor && !ascending && cv! >= hi) cursor = null;
+      if (!(cursor && ascending)) where.push(`${p.col} >= @pfx`);
+      if (!(cursor && !ascending)) where.push(`${p.col} < @pfxEnd`);
+      if (p.col !== 's.star_key') where.push('s.star_key >= @pfx AND s.star_key < @pfxEnd');
+    }
     if (cursor) {
       const from = cursor;
       params.cv = from.v!;
