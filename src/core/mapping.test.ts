@@ -224,4 +224,12 @@ describe('readCellNumber', () => {
     for (const m of ['', 'NaN', 'null', '--', 'N/A', null, Number.NaN]) expect(readCellNumber(m)).toBeUndefined();
     for (const b of ['0x10', 'Infinity', '1,5', 'bright', true]) expect(readCellNumber(b)).toBeNaN();
   });
+
+  it('reads exactly the decimal grammar [+-]?(d+.?d*|.d+)([eEdD][+-]?d+)? after trimming, at the edges of it too', () => {
+    const read = { '1.': 1, '+7': 7, '007': 7, '1e5': 1e5, '1E-3': 1e-3, '1d3': 1000, '-2.5D+2': -250, '\t3.25\n': 3.25, '\u00a04\u00a0': 4, ' -0 ': -0 };
+    for (const [text, value] of Object.entries(read)) expect(readCellNumber(text), JSON.stringify(text)).toBe(value);
+    for (const b of ['.', '+', '-.', 'e5', '.e5', '1e', '1e+', '1e5.0', '1.2.3', '1 2', '1e5x', '١', '1_000', '0b1', '1ee5', '+-1', '1f']) {
+      expect(readCellNumber(b), JSON.stringify(b)).toBeNaN();
+    }
+  });
 });
