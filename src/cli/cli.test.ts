@@ -12,6 +12,7 @@ import { afterAll, describe, expect, it } from 'vitest';
 import { mockCsv, mockStars } from '../../scripts/references/make_mock_catalogue';
 import { parseDelimited } from '../core/tables/delimited';
 import { readUpload } from '../core/tables/table-file';
+import { FLAG_EXPLANATIONS } from '../core/fit';
 import { parseCommandLine, UsageError } from './args';
 import { writeFileAtomic } from './fit-command';
 
@@ -100,7 +101,11 @@ describe('starkiln fit, end to end', () => {
     expect(header).toContain('options: av_default_mag = 0; fit_av = false; floor_fraction = 0.02; exclude = (none); clip = false; include_long = false');
     expect(header).toContain(`sha256 ${createHash('sha256').update(readFileSync(input)).digest('hex')}`);
     expect(header).toMatch(/created: \d{4}-\d\d-\d\dT/);
-    expect(header).toMatch(/ {2}plx_weak: /);
+    // F99 is defined from 910 Å to 6 µm (Fitzpatrick 1999; python3-extinction's range): of the input's
+    // bands only W3 (≈ 7–17 µm) reaches past it, and the header must say so.
+    expect(header).toContain("extinction law: f99, R_V = 3.1; extrapolated past the law's range in bands: W3\n");
+    // Every flag code the catalogue can carry is explained in the header, not only the ones that occur.
+    for (const [code, text] of Object.entries(FLAG_EXPLANATIONS)) expect(header).toContain(`  ${code}: ${text}`);
     expect(header).toMatch(/colour temperature/);
   });
 
@@ -112,6 +117,9 @@ describe('starkiln fit, end to end', () => {
     const json = JSON.parse(readFileSync(path.join(dir, 'out.json'), 'utf8'));
     expect(json.provenance.law).toBe('ccm89');
     expect(json.provenance.options.exclude).toEqual(['B', 'V']);
+    // CCM89 is defined for x = 0.3–10 µm⁻¹ (1000 Å – 3.33 µm; Cardelli, Clayton & Mathis 1989): W1, W2, W3 reach past it.
+    expect(json.provenance.extrapolatedBands).toEqual(['W1', 'W2', 'W3']);
+    expect(json.provenance.rv).toBe(3.1);
     expect(json.rows.length).toBe(5);
     for (const [i, s] of stars.entries()) {
       expect(json.rows[i].bands_used.split(' ')).not.toContain('V');
