@@ -5,6 +5,7 @@ import { and, eq } from 'drizzle-orm';
 import { campaigns, outboxMessages, user } from '../../src/db/schema';
 import { DEMO_CAMPAIGN, demoUsers } from '../../src/db/seed';
 import { nameKey } from '../../src/server/campaigns';
+import { insertMockStars } from '../factories-photometry';
 import { callApi, signInCookie, startApp, type RunningApp } from './harness';
 
 let run: RunningApp;
@@ -128,6 +129,33 @@ describe('pages without JavaScript', () => {
     expect(done.location).toBe('/sign-in?reset=done');
     await expect(signInCookie(run.baseUrl, people.reviewer.email, 'a-brand-new-password')).resolves.toMatch(/session_token/);
     await expect(signInCookie(run.baseUrl, people.reviewer.email, people.reviewer.password)).rejects.toThrow(/401/);
+  });
+
+  it('list a campaign’s stars a page at a time, each linking to its star sheet', async () => {
+    const made = insertMockStars(run.app.db, { campaignId: demoId, count: 5, prefix: 'PGS' });
+    const guest = await signInCookie(run.baseUrl, people.collaborator.email, people.collaborator.password);
+    const overview = await get(`/campaigns/${demoId}`, guest);
+    expect(overview.html).toContain(`href="/campaigns/${demoId}/stars"`);
+    const first = await get(`/campaigns/${demoId}/stars?q=PGS&limit=2`, guest);
+    expect(first.status).toBe(200);
+    expect(first.html).toContain('data-testid="star-table"');
+    expect(first.html).toContain(`href="/campaigns/${demoId}/stars/${made[0].id}"`);
+    expect(first.html).toContain('PGS-000002');
+    expect(first.html).not.toContain('PGS-000003');
+    expect(first.html).toMatch(/<span class="num">5<\/span> stars/);
+    const next = first.html.match(/href="([^"]+)" rel="next"/)![1].replace(/&(amp|#38);/g, '&');
+    const second = await get(next, guest);
+    expect(second.html).toContain('PGS-000003');
+    expect(second.html).toContain('PGS-000004');
+    expect(second.html).not.toContain('PGS-000002');
+    expect(second.html).toContain('rel="prev"');
+    const star = await get(`/campaigns/${demoId}/stars/${made[0].id}`, guest);
+    expect(star.status).toBe(200);
+    expect(star.html).toContain('PGS-000001');
+    expect((await get(`/campaigns/${demoId}/stars?limit=9999`, guest)).status).toBe(400);
+    const admin = await signInCookie(run.baseUrl, people.admin.email, people.admin.password);
+    expect((await get(`/campaigns/${demoId}/stars`, admin)).status).toBe(200); // admins oversee every campaign
+    expect((await get(`/campaigns/${demoId}/stars`)).status).toBe(302);
   });
 
   it('keep the admin area for admins', async () => {
