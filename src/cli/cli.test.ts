@@ -15,6 +15,7 @@ import { readUpload } from '../core/tables/table-file';
 import { FLAG_EXPLANATIONS } from '../core/fit';
 import { parseCommandLine, UsageError } from './args';
 import { writeFileAtomic } from './fit-command';
+import { Progress } from './progress';
 
 const root = fileURLToPath(new URL('../..', import.meta.url));
 const bin = path.join(root, 'bin/starkiln.mjs');
@@ -144,6 +145,26 @@ describe('starkiln fit, end to end', () => {
     expect(cat.rows.map((x) => x.id)).toEqual([stars[0].id, stars[2].id]);
   });
 
+  it('a negative error refuses that row; a band column with an unknown key is named; the other rows are fitted', () => {
+    writeFileSync(
+      path.join(dir, 'neg.csv'),
+      'id,V,V_err,G,G_err,J,J_err,W5_jy,W5_jy_err\n' +
+        'kiln-a,9.1,0.02,8.9,0.01,7.9,0.02,0.1,0.01\n' +
+        'kiln-b,9.3,-0.02,9.0,0.01,8.0,0.02,0.1,0.01\n' +
+        'kiln-c,9.5,0.02,9.2,0.01,8.2,0.02,0.1,0.01\n',
+    );
+    const r = run('fit', 'neg.csv', '-o', 'neg-out.csv');
+    expect(r.code).toBe(2);
+    expect(r.stderr).toContain('neg.csv:3:3: row 2, column V_err: negative error -0.02');
+    expect(r.stderr).toContain('neg.csv:W5_jy: warning: unknown band column "W5_jy" (with W5_jy_err): "W5" is not a band key (band keys are case-sensitive: ');
+    expect(r.stderr).toMatch(/2 stars fitted, 1 input row left out, 1 error and 1 warning/);
+    const cat = readCatalogue(path.join(dir, 'neg-out.csv'));
+    expect(cat.rows.map((x) => [x.id, x.bands_used])).toEqual([
+      ['kiln-a', 'V G J'],
+      ['kiln-c', 'V G J'],
+    ]);
+  });
+
   it('a band without a zero-point: its magnitude columns are left out with one warning, the other bands are fitted', () => {
     // The worker skips such a measurement the same way (src/server/fit-job.ts); a file that names
     // Hipparcos Hp (hp_mag in the benchmark table) must not cost every star its fit.
@@ -207,6 +228,35 @@ describe('starkiln fit, end to end', () => {
     expect(run('fit', 'mock.csv', '-o', 'x.csv', '--exclude', 'KS').stderr).toMatch(/--exclude: unknown band "KS"; did you mean 'Ks'\?/);
     expect(run('--help').stdout).toMatch(/^Usage: starkiln fit <input> -o <output>/);
     expect(run('--version').stdout).toMatch(/^starkiln \d+\.\d+\.\d+\n$/);
+  });
+});
+
+describe('progress bar', () => {
+  const sink = (columns = 80) => {
+    const chunks: string[] = [];
+    return { out: { columns, write: (c: string) => (chunks.push(c), true) } as unknown as NodeJS.WritableStream & { columns?: number }, chunks };
+  };
+
+  it('draws a bar with the count on a terminal and ends the line when done', () => {
+    const { out, chunks } = sink();
+    const p = new Progress(out, 1000, true);
+    p.update(500);
+    p.done();
+    expect(chunks[0]).toMatch(/^\r\[#{20}-{20}\] 500\/1000 stars ~\d+ s left {3}$/);
+    expect(chunks.at(-2)).toBe(`\r[${'#'.repeat(40)}] 1000/1000 stars   `);
+    expect(chunks.at(-1)).toBe('\n');
+  });
+
+  it('redraws at most ten times a second, and writes nothing when stderr is not a terminal', () => {
+    const { out, chunks } = sink();
+    const p = new Progress(out, 1000, true);
+    for (let i = 0; i < 1000; i++) p.update(i);
+    expect(chunks.length).toBe(1);
+    const off = sink();
+    const q = new Progress(off.out, 1000, false);
+    q.update(10);
+    q.done();
+    expect(off.chunks).toEqual([]);
   });
 });
 

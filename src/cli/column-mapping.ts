@@ -9,6 +9,7 @@ import {
   BAND_ROLES,
   COLUMN_ROLES,
   detectMapping,
+  mistypedBandColumn,
   ROLE_LABELS,
   type ColumnAssignment,
   type ColumnRole,
@@ -198,6 +199,31 @@ function dropUnconvertibleBands(library: BandLibrary, table: ColumnTable, resolv
   }
 }
 
+/**
+ * Canonical wide pairs (`X` + `X_err`, `X_jy` + `X_jy_err`) that nothing reads because X is not a
+ * band key (`W5`, `Y`, `Lp`): in the canonical layout the file means a band the library does not
+ * have, and its data would vanish without a word. A warning naming the columns, not an error: the
+ * rows still fit on their other bands, and a table may carry such pairs for other quantities. A key
+ * in the wrong case ('KS') is already reported by the mapping check with what it most likely meant.
+ */
+function warnUnknownBandPairs(table: ColumnTable, resolved: ResolvedMapping, bandKeys: readonly string[]): void {
+  if (resolved.mapping.layout !== 'wide') return;
+  const ignored = new Set(table.columns.filter((c) => (resolved.mapping.columns[c]?.role ?? 'ignore') === 'ignore'));
+  for (const name of table.columns) {
+    const errName = `${name}_err`;
+    if (!ignored.has(name) || !ignored.has(errName)) continue;
+    const base = name.endsWith('_jy') ? name.slice(0, -3) : name;
+    if (base === '' || bandKeys.includes(base) || mistypedBandColumn(name, bandKeys) || mistypedBandColumn(errName, bandKeys)) continue;
+    resolved.warnings.push({
+      file: table.file,
+      row: 0,
+      column: { name, number: table.columns.indexOf(name) + 1 },
+      severity: 'warning',
+      message: `unknown band column "${name}" (with ${errName}): "${base}" is not a band key (band keys are case-sensitive: ${bandKeys.join(' ')}); the columns were not read`,
+    });
+  }
+}
+
 export function resolveMapping(table: ColumnTable, library: BandLibrary, choices: MappingChoices): ResolvedMapping {
   const bandKeys = Object.keys(library.bands);
   let resolved: ResolvedMapping;
@@ -216,6 +242,7 @@ export function resolveMapping(table: ColumnTable, library: BandLibrary, choices
     resolved.rules.quality = [...resolved.rules.quality.filter((r) => r.column !== column), { column, keep: q.letters }];
   }
   dropUnconvertibleBands(library, table, resolved, new Set(choices.excludeBands));
+  warnUnknownBandPairs(table, resolved, bandKeys);
   return resolved;
 }
 
