@@ -3,10 +3,11 @@
 // (the same loop `npm run worker` runs, here in-process) drains the queue.
 import { afterEach, describe, expect, it } from 'vitest';
 import { GET as listRoute, POST as startRoute } from '../src/pages/api/campaigns/[id]/batches/index';
+import { POST as cancelRoute } from '../src/pages/api/batches/[batchId]/cancel';
 import { GET as failuresRoute } from '../src/pages/api/batches/[batchId]/failures';
 import { GET as progressRoute } from '../src/pages/api/batches/[batchId]/progress';
 import { starterBandLibrary } from '../src/core/bands';
-import { batchProgress, finishBatchIfDone, startBatch } from '../src/server/batches';
+import { batchProgress, batchQueue, finishBatchIfDone, startBatch } from '../src/server/batches';
 import type { Actor } from '../src/server/context';
 import { appVersion } from '../src/server/health';
 import { createWorker } from '../workers/runner';
@@ -186,5 +187,59 @@ describe('a batch from start to finish', () => {
       expect(r.av_mag).toBeGreaterThanOrEqual(0);
       expect(r.av_mag).toBeLessThan(0.01);
     }
+  });
+});
+
+describe('cancelling a batch', () => {
+  it('drops its waiting jobs, lets held ones finish, sends no e-mail, and is for analysts only', async () => {
+    const w = await world(40);
+    const batch = startBatch(w.t.app, w.analyst, w.campaign.id, {});
+    const worker = createWorker(w.t.app, { owner: 'test', chunkSize: 10, idleMs: 5 });
+    expect(await worker.runOnce()).toBe(10);
+    // Another worker holds 5 jobs at the moment of the cancel (its lease runs out at once, as if it died).
+    const held = batchQueue(w.t.db).claim('ghost', 5, 1);
+    expect(held).toHaveLength(5);
+
+    const params = { batchId: batch.id };
+    expect((await call(cancelRoute, w.t, null, params, { body: {} })).status).toBe(401);
+    expect((await call(cancelRoute, w.t, w.reviewer, params, { body: {} })).status).toBe(403);
+    expect((await call(cancelRoute, w.t, w.collaborator, params, { body: {} })).status).toBe(403);
+    expect((await call(cancelRoute, w.t, w.outsider, params, { body: {} })).status).toBe(403);
+    expect(w.t.sqlite.prepare("SELECT count(*) FROM jobs WHERE batch_id = ? AND status = 'pending'").pluck().get(batch.id)).toBe(25);
+
+    const res = await call(cancelRoute, w.t, w.analyst, params, { body: {} });
+    expect(res.status).toBe(200);
+    expect(res.body).toMatchObject({ removed: 25, inFlight: 5, batch: { status: 'cancelled', waiting: 0, secondsLeft: 0 } });
+    expect(res.body.batch.finishedAt).not.toBeNull();
+    expect(w.t.sqlite.prepare("SELECT count(*) FROM jobs WHERE batch_id = ? AND status = 'pending'").pluck().get(batch.id)).toBe(0);
+    const audit = w.t.sqlite.prepare("SELECT actor_id, details FROM audit_events WHERE action = 'batch.cancelled'").get() as { actor_id: string; details: string };
+    expect(audit.actor_id).toBe(w.analyst.id);
+    expect(JSON.parse(audit.details)).toMatchObject({ batchId: batch.id, removedJobs: 25, inFlightJobs: 5 });
+
+    // The held jobs come back when their lease runs out and are fitted once each; nothing else is.
+    await new Promise((r) => setTimeout(r, 5));
+    await createWorker(w.t.app, { owner: 'late', drain: true, idleMs: 5 }).run();
+    const perStar = w.t.sqlite.prepare('SELECT star_id, count(*) AS n FROM fit_results WHERE batch_id = ? GROUP BY star_id').all(batch.id) as { n: number }[];
+    expect(perStar).toHaveLength(15);
+    expect(perStar.every((r) => r.n === 1)).toBe(true);
+    const after = batchProgress(w.t.db, batch.id);
+    expect(after).toMatchObject({ status: 'cancelled', waiting: 0, running: 0 });
+    expect(after.fitted + after.failed).toBe(15);
+    expect(await finishBatchIfDone(w.t.app, batch.id)).toBe(false);
+    expect(w.t.sqlite.prepare("SELECT count(*) FROM outbox_messages WHERE kind = 'notice' AND subject LIKE 'Batch finished%'").pluck().get()).toBe(0);
+
+    const again = await call(cancelRoute, w.t, w.analyst, params, { body: {} });
+    expect(again.status).toBe(409);
+    expect(again.body.error.message).toMatch(/cancelled already/);
+  });
+
+  it('refuses to cancel a finished batch', async () => {
+    const w = await world(3);
+    const batch = startBatch(w.t.app, w.analyst, w.campaign.id, {});
+    await createWorker(w.t.app, { owner: 'test', drain: true, idleMs: 5 }).run();
+    const res = await call(cancelRoute, w.t, w.analyst, { batchId: batch.id }, { body: {} });
+    expect(res.status).toBe(409);
+    expect(res.body.error.message).toMatch(/finished already/);
+    expect(batchProgress(w.t.db, batch.id).status).toBe('finished');
   });
 });

@@ -276,7 +276,7 @@ function progressOf(db: AppDatabase, row: BatchRow, now = Date.now()): BatchProg
     retrying: counts.retrying,
     running: counts.leased,
     ratePerSecond,
-    secondsLeft: remaining === 0 ? 0 : ratePerSecond > 0 ? remaining / ratePerSecond : null,
+    secondsLeft: remaining === 0 || row.status === 'cancelled' ? 0 : ratePerSecond > 0 ? remaining / ratePerSecond : null,
   };
 }
 
@@ -375,7 +375,8 @@ export async function finishBatchIfDone(app: AppServices, batchId: string): Prom
       const won = tx
         .update(batches)
         .set({ status: 'finished', finishedAt: at, notifiedAt: at })
-        .where(and(eq(batches.id, batchId), sql`${batches.notifiedAt} IS NULL`))
+        // A cancel between the read above and here wins: the batch stays cancelled, no e-mail.
+        .where(and(eq(batches.id, batchId), sql`${batches.notifiedAt} IS NULL`, sql`${batches.status} <> 'cancelled'`))
         .run();
       if (won.changes !== 1) return { won: false, outboxId: null };
       recordAudit(tx, { actorId: null, action: 'batch.finished', campaignId: row.campaignId, details: { batchId, fitted: progress.fitted, failed: progress.failed } });
@@ -387,6 +388,41 @@ export async function finishBatchIfDone(app: AppServices, batchId: string): Prom
   // Reviewers hear once per batch when it leaves fits waiting (idempotent on its own).
   if (outcome.won) await notifyReviewersOfBatch(app, batchId);
   return outcome.won;
+}
+
+export interface CancelOutcome {
+  batch: BatchProgress;
+  /** Jobs no worker had taken: removed, so those stars get no result from this batch. */
+  removed: number;
+  /** Jobs a worker held at that moment: they finish and write their results as usual. */
+  inFlight: number;
+}
+
+/**
+ * Cancel a batch that is still waiting or running: its waiting jobs are removed (not marked
+ * failed: nothing went wrong with those stars, and a failure result would replace their current
+ * fit) and the batch is marked cancelled. Jobs a worker holds are left to finish, because their
+ * results are written in the transaction that completes them; a cancelled batch sends no
+ * "finished" e-mail. Callers check the role (analysts of the campaign, admins).
+ */
+export function cancelBatch(app: AppServices, actor: Actor, batchId: string): CancelOutcome {
+  const { db } = app;
+  const sqlite = db.$client;
+  const outcome = db.transaction(
+    (tx) => {
+      const row = requireBatch(tx, batchId);
+      if (row.status === 'finished' || row.status === 'cancelled') {
+        throw new HttpError('conflict', `This batch has ${row.status === 'finished' ? 'finished' : 'been cancelled'} already; there is nothing left to cancel.`);
+      }
+      const removed = sqlite.prepare("DELETE FROM jobs WHERE batch_id = ? AND status = 'pending'").run(batchId).changes;
+      const inFlight = sqlite.prepare("SELECT count(*) FROM jobs WHERE batch_id = ? AND status = 'leased'").pluck().get(batchId) as number;
+      tx.update(batches).set({ status: 'cancelled', finishedAt: new Date() }).where(eq(batches.id, batchId)).run();
+      recordAudit(tx, { actorId: actor.id, action: 'batch.cancelled', campaignId: row.campaignId, details: { batchId, removedJobs: removed, inFlightJobs: inFlight } });
+      return { removed, inFlight };
+    },
+    { behavior: 'immediate' },
+  );
+  return { batch: batchProgress(db, batchId), ...outcome };
 }
 
 /** The campaign has stars to fit (for the start form). */

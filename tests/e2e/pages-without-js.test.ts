@@ -4,7 +4,9 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { and, eq } from 'drizzle-orm';
 import { campaigns, outboxMessages, user } from '../../src/db/schema';
 import { DEMO_CAMPAIGN, demoUsers } from '../../src/db/seed';
+import { startBatch } from '../../src/server/batches';
 import { nameKey } from '../../src/server/campaigns';
+import { createWorker } from '../../workers/runner';
 import { insertMockStars } from '../factories-photometry';
 import { callApi, signInCookie, startApp, type RunningApp } from './harness';
 
@@ -156,6 +158,40 @@ describe('pages without JavaScript', () => {
     const admin = await signInCookie(run.baseUrl, people.admin.email, people.admin.password);
     expect((await get(`/campaigns/${demoId}/stars`, admin)).status).toBe(200); // admins oversee every campaign
     expect((await get(`/campaigns/${demoId}/stars`)).status).toBe(302);
+  });
+
+  it('link each star that could not be fitted to its star sheet, and let an analyst cancel a batch by form post', async () => {
+    const made = insertMockStars(run.app.db, { campaignId: demoId, count: 4, prefix: 'BFL', fewBandsEvery: 2 });
+    const analystRow = run.app.db.select().from(user).where(eq(user.email, people.analyst.email)).get()!;
+    const actor = { id: analystRow.id, name: analystRow.name, email: analystRow.email, kind: analystRow.kind as 'member' };
+    const fitted = startBatch(run.app, actor, demoId, { starKeys: made.map((m) => m.starKey) });
+    await createWorker(run.app, { owner: 'pages-test', drain: true, idleMs: 5 }).run();
+    const analyst = await signInCookie(run.baseUrl, people.analyst.email, people.analyst.password);
+    const page = await get(`/campaigns/${demoId}/batches/${fitted.id}`, analyst);
+    expect(page.status).toBe(200);
+    // BFL-000002 and BFL-000004 have one band only: they could not be fitted, and link to their sheets.
+    expect(page.html).toContain(`href="/campaigns/${demoId}/stars/${made[1].id}">BFL-000002</a>`);
+    expect(page.html).toContain(`href="/campaigns/${demoId}/stars/${made[3].id}">BFL-000004</a>`);
+    expect(page.html).not.toContain('data-testid="cancel-form"'); // finished: nothing to cancel
+
+    const waiting = startBatch(run.app, actor, demoId, { starKeys: made.map((m) => m.starKey) });
+    // (The reviewer's password changed in an earlier test; the collaborator reads but may not cancel either.)
+    const guest = await signInCookie(run.baseUrl, people.collaborator.email, people.collaborator.password);
+    expect((await get(`/campaigns/${demoId}/batches/${waiting.id}`, guest)).html).not.toContain('data-testid="cancel-form"');
+    expect((await postForm(`/campaigns/${demoId}/batches/${waiting.id}`, {}, guest)).status).toBe(403);
+    const open = await get(`/campaigns/${demoId}/batches/${waiting.id}`, analyst);
+    expect(open.html).toContain('data-testid="cancel-form"');
+    const cancelled = await postForm(`/campaigns/${demoId}/batches/${waiting.id}`, {}, analyst);
+    expect(cancelled.status).toBe(303);
+    expect(cancelled.location).toBe(`/campaigns/${demoId}/batches/${waiting.id}?cancelled=1`);
+    const after = await get(cancelled.location!, analyst);
+    expect(after.html).toContain('data-testid="cancel-notice"');
+    expect(after.html).toContain('— <!-- -->cancelled');
+    expect(after.html).not.toContain('data-testid="cancel-form"');
+    expect(run.app.db.$client.prepare('SELECT count(*) FROM jobs WHERE batch_id = ?').pluck().get(waiting.id)).toBe(0);
+    const twice = await postForm(`/campaigns/${demoId}/batches/${waiting.id}`, {}, analyst);
+    expect(twice.status).toBe(409);
+    expect(twice.html).toContain('cancelled already');
   });
 
   it('keep the admin area for admins', async () => {

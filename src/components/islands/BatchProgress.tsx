@@ -124,7 +124,9 @@ function Progress({ batchId, initial, initialFailures }: Props) {
             <tbody>
               {f.failures.map((x) => (
                 <tr key={x.starId} className="border-t border-rule align-top">
-                  <td className="px-5 py-2 num whitespace-nowrap">{x.starKey}</td>
+                  <td className="px-5 py-2 num whitespace-nowrap">
+                    <a href={`/campaigns/${p.campaignId}/stars/${x.starId}`}>{x.starKey}</a>
+                  </td>
                   <td className="px-3 py-2 text-ink-700">
                     {x.kind === 'job' && <span className="role-chip bg-alarm-100 text-alarm-700 mr-2">job</span>}
                     {x.reason}
@@ -134,7 +136,7 @@ function Progress({ batchId, initial, initialFailures }: Props) {
             </tbody>
           </table>
         ) : (
-          <p className="px-5 pb-5 text-sm text-ink-500">{running ? 'None so far.' : 'None: every star was fitted.'}</p>
+          <p className="px-5 pb-5 text-sm text-ink-500">{running ? 'None so far.' : p.status === 'cancelled' ? 'None.' : 'None: every star was fitted.'}</p>
         )}
         {f && f.total > 50 && (
           <div className="flex items-center justify-between px-5 py-3 border-t border-rule text-sm">
