@@ -2,6 +2,7 @@
 // files (CSV, TSV, long CSV, VOTable and FITS tables written by astropy, the Gaia FGK benchmark
 // table), malformed files, merge on re-upload, atomicity and authorisation per role.
 import { count, eq } from 'drizzle-orm';
+import { createHash } from 'node:crypto';
 import { existsSync, readdirSync, readFileSync } from 'node:fs';
 import path from 'node:path';
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
@@ -94,6 +95,10 @@ describe('every reader path through upload → check → import', () => {
     // G = −2.5 log10(1.2e6) + 25.6873668 (Gaia DR3 Vega zero-point, Riello et al. 2021)
     expect(ms.find((m) => m.bandKey === 'G')!.mag).toBeCloseTo(-2.5 * Math.log10(1.2e6) + 25.6873668, 10);
     expect(t.db.select().from(uploads).where(eq(uploads.id, u.id)).get()).toMatchObject({ status: 'imported', importedRowCount: 3, uploadedById: analyst.id });
+    // The stored file is kept after import as the record behind the measurements (docs/decisions/0013):
+    // still there, and still the bytes whose checksum the upload row holds.
+    const row = t.db.select().from(uploads).where(eq(uploads.id, u.id)).get()!;
+    expect(createHash('sha256').update(readFileSync(row.storedPath)).digest('hex')).toBe(row.sha256);
   });
 
   it('TSV with canonical names, including an upper limit and fluxes in Jy', async () => {
