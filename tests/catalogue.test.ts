@@ -12,11 +12,14 @@ import {
   catalogueCount,
   catalogueDiagrams,
   cataloguePage,
+  catalogueSummaryStats,
+  catalogueVersion,
   catalogueTuning,
   parseCataloguePageRequest,
   type CatalogueRowView,
   type CatalogueSort,
 } from '../src/server/catalogue';
+import Database from 'better-sqlite3';
 import { mulberry32 } from '../src/core/fit/random';
 import type { Actor } from '../src/server/context';
 import { addToCampaign, makeCampaign, makeUser } from './factories';
@@ -330,6 +333,61 @@ describe('diagrams', () => {
     for (const p of points) want[cell(g.logLumEdges, Math.log10(p.lumLsun))][cell(g.teffEdgesK, p.teffK)]++;
     expect(g.counts).toEqual(want);
     expect(g.counts.flat().reduce((a, b) => a + b, 0)).toBe(points.length);
+  });
+});
+
+describe('cached totals and diagrams', () => {
+  it('serve a repeat from the cache and recompute after a new result or a review decision, also one written by another connection', async () => {
+    const cid = makeCampaign(t.app, analyst, { name: 'Quillmarsh cache check' }).id;
+    const own = await makeFittedCatalogue(t.app, analyst, cid, { count: 24, seed: 9, prefix: 'QMC' });
+    const countRef = (status: string) =>
+      (t.sqlite.prepare('SELECT count(*) AS n FROM fit_results WHERE campaign_id = ? AND is_current = 1 AND review_status = ?').get(cid, status) as { n: number }).n;
+    const accepted = { status: ['accepted' as const] };
+
+    const v0 = catalogueVersion(t.sqlite, cid);
+    expect(v0).toBeGreaterThan(0);
+    const m0 = catalogueSummaryStats.misses;
+    const first = catalogueCount(t.db, cid, accepted);
+    const d1 = catalogueDiagrams(t.db, cid, accepted);
+    expect(catalogueSummaryStats.misses).toBe(m0 + 2);
+    const h0 = catalogueSummaryStats.hits;
+    expect(catalogueCount(t.db, cid, accepted)).toEqual(first);
+    expect(catalogueDiagrams(t.db, cid, accepted)).toEqual(d1);
+    expect(catalogueSummaryStats.hits).toBe(h0 + 2);
+    expect(catalogueSummaryStats.misses).toBe(m0 + 2);
+    expect(first.total).toBe(countRef('accepted'));
+
+    // A new result (a re-fit through the worker): the stamp moves and both are read again.
+    const keys = own.stars.slice(0, 4).map((s) => s.starKey);
+    await refit(t.app, analyst, cid, keys, { law: 'ccm89' });
+    expect(catalogueVersion(t.sqlite, cid)).toBeGreaterThan(v0);
+    const afterRefit = catalogueCount(t.db, cid, accepted);
+    expect(catalogueSummaryStats.misses).toBe(m0 + 3);
+    expect(afterRefit.total).toBe(countRef('accepted'));
+    const d2 = catalogueDiagrams(t.db, cid, {});
+    const refitTeffs = t.sqlite
+      .prepare('SELECT f.teff_k FROM fit_results f JOIN stars s ON s.id = f.star_id WHERE f.campaign_id = ? AND f.is_current = 1 AND f.teff_k IS NOT NULL')
+      .pluck()
+      .all(cid) as number[];
+    expect(d2.histogram.counts.reduce((a, b) => a + b, 0)).toBe(refitTeffs.length);
+    expect(d2.histogram.edgesK[0]).toBe(Math.min(...refitTeffs));
+
+    // A review decision written by another process (its own connection to the same file).
+    const before = catalogueCount(t.db, cid, accepted).total;
+    const other = new Database(t.filePath);
+    try {
+      const pendingId = other.prepare("SELECT id FROM fit_results WHERE campaign_id = ? AND is_current = 1 AND ok = 1 AND review_status = 'pending' LIMIT 1").pluck().get(cid) as number;
+      expect(pendingId).toEqual(expect.any(Number));
+      other.prepare("UPDATE fit_results SET review_status = 'accepted' WHERE id = ?").run(pendingId);
+    } finally {
+      other.close();
+    }
+    expect(catalogueCount(t.db, cid, accepted).total).toBe(before + 1);
+    expect(catalogueCount(t.db, cid, accepted).total).toBe(countRef('accepted'));
+    // Other campaigns keep their stamp (and their cached values).
+    const vMain = catalogueVersion(t.sqlite, campaignId);
+    t.sqlite.prepare("UPDATE fit_results SET review_status = 'flagged' WHERE campaign_id = ? AND is_current = 1 AND review_status = 'pending' AND id = (SELECT min(id) FROM fit_results WHERE campaign_id = ? AND is_current = 1 AND review_status = 'pending')").run(cid, cid);
+    expect(catalogueVersion(t.sqlite, campaignId)).toBe(vMain);
   });
 });
 

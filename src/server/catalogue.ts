@@ -209,7 +209,7 @@ const SORT_SQL: Record<CatalogueSort, { col: string; nullable: boolean; index?: 
 const PREFIX_END = '\u{10FFFF}';
 
 /** WHERE terms (beyond campaign and is_current) for a filter, with their parameters. */
-export function filterSql(f: CatalogueFilter, params: Params): string[] {
+export function filterSql(f: CatalogueFilter, params: Params, o: { flagsFromIndex?: boolean } = {}): string[] {
   const where: string[] = [];
   if (f.status && f.status.length) {
     where.push(`f.review_status IN (${f.status.map((s, i) => ((params[`st${i}`] = s), `@st${i}`)).join(', ')})`);
@@ -226,7 +226,12 @@ export function filterSql(f: CatalogueFilter, params: Params): string[] {
     params.chi2Max = f.chi2Max;
     where.push('f.chi2_red <= @chi2Max');
   }
-  if (f.flag) {
+  if (f.flag && o.flagsFromIndex) {
+    // The flag index holds the flags of current results, so a whole-campaign scan probes its
+    // primary key instead of reading each result row for its flags text.
+    params.flagCode = f.flag;
+    where.push(`${f.flagAbsent ? 'NOT ' : ''}EXISTS (SELECT 1 FROM fit_result_flags g WHERE g.fit_result_id = f.id AND g.code = @flagCode)`);
+  } else if (f.flag) {
     params.flag = ` ${f.flag} `;
     where.push(`instr(' ' || f.flags || ' ', @flag) ${f.flagAbsent ? '=' : '>'} 0`);
   }
@@ -500,15 +505,72 @@ function readCataloguePage(db: DbOrTx, campaignId: string, req: CataloguePageReq
   };
 }
 
-/** How many rows a filter leaves (a separate request: it reads every matching row). */
+// ---------------------------------------------------------------------------------------------
+// Totals and diagrams read every matching row, so they are kept per database, campaign and filter
+// under the campaign's stamp (catalogue_versions, raised by triggers on every result insert, review
+// decision, change of current result or deletion: drizzle/0008). A stamp lookup is one primary-key
+// read, so a repeated request costs nothing and a stale answer is never served, even when another
+// process (the worker) wrote the change.
+
+const SUMMARY_CACHE_ENTRIES = 256;
+const summaryCaches = new WeakMap<Database.Database, Map<string, { version: number; value: unknown }>>();
+/** Hits and misses since start (tests and the bench read them). */
+export const catalogueSummaryStats = { hits: 0, misses: 0 };
+
+/** The campaign's catalogue stamp (0 before its first result). */
+export function catalogueVersion(sqlite: Database.Database, campaignId: string): number {
+  const row = prepared(sqlite, 'SELECT version FROM catalogue_versions WHERE campaign_id = ?').get(campaignId) as { version: number } | undefined;
+  return row?.version ?? 0;
+}
+
+function cachedSummary<T>(sqlite: Database.Database, campaignId: string, key: string, compute: () => T): T {
+  let m = summaryCaches.get(sqlite);
+  if (!m) summaryCaches.set(sqlite, (m = new Map()));
+  const k = `${campaignId}\u0000${key}`;
+  // Stamp and rows are read in one read transaction, so the value stored belongs to the stamp.
+  const read = sqlite.transaction(() => {
+    const version = catalogueVersion(sqlite, campaignId);
+    const hit = m.get(k);
+    if (hit && hit.version === version) {
+      catalogueSummaryStats.hits++;
+      // Most recently used last, so the oldest entry is the first one evicted.
+      m.delete(k);
+      m.set(k, hit);
+      return hit.value as T;
+    }
+    catalogueSummaryStats.misses++;
+    const value = compute();
+    m.delete(k);
+    m.set(k, { version, value });
+    while (m.size > SUMMARY_CACHE_ENTRIES) m.delete(m.keys().next().value!);
+    return value;
+  });
+  // Inside a caller's transaction the rows may be uncommitted (and rolled back later): no caching.
+  if (sqlite.inTransaction) return compute();
+  return read.deferred();
+}
+
+/** A stable key for a filter (same filter, same key, whatever order its fields were set in). */
+function filterKey(f: CatalogueFilter): string {
+  return filterToParams(f).toString();
+}
+
+/** How many rows a filter leaves (a separate request: it reads every matching row; cached per stamp). */
 export function catalogueCount(db: DbOrTx, campaignId: string, f: CatalogueFilter): { total: number; campaignTotal: number } {
   const sqlite = (db as unknown as { $client: Database.Database }).$client;
+  return cachedSummary(sqlite, campaignId, `count?${filterKey(f)}`, () => computeCount(sqlite, campaignId, f));
+}
+
+/** Index that holds every column a filter without star prefix or flag needs (no row reads). */
+const SUMMARY_INDEX = 'fit_results f INDEXED BY fit_results_current_summary_idx';
+
+function computeCount(sqlite: Database.Database, campaignId: string, f: CatalogueFilter): { total: number; campaignTotal: number } {
   const params: Params = { campaign: campaignId };
-  const where = ['f.campaign_id = @campaign', 'f.is_current = 1', ...filterSql(f, params)];
+  const where = ['f.campaign_id = @campaign', 'f.is_current = 1', ...filterSql(f, params, { flagsFromIndex: true })];
   const needsStars = Boolean(f.starPrefix);
   const text = needsStars
     ? `SELECT count(*) AS n FROM ${STARS_THEN_RESULTS} WHERE s.campaign_id = @campaign AND f.star_id = s.id AND ${where.join(' AND ')}`
-    : `SELECT count(*) AS n FROM fit_results f WHERE ${where.join(' AND ')}`;
+    : `SELECT count(*) AS n FROM ${SUMMARY_INDEX} WHERE ${where.join(' AND ')}`;
   const total = (prepared(sqlite, text).get(params) as { n: number }).n;
   const campaignTotal = (
     prepared(sqlite, 'SELECT count(*) AS n FROM fit_results INDEXED BY fit_results_current_review_idx WHERE campaign_id = ? AND is_current = 1').get(campaignId) as { n: number }
@@ -554,12 +616,20 @@ function edges(lo: number, hi: number, bins: number): number[] {
   return Array.from({ length: bins + 1 }, (_, i) => lo + ((hi - lo) * i) / bins);
 }
 
-export function catalogueDiagrams(db: DbOrTx, campaignId: string, f: CatalogueFilter, options: { pointLimit?: number; densityBins?: [number, number]; histogramBins?: number } = {}): CatalogueDiagrams {
+type DiagramOptions = { pointLimit?: number; densityBins?: [number, number]; histogramBins?: number };
+
+/** The campaign's diagrams for a filter (cached per stamp, like the totals). */
+export function catalogueDiagrams(db: DbOrTx, campaignId: string, f: CatalogueFilter, options: DiagramOptions = {}): CatalogueDiagrams {
   const sqlite = (db as unknown as { $client: Database.Database }).$client;
+  const key = `diagrams?${filterKey(f)}&o=${JSON.stringify([options.pointLimit ?? null, options.densityBins ?? null, options.histogramBins ?? null])}`;
+  return cachedSummary(sqlite, campaignId, key, () => computeDiagrams(sqlite, campaignId, f, options));
+}
+
+function computeDiagrams(sqlite: Database.Database, campaignId: string, f: CatalogueFilter, options: DiagramOptions): CatalogueDiagrams {
   const limit = options.pointLimit ?? DIAGRAM_POINT_LIMIT;
   const params: Params = { campaign: campaignId };
-  const where = ['f.campaign_id = @campaign', 'f.is_current = 1', 'f.teff_k IS NOT NULL', ...filterSql(f, params), ...(f.starPrefix ? ['s.campaign_id = @campaign', 's.id = f.star_id'] : [])];
-  const from = f.starPrefix ? STARS_THEN_RESULTS : 'fit_results f';
+  const where = ['f.campaign_id = @campaign', 'f.is_current = 1', 'f.teff_k IS NOT NULL', ...filterSql(f, params, { flagsFromIndex: true }), ...(f.starPrefix ? ['s.campaign_id = @campaign', 's.id = f.star_id'] : [])];
+  const from = f.starPrefix ? STARS_THEN_RESULTS : SUMMARY_INDEX;
   const stats = prepared(
     sqlite,
     `SELECT count(*) AS n, sum(f.lum_lsun > 0) AS placed, min(f.teff_k) AS tlo, max(f.teff_k) AS thi,
@@ -569,18 +639,15 @@ export function catalogueDiagrams(db: DbOrTx, campaignId: string, f: CatalogueFi
   const placed = stats.placed ?? 0;
   const hBins = options.histogramBins ?? 40;
   const histogram = { edgesK: [] as number[], counts: [] as number[] };
-  if (stats.n > 0) {
-    histogram.edgesK = edges(stats.tlo!, stats.thi!, hBins);
-    const lo = histogram.edgesK[0];
-    const w = (histogram.edgesK[hBins] - lo) / hBins;
-    histogram.counts = new Array<number>(hBins).fill(0);
-    const rows = prepared(
-      sqlite,
-      `SELECT min(${hBins - 1}, CAST((f.teff_k - @lo) / @w AS INTEGER)) AS b, count(*) AS n FROM ${from} WHERE ${where.join(' AND ')} GROUP BY b`,
-    ).all({ ...params, lo, w }) as { b: number; n: number }[];
-    for (const r of rows) histogram.counts[r.b] += r.n;
-  }
+  if (stats.n === 0) return { placed: 0, withoutLum: 0, points: [], density: null, histogram };
+  histogram.edgesK = edges(stats.tlo!, stats.thi!, hBins);
+  const lo = histogram.edgesK[0];
+  const w = (histogram.edgesK[hBins] - lo) / hBins;
+  histogram.counts = new Array<number>(hBins).fill(0);
+  const histogramBin = `min(${hBins - 1}, CAST((f.teff_k - @lo) / @w AS INTEGER))`;
   if (placed <= limit) {
+    const rows = prepared(sqlite, `SELECT ${histogramBin} AS b, count(*) AS n FROM ${from} WHERE ${where.join(' AND ')} GROUP BY b`).all({ ...params, lo, w }) as { b: number; n: number }[];
+    for (const r of rows) histogram.counts[r.b] += r.n;
     const points = prepared(
       sqlite,
       `SELECT f.star_id AS starId, s.star_key AS starKey, f.teff_k AS teffK, f.lum_lsun AS lumLsun, f.review_status AS reviewStatus
@@ -594,11 +661,17 @@ export function catalogueDiagrams(db: DbOrTx, campaignId: string, f: CatalogueFi
   const wt = (teffEdgesK[nt] - teffEdgesK[0]) / nt;
   const wl = (logLumEdges[nl] - logLumEdges[0]) / nl;
   const counts = Array.from({ length: nl }, () => new Array<number>(nt).fill(0));
+  // One pass for both: histogram bin, and the density cell of rows with a luminosity (j NULL
+  // without one). At a million rows each pass over the index costs about as much as the rest.
   const cells = prepared(
     sqlite,
-    `SELECT min(${nt - 1}, CAST((f.teff_k - @t0) / @wt AS INTEGER)) AS i, min(${nl - 1}, CAST((log10(f.lum_lsun) - @l0) / @wl AS INTEGER)) AS j, count(*) AS n
-     FROM ${from} WHERE ${where.join(' AND ')} AND f.lum_lsun > 0 GROUP BY i, j`,
-  ).all({ ...params, t0: teffEdgesK[0], wt, l0: logLumEdges[0], wl }) as { i: number; j: number; n: number }[];
-  for (const c of cells) counts[c.j][c.i] += c.n;
+    `SELECT ${histogramBin} AS b, min(${nt - 1}, CAST((f.teff_k - @t0) / @wt AS INTEGER)) AS i,
+       CASE WHEN f.lum_lsun > 0 THEN min(${nl - 1}, CAST((log10(f.lum_lsun) - @l0) / @wl AS INTEGER)) END AS j, count(*) AS n
+     FROM ${from} WHERE ${where.join(' AND ')} GROUP BY b, i, j`,
+  ).all({ ...params, lo, w, t0: teffEdgesK[0], wt, l0: logLumEdges[0], wl }) as { b: number; i: number; j: number | null; n: number }[];
+  for (const c of cells) {
+    histogram.counts[c.b] += c.n;
+    if (c.j !== null) counts[c.j][c.i] += c.n;
+  }
   return { placed, withoutLum: stats.n - placed, points: null, density: { teffEdgesK, logLumEdges, counts }, histogram };
 }

@@ -135,5 +135,8 @@ export const fitResults = sqliteTable(
     index('fit_results_current_chi2_idx').on(t.campaignId, t.chi2Red).where(sql`is_current = 1`),
     index('fit_results_current_review_idx').on(t.campaignId, t.reviewStatus).where(sql`is_current = 1`),
     index('fit_results_current_star_idx').on(t.starId).where(sql`is_current = 1`),
+    // Totals and diagrams read review status, Teff, L and χ² of every current result: with all of
+    // them in one index they scan it without touching the rows (catalogue totals and diagrams).
+    index('fit_results_current_summary_idx').on(t.campaignId, t.reviewStatus, t.teffK, t.lumLsun, t.chi2Red).where(sql`is_current = 1`),
   ],
 );

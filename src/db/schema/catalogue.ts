@@ -30,3 +30,16 @@ export const fitResultFlags = sqliteTable(
     index('fit_result_flags_star_idx').on(t.campaignId, t.code, t.starKey, t.fitResultId),
   ],
 );
+
+/**
+ * A number per campaign that grows whenever any of its results is written, changes review status or
+ * stops being current (triggers in drizzle/0008, whoever writes). Cached totals and diagrams
+ * (src/server/catalogue.ts) are valid while the stamp they were computed under is unchanged, across
+ * processes (the worker writes results, the web server reads them).
+ */
+export const catalogueVersions = sqliteTable('catalogue_versions', {
+  campaignId: text('campaign_id')
+    .primaryKey()
+    .references(() => campaigns.id, { onDelete: 'cascade' }),
+  version: integer('version').notNull().default(0),
+});
