@@ -687,11 +687,12 @@ export function applyMapping(table: ColumnTable, mapping: Mapping, rules: Mappin
     });
     if (severity === 'error') cur.bad = true;
   };
-  const num = (col: number | undefined, what: string): number | undefined => {
+  /** The cell as a number; `what` (prefixed by `key` when given) names it in the problem, built only then. */
+  const num = (col: number | undefined, what: string, key?: string): number | undefined => {
     if (col === undefined) return undefined;
     const x = readCellNumber(cur.cells[col]);
     if (x !== undefined && Number.isNaN(x)) {
-      problem(col, `${what} "${textOf(cur.cells[col])}" is not a number`);
+      problem(col, `${key === undefined ? what : `${key} ${what}`} "${textOf(cur.cells[col])}" is not a number`);
       return undefined;
     }
     return x;
@@ -711,8 +712,10 @@ export function applyMapping(table: ColumnTable, mapping: Mapping, rules: Mappin
     return { keep: letter !== '' && keep.has(letter.toUpperCase()), letter: letter || undefined };
   };
 
+  const starRoles = Object.keys(starCols) as StarRole[];
   const readStarValues = (star: MappedStar, mergeWithin: boolean) => {
-    for (const r of Object.keys(starCols) as StarRole[]) {
+    for (let j = 0; j < starRoles.length; j++) {
+      const r = starRoles[j];
       const c = starCols[r]!;
       const v = num(c, STAR_WORDS[r]);
       if (v === undefined) continue;
@@ -727,6 +730,8 @@ export function applyMapping(table: ColumnTable, mapping: Mapping, rules: Mappin
 
   if (mapping.layout === 'wide') {
     const stars: MappedStar[] = [];
+    // An array, not the Map: iterating a Map makes a fresh [key, value] pair per band and row.
+    const bandList = [...bandCols].map(([key, cols]) => ({ key, cols }));
     const firstRow = new Map<string, number>();
     let rejected = 0;
     table.rows.forEach((cells, r) => {
@@ -754,15 +759,17 @@ export function applyMapping(table: ColumnTable, mapping: Mapping, rules: Mappin
       firstRow.set(id, cur.row);
       const star: MappedStar = { id, measurements: [], row: cur.row };
       readStarValues(star, false);
-      for (const [key, b] of bandCols) {
-        const mag = num(b.mag, `${key} magnitude`);
-        const magErr = num(b.mag_err, `${key} magnitude error`);
-        const jy = num(b.jy, `${key} flux`);
-        const jyErr = num(b.jy_err, `${key} flux error`);
-        const magUl = num(b.mag_ul, `${key} upper limit`);
-        const jyUl = num(b.jy_ul, `${key} upper limit`);
-        const gFlux = num(b.gaia_flux, `${key} Gaia flux`);
-        const gFluxErr = num(b.gaia_flux_err, `${key} Gaia flux error`);
+      for (let j = 0; j < bandList.length; j++) {
+        const key = bandList[j].key;
+        const b = bandList[j].cols;
+        const mag = num(b.mag, 'magnitude', key);
+        const magErr = num(b.mag_err, 'magnitude error', key);
+        const jy = num(b.jy, 'flux', key);
+        const jyErr = num(b.jy_err, 'flux error', key);
+        const magUl = num(b.mag_ul, 'upper limit', key);
+        const jyUl = num(b.jy_ul, 'upper limit', key);
+        const gFlux = num(b.gaia_flux, 'Gaia flux', key);
+        const gFluxErr = num(b.gaia_flux_err, 'Gaia flux error', key);
         nonNegative(b.mag_err, magErr, 'error');
         nonNegative(b.jy_err, jyErr, 'error');
         nonNegative(b.gaia_flux_err, gFluxErr, 'error');
