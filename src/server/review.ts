@@ -63,7 +63,7 @@ export const bulkInput = z.object({
   if (d.reason === 'other' && !d.comment) ctx.addIssue({ code: 'custom', path: ['comment'], message: 'With the reason "other", say what is wrong in the comment.' });
   const f = d.filter;
   if (f.chi2RedBelow === undefined && !f.noFlags && f.teffMinK === undefined && f.teffMaxK === undefined && f.batchId === undefined) {
-    ctx.addIssue({ code: 'custom', path: ['filter'], message: 'A bulk action needs at least one filter (χ²_ν below, no flags, a Teff range or a batch), so that nothing is decided by accident.' });
+    ctx.addIssue({ code: 'custom', path: ['filter'], message: 'A bulk action needs at least one filter (reduced χ² below, no flags, a Teff range or a batch), so that nothing is decided by accident.' });
   }
 });
 export type BulkInput = z.input<typeof bulkInput>;

@@ -115,8 +115,8 @@ function Table({ campaignId, initialQuery, initialPage, initialCount }: Props) {
       col.accessor('lumLsun', { id: 'lum_lsun', header: 'L [L☉]', cell: (c) => withError(c.getValue(), c.row.original.lumErrLsun) }),
       col.accessor('radiusRsun', { id: 'radius_rsun', header: 'R [R☉]', cell: (c) => withError(c.getValue(), c.row.original.radiusErrRsun) }),
       col.accessor('thetaMas', { id: 'theta_mas', header: 'θ [mas]', cell: (c) => sig(c.getValue()) }),
-      col.accessor('avMag', { id: 'av', header: 'A_V', cell: (c) => sig(c.getValue(), 2) }),
-      col.accessor('chi2Red', { id: 'chi2_red', header: 'χ²_ν', cell: (c) => sig(c.getValue(), 3) }),
+      col.accessor('avMag', { id: 'av', header: () => <>A<sub>V</sub></>, cell: (c) => sig(c.getValue(), 2) }),
+      col.accessor('chi2Red', { id: 'chi2_red', header: () => <abbr title="reduced χ²" className="no-underline">χ²<sub>ν</sub></abbr>, cell: (c) => sig(c.getValue(), 3) }),
       col.accessor('nBands', { id: 'n_bands', header: 'Bands', cell: (c) => c.getValue() ?? '' }),
       col.accessor('flags', {
         id: 'flags',
@@ -200,7 +200,7 @@ function Table({ campaignId, initialQuery, initialPage, initialCount }: Props) {
           <input name="teffMax" inputMode="decimal" defaultValue={params.get('teffMax') ?? ''} className="field-input" />
         </label>
         <label>
-          <span className="field-label">χ²_ν at most</span>
+          <span className="field-label">Reduced χ² (χ²<sub>ν</sub>) at most</span>
           <input name="chi2Max" inputMode="decimal" defaultValue={params.get('chi2Max') ?? ''} className="field-input" />
         </label>
         <label>

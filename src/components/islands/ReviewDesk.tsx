@@ -194,7 +194,7 @@ function Desk({ campaignId, actorId, canDecide, fourEyes, initialFilter = {} }: 
                   >
                     <span className="font-medium truncate">{it.starKey}</span>
                     <span className="num ml-auto text-ink-600 whitespace-nowrap">{it.teffK !== null ? `${num(it.teffK)} K` : it.teffLowerK !== null ? `> ${num(it.teffLowerK)} K` : '—'}</span>
-                    <span className="num text-ink-500 w-24 text-right whitespace-nowrap" title="reduced χ²">χ²ν {num(it.chi2Red, 2)}</span>
+                    <span className="num text-ink-500 w-24 text-right whitespace-nowrap" title="reduced χ²">χ²<sub>ν</sub> {num(it.chi2Red, 2)}</span>
                     {it.flags.length > 0 && <span className="role-chip bg-alarm-100 text-alarm-700" title={it.flags.join(' ')}>{it.flags.length}</span>}
                   </li>
                 );
