@@ -73,6 +73,7 @@ describe('intake in the browser', () => {
     await editor.getByTestId('import-button').click();
     await editor.getByTestId('import-result').waitFor();
     await expect(editor.getByTestId('import-result').textContent()).resolves.toMatch(/Imported 3 new and 0 existing stars: 14 new values/);
+    await expect(editor.getByTestId('import-result').getByRole('link', { name: '3 stars' }).getAttribute('href')).resolves.toBe(`/campaigns/${id}/stars`);
 
     const n = run.app.db.select({ n: count() }).from(stars).where(eq(stars.campaignId, id)).get()!.n;
     expect(n).toBe(3);

@@ -158,6 +158,8 @@ describe('pages without JavaScript', () => {
     const admin = await signInCookie(run.baseUrl, people.admin.email, people.admin.password);
     expect((await get(`/campaigns/${demoId}/stars`, admin)).status).toBe(200); // admins oversee every campaign
     expect((await get(`/campaigns/${demoId}/stars`)).status).toBe(302);
+    const analyst = await signInCookie(run.baseUrl, people.analyst.email, people.analyst.password);
+    expect((await get(`/campaigns/${demoId}/intake`, analyst)).html).toContain(`href="/campaigns/${demoId}/stars" data-testid="campaign-stars-link"`);
   });
 
   it('link each star that could not be fitted to its star sheet, and let an analyst cancel a batch by form post', async () => {

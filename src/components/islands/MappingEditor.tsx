@@ -308,7 +308,7 @@ function TableMapping({ campaignId, upload, onChanged }: { campaignId: string; u
         {result && (
           <p className="notice notice-ok" role="status" data-testid="import-result">
             Imported {result.starsCreated} new and {result.starsUpdated} existing stars: {result.measurementsCreated} new values, {result.measurementsUpdated} replaced (source “{result.source}”). The campaign now holds{' '}
-            {result.campaignStars} stars. <a href={`/campaigns/${campaignId}/batches`}>Start a batch fit</a>
+            <a href={`/campaigns/${campaignId}/stars`}>{result.campaignStars} stars</a>. <a href={`/campaigns/${campaignId}/batches`}>Start a batch fit</a>
           </p>
         )}
       </div>
