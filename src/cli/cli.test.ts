@@ -128,6 +128,65 @@ describe('starkiln fit, end to end', () => {
     }
   });
 
+  it('--av is the A_V of stars without an av value, --rv reaches the law, --fit-av fits it, --floor 0 drops the floor', () => {
+    // Noise-free stars reddened by A_V = 0.25 under CCM89 with R_V = 3.6, built by direct integration.
+    const stars = mockStars(6, 21).map((s) => ({ ...s, avMag: 0.25 }));
+    const lines = mockCsv(stars, 'ccm89', 3.6).trimEnd().split('\n');
+    const avAt = lines[0].split(',').indexOf('av');
+    const blank = lines.map((l, i) => (i === 0 ? l : l.split(',').map((c, j) => (j === avAt ? '' : c)).join(',')));
+    writeFileSync(path.join(dir, 'no-av.csv'), blank.join('\n') + '\n');
+    const recovered = (file: string) => readCatalogue(path.join(dir, file)).rows.map((row, i) => Math.abs(Number(row.teff_k) / stars[i].teffK - 1));
+
+    expect(run('fit', 'no-av.csv', '-o', 'av-default.csv', '--law', 'ccm89', '--rv', '3.6', '--av', '0.25').code).toBe(0);
+    for (const d of recovered('av-default.csv')) expect(d).toBeLessThan(1e-4);
+    const header = readCatalogue(path.join(dir, 'av-default.csv')).comments.join('\n');
+    expect(header).toContain('extinction law: ccm89, R_V = 3.6');
+    expect(header).toContain('av_default_mag = 0.25');
+    // Without --av the stars count as unreddened and come out 5–8 % cooler (measured); with the wrong R_V off too.
+    expect(run('fit', 'no-av.csv', '-o', 'av-zero.csv', '--law', 'ccm89', '--rv', '3.6').code).toBe(0);
+    for (const d of recovered('av-zero.csv')) expect(d).toBeGreaterThan(1e-3);
+    expect(run('fit', 'no-av.csv', '-o', 'rv-wrong.csv', '--law', 'ccm89', '--av', '0.25').code).toBe(0);
+    // R_V 3.1 instead of 3.6 at A_V = 0.25: 0.13–0.25 % in T on these stars (measured), far beyond 1e-4.
+    expect(Math.min(...recovered('rv-wrong.csv'))).toBeGreaterThan(5e-4);
+
+    // --fit-av finds A_V itself (1e-3 mag on noise-free stars) and reports its error.
+    expect(run('fit', 'no-av.csv', '-o', 'av-fit.csv', '--law', 'ccm89', '--rv', '3.6', '--fit-av').code).toBe(0);
+    const fitted = readCatalogue(path.join(dir, 'av-fit.csv'));
+    for (const [i, row] of fitted.rows.entries()) {
+      expect(Math.abs(Number(row.av) - 0.25), row.id).toBeLessThan(1e-3);
+      expect(Number(row.av_err), row.id).toBeGreaterThan(0);
+      expect(Math.abs(Number(row.teff_k) / stars[i].teffK - 1)).toBeLessThan(1e-4);
+    }
+    expect(fitted.comments.join('\n')).toContain('fit_av = true');
+
+    // The 2 % floor (default) is added in quadrature to the 0.02 mag errors; --floor 0 leaves them alone.
+    expect(run('fit', 'no-av.csv', '-o', 'floor0.csv', '--law', 'ccm89', '--rv', '3.6', '--av', '0.25', '--floor', '0').code).toBe(0);
+    const floored = readCatalogue(path.join(dir, 'av-default.csv')).rows;
+    for (const [i, row] of readCatalogue(path.join(dir, 'floor0.csv')).rows.entries()) {
+      expect(Number(row.teff_err_formal_k)).toBeLessThan(0.8 * Number(floored[i].teff_err_formal_k));
+    }
+  });
+
+  it('--clip drops a band far off the curve, lists it and recovers T', () => {
+    const stars = mockStars(2, 9);
+    const lines = mockCsv(stars).trimEnd().split('\n');
+    const jAt = lines[0].split(',').indexOf('J');
+    const cells = lines[1].split(',');
+    cells[jAt] = String(Number(cells[jAt]) - 0.5); // J of the first star 0.5 mag too bright (25 σ)
+    lines[1] = cells.join(',');
+    writeFileSync(path.join(dir, 'clip.csv'), lines.join('\n') + '\n');
+    expect(run('fit', 'clip.csv', '-o', 'noclip.csv').code).toBe(0);
+    const plain = readCatalogue(path.join(dir, 'noclip.csv')).rows[0];
+    expect(plain.flags.split(' ')).toContain('outlier');
+    expect(run('fit', 'clip.csv', '-o', 'clip-out.csv', '--clip').code).toBe(0);
+    const [first, second] = readCatalogue(path.join(dir, 'clip-out.csv')).rows;
+    expect(first.flags.split(' ')).toContain('clipped');
+    expect(first.bands_used.split(' ')).not.toContain('J');
+    expect(Math.abs(Number(first.teff_k) / stars[0].teffK - 1)).toBeLessThan(1e-4);
+    expect(second.flags.split(' ')).not.toContain('clipped');
+    expect(second.bands_used.split(' ')).toContain('J');
+  });
+
   it('reports bad rows as file:line:column, fits the good ones, exits with 2', () => {
     const stars = mockStars(3, 5);
     const lines = mockCsv(stars).trimEnd().split('\n');
