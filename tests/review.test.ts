@@ -14,6 +14,7 @@ import { requireBand, starterBandLibrary } from '../src/core/bands';
 import { dilutionFromThetaMas } from '../src/core/fit/derived';
 import { FLAG_EXPLANATIONS } from '../src/core/fit/flags';
 import { planckBandMean, previewPlanckAtPivot } from '../src/core/photometry';
+import { DEMO_SEASON_TWO_COUNT, seasonTwoSpecs } from '../src/db/demo-stars';
 import { DEMO_CAMPAIGN, demoUsers, seedDemo } from '../src/db/seed';
 import { finishBatchIfDone } from '../src/server/batches';
 import type { Actor } from '../src/server/context';
@@ -416,15 +417,37 @@ describe('demo seed with fits', () => {
     expect(again).toEqual({ campaignId: first.campaignId, created: false });
     expect(one<string>(t, 'SELECT name FROM campaigns WHERE id = ?', first.campaignId)).toBe(DEMO_CAMPAIGN.name);
     const fits = t.sqlite
-      .prepare('SELECT s.star_key AS starKey, r.ok, r.review_status AS status FROM fit_results r JOIN stars s ON s.id = r.star_id WHERE r.campaign_id = ? ORDER BY s.star_key')
-      .all(first.campaignId) as { starKey: string; ok: number; status: string }[];
-    expect(fits.map((f) => f.starKey)).toEqual(LANTERNFIELD_STARS.map((s) => s.starKey).sort());
+      .prepare('SELECT s.star_key AS starKey, r.ok, r.review_status AS status, r.teff_k AS teffK, r.lum_lsun AS lumLsun, r.flags, r.batch_id AS batchId FROM fit_results r JOIN stars s ON s.id = r.star_id WHERE r.campaign_id = ? ORDER BY s.star_key')
+      .all(first.campaignId) as { starKey: string; ok: number; status: string; teffK: number; lumLsun: number | null; flags: string; batchId: string }[];
+    // Season one: the eight named stars, one of them accepted; season two: the generated stars,
+    // every star fitted once (seeding again added nothing).
+    const seasonOne = LANTERNFIELD_STARS.map((s) => s.starKey);
+    const seasonTwo = seasonTwoSpecs().map((s) => s.starKey);
+    expect(seasonTwo).toHaveLength(DEMO_SEASON_TWO_COUNT);
+    expect(new Set([...seasonOne, ...seasonTwo]).size).toBe(seasonOne.length + DEMO_SEASON_TWO_COUNT);
+    expect(fits.map((f) => f.starKey)).toEqual([...seasonOne, ...seasonTwo].sort());
     expect(fits.every((f) => f.ok === 1)).toBe(true);
-    expect(fits.filter((f) => f.status === 'accepted').map((f) => f.starKey)).toEqual(['Cindermoor']);
-    expect(one<string>(t, 'SELECT u.email FROM review_decisions d JOIN user u ON u.id = d.reviewer_id')).toBe(demoUsers().reviewer.email);
-    // The analyst's "batch finished" and one notice to the reviewer, besides the demo invitation.
+    expect(fits.filter((f) => f.status === 'accepted' && seasonOne.includes(f.starKey)).map((f) => f.starKey)).toEqual(['Cindermoor']);
+    // Every screen has something: a good share accepted, some flagged, a queue still waiting,
+    // Teff spread over 3500–9000 K, luminosities for the diagram, and each kind of quality flag.
+    const by = (status: string) => fits.filter((f) => f.status === status).length;
+    expect(by('accepted')).toBeGreaterThan(fits.length * 0.4);
+    expect(by('flagged')).toBeGreaterThan(10);
+    expect(by('pending')).toBeGreaterThan(20);
+    const teffs = fits.map((f) => f.teffK);
+    expect(Math.min(...teffs)).toBeLessThan(3800);
+    expect(Math.max(...teffs)).toBeGreaterThan(8500);
+    expect(fits.filter((f) => f.lumLsun !== null).length).toBeGreaterThan(fits.length * 0.9);
+    for (const code of ['ir_excess', 'outlier', 'plx_weak']) expect(fits.filter((f) => f.flags.split(' ').includes(code)).length, code).toBeGreaterThan(5);
+    // Every flagged season-two fit is flagged with a reason by the demo reviewer.
+    expect(t.sqlite.prepare('SELECT DISTINCT u.email FROM review_decisions d JOIN user u ON u.id = d.reviewer_id').pluck().all()).toEqual([demoUsers().reviewer.email]);
+    expect(one<number>(t, "SELECT count(*) FROM review_decisions WHERE decision = 'flagged' AND (reason IS NULL OR reason = '')")).toBe(0);
+    expect(one<number>(t, 'SELECT count(*) FROM review_decisions WHERE superseded_at IS NULL')).toBe(by('accepted') + by('flagged'));
+    // Per batch: the analyst's "batch finished" and one notice to the reviewer, besides the demo invitation.
     expect(t.sqlite.prepare('SELECT kind, to_address AS toAddress FROM outbox_messages ORDER BY id').all()).toEqual([
       { kind: 'invitation', toAddress: expect.stringMatching(/^visitor@/) },
+      { kind: 'notice', toAddress: demoUsers().analyst.email },
+      { kind: 'review-notice', toAddress: demoUsers().reviewer.email },
       { kind: 'notice', toAddress: demoUsers().analyst.email },
       { kind: 'review-notice', toAddress: demoUsers().reviewer.email },
     ]);

@@ -5,8 +5,9 @@ import { eq } from 'drizzle-orm';
 import { addToCampaign, makeCampaign, makeUser } from '../../tests/factories';
 import { seedReviewDemo } from '../../tests/factories-review';
 import { createApp } from '../lib/app';
+import { seedDemoSeasonTwo } from './demo-stars';
 import { getEnv } from '../lib/env';
-import type { AppServices } from '../server/context';
+import type { Actor, AppServices } from '../server/context';
 import { nameKey } from '../server/campaigns';
 import { campaigns, invitations } from './schema';
 import { closeDb, getDb } from './client';
@@ -27,7 +28,7 @@ export const DEMO_CAMPAIGN = {
   description:
     'The invented Lanternfield Survey follows nearby cool dwarfs with optical and near-infrared photometry. ' +
     'Season one covers eight stars: Cindermoor, Ashbright, Velloran, Tamsel Minor, Orrowind, Harthglow, ' +
-    'Pellucid Nine and Quillmark.',
+    'Pellucid Nine and Quillmark; season two adds three hundred fainter stars from 3500 to 9000 K.',
 };
 
 /** Invented star names for the demo (later issues load photometry for them). */
@@ -55,9 +56,10 @@ export function demoUsers(passwords: Partial<Record<keyof typeof DEMO_DEFAULT_PA
 }
 
 /**
- * fits: also give the demo campaign fitted stars waiting for review (mock photometry of the invented
- * stars, fitted by the worker path; tests/factories-review.ts). `npm run db:seed` and `npm run demo`
- * ask for them; tests that need an empty campaign leave it off.
+ * fits: also give the demo campaign fitted stars (mock photometry of the invented stars, fitted by
+ * the worker path; tests/factories-review.ts): the eight season-one stars waiting for review, and the
+ * few hundred season-two stars of ./demo-stars.ts, partly reviewed. `npm run db:seed` and
+ * `npm run demo` ask for them; tests that need an empty campaign leave it off.
  */
 export async function seedDemo(app: AppServices, options: { fits?: boolean } = {}): Promise<{ campaignId: string; created: boolean }> {
   const people = demoUsers(app.env.demoPasswords);
@@ -69,7 +71,7 @@ export async function seedDemo(app: AppServices, options: { fits?: boolean } = {
 
   const existing = app.db.select().from(campaigns).where(eq(campaigns.nameKey, nameKey(DEMO_CAMPAIGN.name))).get();
   if (existing) {
-    if (options.fits) await seedReviewDemo(app, analyst, reviewer, existing.id);
+    if (options.fits) await seedFits(app, analyst, reviewer, existing.id);
     return { campaignId: existing.id, created: false };
   }
 
@@ -79,8 +81,13 @@ export async function seedDemo(app: AppServices, options: { fits?: boolean } = {
   // One open invitation, so the outbox and the member list show how inviting works.
   const invited = app.db.select().from(invitations).where(eq(invitations.email, DEMO_INVITEE)).get();
   if (!invited) await addToCampaign(app, analyst, campaign.id, { email: DEMO_INVITEE }, ['collaborator']);
-  if (options.fits) await seedReviewDemo(app, analyst, reviewer, campaign.id);
+  if (options.fits) await seedFits(app, analyst, reviewer, campaign.id);
   return { campaignId: campaign.id, created: true };
+}
+
+async function seedFits(app: AppServices, analyst: Actor, reviewer: Actor, campaignId: string): Promise<void> {
+  await seedReviewDemo(app, analyst, reviewer, campaignId);
+  await seedDemoSeasonTwo(app, analyst, reviewer, campaignId);
 }
 
 async function main() {
