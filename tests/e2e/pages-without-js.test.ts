@@ -162,7 +162,7 @@ describe('pages without JavaScript', () => {
     expect((await get(`/campaigns/${demoId}/intake`, analyst)).html).toContain(`href="/campaigns/${demoId}/stars" data-testid="campaign-stars-link"`);
   });
 
-  it('link each star that could not be fitted to its star sheet, and let an analyst cancel a batch by form post', async () => {
+  it('link each star that could not be fitted to its star sheet, let an analyst cancel a batch, and start one over chosen stars, by form post', async () => {
     const made = insertMockStars(run.app.db, { campaignId: demoId, count: 4, prefix: 'BFL', fewBandsEvery: 2 });
     const analystRow = run.app.db.select().from(user).where(eq(user.email, people.analyst.email)).get()!;
     const actor = { id: analystRow.id, name: analystRow.name, email: analystRow.email, kind: analystRow.kind as 'member' };
@@ -194,6 +194,16 @@ describe('pages without JavaScript', () => {
     const twice = await postForm(`/campaigns/${demoId}/batches/${waiting.id}`, {}, analyst);
     expect(twice.status).toBe(409);
     expect(twice.html).toContain('cancelled already');
+
+    // The start form fits only the stars listed one per line, when any are listed.
+    const form = { law: 'f99', rv: '3.1', avMode: 'fixed', avMag: '0', floorPercent: '2' };
+    const chosen = await postForm(`/campaigns/${demoId}/batches`, { ...form, starKeys: 'BFL-000001\r\n\r\nBFL-000003\r\n' }, analyst);
+    expect(chosen.status).toBe(303);
+    const chosenId = chosen.location!.split('/').pop()!;
+    expect(run.app.db.$client.prepare('SELECT star_count FROM batches WHERE id = ?').pluck().get(chosenId)).toBe(2);
+    const unknown = await postForm(`/campaigns/${demoId}/batches`, { ...form, starKeys: 'BFL-000001\nBFL-999999' }, analyst);
+    expect(unknown.status).toBe(400);
+    expect(unknown.html).toContain('not in this campaign: &quot;BFL-999999&quot;');
   });
 
   it('keep the admin area for admins', async () => {

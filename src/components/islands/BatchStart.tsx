@@ -4,7 +4,7 @@
 import { QueryClientProvider } from '@tanstack/react-query';
 import { useState, type SubmitEvent } from 'react';
 import { ApiError } from '../../lib/queries/api';
-import { useStartBatch, type StartBatchBody } from '../../lib/queries/batches';
+import { starKeysFromText, useStartBatch, type StartBatchBody } from '../../lib/queries/batches';
 import { getQueryClient } from '../../lib/query-client';
 
 interface Props {
@@ -54,6 +54,7 @@ function StartForm({ campaignId, starCount, bandKeys, serverError }: Props) {
         clip: form.get('clip') === 'on',
         includeLongBands: form.get('includeLongBands') === 'on',
       },
+      starKeys: starKeysFromText(String(form.get('starKeys') ?? '')),
     };
     try {
       const batch = await start.mutateAsync(body);
@@ -69,10 +70,10 @@ function StartForm({ campaignId, starCount, bandKeys, serverError }: Props) {
         Start a batch
       </h2>
       <p className="text-sm text-ink-600 -mt-2">
-        Fits all <span className="num">{starCount.toLocaleString('en')}</span> stars of the campaign with these options. Every result keeps them, with the band
-        library and software versions.
+        Fits all <span className="num">{starCount.toLocaleString('en')}</span> stars of the campaign (or the ones you list below) with these options. Every
+        result keeps them, with the band library and software versions.
       </p>
-      {error && !error.field?.startsWith('options.') && (
+      {error && !error.field?.startsWith('options.') && error.field !== 'starKeys' && (
         <p className="notice notice-error" role="alert">
           {error.message}
         </p>
@@ -152,6 +153,17 @@ function StartForm({ campaignId, starCount, bandKeys, serverError }: Props) {
         <input type="checkbox" name="includeLongBands" className="mt-1 accent-ember-600" />
         <span>Fit bands beyond ~5 µm too (by default they only show infrared excess)</span>
       </label>
+      <div>
+        <label className="field-label" htmlFor="batch-stars">
+          Only these stars <span className="font-normal text-ink-500">(optional; one star id per line)</span>
+        </label>
+        <textarea id="batch-stars" name="starKeys" rows={3} className="field-input num" placeholder="empty: every star" aria-invalid={error?.field === 'starKeys'} />
+        {error?.field === 'starKeys' && (
+          <p className="field-error" role="alert">
+            {error.message}
+          </p>
+        )}
+      </div>
       <button type="submit" className="btn btn-primary justify-center" disabled={start.isPending || starCount === 0}>
         {start.isPending ? 'Starting…' : 'Start the batch'}
       </button>

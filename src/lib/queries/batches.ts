@@ -56,6 +56,17 @@ export interface StartBatchBody {
     clip: boolean;
     includeLongBands: boolean;
   };
+  /** Only these stars (their ids in the campaign); all stars when absent. */
+  starKeys?: string[];
+}
+
+/**
+ * The start form's "only these stars" box: one star id per line (ids may hold spaces or commas,
+ * e.g. "HD 10700", so lines are the only separator); blank lines ignored. Empty box → undefined (all stars).
+ */
+export function starKeysFromText(text: string): string[] | undefined {
+  const keys = text.split(/\r?\n/).map((l) => l.trim()).filter((l) => l !== '');
+  return keys.length ? keys : undefined;
 }
 
 export const batchKeys = {
