@@ -81,6 +81,41 @@ describe('catalogue in the browser', () => {
     await page.close();
   });
 
+  it('opens the star sheet from a row of the table and from a point of the temperature–luminosity diagram', async () => {
+    const page = await browser.newPage();
+    const cookie = await signInCookie(run.baseUrl, people.collaborator.email, people.collaborator.password);
+    await page.context().addCookies(cookie.split('; ').map((c) => ({ name: c.split('=')[0], value: c.slice(c.indexOf('=') + 1), url: run.baseUrl })));
+    await page.goto(`${run.baseUrl}/campaigns/${campaignId}/catalogue?sort=star_key`);
+    await page.waitForFunction(() => !document.querySelector('astro-island[ssr]'));
+    const first = acceptedRows()[0].id;
+    const starIdOf = (key: string) => run.app.db.$client.prepare('SELECT id FROM stars WHERE campaign_id = ? AND star_key = ?').pluck().get(campaignId, key) as number;
+    const link = page.getByTestId('catalogue-table').getByRole('link', { name: first, exact: true });
+    await expect(link.getAttribute('href')).resolves.toBe(`/campaigns/${campaignId}/stars/${starIdOf(first)}`);
+    await Promise.all([page.waitForURL(new RegExp(`/stars/${starIdOf(first)}$`)), link.click()]);
+    await expect(page.locator('h1').textContent()).resolves.toContain(first);
+
+    // The diagram's points are the accepted stars with a luminosity, each carrying its star id;
+    // a click on one (Plotly's click event, as a mouse click on the point sends it) opens its sheet.
+    await page.goto(`${run.baseUrl}/campaigns/${campaignId}/catalogue`);
+    const plot = page.getByTestId('catalogue-diagrams').locator('.js-plotly-plot').first();
+    await plot.waitFor();
+    const ids = (await plot.evaluate((el) => (el as unknown as { data: { customdata?: number[] }[] }).data.flatMap((tr) => tr.customdata ?? []))) as number[];
+    const want = run.app.db.$client
+      .prepare("SELECT star_id FROM fit_results WHERE campaign_id = ? AND is_current = 1 AND review_status = 'accepted' AND lum_lsun > 0 ORDER BY star_id")
+      .pluck()
+      .all(campaignId) as number[];
+    expect(want.length).toBeGreaterThan(20);
+    expect([...ids].sort((a, b) => a - b)).toEqual(want);
+    const target = ids[ids.length - 1];
+    const key = run.app.db.$client.prepare('SELECT star_key FROM stars WHERE id = ?').pluck().get(target) as string;
+    await Promise.all([
+      page.waitForURL(new RegExp(`/stars/${target}$`)),
+      plot.evaluate((el, id) => (el as unknown as { emit: (name: string, ev: unknown) => void }).emit('plotly_click', { points: [{ customdata: id, x: 0, y: 0 }] }), target),
+    ]);
+    await expect(page.locator('h1').textContent()).resolves.toContain(key);
+    await page.close();
+  });
+
   it('sorts and filters on the server when the reader clicks a header and applies a filter', async () => {
     const page = await browser.newPage();
     const cookie = await signInCookie(run.baseUrl, people.collaborator.email, people.collaborator.password);
