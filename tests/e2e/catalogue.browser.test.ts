@@ -113,6 +113,23 @@ describe('catalogue in the browser', () => {
       plot.evaluate((el, id) => (el as unknown as { emit: (name: string, ev: unknown) => void }).emit('plotly_click', { points: [{ customdata: id, x: 0, y: 0 }] }), target),
     ]);
     await expect(page.locator('h1').textContent()).resolves.toContain(key);
+
+    // A bar of the Teff histogram lists its stars: the table filtered to the bar's Teff range.
+    await page.goto(`${run.baseUrl}/campaigns/${campaignId}/catalogue`);
+    const histogram = page.getByTestId('catalogue-diagrams').locator('.js-plotly-plot').nth(1);
+    await histogram.waitFor();
+    const bars = (await histogram.evaluate((el) => {
+      const tr = (el as unknown as { data: { x: number[]; y: number[] }[] }).data[0];
+      return tr.x.map((x, i) => ({ x, n: tr.y[i] }));
+    })) as { x: number; n: number }[];
+    const bar = bars.reduce((a, b) => (b.n > a.n ? b : a));
+    expect(bar.n).toBeGreaterThan(0);
+    await Promise.all([
+      page.waitForURL(/teffMin=\d+&teffMax=\d+/),
+      histogram.evaluate((el, x) => (el as unknown as { emit: (name: string, ev: unknown) => void }).emit('plotly_click', { points: [{ x, y: 0 }] }), bar.x),
+    ]);
+    await page.waitForFunction(() => !document.querySelector('astro-island[ssr]'));
+    await expect(page.getByTestId('catalogue-count').textContent()).resolves.toContain(`${bar.n} of`);
     await page.close();
   });
 

@@ -52,7 +52,7 @@ function DiagramsView({ campaignId, initialQuery }: Props) {
       </figure>
       <figure className="card p-3">
         <Histogram data={d.data} />
-        <figcaption className="text-xs text-ink-600 px-2 pb-1">Fitted blackbody temperatures (colour temperatures) of the stars in view.</figcaption>
+        <figcaption className="text-xs text-ink-600 px-2 pb-1">Fitted blackbody temperatures (colour temperatures) of the stars in view; click a bar to list its stars.</figcaption>
       </figure>
     </div>
   );
@@ -70,17 +70,7 @@ function TemperatureLuminosity({ data, campaignId }: { data: Diagrams; campaignI
         layout={{ ...layoutBase, height: 380, xaxis, yaxis: { title: { text: 'log₁₀ L [L☉]' }, gridcolor: '#ece5d8' } }}
         config={{ displaylogo: false, responsive: true }}
         style={{ width: '100%' }}
-        onClick={(e) => {
-          const x = Number(e.points[0]?.x);
-          const i = g.teffEdgesK.findIndex((edge, k) => k > 0 && x < edge) - 1;
-          if (i < 0) return;
-          const p = new URLSearchParams(window.location.search);
-          p.set('teffMin', g.teffEdgesK[i].toFixed(0));
-          p.set('teffMax', g.teffEdgesK[i + 1].toFixed(0));
-          p.delete('after');
-          p.delete('before');
-          window.location.search = p.toString();
-        }}
+        onClick={(e) => showTeffBin(g.teffEdgesK, Number(e.points[0]?.x))}
       />
     );
   }
@@ -110,6 +100,18 @@ function TemperatureLuminosity({ data, campaignId }: { data: Diagrams; campaignI
   );
 }
 
+/** Lists the stars of the Teff bin holding x (bin edges in K): the table below with a Teff filter. */
+function showTeffBin(edgesK: number[], x: number) {
+  const i = edgesK.findIndex((edge, k) => k > 0 && x < edge) - 1;
+  if (i < 0) return;
+  const p = new URLSearchParams(window.location.search);
+  p.set('teffMin', Math.floor(edgesK[i]).toFixed(0));
+  p.set('teffMax', Math.ceil(edgesK[i + 1]).toFixed(0));
+  p.delete('after');
+  p.delete('before');
+  window.location.search = p.toString();
+}
+
 function Histogram({ data }: { data: Diagrams }) {
   const e = data.histogram.edgesK;
   if (e.length === 0) return <p className="text-sm text-ink-500 p-4">No star in view has a fitted temperature.</p>;
@@ -121,6 +123,7 @@ function Histogram({ data }: { data: Diagrams }) {
       layout={{ ...layoutBase, height: 380, bargap: 0.05, xaxis: { title: { text: 'Teff [K]' }, autorange: 'reversed', gridcolor: '#ece5d8' }, yaxis: { title: { text: 'stars' }, gridcolor: '#ece5d8' } }}
       config={{ displaylogo: false, responsive: true }}
       style={{ width: '100%' }}
+      onClick={(ev) => showTeffBin(e, Number(ev.points[0]?.x))}
     />
   );
 }
