@@ -565,13 +565,21 @@ export function catalogueCount(db: DbOrTx, campaignId: string, f: CatalogueFilte
 const SUMMARY_INDEX = 'fit_results f INDEXED BY fit_results_current_summary_idx';
 
 function computeCount(sqlite: Database.Database, campaignId: string, f: CatalogueFilter): { total: number; campaignTotal: number } {
-  const params: Params = { campaign: campaignId };
-  const where = ['f.campaign_id = @campaign', 'f.is_current = 1', ...filterSql(f, params, { flagsFromIndex: true })];
-  const needsStars = Boolean(f.starPrefix);
-  const text = needsStars
-    ? `SELECT count(*) AS n FROM ${STARS_THEN_RESULTS} WHERE s.campaign_id = @campaign AND f.star_id = s.id AND ${where.join(' AND ')}`
-    : `SELECT count(*) AS n FROM ${SUMMARY_INDEX} WHERE ${where.join(' AND ')}`;
-  const total = (prepared(sqlite, text).get(params) as { n: number }).n;
+  const count = (g: CatalogueFilter): number => {
+    const params: Params = { campaign: campaignId };
+    const where = ['f.campaign_id = @campaign', 'f.is_current = 1', ...filterSql(g, params, { flagsFromIndex: true })];
+    let text: string;
+    if (g.starPrefix) text = `SELECT count(*) AS n FROM ${STARS_THEN_RESULTS} WHERE s.campaign_id = @campaign AND f.star_id = s.id AND ${where.join(' AND ')}`;
+    else if (g.flag && !g.flagAbsent) {
+      // From the flag's rows in the flag index, each result read by its key: a rare flag is cheap.
+      params.code = g.flag;
+      const rest = where.filter((w) => !w.includes('fit_result_flags'));
+      text = `SELECT count(*) AS n FROM fit_result_flags g INDEXED BY fit_result_flags_teff_idx CROSS JOIN fit_results f WHERE g.campaign_id = @campaign AND g.code = @code AND f.id = g.fit_result_id AND ${rest.join(' AND ')}`;
+    } else text = `SELECT count(*) AS n FROM ${SUMMARY_INDEX} WHERE ${where.join(' AND ')}`;
+    return (prepared(sqlite, text).get(params) as { n: number }).n;
+  };
+  // "Without flag X" = all that match the rest − those with X: two index reads instead of a probe per row.
+  const total = f.flag && f.flagAbsent && !f.starPrefix ? count({ ...f, flag: undefined, flagAbsent: undefined }) - count({ ...f, flagAbsent: false }) : count(f);
   const campaignTotal = (
     prepared(sqlite, 'SELECT count(*) AS n FROM fit_results INDEXED BY fit_results_current_review_idx WHERE campaign_id = ? AND is_current = 1').get(campaignId) as { n: number }
   ).n;
@@ -630,48 +638,68 @@ function computeDiagrams(sqlite: Database.Database, campaignId: string, f: Catal
   const params: Params = { campaign: campaignId };
   const where = ['f.campaign_id = @campaign', 'f.is_current = 1', 'f.teff_k IS NOT NULL', ...filterSql(f, params, { flagsFromIndex: true }), ...(f.starPrefix ? ['s.campaign_id = @campaign', 's.id = f.star_id'] : [])];
   const from = f.starPrefix ? STARS_THEN_RESULTS : SUMMARY_INDEX;
-  const stats = prepared(
-    sqlite,
-    `SELECT count(*) AS n, sum(f.lum_lsun > 0) AS placed, min(f.teff_k) AS tlo, max(f.teff_k) AS thi,
-       min(CASE WHEN f.lum_lsun > 0 THEN log10(f.lum_lsun) END) AS llo, max(CASE WHEN f.lum_lsun > 0 THEN log10(f.lum_lsun) END) AS lhi
-     FROM ${from} WHERE ${where.join(' AND ')}`,
-  ).get(params) as { n: number; placed: number | null; tlo: number | null; thi: number | null; llo: number | null; lhi: number | null };
-  const placed = stats.placed ?? 0;
+  // One pass over the index into typed arrays, binned here: a GROUP BY would sort a million rows
+  // (spilling to temporary files past SQLite's cache), which cost seconds where this costs a scan.
+  let teff = new Float64Array(4096);
+  let logLum = new Float64Array(4096);
+  let n = 0;
+  let placed = 0;
+  let tlo = Infinity;
+  let thi = -Infinity;
+  let llo = Infinity;
+  let lhi = -Infinity;
+  const scan = prepared(sqlite, `SELECT f.teff_k, f.lum_lsun FROM ${from} WHERE ${where.join(' AND ')}`);
+  for (const row of scan.raw(true).iterate(params) as IterableIterator<[number, number | null]>) {
+    if (n === teff.length) {
+      const grow = (a: Float64Array) => {
+        const b = new Float64Array(a.length * 2);
+        b.set(a);
+        return b;
+      };
+      teff = grow(teff);
+      logLum = grow(logLum);
+    }
+    const t = row[0];
+    const l = row[1] !== null && row[1] > 0 ? Math.log10(row[1]) : NaN;
+    teff[n] = t;
+    logLum[n] = l;
+    n++;
+    if (t < tlo) tlo = t;
+    if (t > thi) thi = t;
+    if (l === l) {
+      placed++;
+      if (l < llo) llo = l;
+      if (l > lhi) lhi = l;
+    }
+  }
   const hBins = options.histogramBins ?? 40;
   const histogram = { edgesK: [] as number[], counts: [] as number[] };
-  if (stats.n === 0) return { placed: 0, withoutLum: 0, points: [], density: null, histogram };
-  histogram.edgesK = edges(stats.tlo!, stats.thi!, hBins);
+  if (n === 0) return { placed: 0, withoutLum: 0, points: [], density: null, histogram };
+  histogram.edgesK = edges(tlo, thi, hBins);
   const lo = histogram.edgesK[0];
   const w = (histogram.edgesK[hBins] - lo) / hBins;
   histogram.counts = new Array<number>(hBins).fill(0);
-  const histogramBin = `min(${hBins - 1}, CAST((f.teff_k - @lo) / @w AS INTEGER))`;
+  for (let k = 0; k < n; k++) histogram.counts[Math.min(hBins - 1, Math.floor((teff[k] - lo) / w))]++;
   if (placed <= limit) {
-    const rows = prepared(sqlite, `SELECT ${histogramBin} AS b, count(*) AS n FROM ${from} WHERE ${where.join(' AND ')} GROUP BY b`).all({ ...params, lo, w }) as { b: number; n: number }[];
-    for (const r of rows) histogram.counts[r.b] += r.n;
     const points = prepared(
       sqlite,
       `SELECT f.star_id AS starId, s.star_key AS starKey, f.teff_k AS teffK, f.lum_lsun AS lumLsun, f.review_status AS reviewStatus
        FROM fit_results f JOIN stars s ON s.id = f.star_id WHERE ${where.join(' AND ')} AND f.lum_lsun > 0`,
     ).all(params) as DiagramPoint[];
-    return { placed, withoutLum: stats.n - placed, points, density: null, histogram };
+    return { placed, withoutLum: n - placed, points, density: null, histogram };
   }
   const [nt, nl] = options.densityBins ?? [120, 90];
-  const teffEdgesK = edges(stats.tlo!, stats.thi!, nt);
-  const logLumEdges = edges(stats.llo!, stats.lhi!, nl);
-  const wt = (teffEdgesK[nt] - teffEdgesK[0]) / nt;
-  const wl = (logLumEdges[nl] - logLumEdges[0]) / nl;
+  const teffEdgesK = edges(tlo, thi, nt);
+  const logLumEdges = edges(llo, lhi, nl);
+  const t0 = teffEdgesK[0];
+  const l0 = logLumEdges[0];
+  const wt = (teffEdgesK[nt] - t0) / nt;
+  const wl = (logLumEdges[nl] - l0) / nl;
   const counts = Array.from({ length: nl }, () => new Array<number>(nt).fill(0));
-  // One pass for both: histogram bin, and the density cell of rows with a luminosity (j NULL
-  // without one). At a million rows each pass over the index costs about as much as the rest.
-  const cells = prepared(
-    sqlite,
-    `SELECT ${histogramBin} AS b, min(${nt - 1}, CAST((f.teff_k - @t0) / @wt AS INTEGER)) AS i,
-       CASE WHEN f.lum_lsun > 0 THEN min(${nl - 1}, CAST((log10(f.lum_lsun) - @l0) / @wl AS INTEGER)) END AS j, count(*) AS n
-     FROM ${from} WHERE ${where.join(' AND ')} GROUP BY b, i, j`,
-  ).all({ ...params, lo, w, t0: teffEdgesK[0], wt, l0: logLumEdges[0], wl }) as { b: number; i: number; j: number | null; n: number }[];
-  for (const c of cells) {
-    histogram.counts[c.b] += c.n;
-    if (c.j !== null) counts[c.j][c.i] += c.n;
+  for (let k = 0; k < n; k++) {
+    const l = logLum[k];
+    if (l !== l) continue;
+    counts[Math.min(nl - 1, Math.floor((l - l0) / wl))][Math.min(nt - 1, Math.floor((teff[k] - t0) / wt))]++;
   }
-  return { placed, withoutLum: stats.n - placed, points: null, density: { teffEdgesK, logLumEdges, counts }, histogram };
+  return { placed, withoutLum: n - placed, points: null, density: { teffEdgesK, logLumEdges, counts }, histogram };
 }
