@@ -24,6 +24,8 @@ import { mulberry32 } from '../src/core/fit/random';
 import type { Actor } from '../src/server/context';
 import { addToCampaign, makeCampaign, makeUser } from './factories';
 import { makeFittedCatalogue, refit, type FittedCatalogue } from './factories-catalogue';
+import { fitAndDrain, insertReviewStars } from './factories-review';
+import { seasonTwoSpecs } from '../src/db/demo-stars';
 import { createTestApp, type TestApp } from './setup/db';
 
 let t: TestApp;
@@ -333,6 +335,36 @@ describe('diagrams', () => {
     for (const p of points) want[cell(g.logLumEdges, Math.log10(p.lumLsun))][cell(g.teffEdgesK, p.teffK)]++;
     expect(g.counts).toEqual(want);
     expect(g.counts.flat().reduce((a, b) => a + b, 0)).toBe(points.length);
+  });
+});
+
+describe('diagrams with a flag filter', () => {
+  it('place exactly the stars with (or without) the flag, as points and as a density', async () => {
+    // Invented stars with infrared excesses, bad bands and weak parallaxes (the demo's generator), fitted for real.
+    const cid = makeCampaign(t.app, analyst, { name: 'Quillmarsh flags' }).id;
+    insertReviewStars(t.app.db, cid, seasonTwoSpecs(80, 77), { seed: 78 });
+    await fitAndDrain(t.app, analyst, cid);
+    const ref = t.sqlite
+      .prepare('SELECT star_id, teff_k, lum_lsun, flags FROM fit_results WHERE campaign_id = ? AND is_current = 1 AND teff_k IS NOT NULL')
+      .all(cid) as { star_id: number; teff_k: number; lum_lsun: number | null; flags: string }[];
+    const placedRef = ref.filter((r) => r.lum_lsun !== null && r.lum_lsun > 0);
+    const allFlags = t.sqlite.prepare('SELECT flags FROM fit_results WHERE campaign_id = ? AND is_current = 1').pluck().all(cid) as string[];
+    for (const code of ['ir_excess', 'plx_weak']) {
+      for (const flagAbsent of [false, true]) {
+        const want = ref.filter((r) => r.flags.split(' ').includes(code) !== flagAbsent);
+        const placedWant = placedRef.filter((r) => r.flags.split(' ').includes(code) !== flagAbsent);
+        expect(placedWant.length, code).toBeGreaterThan(1);
+        const points = catalogueDiagrams(t.db, cid, { flag: code, flagAbsent });
+        expect(points.points!.map((p) => p.starId).sort((a, b) => a - b), code).toEqual(placedWant.map((r) => r.star_id).sort((a, b) => a - b));
+        const d = catalogueDiagrams(t.db, cid, { flag: code, flagAbsent }, { pointLimit: 1, densityBins: [7, 5] });
+        expect(d.placed).toBe(placedWant.length);
+        expect(d.withoutLum).toBe(want.length - placedWant.length);
+        expect(d.histogram.counts.reduce((a, b) => a + b, 0)).toBe(want.length);
+        expect(d.density!.counts.flat().reduce((a, b) => a + b, 0)).toBe(placedWant.length);
+        expect(d.histogram.edgesK[0]).toBe(Math.min(...want.map((r) => r.teff_k)));
+        expect(catalogueCount(t.db, cid, { flag: code, flagAbsent }).total).toBe(allFlags.filter((f) => f.split(' ').includes(code) !== flagAbsent).length);
+      }
+    }
   });
 });
 

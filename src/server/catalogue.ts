@@ -648,8 +648,26 @@ function computeDiagrams(sqlite: Database.Database, campaignId: string, f: Catal
   let thi = -Infinity;
   let llo = Infinity;
   let lhi = -Infinity;
-  const scan = prepared(sqlite, `SELECT f.teff_k, f.lum_lsun FROM ${from} WHERE ${where.join(' AND ')}`);
-  for (const row of scan.raw(true).iterate(params) as IterableIterator<[number, number | null]>) {
+  let scanText = `SELECT f.teff_k, f.lum_lsun, f.id FROM ${from} WHERE ${where.join(' AND ')}`;
+  let skip: Set<number> | null = null;
+  if (f.flag && !f.starPrefix) {
+    const rest = where.filter((w) => !w.includes('fit_result_flags'));
+    if (f.flagAbsent) {
+      // Whole index scan, leaving out the flag's results (a set from the flag index) instead of a
+      // probe per row.
+      skip = new Set(prepared(sqlite, 'SELECT fit_result_id FROM fit_result_flags WHERE campaign_id = ? AND code = ?').pluck().all(campaignId, f.flag) as number[]);
+      scanText = `SELECT f.teff_k, f.lum_lsun, f.id FROM ${from} WHERE ${rest.join(' AND ')}`;
+    } else {
+      params.code = f.flag;
+      scanText = `SELECT f.teff_k, f.lum_lsun, f.id FROM fit_result_flags g INDEXED BY fit_result_flags_teff_idx CROSS JOIN fit_results f
+        WHERE g.campaign_id = @campaign AND g.code = @code AND f.id = g.fit_result_id AND ${rest.join(' AND ')}`;
+    }
+  }
+  const scan = prepared(sqlite, scanText);
+  const scanParams = { ...params };
+  if (skip) delete scanParams.flagCode;
+  for (const row of scan.raw(true).iterate(scanParams) as IterableIterator<[number, number | null, number]>) {
+    if (skip && skip.has(row[2])) continue;
     if (n === teff.length) {
       const grow = (a: Float64Array) => {
         const b = new Float64Array(a.length * 2);
