@@ -112,8 +112,17 @@ export function openApiDocument(baseUrl?: string): Json {
           tags: ['catalogue'],
         },
       },
-      '/api/campaigns/{id}/catalogue/count': { get: { ...op('How many rows a filter leaves', 'Reads every matching row; ask once per filter.', { '200': jsonBody({ type: 'object', properties: { total: { type: 'integer' }, campaignTotal: { type: 'integer' } } }) }, { parameters: [campaignId, ...filterParams] }), tags: ['catalogue'] } },
-      '/api/campaigns/{id}/catalogue/diagrams': { get: { ...op('Temperature–luminosity diagram and Teff histogram', 'Points (each with its star) up to 20 000, else a 2-D histogram on Teff × log L.', { '200': jsonBody({ type: 'object' }) }, { parameters: [campaignId, ...filterParams] }), tags: ['catalogue'] } },
+      '/api/campaigns/{id}/catalogue/count': { get: { ...op('How many rows a filter leaves', 'Counted once per filter and kept until a result of the campaign is written, re-reviewed or replaced; a repeat is answered from that.', { '200': jsonBody({ type: 'object', properties: { total: { type: 'integer' }, campaignTotal: { type: 'integer' } } }) }, { parameters: [campaignId, ...filterParams] }), tags: ['catalogue'] } },
+      '/api/campaigns/{id}/catalogue/diagrams': { get: { ...op('Temperature–luminosity diagram and Teff histogram', 'Points (each with its star) up to 20 000, else a 2-D histogram on Teff × log L (counts[j][i] for log L bin j, Teff bin i). Kept per filter until the campaign\'s results change.', { '200': jsonBody({
+        type: 'object',
+        properties: {
+          placed: { type: 'integer', description: 'rows with both Teff and a luminosity' },
+          withoutLum: { type: 'integer', description: 'rows with a Teff but no luminosity (no usable parallax)' },
+          points: { type: ['array', 'null'], items: { type: 'object', properties: { starId: { type: 'integer' }, starKey: { type: 'string' }, teffK: { type: 'number' }, lumLsun: { type: 'number' }, reviewStatus: { type: 'string' } } } },
+          density: { type: ['object', 'null'], properties: { teffEdgesK: { type: 'array', items: { type: 'number' } }, logLumEdges: { type: 'array', items: { type: 'number' } }, counts: { type: 'array', items: { type: 'array', items: { type: 'integer' } } } } },
+          histogram: { type: 'object', properties: { edgesK: { type: 'array', items: { type: 'number' } }, counts: { type: 'array', items: { type: 'integer' } } } },
+        },
+      }) }, { parameters: [campaignId, ...filterParams] }), tags: ['catalogue'] } },
       '/api/campaigns/{id}/downloads/{format}': {
         get: {
           ...op(
