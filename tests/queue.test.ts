@@ -80,34 +80,46 @@ describe('claim', () => {
   });
 
   it('hands each job to one owner only when two processes race on the same file', async () => {
-    const t = testDb();
-    const q = createSqliteQueue(t.db);
-    q.enqueue(jobsOf(3000));
     const racer = path.join(projectRoot(), 'tests/support/queue-racer.ts');
-    const goFile = `${t.filePath}.go`;
-    const run = (owner: string) => {
-      const child = spawn(process.execPath, ['--import', 'tsx', racer, t.filePath, owner, '5', goFile], { cwd: projectRoot(), stdio: ['ignore', 'pipe', 'pipe'] });
-      let out = '';
-      let err = '';
-      child.stderr.on('data', (d) => (err += d));
-      const ready = new Promise<void>((resolve) => child.stdout.on('data', (d) => ((out += d), out.startsWith('ready\n') && resolve())));
-      const ids = new Promise<number[]>((resolve, reject) =>
-        child.on('exit', (code) => (code === 0 ? resolve(JSON.parse(out.trim().split('\n').pop()!) as number[]) : reject(new Error(`racer ${owner} exited ${code}: ${err}`)))),
-      );
-      return { ready, ids };
+    // One race: two processes claim 3000 jobs in chunks of 5 from the same file at the same moment.
+    const race = async () => {
+      const t = testDb();
+      const q = createSqliteQueue(t.db);
+      q.enqueue(jobsOf(3000));
+      const goFile = `${t.filePath}.go`;
+      const run = (owner: string) => {
+        const child = spawn(process.execPath, ['--import', 'tsx', racer, t.filePath, owner, '5', goFile], { cwd: projectRoot(), stdio: ['ignore', 'pipe', 'pipe'] });
+        let out = '';
+        let err = '';
+        child.stderr.on('data', (d) => (err += d));
+        const ready = new Promise<void>((resolve) => child.stdout.on('data', (d) => ((out += d), out.startsWith('ready\n') && resolve())));
+        const ids = new Promise<number[]>((resolve, reject) =>
+          child.on('exit', (code) => (code === 0 ? resolve(JSON.parse(out.trim().split('\n').pop()!) as number[]) : reject(new Error(`racer ${owner} exited ${code}: ${err}`)))),
+        );
+        return { ready, ids };
+      };
+      const racers = [run('racer-a'), run('racer-b')];
+      // Both have opened the database before either claims: the start is simultaneous.
+      await Promise.all(racers.map((r) => r.ready));
+      writeFileSync(goFile, 'go');
+      const [a, b] = await Promise.all(racers.map((r) => r.ids));
+      // Whatever the interleaving: no id twice, every job claimed once, each claimed by one attempt.
+      const all = [...a, ...b];
+      expect(new Set(all).size).toBe(3000);
+      expect(all.length).toBe(3000);
+      expect(t.sqlite.prepare("SELECT count(*) FROM jobs WHERE status = 'leased' AND attempts = 1").pluck().get()).toBe(3000);
+      return { a: a.length, b: b.length };
     };
-    const racers = [run('racer-a'), run('racer-b')];
-    // Both have opened the database before either claims: the start is simultaneous.
-    await Promise.all(racers.map((r) => r.ready));
-    writeFileSync(goFile, 'go');
-    const [a, b] = await Promise.all(racers.map((r) => r.ids));
-    // Both really took part (each got a share), no id twice, every job claimed once.
-    expect(a.length).toBeGreaterThan(0);
-    expect(b.length).toBeGreaterThan(0);
-    const all = [...a, ...b];
-    expect(new Set(all).size).toBe(3000);
-    expect(all.length).toBe(3000);
-    expect(t.sqlite.prepare("SELECT count(*) FROM jobs WHERE status = 'leased' AND attempts = 1").pluck().get()).toBe(3000);
+    // The race only tests something when both processes really took part. On a busy machine the
+    // scheduler can let one process claim everything before the other wakes, so race again (each
+    // race is checked in full) until both got a share.
+    const shares: { a: number; b: number }[] = [];
+    for (let attempt = 0; attempt < 5; attempt++) {
+      const share = await race();
+      shares.push(share);
+      if (share.a > 0 && share.b > 0) break;
+    }
+    expect(shares.some((s) => s.a > 0 && s.b > 0), JSON.stringify(shares)).toBe(true);
   });
 
   it('claims by priority, then in order of enqueueing', () => {
