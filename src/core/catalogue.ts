@@ -17,7 +17,7 @@ export const CATALOGUE_COLUMNS: readonly CatalogueColumn[] = [
   { name: 'ra', unit: 'deg', description: 'right ascension as given in the input' },
   { name: 'dec', unit: 'deg', description: 'declination as given in the input' },
   { name: 'teff_k', unit: 'K', description: 'fitted blackbody (colour) temperature', digits: 6 },
-  { name: 'teff_err_k', unit: 'K', description: 'reported 1σ error: formal × max(1, √χ²_ν), plus the model-error term when switched on', digits: 3 },
+  { name: 'teff_err_k', unit: 'K', description: 'reported 1σ error: formal × max(1, √(reduced χ²)), plus the model-error term when switched on', digits: 3 },
   { name: 'teff_err_formal_k', unit: 'K', description: 'formal 1σ error from the covariance', digits: 3 },
   { name: 'teff_lower_k', unit: 'K', description: 'lower bound on the temperature (one-sided 95 %), set only when no value can be given', digits: 5 },
   { name: 'theta_mas', unit: 'mas', description: 'angular diameter θ = 2√s', digits: 6 },

@@ -29,7 +29,7 @@ export const FLAG_EXPLANATIONS: Record<FlagCode | 'few_bands' | 'no_convergence'
   plx_weak: 'Parallax is less than 5 times its error: radius and luminosity are shown but 1/parallax is biased.',
   plx_nonpositive: 'Parallax is zero or negative: no radius or luminosity.',
   plx_missing: 'No parallax given: no radius or luminosity.',
-  chi2_high: 'Reduced χ² above 5: the blackbody describes this photometry poorly; errors were scaled up by √χ²_ν.',
+  chi2_high: 'Reduced χ² above 5: the blackbody describes this photometry poorly; errors were scaled up by the square root of the reduced χ².',
   av_at_bound: 'The fitted A_V reached a bound of its allowed range; its error is not given.',
   upper_limit_active: 'An upper limit constrained the fit (the curve would otherwise exceed it).',
   model_error_added: 'The blackbody model-error term was added to the Teff error (see the fit README).',
