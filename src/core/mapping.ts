@@ -728,6 +728,24 @@ export function applyMapping(table: ColumnTable, mapping: Mapping, rules: Mappin
     }
   };
 
+  /** Makes row r current; its star id, or null when the row is ragged or has no id (both reported). */
+  const beginRow = (cells: TableCell[], r: number): string | null => {
+    cur.row = r + 1;
+    cur.line = table.lines?.[r];
+    cur.cells = cells;
+    cur.bad = false;
+    if (cells.length !== ncol) {
+      problem(undefined, `has ${cells.length} value${cells.length === 1 ? '' : 's'} but the header has ${ncol} columns; the row was left out`);
+      return null;
+    }
+    const id = textOf(cells[idCol]);
+    if (id === '') {
+      problem(idCol, 'missing star id; the row was left out');
+      return null;
+    }
+    return id;
+  };
+
   if (mapping.layout === 'wide') {
     const stars: MappedStar[] = [];
     // An array, not the Map: iterating a Map makes a fresh [key, value] pair per band and row.
@@ -735,18 +753,8 @@ export function applyMapping(table: ColumnTable, mapping: Mapping, rules: Mappin
     const firstRow = new Map<string, number>();
     let rejected = 0;
     table.rows.forEach((cells, r) => {
-      cur.row = r + 1;
-      cur.line = table.lines?.[r];
-      cur.cells = cells;
-      cur.bad = false;
-      if (cells.length !== ncol) {
-        problem(undefined, `has ${cells.length} value${cells.length === 1 ? '' : 's'} but the header has ${ncol} columns; the row was left out`);
-        rejected++;
-        return;
-      }
-      const id = textOf(cells[idCol]);
-      if (id === '') {
-        problem(idCol, 'missing star id; the row was left out');
+      const id = beginRow(cells, r);
+      if (id === null) {
         rejected++;
         return;
       }
@@ -827,18 +835,8 @@ export function applyMapping(table: ColumnTable, mapping: Mapping, rules: Mappin
   const byId = new Map<string, MappedStar & { bad: boolean; rows: number; bandRow: Map<string, number> }>();
   let rejected = 0;
   table.rows.forEach((cells, r) => {
-    cur.row = r + 1;
-    cur.line = table.lines?.[r];
-    cur.cells = cells;
-    cur.bad = false;
-    if (cells.length !== ncol) {
-      problem(undefined, `has ${cells.length} value${cells.length === 1 ? '' : 's'} but the header has ${ncol} columns; the row was left out`);
-      rejected++;
-      return;
-    }
-    const id = textOf(cells[idCol]);
-    if (id === '') {
-      problem(idCol, 'missing star id; the row was left out');
+    const id = beginRow(cells, r);
+    if (id === null) {
       rejected++;
       return;
     }
