@@ -29,3 +29,22 @@ export function formErrors(err: unknown): { field?: string; message: string } {
   console.error(err);
   return { message: 'Something went wrong on the server. Please try again.' };
 }
+
+/** The parts of Astro's page context that refusePage uses. */
+export interface PageContext {
+  url: URL;
+  response: { status?: number };
+  redirect(path: string): Response;
+}
+
+/**
+ * One rule for every page whose guard or loader throws: a visitor who is not signed in goes to
+ * sign-in (and back afterwards); any other HttpError sets the page's status and is returned for the
+ * page to show with <Denied>; anything else is a bug and propagates.
+ */
+export function refusePage(error: unknown, page: PageContext): Response | HttpError {
+  if (!(error instanceof HttpError)) throw error;
+  if (error.status === 401) return page.redirect(signInPath(page.url));
+  page.response.status = error.status;
+  return error;
+}

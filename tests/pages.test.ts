@@ -1,0 +1,43 @@
+// The rule every guarded page shares when its guard or loader throws (src/lib/pages.ts refusePage).
+import { describe, expect, it } from 'vitest';
+import { refusePage, type PageContext } from '../src/lib/pages';
+import { forbidden, HttpError, unauthenticated } from '../src/server/errors';
+
+function page(path: string): PageContext & { redirectedTo: string | null } {
+  const ctx = {
+    url: new URL(`http://127.0.0.1:4321${path}`),
+    response: { status: 200 },
+    redirectedTo: null as string | null,
+    redirect(to: string) {
+      ctx.redirectedTo = to;
+      return new Response(null, { status: 302, headers: { location: to } });
+    },
+  };
+  return ctx;
+}
+
+describe('refusePage', () => {
+  it('sends a visitor who is not signed in to sign-in, coming back to the same page and query', () => {
+    const p = page('/campaigns/c1/catalogue?status=flagged');
+    const out = refusePage(unauthenticated(), p);
+    expect(out).toBeInstanceOf(Response);
+    expect(p.redirectedTo).toBe('/sign-in?next=%2Fcampaigns%2Fc1%2Fcatalogue%3Fstatus%3Dflagged');
+    expect(p.response.status).toBe(200);
+  });
+
+  it('returns any other refusal for the page to show, with its status', () => {
+    const p = page('/admin');
+    const err = forbidden('Only admins can do that.');
+    expect(refusePage(err, p)).toBe(err);
+    expect(p.response.status).toBe(403);
+    const missing = new HttpError('not_found', 'No campaign with that id.');
+    expect(refusePage(missing, p)).toBe(missing);
+    expect(p.response.status).toBe(404);
+    expect(p.redirectedTo).toBeNull();
+  });
+
+  it('lets anything that is not an HttpError propagate (a bug, not a refusal)', () => {
+    const bug = new TypeError('x is undefined');
+    expect(() => refusePage(bug, page('/admin'))).toThrow(bug);
+  });
+});
