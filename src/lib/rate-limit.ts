@@ -32,3 +32,23 @@ export const formLimiter = createRateLimiter({ windowMs: 60_000, max: 10 });
 export function tooManyMessage(retryAfterSeconds: number): string {
   return `Too many attempts. Wait ${retryAfterSeconds} seconds and try again.`;
 }
+
+/** The parts of Astro's page context that refuseTooManyPosts reads and sets. */
+export interface FormPage {
+  request: Request;
+  clientAddress: string;
+  response: { status?: number };
+  locals: { app: { env: { authRateLimit: boolean } } };
+}
+
+/**
+ * Counts a POST of `form` from this address. Over the limit: sets 429 and returns the message to
+ * show instead of handling the post; otherwise (or for a GET, or with the limit off) null.
+ */
+export function refuseTooManyPosts(page: FormPage, form: string): { message: string } | null {
+  if (page.request.method !== 'POST' || !page.locals.app.env.authRateLimit) return null;
+  const hit = formLimiter.hit(`${form}:${page.clientAddress}`);
+  if (hit.ok) return null;
+  page.response.status = 429;
+  return { message: tooManyMessage(hit.retryAfterSeconds) };
+}
