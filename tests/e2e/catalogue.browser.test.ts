@@ -142,10 +142,14 @@ describe('catalogue in the browser', () => {
     await page.getByTestId('catalogue-table').getByRole('link', { name: 'Star', exact: true }).click();
     await page.waitForURL(/sort=star_key/);
     const first = acceptedRows()[0].id;
-    await expect(page.getByTestId('catalogue-table').locator('tbody tr').first().locator('td').first().textContent()).resolves.toBe(first);
+    // The island changes the URL before its next page arrives: wait for the re-rendered rows.
+    const firstCell = () => document.querySelector('[data-testid="catalogue-table"] tbody tr td')?.textContent;
+    await page.waitForFunction((id) => document.querySelector('[data-testid="catalogue-table"] tbody tr td')?.textContent === id, first, { timeout: 15_000 }).catch(() => undefined);
+    await expect(page.evaluate(firstCell)).resolves.toBe(first);
     await page.getByLabel('Star id starts with').fill(first);
     await page.getByRole('button', { name: 'Apply' }).click();
     await page.waitForURL(new RegExp(`q=${first}`));
+    await page.waitForFunction(() => document.querySelectorAll('[data-testid="catalogue-table"] tbody tr').length === 1, undefined, { timeout: 15_000 }).catch(() => undefined);
     await expect(page.getByTestId('catalogue-table').locator('tbody tr').count()).resolves.toBe(1);
     // The download link follows the filter.
     await expect(page.getByTestId('download-csv').getAttribute('href')).resolves.toContain(`q=${first}`);
