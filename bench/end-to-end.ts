@@ -14,11 +14,11 @@ import { mulberry32 } from '../src/core/fit/random';
 import { flambdaCgsToMagnitude, planckBandMean } from '../src/core/photometry';
 import { openDatabase } from '../src/db/client';
 import { migrateDatabase } from '../src/db/migrate';
-import { createApp } from '../src/lib/app';
-import { parseEnv } from '../src/lib/env';
+import { createApp } from '../src/app/app';
+import { parseEnv } from '../src/adapters/env';
 import { startBatch } from '../src/server/batches';
 import { createUpload, importUpload } from '../src/server/intake/intake';
-import { makeCampaign, makeUser } from '../tests/factories';
+import { makeCampaign, makeUser } from '../src/seed/factories';
 
 const root = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '..');
 const args = process.argv.slice(2);

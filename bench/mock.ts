@@ -1,10 +1,10 @@
 // Mock catalogues for `npm run bench`: invented stars, 8–12 bands each from a pool of 18, Gaussian noise
 // with a fixed seed. Band means come from the fit's tables (interpolation < 1e-5 of the direct integral,
-// tested in src/core/fit/tables.interpolation.test.ts): the bench measures speed, and computing 10⁶ band
+// tested in src/core/fit/grid.interpolation.test.ts): the bench measures speed, and computing 10⁶ band
 // integrals directly would dominate its run time.
 import type { FitModel, StarInput } from '../src/core/fit';
 import { dilutionFromThetaMas } from '../src/core/fit/derived';
-import { lnPhiAt } from '../src/core/fit/tables';
+import { lnPhiAt } from '../src/core/fit/grid';
 import { mulberry32, normalDeviate } from '../src/core/fit/random';
 
 export const BENCH_BAND_POOL = ['U', 'B', 'V', 'R', 'I', 'u', 'g', 'r', 'i', 'z', 'G', 'BP', 'RP', 'J', 'H', 'Ks', 'W1', 'W2'];

@@ -7,7 +7,7 @@ import { ensureBuilt, prepareEnv, root, runTs, startServer } from './start.mjs';
 prepareEnv();
 ensureBuilt({ buildIfMissing: true });
 runTs('src/db/migrate-cli.ts', 'Migration');
-runTs('src/db/seed.ts', 'Seeding the demo');
+runTs('src/seed/seed.ts', 'Seeding the demo');
 startServer();
 
 // One worker next to the server drains the batch queue (the same DATABASE_PATH); it stops with us.

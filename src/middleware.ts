@@ -1,8 +1,8 @@
 // Identifies the person behind the request's session cookie and nothing more: every page and API
-// route checks authorisation itself with the guards in src/lib/guards.ts.
+// route checks authorisation itself with the guards in src/web/guards.ts.
 import { defineMiddleware } from 'astro:middleware';
-import { getApp, resolveActor } from './lib/app';
-import { json } from './lib/http';
+import { getApp, resolveActor } from './app/app';
+import { json } from './web/http';
 import { actorFromBearer, bearerSecret } from './server/api-tokens';
 import { activeActor, DEACTIVATED_MESSAGE } from './server/people';
 

@@ -6,7 +6,7 @@ import { registerAccount, requestPasswordReset, resetPassword } from '../src/ser
 import { addMember, listCampaignsForUser } from '../src/server/campaigns';
 import { HttpError } from '../src/server/errors';
 import { createTestApp, type TestApp } from './setup/db';
-import { makeCampaign, makeUser } from './factories';
+import { makeCampaign, makeUser } from '../src/seed/factories';
 
 let t: TestApp;
 beforeEach(() => {

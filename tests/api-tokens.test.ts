@@ -18,7 +18,7 @@ import { GET as openapiRoute } from '../src/pages/api/openapi.json';
 import { projectRoot } from '../src/db/paths';
 import { actorFromBearer, bearerSecret, createApiToken, revokeApiToken } from '../src/server/api-tokens';
 import type { Actor } from '../src/server/context';
-import { addToCampaign, makeCampaign, makeUser } from './factories';
+import { addToCampaign, makeCampaign, makeUser } from '../src/seed/factories';
 import { makeFittedCatalogue } from './factories-catalogue';
 import { createTestApp, type TestApp } from './setup/db';
 

@@ -30,7 +30,7 @@ import { GET as bandRoute } from '../src/pages/api/admin/bands/[key]';
 import { GET as staleRoute, POST as refitRoute } from '../src/pages/api/campaigns/[id]/refit-stale';
 import { createWorker } from '../workers/runner';
 import { createTestApp, type TestApp } from './setup/db';
-import { addToCampaign, makeCampaign, makeUser } from './factories';
+import { addToCampaign, makeCampaign, makeUser } from '../src/seed/factories';
 import { insertMockStars } from './factories-photometry';
 
 const fixtures = path.resolve(__dirname, '../fixtures/bands');

@@ -11,7 +11,7 @@ import { batchProgress, batchQueue, finishBatchIfDone, startBatch } from '../src
 import type { Actor } from '../src/server/context';
 import { appVersion } from '../src/server/health';
 import { createWorker } from '../workers/runner';
-import { addToCampaign, makeCampaign, makeUser } from './factories';
+import { addToCampaign, makeCampaign, makeUser } from '../src/seed/factories';
 import { insertMockStars } from './factories-photometry';
 import { createTestApp, type TestApp } from './setup/db';
 

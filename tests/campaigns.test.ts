@@ -5,7 +5,7 @@ import { auditEvents, campaignMemberRoles, campaignMembers, campaigns, invitatio
 import { addMember, createCampaign, getCampaignOverview, listCampaignsForUser } from '../src/server/campaigns';
 import { HttpError } from '../src/server/errors';
 import { createTestApp, type TestApp } from './setup/db';
-import { makeCampaign, makeUser } from './factories';
+import { makeCampaign, makeUser } from '../src/seed/factories';
 
 let t: TestApp;
 beforeEach(() => {

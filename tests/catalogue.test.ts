@@ -22,10 +22,10 @@ import {
 import Database from 'better-sqlite3';
 import { mulberry32 } from '../src/core/fit/random';
 import type { Actor } from '../src/server/context';
-import { addToCampaign, makeCampaign, makeUser } from './factories';
+import { addToCampaign, makeCampaign, makeUser } from '../src/seed/factories';
 import { makeFittedCatalogue, refit, type FittedCatalogue } from './factories-catalogue';
-import { fitAndDrain, insertReviewStars } from './factories-review';
-import { seasonTwoSpecs } from '../src/db/demo-stars';
+import { fitAndDrain, insertReviewStars } from '../src/seed/review-stars';
+import { seasonTwoSpecs } from '../src/seed/demo-stars';
 import { createTestApp, type TestApp } from './setup/db';
 
 let t: TestApp;

@@ -8,7 +8,7 @@ import { afterEach, describe, expect, it } from 'vitest';
 import { openDatabase } from '../src/db/client';
 import { migrateDatabase, migrationStatus } from '../src/db/migrate';
 import { projectRoot } from '../src/db/paths';
-import { DEMO_DEFAULT_PASSWORDS, seedDemo } from '../src/db/seed';
+import { DEMO_DEFAULT_PASSWORDS, seedDemo } from '../src/seed/seed';
 import { campaigns, outboxMessages, user } from '../src/db/schema';
 import { listCampaignsForUser } from '../src/server/campaigns';
 import { checkHealth } from '../src/server/health';

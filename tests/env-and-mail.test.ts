@@ -1,8 +1,8 @@
 // Configuration parsing and the mail transports (outbox, and SMTP chosen by configuration alone).
 import net from 'node:net';
 import { afterEach, describe, expect, it } from 'vitest';
-import { parseEnv } from '../src/lib/env';
-import { createApp } from '../src/lib/app';
+import { parseEnv } from '../src/adapters/env';
+import { createApp } from '../src/app/app';
 import { outboxMessages } from '../src/db/schema';
 import { createTestDatabase, type TestDatabase } from './setup/db';
 

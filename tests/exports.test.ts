@@ -1,6 +1,6 @@
 // Downloads of a real fitted catalogue in each format, read back and compared with the database:
 // CSV (csv-parse, provenance '#' lines), JSON, VOTable (fast-xml-parser, and astropy.io.votable),
-// FITS (our reader in src/core/tables/fits.ts, and astropy.io.fits / astropy.table). astropy comes
+// FITS (our reader in src/core/input/fits-file.ts, and astropy.io.fits / astropy.table). astropy comes
 // from Debian's python3-astropy under /usr/bin/python3, run with every warning turned into an error
 // (scripts/references/read_exports.py). Also: the stream reads one consistent snapshot while the
 // app keeps writing, and the route's authorisation.
@@ -15,14 +15,14 @@ import { GET as downloadRoute } from '../src/pages/api/campaigns/[id]/downloads/
 import { starterBandLibrary } from '../src/core/bands';
 import { CATALOGUE_COLUMNS, catalogueColumns } from '../src/core/catalogue';
 import { FLAG_EXPLANATIONS } from '../src/core/fit';
-import { readFits, readFitsTable } from '../src/core/tables/fits';
+import { readFits, readFitsTable } from '../src/core/input/fits-file';
 import { projectRoot } from '../src/db/paths';
 import type { CatalogueFilter } from '../src/server/catalogue';
 import type { Actor } from '../src/server/context';
 import { EXPORT_FORMAT_NAMES, exportChunks, type ExportFormat } from '../src/server/exports';
 import { FITS_BLOCK } from '../src/server/exports/fits';
 import { appVersion } from '../src/server/health';
-import { addToCampaign, makeCampaign, makeUser } from './factories';
+import { addToCampaign, makeCampaign, makeUser } from '../src/seed/factories';
 import { makeFittedCatalogue, refit } from './factories-catalogue';
 import { createTestApp, type TestApp } from './setup/db';
 

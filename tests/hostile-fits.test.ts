@@ -8,8 +8,8 @@ import { tmpdir } from 'node:os';
 import path from 'node:path';
 import { afterAll, describe, expect, it } from 'vitest';
 import { projectRoot } from '../src/db/paths';
-import { FitsError, readFits, readFitsTable } from '../src/core/tables/fits';
-import { readUpload, UnreadableFile } from '../src/core/tables/table-file';
+import { FitsError, readFits, readFitsTable } from '../src/core/input/fits-file';
+import { readUpload, UnreadableFile } from '../src/core/input/table-file';
 import { bintableHeader, card, data, header, primary, smallTable, zeroAxisTdim, zeroWidthRows } from './support/hostile-fits';
 
 function fitsError(bytes: Buffer, read: (b: Uint8Array) => unknown = (b) => readFits(b, { source: 'hostile.fits' })): FitsError {

@@ -13,7 +13,7 @@ import { uploads } from '../src/db/schema';
 import { POST as postUpload } from '../src/pages/api/campaigns/[id]/uploads/index';
 import type { Actor } from '../src/server/context';
 import { createTestApp, type TestApp } from './setup/db';
-import { makeCampaign, makeUser } from './factories';
+import { makeCampaign, makeUser } from '../src/seed/factories';
 
 let t: TestApp;
 let analyst: Actor;

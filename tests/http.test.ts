@@ -1,11 +1,11 @@
 // JSON handling and guards, as API routes use them.
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { z } from 'zod';
-import { handle, readJson } from '../src/lib/http';
-import { requireAdmin, requireCampaignRole, requireUser } from '../src/lib/guards';
+import { handle, readJson } from '../src/web/http';
+import { requireAdmin, requireCampaignRole, requireUser } from '../src/web/guards';
 import { HttpError } from '../src/server/errors';
 import { createTestApp, type TestApp } from './setup/db';
-import { makeCampaign, makeUser } from './factories';
+import { makeCampaign, makeUser } from '../src/seed/factories';
 
 const schema = z.object({ name: z.string().min(1, 'Enter a name.') });
 const post = (body: string, type = 'application/json') => new Request('http://x/api', { method: 'POST', headers: { 'content-type': type }, body });

@@ -17,7 +17,7 @@ import type { IntakeConfig } from '../src/server/intake/storage';
 import { POST as postUpload, GET as listUploadsRoute } from '../src/pages/api/campaigns/[id]/uploads/index';
 import { POST as postImport } from '../src/pages/api/campaigns/[id]/uploads/[uploadId]/import';
 import { createTestApp, type TestApp } from './setup/db';
-import { addToCampaign, makeCampaign, makeUser } from './factories';
+import { addToCampaign, makeCampaign, makeUser } from '../src/seed/factories';
 
 const root = projectRoot();
 const fixture = (...p: string[]) => readFileSync(path.join(root, 'fixtures', ...p));

@@ -1,6 +1,6 @@
-// The rule every guarded page shares when its guard or loader throws (src/lib/pages.ts refusePage).
+// The rule every guarded page shares when its guard or loader throws (src/web/pages.ts refusePage).
 import { describe, expect, it } from 'vitest';
-import { refusePage, type PageContext } from '../src/lib/pages';
+import { refusePage, type PageContext } from '../src/web/pages';
 import { forbidden, HttpError, unauthenticated } from '../src/server/errors';
 
 function page(path: string): PageContext & { redirectedTo: string | null } {

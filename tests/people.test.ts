@@ -3,7 +3,7 @@
 // Real migrated SQLite and real better-auth sessions; the middleware's own path is exercised over
 // HTTP in tests/e2e/people.http.test.ts.
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
-import { resolveActor } from '../src/lib/app';
+import { resolveActor } from '../src/app/app';
 import { actorFromBearer, createApiToken } from '../src/server/api-tokens';
 import type { Actor } from '../src/server/context';
 import { activeActor, auditLog, deactivatePerson, listPeople, reactivatePerson, setKind } from '../src/server/people';
@@ -12,7 +12,7 @@ import { POST as deactivateRoute } from '../src/pages/api/admin/people/[userId]/
 import { POST as kindRoute } from '../src/pages/api/admin/people/[userId]/kind';
 import { GET as auditRoute } from '../src/pages/api/admin/audit';
 import { createTestApp, type TestApp } from './setup/db';
-import { addToCampaign, DEFAULT_TEST_PASSWORD, makeCampaign, makeUser } from './factories';
+import { addToCampaign, DEFAULT_TEST_PASSWORD, makeCampaign, makeUser } from '../src/seed/factories';
 
 type Route = (ctx: never) => Promise<Response> | Response;
 async function call(route: Route, actor: Actor | null, params: Record<string, string> = {}, body?: unknown, query = '') {

@@ -10,7 +10,7 @@ import { BAND_LIBRARY_KEY_PREFIX, FIT_QUEUE, RedisDispatchStore, redisConnection
 import { createWorker } from '../workers/runner';
 import { createRedisFitWorker } from '../workers/redis-worker';
 import { createResultWriter, type ResultWriter } from '../workers/result-writer';
-import { makeCampaign, makeUser } from './factories';
+import { makeCampaign, makeUser } from '../src/seed/factories';
 import { insertMockStars } from './factories-photometry';
 import { createTestApp, type TestApp } from './setup/db';
 import { startTestRedis, type TestRedis } from './support/redis';

@@ -12,7 +12,7 @@ import { batchQueue, startBatch } from '../src/server/batches';
 import { FitStarRunner } from '../src/server/fit-job';
 import { appVersion } from '../src/server/health';
 import { backoffDelayMs, createSqliteQueue, type NewJob } from '../src/server/queue';
-import { makeCampaign, makeUser } from './factories';
+import { makeCampaign, makeUser } from '../src/seed/factories';
 import { insertMockStars } from './factories-photometry';
 import { createTestApp, createTestDatabase, type TestDatabase } from './setup/db';
 

@@ -6,7 +6,7 @@ import { Queue } from 'bullmq';
 import { afterAll, afterEach, beforeAll, describe, expect, it } from 'vitest';
 import { startBatch } from '../src/server/batches';
 import { FIT_QUEUE, redisConnection } from '../src/server/queue-redis';
-import { makeCampaign, makeUser } from './factories';
+import { makeCampaign, makeUser } from '../src/seed/factories';
 import { insertMockStars } from './factories-photometry';
 import { createTestApp, type TestApp } from './setup/db';
 import { startTestRedis, type TestRedis } from './support/redis';

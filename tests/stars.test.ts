@@ -5,7 +5,7 @@ import { afterEach, describe, expect, it } from 'vitest';
 import { startBatch } from '../src/server/batches';
 import { listStars, parseStarListRequest, starPageSql } from '../src/server/stars';
 import { createWorker } from '../workers/runner';
-import { makeCampaign, makeUser } from './factories';
+import { makeCampaign, makeUser } from '../src/seed/factories';
 import { MOCK_BANDS, insertMockStars } from './factories-photometry';
 import { createTestApp, type TestApp } from './setup/db';
 

@@ -5,7 +5,7 @@
 import os from 'node:os';
 import { parseArgs } from 'node:util';
 import { closeDb } from '../src/db/client';
-import { getApp } from '../src/lib/app';
+import { getApp } from '../src/app/app';
 import { createWorker } from './runner';
 
 const usage = `Usage: npm run worker -- [options]

@@ -66,7 +66,7 @@ export async function runRedisRole(a: RedisRoleArgs): Promise<never> {
     process.exit(2);
   }
   // Only the writer touches the database.
-  const { getApp } = await import('../src/lib/app');
+  const { getApp } = await import('../src/app/app');
   const { closeDb } = await import('../src/db/client');
   const { createResultWriter } = await import('./result-writer');
   const app = getApp();

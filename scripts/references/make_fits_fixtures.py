@@ -1,5 +1,5 @@
 #!/usr/bin/python3
-"""Write the FITS fixtures that test Starkiln's own FITS reader (src/core/tables/fits.ts).
+"""Write the FITS fixtures that test Starkiln's own FITS reader (src/core/input/fits-file.ts).
 
 Every fixture file is written by astropy (Debian python3-astropy 5.2), an independent FITS
 implementation, and beside it we dump astropy's own reading of the file as JSON

@@ -1,6 +1,6 @@
-// Which column means what, for `starkiln fit`: the intake's own detection (core/mapping
+// Which column means what, for `starkiln fit`: the intake's own detection (core/input/mapping
 // detectMapping) or a mapping saved from the app, then the command line's overrides (--columns,
-// --quality, --no-quality-rules). The rows themselves go through core/mapping applyMapping, the
+// --quality, --no-quality-rules). The rows themselves go through core/input/mapping applyMapping, the
 // same path as the web intake, so a file maps the same way in both.
 import { readFileSync } from 'node:fs';
 import { getBand, type BandLibrary } from '../core/bands';
@@ -17,7 +17,7 @@ import {
   type Mapping,
   type MappingProblem,
   type MappingRules,
-} from '../core/mapping';
+} from '../core/input/mapping';
 import { UsageError } from './args';
 
 /** Rows the detection looks at to tell numbers from text and to count quality letters (the intake uses 50 too). */

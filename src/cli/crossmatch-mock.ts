@@ -8,7 +8,7 @@ import { writeFileSync } from 'node:fs';
 import path from 'node:path';
 import { getBand, starterBandLibrary } from '../core/bands';
 import { MAS_PER_RAD } from '../core/constants';
-import { GAIA_VEGA_ZERO_POINT_MAG } from '../core/mapping';
+import { GAIA_VEGA_ZERO_POINT_MAG } from '../core/input/mapping';
 import { flambdaCgsToMagnitude, planckBandMean } from '../core/photometry';
 
 export interface CrossmatchStar {

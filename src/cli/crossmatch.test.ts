@@ -1,6 +1,6 @@
 // `starkiln fit` on catalogue cross-matches that keep the archives' column names: the same format
-// detection, column mapping and quality rules as the web intake (core/tables/table-file,
-// core/mapping). Fixtures: fixtures/crossmatch/ (FITS and VOTable written by Debian's astropy,
+// detection, column mapping and quality rules as the web intake (core/input/table-file,
+// core/input/mapping). Fixtures: fixtures/crossmatch/ (FITS and VOTable written by Debian's astropy,
 // scripts/references/make_crossmatch_fixture.py); invented noise-free stars whose photometry was
 // integrated through each band by the core (src/cli/crossmatch-mock.ts), so the fit must give back
 // T and θ (product.md check values: self-consistency).
@@ -10,7 +10,7 @@ import { tmpdir } from 'node:os';
 import path from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { afterAll, describe, expect, it } from 'vitest';
-import { parseDelimited } from '../core/tables/delimited';
+import { parseDelimited } from '../core/input/delimited';
 import { crossmatchStars, vizierTsv, type CrossmatchStar } from './crossmatch-mock';
 
 const root = fileURLToPath(new URL('../..', import.meta.url));

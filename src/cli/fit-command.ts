@@ -20,8 +20,8 @@ import {
 import { extrapolatedBandKeys } from '../core/extinction';
 import { measurementToBandFlux } from '../core/photometry';
 import { fitStar, prepareFitModel, type FitFailure, type FitResult } from '../core/fit';
-import { applyMapping, closestBandKey, type ColumnTable, type MappedStar, type MappingProblem } from '../core/mapping';
-import { FORMAT_LABELS, readUpload, UnreadableFile, type ReadUpload } from '../core/tables/table-file';
+import { applyMapping, closestBandKey, type ColumnTable, type MappedStar, type MappingProblem } from '../core/input/mapping';
+import { FORMAT_LABELS, readUpload, UnreadableFile, type ReadUpload } from '../core/input/table-file';
 import type { BandFlux } from '../core/types';
 import { UsageError, type FitCommandArgs } from './args';
 import { describeMapping, mappingFileJson, resolveMapping } from './column-mapping';

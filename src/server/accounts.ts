@@ -6,8 +6,8 @@
 import { and, count, eq, gt, isNull } from 'drizzle-orm';
 import { z } from 'zod';
 import { campaignMemberRoles, campaignMembers, campaigns, invitations, user } from '../db/schema';
-import { accountGrant, PASSWORD_MAX_LENGTH, PASSWORD_MIN_LENGTH } from '../lib/auth';
-import type { AccountKind } from '../lib/vocabulary';
+import { accountGrant, PASSWORD_MAX_LENGTH, PASSWORD_MIN_LENGTH } from '../adapters/auth';
+import type { AccountKind } from '../contracts/vocabulary';
 import { recordAudit } from './audit';
 import type { AppServices } from './context';
 import { HttpError } from './errors';
@@ -89,6 +89,11 @@ export async function createAccount(
  * Self-service sign-up (from the sign-up page or POST /api/sign-up). Returns better-auth's
  * response, whose Set-Cookie headers sign the new person in.
  */
+/** No account exists yet: the next one to sign up becomes the installation's admin. */
+export function isFreshInstallation(db: DbOrTx): boolean {
+  return (db.select({ n: count() }).from(user).get()?.n ?? 0) === 0;
+}
+
 export async function registerAccount(app: AppServices, raw: unknown, headers?: Headers): Promise<{ userId: string; response: Response }> {
   const { db } = app;
   const input = parseInput(signUpInput, raw);
@@ -105,8 +110,7 @@ export async function registerAccount(app: AppServices, raw: unknown, headers?: 
     const grants = openInvitationsFor(db, input.email).flatMap((i) => i.roles);
     kind = grants.some((r) => r !== 'collaborator') ? 'member' : 'guest';
   } else {
-    const users = db.select({ n: count() }).from(user).get()?.n ?? 0;
-    if (users === 0) kind = 'admin';
+    if (isFreshInstallation(db)) kind = 'admin';
     else if (app.env.signupOpen) kind = 'member';
     else throw new HttpError('forbidden', 'Sign-up is by invitation. Ask a campaign analyst or an admin to invite you.');
   }

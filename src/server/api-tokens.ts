@@ -8,7 +8,7 @@ import { and, desc, eq } from 'drizzle-orm';
 import { z } from 'zod';
 import type { AppDatabase } from '../db/client';
 import { apiTokens, user } from '../db/schema';
-import { toActor } from '../lib/app';
+import { toActor } from './context';
 import { recordAudit } from './audit';
 import type { Actor } from './context';
 import { HttpError } from './errors';

@@ -1,14 +1,14 @@
 // Batches: a fit run over a campaign's stars (or a chosen few) with fixed options. Starting one
 // writes the batch and one fit-star job per star in a single transaction; workers drain the jobs
 // (workers/README.md); the last job to finish marks the batch finished and e-mails the analyst
-// who started it, once. Callers check who may call (src/lib/guards.ts: analysts start batches,
+// who started it, once. Callers check who may call (src/web/guards.ts: analysts start batches,
 // any member reads progress).
 import { and, desc, eq, sql } from 'drizzle-orm';
 import { z } from 'zod';
 import type { AppDatabase, DbOrTx } from '../db/client';
 import { batches, user, type BatchStatus } from '../db/schema';
 import { resolveFitOptions, type FitOptions } from '../core/fit';
-import type { MailMessage } from '../lib/mail';
+import type { MailMessage } from '../adapters/mail';
 import { recordAudit } from './audit';
 import { getCurrentLibrary, getCurrentVersion } from './band-library';
 import type { Actor, AppServices } from './context';

@@ -1,16 +1,16 @@
 // Campaign use cases: create, list, open, add members. Callers check who may call them
-// (src/lib/guards.ts); these functions enforce the rules that hold whoever calls.
+// (src/web/guards.ts); these functions enforce the rules that hold whoever calls.
 import { and, asc, count, desc, eq, gt, inArray, isNull, lte } from 'drizzle-orm';
 import { z } from 'zod';
 import type { AppDatabase, DbOrTx } from '../db/client';
 import { campaignMemberRoles, campaignMembers, campaigns, invitations, user } from '../db/schema';
-import type { AddMemberResult, CampaignMember, CampaignOverview, CampaignSummary, PendingInvitation } from '../lib/api-types';
-import { CAMPAIGN_ROLES, canCreateCampaigns, type CampaignRole } from '../lib/vocabulary';
+import type { AddMemberResult, CampaignMember, CampaignOverview, CampaignSummary, PendingInvitation } from '../contracts/api';
+import { CAMPAIGN_ROLES, canCreateCampaigns, type CampaignRole } from '../contracts/vocabulary';
 import { recordAudit } from './audit';
 import type { Actor, AppServices } from './context';
 import { HttpError } from './errors';
 import { hashToken, newId, newToken } from './ids';
-import { invitationMail } from './mail-templates';
+import { invitationMail } from '../adapters/mail-templates';
 import { isUniqueViolation } from './sqlite-errors';
 import { parseInput } from './validation';
 
@@ -67,6 +67,11 @@ export function getCampaignRoles(db: DbOrTx, campaignId: string, userId: string)
 
 export function getCampaign(db: DbOrTx, campaignId: string) {
   return db.select().from(campaigns).where(eq(campaigns.id, campaignId)).get() ?? null;
+}
+
+/** Every campaign's id and name, by name (the admin's invitation form offers them all). */
+export function listAllCampaignNames(db: DbOrTx): { id: string; name: string }[] {
+  return db.select({ id: campaigns.id, name: campaigns.name }).from(campaigns).orderBy(asc(campaigns.name)).all();
 }
 
 export function createCampaign(db: AppDatabase, actor: Actor, raw: unknown): CampaignSummary {

@@ -10,12 +10,11 @@ import { FLAG_EXPLANATIONS } from '../core/fit';
 import { HttpError } from './errors';
 import { staleChecker } from './stale';
 import { parseInput } from './validation';
+import { CATALOGUE_SORTS, CATALOGUE_STATUSES, type CatalogueDiagrams, type CataloguePage, type CatalogueRowView, type CatalogueSort, type CatalogueStatus } from '../contracts/catalogue';
 
-export const CATALOGUE_SORTS = ['teff_k', 'lum_lsun', 'radius_rsun', 'chi2_red', 'star_key', 'review_status'] as const;
-export type CatalogueSort = (typeof CATALOGUE_SORTS)[number];
-/** Review states a current result can have (superseded fits are never current). */
-export const CATALOGUE_STATUSES = ['pending', 'accepted', 'flagged'] as const;
-export type CatalogueStatus = (typeof CATALOGUE_STATUSES)[number];
+export { CATALOGUE_SORTS, CATALOGUE_STATUSES };
+export type { CatalogueDiagrams, CataloguePage, CatalogueRowView, CatalogueSort, CatalogueStatus, DensityGrid, DiagramPoint } from '../contracts/catalogue';
+
 export const FLAG_CODES = Object.keys(FLAG_EXPLANATIONS);
 
 export const DEFAULT_PAGE_SIZE = 50;
@@ -48,39 +47,6 @@ export interface CataloguePageRequest extends CatalogueFilter {
   after?: string;
   /** Rows before this position (from a previous page's prevCursor). */
   before?: string;
-}
-
-export interface CatalogueRowView {
-  fitId: number;
-  starId: number;
-  starKey: string;
-  raDeg: number | null;
-  decDeg: number | null;
-  ok: boolean;
-  teffK: number | null;
-  teffErrK: number | null;
-  teffLowerK: number | null;
-  thetaMas: number | null;
-  radiusRsun: number | null;
-  radiusErrRsun: number | null;
-  lumLsun: number | null;
-  lumErrLsun: number | null;
-  avMag: number | null;
-  chi2Red: number | null;
-  nBands: number | null;
-  flags: string;
-  reviewStatus: string;
-  batchId: string;
-  bandLibraryVersion: string;
-  bandsUsed: string | null;
-  /** A band this fit used changed in the current band library version (src/server/stale.ts). */
-  stale: boolean;
-}
-
-export interface CataloguePage {
-  rows: CatalogueRowView[];
-  nextCursor: string | null;
-  prevCursor: string | null;
 }
 
 // ---------------------------------------------------------------------------------------------
@@ -588,31 +554,6 @@ function computeCount(sqlite: Database.Database, campaignId: string, f: Catalogu
 
 // ---------------------------------------------------------------------------------------------
 // Diagrams: temperature–luminosity and the temperature histogram.
-
-export interface DiagramPoint {
-  starId: number;
-  starKey: string;
-  teffK: number;
-  lumLsun: number;
-  reviewStatus: string;
-}
-
-export interface DensityGrid {
-  /** Bin edges in Teff [K] (n+1) and log10(L/L☉) (m+1); counts[j][i] for log L bin j, Teff bin i. */
-  teffEdgesK: number[];
-  logLumEdges: number[];
-  counts: number[][];
-}
-
-export interface CatalogueDiagrams {
-  /** Rows with both Teff and L (the others cannot be placed on the diagram). */
-  placed: number;
-  /** Rows with a Teff but no luminosity (no or weak parallax). */
-  withoutLum: number;
-  points: DiagramPoint[] | null;
-  density: DensityGrid | null;
-  histogram: { edgesK: number[]; counts: number[] };
-}
 
 /** Edges of `bins` equal bins over [lo, hi] (a single value gets a bin of ±0.5 % around it). */
 function edges(lo: number, hi: number, bins: number): number[] {

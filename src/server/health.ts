@@ -3,7 +3,7 @@ import path from 'node:path';
 import type { AppDatabase } from '../db/client';
 import { migrationStatus } from '../db/migrate';
 import { projectRoot } from '../db/paths';
-import type { HealthReport } from '../lib/api-types';
+import type { HealthReport } from '../contracts/api';
 
 let version: string | undefined;
 

@@ -1,17 +1,17 @@
 // People (admin): every account with its kind and campaign roles, changing an account's kind,
 // inviting someone to a campaign by e-mail (the campaigns use case, through the outbox),
 // deactivating and reactivating accounts, and the audit log. Callers check that the actor is an
-// admin (src/lib/guards.ts requireAdmin).
+// admin (src/web/guards.ts requireAdmin).
 //
 // Deactivation: the account keeps its history (fits, decisions, audit entries stay attributed) but
-// its sessions are deleted at once, it cannot sign in again (better-auth hook in src/lib/auth.ts),
+// its sessions are deleted at once, it cannot sign in again (better-auth hook in src/adapters/auth.ts),
 // and every request — session or API token — is refused while deactivatedAt is set
 // (activeActor(), called where the middleware settles who the actor is).
 import { z } from 'zod';
 import type { AppDatabase } from '../db/client';
-import { ACCOUNT_KINDS, CAMPAIGN_ROLES, type AccountKind, type CampaignRole } from '../lib/vocabulary';
+import { ACCOUNT_KINDS, CAMPAIGN_ROLES, type AccountKind, type CampaignRole } from '../contracts/vocabulary';
 import { recordAudit } from './audit';
-import type { AddMemberResult } from '../lib/api-types';
+import type { AddMemberResult } from '../contracts/api';
 import { addMember } from './campaigns';
 import type { Actor, AppServices } from './context';
 import { HttpError } from './errors';

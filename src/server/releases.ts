@@ -8,7 +8,7 @@ import { and, desc, eq } from 'drizzle-orm';
 import { z } from 'zod';
 import type { AppDatabase } from '../db/client';
 import { campaignMemberRoles, catalogueReleases, user } from '../db/schema';
-import type { MailMessage } from '../lib/mail';
+import type { MailMessage } from '../adapters/mail';
 import { recordAudit } from './audit';
 import { catalogueCount, describeFilter, filterToParams, parseCatalogueFilter, type CatalogueFilter } from './catalogue';
 import type { Actor, AppServices } from './context';

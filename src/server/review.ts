@@ -3,21 +3,21 @@
 // waiting. Every decision is kept: a new decision on the same fit marks the earlier one superseded
 // ('changed'); a re-fit of the star marks it superseded ('refit') through the database trigger
 // fit_results_refit_supersedes (drizzle/0004_…), so every writer of fit results gets it for free.
-// Callers check who may call (src/lib/guards.ts); the four-eyes rule is enforced here whoever calls.
+// Callers check who may call (src/web/guards.ts); the four-eyes rule is enforced here whoever calls.
 import { eq } from 'drizzle-orm';
 import { z } from 'zod';
 import type { AppDatabase, DbOrTx } from '../db/client';
 import { campaignReviewSettings } from '../db/schema';
 import { FLAG_EXPLANATIONS } from '../core/fit/flags';
-import { REVIEW_REASON_CODES, reviewReasonLabel, type ReviewFilter } from '../lib/review-reasons';
-import type { BulkOutcome, DecisionView, QueueItem, QueuePage, ReviewSettings } from '../lib/review-types';
+import { REVIEW_REASON_CODES, reviewReasonLabel, type ReviewFilter } from '../contracts/review-reasons';
+import type { BulkOutcome, DecisionView, QueueItem, QueuePage, ReviewSettings } from '../contracts/review';
 import { recordAudit } from './audit';
 import type { Actor, AppServices } from './context';
 import { forbidden, HttpError } from './errors';
-import { reviewNoticeMail } from './mail-templates';
+import { reviewNoticeMail } from '../adapters/mail-templates';
 import { parseInput } from './validation';
 
-export type { BulkOutcome, DecisionView, QueueItem, QueuePage, ReviewSettings } from '../lib/review-types';
+export type { BulkOutcome, DecisionView, QueueItem, QueuePage, ReviewSettings } from '../contracts/review';
 
 // ---------------------------------------------------------------------------------------------
 // Input

@@ -9,13 +9,13 @@ import { applyFloor } from '../core/photometry';
 import { planckLambdaCgsAngstrom } from '../core/planck';
 import type { ExtinctionLawKey } from '../core/types';
 import type { AppDatabase } from '../db/client';
-import type { SheetBand, SheetFit, SheetMeasurement, StarSheet } from '../lib/review-types';
+import type { SheetBand, SheetFit, SheetMeasurement, StarSheet } from '../contracts/review';
 import { findLibrary, getCurrentLibrary } from './band-library';
 import type { FitResultRow } from './fit-job';
 import { HttpError } from './errors';
 import { explainFlags, getReviewSettings, starHistory } from './review';
 
-export type { SheetBand, SheetFit, SheetMeasurement, StarSheet } from '../lib/review-types';
+export type { SheetBand, SheetFit, SheetMeasurement, StarSheet } from '../contracts/review';
 
 /** Why a band did not count in the fit, in plain words. */
 export const EXCLUSION_LABELS: Record<string, string> = {

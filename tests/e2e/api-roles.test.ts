@@ -2,7 +2,7 @@
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { eq } from 'drizzle-orm';
 import { campaigns, outboxMessages } from '../../src/db/schema';
-import { DEMO_CAMPAIGN, demoUsers } from '../../src/db/seed';
+import { DEMO_CAMPAIGN, demoUsers } from '../../src/seed/seed';
 import { nameKey } from '../../src/server/campaigns';
 import { appVersion } from '../../src/server/health';
 import { callApi, signInCookie, startApp, type RunningApp } from './harness';

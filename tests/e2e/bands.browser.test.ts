@@ -7,7 +7,7 @@ import { readFileSync } from 'node:fs';
 import path from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { Page } from 'playwright-core';
-import { demoUsers } from '../../src/db/seed';
+import { demoUsers } from '../../src/seed/seed';
 import { projectRoot } from '../../src/db/paths';
 import { callApi, launchBrowser, signInCookie, startApp, type Browser, type RunningApp } from './harness';
 

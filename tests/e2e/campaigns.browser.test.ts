@@ -4,7 +4,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { Page } from 'playwright-core';
 import { eq } from 'drizzle-orm';
 import { campaigns } from '../../src/db/schema';
-import { DEMO_CAMPAIGN, demoUsers } from '../../src/db/seed';
+import { DEMO_CAMPAIGN, demoUsers } from '../../src/seed/seed';
 import { launchBrowser, startApp, type Browser, type RunningApp } from './harness';
 
 let run: RunningApp;

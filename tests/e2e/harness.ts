@@ -10,9 +10,9 @@ import { chromium, type BrowserContext, type Page } from 'playwright-core';
 import { openDatabase } from '../../src/db/client';
 import { migrateDatabase } from '../../src/db/migrate';
 import { projectRoot } from '../../src/db/paths';
-import { seedDemo } from '../../src/db/seed';
-import { createApp } from '../../src/lib/app';
-import { parseEnv } from '../../src/lib/env';
+import { seedDemo } from '../../src/seed/seed';
+import { createApp } from '../../src/app/app';
+import { parseEnv } from '../../src/adapters/env';
 import type { AppServices } from '../../src/server/context';
 
 export const CHROMIUM_PATH = '/usr/bin/chromium';

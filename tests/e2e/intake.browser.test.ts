@@ -8,7 +8,7 @@ import { count, eq } from 'drizzle-orm';
 import path from 'node:path';
 import { batches, campaigns, measurements, stars, uploads } from '../../src/db/schema';
 import { projectRoot } from '../../src/db/paths';
-import { DEMO_CAMPAIGN, demoUsers } from '../../src/db/seed';
+import { DEMO_CAMPAIGN, demoUsers } from '../../src/seed/seed';
 import { launchBrowser, startApp, type Browser, type RunningApp } from './harness';
 
 let run: RunningApp;

@@ -3,7 +3,7 @@
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { and, eq } from 'drizzle-orm';
 import { campaigns, outboxMessages, user } from '../../src/db/schema';
-import { DEMO_CAMPAIGN, demoUsers } from '../../src/db/seed';
+import { DEMO_CAMPAIGN, demoUsers } from '../../src/seed/seed';
 import { startBatch } from '../../src/server/batches';
 import { nameKey } from '../../src/server/campaigns';
 import { createWorker } from '../../workers/runner';

@@ -8,9 +8,9 @@ import { eq } from 'drizzle-orm';
 import { requireBand, starterBandLibrary } from '../../src/core/bands';
 import { WIEN_B_M_K } from '../../src/core/constants';
 import { campaigns, user } from '../../src/db/schema';
-import { DEMO_CAMPAIGN, demoUsers } from '../../src/db/seed';
+import { DEMO_CAMPAIGN, demoUsers } from '../../src/seed/seed';
 import { nameKey } from '../../src/server/campaigns';
-import { seedReviewDemo } from '../factories-review';
+import { seedReviewDemo } from '../../src/seed/review-stars';
 import { callApi, launchBrowser, signInCookie, startApp, type Browser, type RunningApp } from './harness';
 
 let run: RunningApp;

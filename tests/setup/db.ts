@@ -5,8 +5,8 @@ import path from 'node:path';
 import { openDatabase, type AppDatabase } from '../../src/db/client';
 import { migrateDatabase } from '../../src/db/migrate';
 import type Database from 'better-sqlite3';
-import { createApp } from '../../src/lib/app';
-import { parseEnv } from '../../src/lib/env';
+import { createApp } from '../../src/app/app';
+import { parseEnv } from '../../src/adapters/env';
 import type { AppServices } from '../../src/server/context';
 
 export interface TestDatabase {

@@ -4,9 +4,9 @@
 // and save it with a reason — a new band library version. Hydrated with client:only="react".
 import { QueryClientProvider } from '@tanstack/react-query';
 import { useRef, useState, type SubmitEvent } from 'react';
-import { ApiError } from '../../lib/queries/api';
-import { useCreateBand, usePreviewCurve, type CurveUpload } from '../../lib/queries/bands';
-import { getQueryClient } from '../../lib/query-client';
+import { ApiError } from '../../browser/api';
+import { useCreateBand, usePreviewCurve, type CurveUpload } from '../../browser/bands';
+import { getQueryClient } from '../../browser/query-client';
 import BandCurvePlot from './BandCurvePlot';
 import { readZeroPoint, ZeroPointFields } from './BandZeroPointForm';
 

@@ -4,9 +4,9 @@
 // new-band form.
 import { QueryClientProvider } from '@tanstack/react-query';
 import { useState, type SubmitEvent } from 'react';
-import { ApiError } from '../../lib/queries/api';
-import { useUpdateZeroPoint, type ZeroPointBody } from '../../lib/queries/bands';
-import { getQueryClient } from '../../lib/query-client';
+import { ApiError } from '../../browser/api';
+import { useUpdateZeroPoint, type ZeroPointBody } from '../../browser/bands';
+import { getQueryClient } from '../../browser/query-client';
 
 export type ZeroPointKind = 'none' | 'flambda' | 'fnu';
 

@@ -3,8 +3,8 @@
 // reasons. Polls GET /api/batches/:id/progress (and …/failures) until the batch has finished.
 import { QueryClientProvider } from '@tanstack/react-query';
 import { useState } from 'react';
-import { getQueryClient } from '../../lib/query-client';
-import { useBatchFailures, useBatchProgress, type BatchFailuresView, type BatchProgressView } from '../../lib/queries/batches';
+import { getQueryClient } from '../../browser/query-client';
+import { useBatchFailures, useBatchProgress, type BatchFailuresView, type BatchProgressView } from '../../browser/batches';
 
 interface Props {
   batchId: string;

@@ -3,9 +3,9 @@
 // form posts to the page, which starts the batch the same way.
 import { QueryClientProvider } from '@tanstack/react-query';
 import { useState, type SubmitEvent } from 'react';
-import { ApiError } from '../../lib/queries/api';
-import { starKeysFromText, useStartBatch, type StartBatchBody } from '../../lib/queries/batches';
-import { getQueryClient } from '../../lib/query-client';
+import { ApiError } from '../../browser/api';
+import { starKeysFromText, useStartBatch, type StartBatchBody } from '../../browser/batches';
+import { getQueryClient } from '../../browser/query-client';
 
 interface Props {
   campaignId: string;

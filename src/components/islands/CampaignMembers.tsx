@@ -3,11 +3,11 @@
 // POST /api/campaigns/:id/members once hydrated. Without JavaScript the form posts to the page.
 import { QueryClientProvider } from '@tanstack/react-query';
 import { useState, type SubmitEvent } from 'react';
-import type { AddMemberResult, CampaignOverview } from '../../lib/api-types';
-import { ApiError } from '../../lib/queries/api';
-import { useAddMember, useCampaignOverview } from '../../lib/queries/campaigns';
-import { getQueryClient } from '../../lib/query-client';
-import { CAMPAIGN_ROLES, ROLE_DESCRIPTIONS, type CampaignRole } from '../../lib/vocabulary';
+import type { AddMemberResult, CampaignOverview } from '../../contracts/api';
+import { ApiError } from '../../browser/api';
+import { useAddMember, useCampaignOverview } from '../../browser/campaigns';
+import { getQueryClient } from '../../browser/query-client';
+import { CAMPAIGN_ROLES, ROLE_DESCRIPTIONS, type CampaignRole } from '../../contracts/vocabulary';
 import { RoleChips } from '../ui/RoleChips';
 import { formatDate } from '../ui/formatDate';
 

@@ -4,10 +4,10 @@
 // posts to the page, which creates the campaign on the server.
 import { QueryClientProvider } from '@tanstack/react-query';
 import { useState, type SubmitEvent } from 'react';
-import type { CampaignSummary } from '../../lib/api-types';
-import { ApiError } from '../../lib/queries/api';
-import { useCampaigns, useCreateCampaign } from '../../lib/queries/campaigns';
-import { getQueryClient } from '../../lib/query-client';
+import type { CampaignSummary } from '../../contracts/api';
+import { ApiError } from '../../browser/api';
+import { useCampaigns, useCreateCampaign } from '../../browser/campaigns';
+import { getQueryClient } from '../../browser/query-client';
 import { RoleChips } from '../ui/RoleChips';
 import { formatDate } from '../ui/formatDate';
 

@@ -7,8 +7,8 @@ import { QueryClientProvider } from '@tanstack/react-query';
 import createPlotlyComponent from 'react-plotly.js/factory';
 import Plotly from 'plotly.js-dist-min';
 import { useEffect, useState } from 'react';
-import { FILTER_EVENT, filterQuery, useCatalogueDiagrams, type CatalogueDiagrams as Diagrams } from '../../lib/queries/catalogue';
-import { getQueryClient } from '../../lib/query-client';
+import { FILTER_EVENT, filterQuery, useCatalogueDiagrams, type CatalogueDiagrams as Diagrams } from '../../browser/catalogue';
+import { getQueryClient } from '../../browser/query-client';
 
 const Plot = createPlotlyComponent(Plotly);
 

@@ -6,7 +6,7 @@ import { QueryClientProvider } from '@tanstack/react-query';
 import { createColumnHelper, flexRender, getCoreRowModel, useReactTable } from '@tanstack/react-table';
 import { useEffect, useMemo, useState, type MouseEvent, type SubmitEvent } from 'react';
 import { FLAG_EXPLANATIONS } from '../../core/fit/flags';
-import { ApiError } from '../../lib/queries/api';
+import { ApiError } from '../../browser/api';
 import {
   DOWNLOAD_FORMATS,
   FILTER_EVENT,
@@ -18,8 +18,8 @@ import {
   type CataloguePage,
   type CatalogueRowView,
   type SortKey,
-} from '../../lib/queries/catalogue';
-import { getQueryClient } from '../../lib/query-client';
+} from '../../browser/catalogue';
+import { getQueryClient } from '../../browser/query-client';
 
 interface Props {
   campaignId: string;

@@ -8,7 +8,7 @@ import XHRUpload from '@uppy/xhr-upload';
 import '@uppy/core/css/style.min.css';
 import '@uppy/dashboard/css/style.min.css';
 import { useCallback, useEffect, useState } from 'react';
-import { intakeApi, type UploadSummary } from '../../lib/queries/intake';
+import { intakeApi, type UploadSummary } from '../../browser/intake';
 import MappingEditor from './MappingEditor';
 
 interface Props {

@@ -1,8 +1,8 @@
 // One upload's mapping screen: every column with what it means (first guess from its name), the
 // first rows, saved presets, quality rules, the check report and the import.
 import { useEffect, useMemo, useState } from 'react';
-import { BAND_ROLES, ROLE_LABELS, type ColumnAssignment, type ColumnRole, type Mapping, type MappingRules } from '../../core/mapping';
-import { intakeApi, IntakeApiError, type CheckSummary, type ImportSummary, type MappingPresetView, type ReportEntry, type UploadDetail } from '../../lib/queries/intake';
+import { BAND_ROLES, ROLE_LABELS, type ColumnAssignment, type ColumnRole, type Mapping, type MappingRules } from '../../core/input/mapping';
+import { intakeApi, IntakeApiError, type CheckSummary, type ImportSummary, type MappingPresetView, type ReportEntry, type UploadDetail } from '../../browser/intake';
 
 interface Props {
   campaignId: string;

@@ -5,11 +5,11 @@
 // (the plot needs the browser); the page renders the queue as plain links without JavaScript.
 import { QueryClientProvider } from '@tanstack/react-query';
 import { useCallback, useEffect, useMemo, useRef, useState, type SubmitEvent } from 'react';
-import { ApiError } from '../../lib/queries/api';
-import { useBulkDecide, useDecide, useReviewQueue, useStarSheet } from '../../lib/queries/review';
-import { getQueryClient } from '../../lib/query-client';
-import { REVIEW_REASONS, type ReviewFilter, type ReviewReason } from '../../lib/review-reasons';
-import type { QueueItem } from '../../lib/review-types';
+import { ApiError } from '../../browser/api';
+import { useBulkDecide, useDecide, useReviewQueue, useStarSheet } from '../../browser/review';
+import { getQueryClient } from '../../browser/query-client';
+import { REVIEW_REASONS, type ReviewFilter, type ReviewReason } from '../../contracts/review-reasons';
+import type { QueueItem } from '../../contracts/review';
 import { formatDate } from '../ui/formatDate';
 import StarSedPlot from './StarSedPlot';
 

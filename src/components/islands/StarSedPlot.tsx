@@ -2,7 +2,7 @@
 // the browser. The same numbers are in the server-rendered band table beside it, and a short text
 // summary here says which band is drawn where, for screen readers and tests.
 import { useState } from 'react';
-import type { StarSheet } from '../../lib/review-types';
+import type { StarSheet } from '../../contracts/review';
 import { Plot } from '../ui/review/Plot';
 import { sedFigure } from '../ui/review/sed-figure';
 

@@ -3,8 +3,8 @@
 // JavaScript the forms post to the page.
 import { QueryClientProvider, useMutation, useQuery, useQueryClient } from '@tanstack/react-query';
 import { useState, type SubmitEvent } from 'react';
-import { ApiError, apiFetch } from '../../lib/queries/api';
-import { getQueryClient } from '../../lib/query-client';
+import { ApiError, apiFetch } from '../../browser/api';
+import { getQueryClient } from '../../browser/query-client';
 import { formatDate } from '../ui/formatDate';
 
 export interface TokenRow {

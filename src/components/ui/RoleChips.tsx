@@ -1,4 +1,4 @@
-import type { CampaignRole } from '../../lib/vocabulary';
+import type { CampaignRole } from '../../contracts/vocabulary';
 
 export function RoleChips({ roles }: { roles: CampaignRole[] }) {
   return (

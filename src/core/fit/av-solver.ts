@@ -3,7 +3,7 @@
 // It works on the engine's slots and scratch (one AvSolver per FitEngine, so it allocates nothing per
 // star); the engine calls fit() from run() when A_V is fitted. The method is described in README.md.
 
-import { AV_STEP_MAG, COARSE_STRIDE, LN_T_MAX, LN_T_MIN, LN_T_STEP } from './tables';
+import { AV_STEP_MAG, COARSE_STRIDE, LN_T_MAX, LN_T_MIN, LN_T_STEP } from './grid';
 import { FLAG_BITS } from './flags';
 import { invert3, solve2, solve3 } from './linear-algebra';
 import type { FitEngine } from './engine';

@@ -29,7 +29,7 @@ import {
   avWeights,
   planeOf,
   type Plane,
-} from './tables';
+} from './grid';
 import { FLAG_BITS } from './flags';
 import { deriveInto, type Derived } from './derived';
 import { AvSolver } from './av-solver';

@@ -15,7 +15,7 @@ import type { BandFlux, ExtinctionLawKey, ExtinctionSpec } from '../types';
 import type { BandLibrary } from '../bands';
 import { getBand } from '../bands';
 import { applyFloor, planckBandMean } from '../photometry';
-import { FitTables } from './tables';
+import { FitTables } from './grid';
 import {
   EXCLUDE_CLIPPED,
   EXCLUDE_LONG,

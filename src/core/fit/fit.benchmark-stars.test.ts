@@ -7,7 +7,7 @@ import { readFileSync } from 'node:fs';
 import path from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { describe, expect, it } from 'vitest';
-import { readFitsTable } from '../tables/fits';
+import { readFitsTable } from '../input/fits-file';
 import { starterBandLibrary, requireBand } from '../bands';
 import { measurementToBandFlux } from '../photometry';
 import type { BandFlux } from '../types';

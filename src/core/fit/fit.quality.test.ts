@@ -8,7 +8,7 @@ import { planckBandMean } from '../photometry';
 import type { BandFlux } from '../types';
 import { prepareFitModel, fitStar, starEntries, engineSettings, type FitResult, type FitFailure } from './fit-star';
 import { dilutionFromThetaMas } from './derived';
-import { lnPhiAt } from './tables';
+import { lnPhiAt } from './grid';
 import { FLAG_EXPLANATIONS, FLAG_BITS } from './flags';
 import { mulberry32, normalDeviate } from './random';
 

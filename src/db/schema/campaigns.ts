@@ -11,7 +11,7 @@ import {
   text,
   uniqueIndex,
 } from 'drizzle-orm/sqlite-core';
-import { CAMPAIGN_ROLES, type CampaignRole } from '../../lib/vocabulary';
+import { CAMPAIGN_ROLES, type CampaignRole } from '../../contracts/vocabulary';
 import { user } from './auth';
 
 const now = sql`(cast(unixepoch('subsecond') * 1000 as integer))`;

@@ -26,7 +26,7 @@ export const reviewDecisions = sqliteTable(
       .references(() => campaigns.id, { onDelete: 'cascade' }),
     reviewerId: text('reviewer_id').references(() => user.id, { onDelete: 'set null' }),
     decision: text('decision', { enum: REVIEW_DECISIONS }).notNull(),
-    // One of our own reason codes when flagged (see src/lib/vocabulary or the review module).
+    // One of our own reason codes when flagged (see src/contracts/vocabulary or the review module).
     reason: text('reason'),
     comment: text('comment').notNull().default(''),
     // Set when the decision was made in a bulk action, with the filter it used.

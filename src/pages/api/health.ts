@@ -1,6 +1,6 @@
 // GET /api/health: app version and whether the database is reachable and fully migrated.
 import type { APIRoute } from 'astro';
-import { json } from '../../lib/http';
+import { json } from '../../web/http';
 import { checkHealth } from '../../server/health';
 
 export const GET: APIRoute = ({ locals }) => {

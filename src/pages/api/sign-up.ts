@@ -1,6 +1,6 @@
 // POST /api/sign-up {name, email, password, invitation?}: create an account and sign in.
 import type { APIRoute } from 'astro';
-import { handle, json, readJsonBody } from '../../lib/http';
+import { handle, json, readJsonBody } from '../../web/http';
 import { registerAccount } from '../../server/accounts';
 
 export const POST: APIRoute = handle(async ({ locals, request }) => {

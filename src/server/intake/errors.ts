@@ -1,6 +1,6 @@
 // Intake failures carry statuses the shared HttpError does not have (413 too large, 422 a report
-// the analyst must see), and sometimes the validation report itself.
-import { errorResponse, json } from '../../lib/http';
+// the analyst must see), and sometimes the validation report itself. The web glue's errorResponse
+// (src/web/http.ts) turns one into its JSON answer.
 import type { ReportEntry } from './report';
 
 export class IntakeError extends Error {
@@ -17,16 +17,4 @@ export class IntakeError extends Error {
   toJSON() {
     return { error: { code: this.code, message: this.message }, ...this.extra };
   }
-}
-
-/** Like lib/http's handle(), plus IntakeError → its own status and body. */
-export function handleIntake<C>(fn: (ctx: C) => Promise<Response> | Response): (ctx: C) => Promise<Response> {
-  return async (ctx) => {
-    try {
-      return await fn(ctx);
-    } catch (err) {
-      if (err instanceof IntakeError) return json(err.toJSON(), err.status);
-      return errorResponse(err);
-    }
-  };
 }

@@ -10,11 +10,10 @@ import {
   previewRows,
   type ColumnRole,
   type ColumnTable,
-  type DetectedMapping,
   type Mapping,
   type MappingResult,
   type MappingRules,
-} from '../../core/mapping';
+} from '../../core/input/mapping';
 import type { AppDatabase, DbOrTx } from '../../db/client';
 import { measurements, stars, uploads } from '../../db/schema';
 import type { Actor, AppServices } from '../context';
@@ -23,8 +22,11 @@ import { parseInput } from '../validation';
 import { recordAudit } from '../audit';
 import { getCurrentLibrary } from '../band-library';
 import { IntakeError } from './errors';
-import { FORMAT_LABELS, readUpload, UnreadableFile, type DetectedFormat, type ImageObservation, type ReadUpload } from '../../core/tables/table-file';
-import { fileProblem, toReport, type ReportEntry } from './report';
+import { FORMAT_LABELS, readUpload, UnreadableFile, type DetectedFormat, type ReadUpload } from '../../core/input/table-file';
+import { fileProblem, toReport } from './report';
+import type { CheckSummary, ImportSummary, ReportEntry, UploadDetail, UploadSummary } from '../../contracts/intake';
+
+export type { CheckSummary, ImportSummary, UploadDetail, UploadSummary } from '../../contracts/intake';
 import { intakeConfigFromEnv, receiveUpload, type IntakeConfig } from './storage';
 
 export const PREVIEW_ROWS = 8;
@@ -85,34 +87,6 @@ export const importInput = z.object({
 
 // ---------------------------------------------------------------------------------------------
 // Views
-
-export interface UploadSummary {
-  id: string;
-  originalName: string;
-  sizeBytes: number;
-  sha256: string;
-  format: DetectedFormat | null;
-  formatLabel: string | null;
-  status: string;
-  rowCount: number | null;
-  importedRowCount: number | null;
-  createdAt: string;
-  importedAt: string | null;
-  errorCount: number;
-  warningCount: number;
-}
-
-export interface UploadDetail extends UploadSummary {
-  columns: string[];
-  units: (string | null)[];
-  preview: string[][];
-  detected: DetectedMapping | null;
-  bandKeys: string[];
-  observation?: ImageObservation;
-  /** For an image: the band whose key matches FILTER, when one does. */
-  suggestedBand?: string;
-  report: ReportEntry[];
-}
 
 type UploadRow = typeof uploads.$inferSelect;
 
@@ -230,18 +204,6 @@ export function getUpload(db: DbOrTx, campaignId: string, uploadId: string): Upl
   }
 }
 
-export interface CheckSummary {
-  uploadId: string;
-  rowCount: number;
-  starCount: number;
-  measurementCount: number;
-  rejectedRows: number;
-  excludedByQuality: number;
-  errorCount: number;
-  warningCount: number;
-  report: ReportEntry[];
-}
-
 function checkSummary(uploadId: string, r: MappingResult): CheckSummary {
   return {
     uploadId,
@@ -278,17 +240,6 @@ export function checkUpload(app: AppServices, actor: Actor, campaignId: string, 
     .where(eq(uploads.id, uploadId))
     .run();
   return result;
-}
-
-export interface ImportSummary extends CheckSummary {
-  source: string;
-  starsCreated: number;
-  starsUpdated: number;
-  measurementsCreated: number;
-  measurementsUpdated: number;
-  /** Stars and measurements the campaign holds after the import. */
-  campaignStars: number;
-  campaignMeasurements: number;
 }
 
 export interface ImportHooks {

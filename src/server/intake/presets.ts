@@ -9,6 +9,9 @@ import { HttpError } from '../errors';
 import { newId } from '../ids';
 import { parseInput } from '../validation';
 import { mappingInput, rulesInput } from './intake';
+import type { MappingPresetView } from '../../contracts/intake';
+
+export type { MappingPresetView } from '../../contracts/intake';
 
 export const presetInput = z.object({
   name: z
@@ -19,14 +22,6 @@ export const presetInput = z.object({
   mapping: mappingInput,
   rules: rulesInput,
 });
-
-export interface MappingPresetView {
-  id: string;
-  name: string;
-  mapping: z.output<typeof mappingInput>;
-  rules: z.output<typeof rulesInput>;
-  createdAt: string;
-}
 
 function view(row: typeof mappingPresets.$inferSelect): MappingPresetView {
   const stored = row.mapping as { mapping: MappingPresetView['mapping']; rules?: MappingPresetView['rules'] };

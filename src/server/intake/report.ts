@@ -1,16 +1,8 @@
 // The validation report kept with each upload: every problem with file, row and column.
-import type { MappingProblem } from '../../core/mapping';
+import type { MappingProblem } from '../../core/input/mapping';
+import type { ReportEntry } from '../../contracts/intake';
 
-export interface ReportEntry {
-  file: string;
-  /** 1-based data row; 0 = the header or the whole file. */
-  row: number;
-  line?: number;
-  column?: string;
-  columnNumber?: number;
-  severity: 'error' | 'warning';
-  message: string;
-}
+export type { ReportEntry } from '../../contracts/intake';
 
 /** Reports larger than this are cut, with a last entry saying how many were left out. */
 export const REPORT_LIMIT = 2000;

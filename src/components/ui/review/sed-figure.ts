@@ -3,7 +3,7 @@
 // and bands that did not count or lie beyond 3σ drawn with their own markers and the reason on hover.
 // Below, the residuals in σ on the same wavelength axis. Pure: no React, no DOM.
 import type { Data, Layout } from 'plotly.js';
-import type { SheetBand, StarSheet } from '../../../lib/review-types';
+import type { SheetBand, StarSheet } from '../../../contracts/review';
 
 export const SED_COLOURS = {
   measured: '#151c2a', // ink-900

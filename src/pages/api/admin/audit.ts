@@ -1,8 +1,8 @@
 // GET /api/admin/audit?scope=admin|all&action=&actor=&before=&limit=: the audit log, newest first,
 // keyset-paged on the server (admins).
 import type { APIRoute } from 'astro';
-import { requireAdmin } from '../../../lib/guards';
-import { handle, json } from '../../../lib/http';
+import { requireAdmin } from '../../../web/guards';
+import { handle, json } from '../../../web/http';
 import { auditLog } from '../../../server/people';
 
 export const GET: APIRoute = handle(({ locals, url }) => {

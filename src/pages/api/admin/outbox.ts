@@ -1,7 +1,7 @@
 // GET /api/admin/outbox?to=&limit=&offset=: e-mails the service has composed (admins only).
 import type { APIRoute } from 'astro';
-import { requireAdmin } from '../../../lib/guards';
-import { handle, json } from '../../../lib/http';
+import { requireAdmin } from '../../../web/guards';
+import { handle, json } from '../../../web/http';
 import { listOutbox } from '../../../server/admin';
 
 export const GET: APIRoute = handle(({ locals, url }) => {

@@ -1,7 +1,7 @@
 // GET /api/admin/users: every account with its kind (admins only).
 import type { APIRoute } from 'astro';
-import { requireAdmin } from '../../../lib/guards';
-import { handle, json } from '../../../lib/http';
+import { requireAdmin } from '../../../web/guards';
+import { handle, json } from '../../../web/http';
 import { listUsers } from '../../../server/admin';
 
 export const GET: APIRoute = handle(({ locals }) => {

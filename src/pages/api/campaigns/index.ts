@@ -1,7 +1,7 @@
 // GET /api/campaigns: the signed-in person's campaigns. POST: create one (members and admins).
 import type { APIRoute } from 'astro';
-import { requireUser } from '../../../lib/guards';
-import { handle, json, readJsonBody } from '../../../lib/http';
+import { requireUser } from '../../../web/guards';
+import { handle, json, readJsonBody } from '../../../web/http';
 import { createCampaign, listCampaignsForUser } from '../../../server/campaigns';
 
 export const GET: APIRoute = handle(({ locals }) => {

@@ -2,8 +2,8 @@
 // POST {name, expiresInDays?}: make one; the answer holds the secret, shown this once. Only from a
 // signed-in session: a token cannot make tokens.
 import type { APIRoute } from 'astro';
-import { requireUser } from '../../../lib/guards';
-import { handle, json, readJsonBody } from '../../../lib/http';
+import { requireUser } from '../../../web/guards';
+import { handle, json, readJsonBody } from '../../../web/http';
 import { createApiToken, listApiTokens } from '../../../server/api-tokens';
 import { forbidden } from '../../../server/errors';
 

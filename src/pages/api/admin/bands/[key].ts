@@ -1,10 +1,10 @@
 // GET /api/admin/bands/:key?version=: one band with its curve (current version unless one is
 // named) and the versions in which it changed (any signed-in person).
 import type { APIRoute } from 'astro';
-import { requireUser } from '../../../../lib/guards';
-import { handle, json } from '../../../../lib/http';
-import { getCurrentVersion, getLibrary, listHistory } from '../../../../server/band-library';
-import { HttpError } from '../../../../server/errors';
+import { requireUser } from '#web/guards';
+import { handle, json } from '#web/http';
+import { getCurrentVersion, getLibrary, listHistory } from '#server/band-library';
+import { HttpError } from '#server/errors';
 
 export const GET: APIRoute = handle(({ locals, params, url }) => {
   requireUser(locals);

@@ -1,9 +1,9 @@
 // GET /api/admin/bands: the current band library (any signed-in person may read it; analysts need it).
 // POST {band, curve, reason}: add a band from an uploaded curve — a new band library version (admins).
 import type { APIRoute } from 'astro';
-import { requireAdmin, requireUser } from '../../../../lib/guards';
-import { handle, json, readJsonBody } from '../../../../lib/http';
-import { createBand, getCurrentLibrary, getCurrentVersion, summariseBand } from '../../../../server/band-library';
+import { requireAdmin, requireUser } from '#web/guards';
+import { handle, json, readJsonBody } from '#web/http';
+import { createBand, getCurrentLibrary, getCurrentVersion, summariseBand } from '#server/band-library';
 
 export const GET: APIRoute = handle(({ locals }) => {
   requireUser(locals);

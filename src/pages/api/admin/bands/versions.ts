@@ -1,8 +1,8 @@
 // GET /api/admin/bands/versions?limit=&offset=: band library versions, newest first (any signed-in person).
 import type { APIRoute } from 'astro';
-import { requireUser } from '../../../../lib/guards';
-import { handle, json } from '../../../../lib/http';
-import { listVersions } from '../../../../server/band-library';
+import { requireUser } from '#web/guards';
+import { handle, json } from '#web/http';
+import { listVersions } from '#server/band-library';
 
 export const GET: APIRoute = handle(({ locals, url }) => {
   requireUser(locals);

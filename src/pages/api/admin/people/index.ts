@@ -2,9 +2,9 @@
 // POST {campaignId, email, roles}: invite someone to a campaign by e-mail (through the outbox), or
 // add an existing account to it (admins).
 import type { APIRoute } from 'astro';
-import { requireAdmin } from '../../../../lib/guards';
-import { handle, json, readJsonBody } from '../../../../lib/http';
-import { invitePerson, listPeople } from '../../../../server/people';
+import { requireAdmin } from '#web/guards';
+import { handle, json, readJsonBody } from '#web/http';
+import { invitePerson, listPeople } from '#server/people';
 
 export const GET: APIRoute = handle(({ locals, url }) => {
   requireAdmin(locals);

@@ -1,10 +1,10 @@
 // GET /api/batches/:batchId/failures?limit=&offset=: stars that could not be fitted, each with its
 // reason, and jobs waiting to be tried again (any member of the batch's campaign, admins).
 import type { APIRoute } from 'astro';
-import { requireCampaignRole } from '../../../../lib/guards';
-import { handle, json } from '../../../../lib/http';
-import { batchFailures, requireBatch } from '../../../../server/batches';
-import { HttpError } from '../../../../server/errors';
+import { requireCampaignRole } from '#web/guards';
+import { handle, json } from '#web/http';
+import { batchFailures, requireBatch } from '#server/batches';
+import { HttpError } from '#server/errors';
 
 function pageNumber(url: URL, name: string, fallback: number): number {
   const raw = url.searchParams.get(name);

@@ -1,9 +1,9 @@
 // GET /api/batches/:batchId/progress: counts, rate and time left of one batch (any member of its
 // campaign, admins). The batch page polls this.
 import type { APIRoute } from 'astro';
-import { requireCampaignRole } from '../../../../lib/guards';
-import { handle, json } from '../../../../lib/http';
-import { batchProgress, requireBatch } from '../../../../server/batches';
+import { requireCampaignRole } from '#web/guards';
+import { handle, json } from '#web/http';
+import { batchProgress, requireBatch } from '#server/batches';
 
 export const GET: APIRoute = handle(({ locals, params }) => {
   const batch = requireBatch(locals.app.db, params.batchId ?? '');

@@ -1,8 +1,8 @@
 // GET /api/campaigns/:id: the campaign with its members (members of the campaign and admins).
 import type { APIRoute } from 'astro';
-import { requireCampaignRole } from '../../../../lib/guards';
-import { handle, json } from '../../../../lib/http';
-import { getCampaignOverview } from '../../../../server/campaigns';
+import { requireCampaignRole } from '#web/guards';
+import { handle, json } from '#web/http';
+import { getCampaignOverview } from '#server/campaigns';
 
 export const GET: APIRoute = handle(({ locals, params }) => {
   const { actor, campaign } = requireCampaignRole(locals, params.id ?? '', 'any', { allowAdmin: true });

@@ -1,9 +1,9 @@
 // GET /api/campaigns/:id/members: members (any member or admin).
 // POST {email, roles}: add a member or invite an unknown address (the campaign's analysts and admins).
 import type { APIRoute } from 'astro';
-import { requireCampaignRole } from '../../../../lib/guards';
-import { handle, json, readJsonBody } from '../../../../lib/http';
-import { addMember, listMembers } from '../../../../server/campaigns';
+import { requireCampaignRole } from '#web/guards';
+import { handle, json, readJsonBody } from '#web/http';
+import { addMember, listMembers } from '#server/campaigns';
 
 export const GET: APIRoute = handle(({ locals, params }) => {
   const { campaign } = requireCampaignRole(locals, params.id ?? '', 'any', { allowAdmin: true });

@@ -2,9 +2,9 @@
 // (a band they used changed in the current band library version) — any member, admins.
 // POST: re-fit those stars on the current version with their earlier batch's options (analysts).
 import type { APIRoute } from 'astro';
-import { requireCampaignRole } from '../../../../lib/guards';
-import { handle, json } from '../../../../lib/http';
-import { refitStaleStars, staleFits } from '../../../../server/stale';
+import { requireCampaignRole } from '#web/guards';
+import { handle, json } from '#web/http';
+import { refitStaleStars, staleFits } from '#server/stale';
 
 export const GET: APIRoute = handle(({ locals, params, url }) => {
   const { campaign } = requireCampaignRole(locals, params.id ?? '', 'any', { allowAdmin: true });

@@ -2,10 +2,10 @@
 // (?cursor=&limit=) and filtered (?chi2RedBelow=&noFlags=1&teffMinK=&teffMaxK=&batchId=).
 // Reviewers and analysts of the campaign, admins; collaborators see accepted results elsewhere.
 import type { APIRoute } from 'astro';
-import { requireCampaignRole } from '../../../../lib/guards';
-import { handle, json } from '../../../../lib/http';
-import { filterFromSearch, getReviewSettings, queueQueryInput, reviewQueue } from '../../../../server/review';
-import { parseInput } from '../../../../server/validation';
+import { requireCampaignRole } from '#web/guards';
+import { handle, json } from '#web/http';
+import { filterFromSearch, getReviewSettings, queueQueryInput, reviewQueue } from '#server/review';
+import { parseInput } from '#server/validation';
 
 export const GET: APIRoute = handle(({ locals, params, url }) => {
   const { campaign } = requireCampaignRole(locals, params.id ?? '', ['reviewer', 'analyst'], { allowAdmin: true });

@@ -1,9 +1,9 @@
 // GET /api/fits/:fitId/history: every review decision on one fit, newest first, superseded ones
 // included with when and why (any member of its campaign, admins).
 import type { APIRoute } from 'astro';
-import { requireCampaignRole } from '../../../../lib/guards';
-import { handle, json } from '../../../../lib/http';
-import { fitHistory, requireFitRef } from '../../../../server/review';
+import { requireCampaignRole } from '#web/guards';
+import { handle, json } from '#web/http';
+import { fitHistory, requireFitRef } from '#server/review';
 
 export const GET: APIRoute = handle(({ locals, params }) => {
   const fit = requireFitRef(locals.app.db, params.fitId);

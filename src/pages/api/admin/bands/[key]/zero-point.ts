@@ -2,10 +2,10 @@
 // a new band library version; fits that used the old numbers become stale and the analysts of their
 // campaigns get an e-mail (admins).
 import type { APIRoute } from 'astro';
-import { requireAdmin } from '../../../../../lib/guards';
-import { handle, json, readJsonBody } from '../../../../../lib/http';
-import { summariseBand, updateZeroPoint } from '../../../../../server/band-library';
-import { notifyAnalystsOfStaleFits } from '../../../../../server/stale';
+import { requireAdmin } from '#web/guards';
+import { handle, json, readJsonBody } from '#web/http';
+import { summariseBand, updateZeroPoint } from '#server/band-library';
+import { notifyAnalystsOfStaleFits } from '#server/stale';
 
 export const POST: APIRoute = handle(async ({ locals, params, request }) => {
   const actor = requireAdmin(locals);

@@ -1,8 +1,8 @@
 // POST /api/admin/people/:userId/kind {kind}: make an account admin, member or guest (admins).
 import type { APIRoute } from 'astro';
-import { requireAdmin } from '../../../../../lib/guards';
-import { handle, json, readJsonBody } from '../../../../../lib/http';
-import { setKind } from '../../../../../server/people';
+import { requireAdmin } from '#web/guards';
+import { handle, json, readJsonBody } from '#web/http';
+import { setKind } from '#server/people';
 
 export const POST: APIRoute = handle(async ({ locals, params, request }) => {
   const actor = requireAdmin(locals);

@@ -1,8 +1,8 @@
 // POST /api/admin/people/:userId/reactivate: let a deactivated person sign in again (admins).
 import type { APIRoute } from 'astro';
-import { requireAdmin } from '../../../../../lib/guards';
-import { handle, json } from '../../../../../lib/http';
-import { reactivatePerson } from '../../../../../server/people';
+import { requireAdmin } from '#web/guards';
+import { handle, json } from '#web/http';
+import { reactivatePerson } from '#server/people';
 
 export const POST: APIRoute = handle(({ locals, params }) => {
   const actor = requireAdmin(locals);

@@ -1,9 +1,9 @@
 // GET /api/campaigns/:id/batches: the campaign's batches with their progress (any member, admins).
 // POST {options, starKeys?}: start a batch over the campaign's stars, or the listed ones (analysts).
 import type { APIRoute } from 'astro';
-import { requireCampaignRole } from '../../../../../lib/guards';
-import { handle, json, readJsonBody } from '../../../../../lib/http';
-import { listBatches, startBatch } from '../../../../../server/batches';
+import { requireCampaignRole } from '#web/guards';
+import { handle, json, readJsonBody } from '#web/http';
+import { listBatches, startBatch } from '#server/batches';
 
 export const GET: APIRoute = handle(({ locals, params }) => {
   const { campaign } = requireCampaignRole(locals, params.id ?? '', 'any', { allowAdmin: true });

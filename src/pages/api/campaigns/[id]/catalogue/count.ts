@@ -1,9 +1,9 @@
 // GET /api/campaigns/:id/catalogue/count: how many results the filter leaves, and the campaign's
 // total (any member or admin). Same filter parameters as …/catalogue.
 import type { APIRoute } from 'astro';
-import { requireCampaignRole } from '../../../../../lib/guards';
-import { handle, json } from '../../../../../lib/http';
-import { catalogueCount, parseCatalogueFilter } from '../../../../../server/catalogue';
+import { requireCampaignRole } from '#web/guards';
+import { handle, json } from '#web/http';
+import { catalogueCount, parseCatalogueFilter } from '#server/catalogue';
 
 export const GET: APIRoute = handle(({ locals, params, url }) => {
   const { campaign } = requireCampaignRole(locals, params.id ?? '', 'any', { allowAdmin: true });

@@ -2,9 +2,9 @@
 // histogram when there are more than DIAGRAM_POINT_LIMIT) and the temperature histogram for the
 // filter (any member or admin). Same filter parameters as …/catalogue.
 import type { APIRoute } from 'astro';
-import { requireCampaignRole } from '../../../../../lib/guards';
-import { handle, json } from '../../../../../lib/http';
-import { catalogueDiagrams, parseCatalogueFilter } from '../../../../../server/catalogue';
+import { requireCampaignRole } from '#web/guards';
+import { handle, json } from '#web/http';
+import { catalogueDiagrams, parseCatalogueFilter } from '#server/catalogue';
 
 export const GET: APIRoute = handle(({ locals, params, url }) => {
   const { campaign } = requireCampaignRole(locals, params.id ?? '', 'any', { allowAdmin: true });

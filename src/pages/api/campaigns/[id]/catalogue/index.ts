@@ -4,9 +4,9 @@
 // (pending,accepted,flagged comma-separated, or all), teffMin, teffMax, chi2Max, flag, flagAbsent, q
 // (star id prefix). Totals are a separate request (…/catalogue/count): they read every matching row.
 import type { APIRoute } from 'astro';
-import { requireCampaignRole } from '../../../../../lib/guards';
-import { handle, json } from '../../../../../lib/http';
-import { cataloguePage, parseCataloguePageRequest } from '../../../../../server/catalogue';
+import { requireCampaignRole } from '#web/guards';
+import { handle, json } from '#web/http';
+import { cataloguePage, parseCataloguePageRequest } from '#server/catalogue';
 
 export const GET: APIRoute = handle(({ locals, params, url }) => {
   const { campaign } = requireCampaignRole(locals, params.id ?? '', 'any', { allowAdmin: true });

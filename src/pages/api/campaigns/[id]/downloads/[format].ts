@@ -2,11 +2,11 @@
 // (any member or admin, by session or API token). Same filter parameters as …/catalogue; without
 // status every review state is included, so ask for status=accepted for the accepted catalogue.
 import type { APIRoute } from 'astro';
-import { requireCampaignRole } from '../../../../../lib/guards';
-import { handle } from '../../../../../lib/http';
-import { parseCatalogueFilter } from '../../../../../server/catalogue';
-import { HttpError } from '../../../../../server/errors';
-import { EXPORT_FORMAT_NAMES, exportResponse, isExportFormat } from '../../../../../server/exports';
+import { requireCampaignRole } from '#web/guards';
+import { handle } from '#web/http';
+import { parseCatalogueFilter } from '#server/catalogue';
+import { HttpError } from '#server/errors';
+import { EXPORT_FORMAT_NAMES, exportResponse, isExportFormat } from '#server/exports';
 
 export const GET: APIRoute = handle(({ locals, params, url }) => {
   const { campaign } = requireCampaignRole(locals, params.id ?? '', 'any', { allowAdmin: true });

@@ -1,9 +1,9 @@
 // GET /api/campaigns/:id/mapping-presets: saved column mappings. POST {name, mapping, rules}: save
 // (the same name replaces). Analysts only; admins may look.
 import type { APIRoute } from 'astro';
-import { requireCampaignRole } from '../../../../../lib/guards';
-import { handle, json, readJsonBody } from '../../../../../lib/http';
-import { listPresets, savePreset } from '../../../../../server/intake/presets';
+import { requireCampaignRole } from '#web/guards';
+import { handle, json, readJsonBody } from '#web/http';
+import { listPresets, savePreset } from '#server/intake/presets';
 
 export const GET: APIRoute = handle(({ locals, params }) => {
   const { campaign } = requireCampaignRole(locals, params.id ?? '', ['analyst'], { allowAdmin: true });

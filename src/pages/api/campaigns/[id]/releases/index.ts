@@ -2,9 +2,9 @@
 // POST {title, note?, query?}: release the catalogue (default query status=accepted) and e-mail every
 // collaborator once through the outbox (the campaign's analysts and admins).
 import type { APIRoute } from 'astro';
-import { requireCampaignRole } from '../../../../../lib/guards';
-import { handle, json, readJsonBody } from '../../../../../lib/http';
-import { createRelease, listReleases } from '../../../../../server/releases';
+import { requireCampaignRole } from '#web/guards';
+import { handle, json, readJsonBody } from '#web/http';
+import { createRelease, listReleases } from '#server/releases';
 
 export const GET: APIRoute = handle(({ locals, params }) => {
   const { campaign } = requireCampaignRole(locals, params.id ?? '', 'any', { allowAdmin: true });

@@ -3,10 +3,10 @@
 // the four-eyes rule, notices sent (reviewers and analysts of the campaign, admins).
 import type { APIRoute } from 'astro';
 import { z } from 'zod';
-import { requireCampaignRole } from '../../../../../lib/guards';
-import { handle, json } from '../../../../../lib/http';
-import { reviewAudit } from '../../../../../server/review';
-import { parseInput } from '../../../../../server/validation';
+import { requireCampaignRole } from '#web/guards';
+import { handle, json } from '#web/http';
+import { reviewAudit } from '#server/review';
+import { parseInput } from '#server/validation';
 
 const query = z.object({
   limit: z.coerce.number({ error: 'limit must be a number.' }).int('limit must be a whole number.').min(1, 'limit must be at least 1.').max(500, 'limit can be at most 500.').default(100),

@@ -3,9 +3,9 @@
 // (reviewers of the campaign and admins). Under the four-eyes rule an accept leaves out fits of
 // batches the caller started and says how many.
 import type { APIRoute } from 'astro';
-import { requireCampaignRole } from '../../../../../lib/guards';
-import { handle, json, readJsonBody } from '../../../../../lib/http';
-import { bulkDecide } from '../../../../../server/review';
+import { requireCampaignRole } from '#web/guards';
+import { handle, json, readJsonBody } from '#web/http';
+import { bulkDecide } from '#server/review';
 
 export const POST: APIRoute = handle(async ({ locals, params, request }) => {
   const { actor, campaign } = requireCampaignRole(locals, params.id ?? '', ['reviewer'], { allowAdmin: true });

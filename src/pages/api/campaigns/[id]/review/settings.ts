@@ -1,9 +1,9 @@
 // GET /api/campaigns/:id/review/settings: the campaign's review rules (any member, admins).
 // POST {fourEyes}: switch the four-eyes rule on or off (the campaign's analysts and admins; audited).
 import type { APIRoute } from 'astro';
-import { requireCampaignRole } from '../../../../../lib/guards';
-import { handle, json, readJsonBody } from '../../../../../lib/http';
-import { getReviewSettings, setReviewSettings } from '../../../../../server/review';
+import { requireCampaignRole } from '#web/guards';
+import { handle, json, readJsonBody } from '#web/http';
+import { getReviewSettings, setReviewSettings } from '#server/review';
 
 export const GET: APIRoute = handle(({ locals, params }) => {
   const { campaign } = requireCampaignRole(locals, params.id ?? '', 'any', { allowAdmin: true });

@@ -3,9 +3,9 @@
 // for plotting, earlier fits and the review history (any member of the campaign, admins).
 // :starId is the numeric id or the star's key in the campaign.
 import type { APIRoute } from 'astro';
-import { requireCampaignRole } from '../../../../../lib/guards';
-import { handle, json } from '../../../../../lib/http';
-import { starSheet } from '../../../../../server/star-sheet';
+import { requireCampaignRole } from '#web/guards';
+import { handle, json } from '#web/http';
+import { starSheet } from '#server/star-sheet';
 
 export const GET: APIRoute = handle(({ locals, params }) => {
   const { campaign } = requireCampaignRole(locals, params.id ?? '', 'any', { allowAdmin: true });

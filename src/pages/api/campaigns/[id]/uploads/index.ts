@@ -1,17 +1,16 @@
 // GET /api/campaigns/:id/uploads: recent uploads (analysts; admins may look).
 // POST multipart/form-data with one file: store it, detect its format and columns (analysts only).
 import type { APIRoute } from 'astro';
-import { requireCampaignRole } from '../../../../../lib/guards';
-import { json } from '../../../../../lib/http';
-import { handleIntake } from '../../../../../server/intake/errors';
-import { createUpload, listUploads } from '../../../../../server/intake/intake';
+import { requireCampaignRole } from '#web/guards';
+import { handle, json } from '#web/http';
+import { createUpload, listUploads } from '#server/intake/intake';
 
-export const GET: APIRoute = handleIntake(({ locals, params }) => {
+export const GET: APIRoute = handle(({ locals, params }) => {
   const { campaign } = requireCampaignRole(locals, params.id ?? '', ['analyst'], { allowAdmin: true });
   return json({ uploads: listUploads(locals.app.db, campaign.id) });
 });
 
-export const POST: APIRoute = handleIntake(async ({ locals, params, request }) => {
+export const POST: APIRoute = handle(async ({ locals, params, request }) => {
   const { actor, campaign } = requireCampaignRole(locals, params.id ?? '', ['analyst']);
   const upload = await createUpload(locals.app, actor, campaign.id, request);
   return json({ upload }, 201, { location: `/api/campaigns/${campaign.id}/uploads/${upload.id}` });

@@ -1,5 +1,5 @@
 import { describe, expect, it } from 'vitest';
-import { STARTER_BAND_KEYS } from './bands';
+import { STARTER_BAND_KEYS } from '../bands';
 import { applyMapping, checkMapping, closestBandKey, detectMapping, matchBandColumn, mistypedBandColumn, readCellNumber, type ColumnTable, type Mapping } from './mapping';
 
 const keys = STARTER_BAND_KEYS;

@@ -4,7 +4,7 @@
 // the analyst, and then applied to every row with quality rules. One path for every input format:
 // CSV/TSV, VOTable and FITS tables are all handed over as a `ColumnTable`.
 // Pure: the intake (web), the worker and the CLI share it.
-import type { Measurement } from './types';
+import type { Measurement } from '../types';
 
 /** A cell as readers give it: text (CSV), numbers/booleans/null (FITS, VOTable). */
 export type TableCell = string | number | bigint | boolean | null | undefined;

@@ -1,10 +1,10 @@
 // What an input file is, decided from its bytes (never from its name or the browser's type),
-// and its table in the one shape the column mapping reads (core/mapping ColumnTable). The web
+// and its table in the one shape the column mapping reads (core/input/mapping ColumnTable). The web
 // intake and the `starkiln fit` command both read files through here, so they accept the same
 // formats and say the same things about a file they cannot read.
-import type { ColumnTable, TableCell } from '../mapping';
+import type { ColumnTable, TableCell } from './mapping';
 import { DelimitedError, decodeText, parseDelimited } from './delimited';
-import { FitsError, readFits, readFitsImageHeader, readFitsTable, type FitsCell } from './fits';
+import { FitsError, readFits, readFitsImageHeader, readFitsTable, type FitsCell } from './fits-file';
 import { readVoTable, VoTableError } from './votable';
 
 export const DETECTED_FORMATS = ['csv', 'tsv', 'votable', 'fits-table', 'fits-image'] as const;

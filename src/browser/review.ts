@@ -1,7 +1,7 @@
 // Queries and mutations of the review desk: the server-paged queue, one star's sheet, decisions.
 import { useInfiniteQuery, useMutation, useQuery, useQueryClient } from '@tanstack/react-query';
-import type { ReviewFilter, ReviewReason } from '../review-reasons';
-import type { BulkOutcome, DecisionView, QueuePage, ReviewSettings, StarSheet } from '../review-types';
+import type { ReviewFilter, ReviewReason } from '../contracts/review-reasons';
+import type { BulkOutcome, DecisionView, QueuePage, ReviewSettings, StarSheet } from '../contracts/review';
 import { apiFetch } from './api';
 
 export const reviewKeys = {

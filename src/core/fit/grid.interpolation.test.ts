@@ -5,7 +5,7 @@ import { describe, expect, it } from 'vitest';
 import { starterBandLibrary, requireBand, STARTER_BAND_KEYS } from '../bands';
 import { planckBandMean } from '../photometry';
 import type { ExtinctionSpec } from '../types';
-import { FitTables, lnPhiAt, LN_T_MIN, LN_T_MAX, LN_T_STEP, nodeLnT, GHOST, planeOf } from './tables';
+import { FitTables, lnPhiAt, LN_T_MIN, LN_T_MAX, LN_T_STEP, nodeLnT, GHOST, planeOf } from './grid';
 import { mulberry32 } from './random';
 
 const lib = starterBandLibrary();

@@ -2,15 +2,15 @@
 // Idempotent: running it again leaves an existing demo as it is.
 import { pathToFileURL } from 'node:url';
 import { eq } from 'drizzle-orm';
-import { addToCampaign, makeCampaign, makeUser } from '../../tests/factories';
-import { seedReviewDemo } from '../../tests/factories-review';
-import { createApp } from '../lib/app';
+import { addToCampaign, makeCampaign, makeUser } from './factories';
+import { seedReviewDemo } from './review-stars';
+import { createApp } from '../app/app';
 import { seedDemoSeasonTwo } from './demo-stars';
-import { getEnv } from '../lib/env';
+import { getEnv } from '../adapters/env';
 import type { Actor, AppServices } from '../server/context';
 import { nameKey } from '../server/campaigns';
-import { campaigns, invitations } from './schema';
-import { closeDb, getDb } from './client';
+import { campaigns, invitations } from '../db/schema';
+import { closeDb, getDb } from '../db/client';
 
 /** A reserved top-level domain (.test, RFC 2606): these addresses can never reach anyone. */
 export const DEMO_DOMAIN = 'lanternfield.test';
@@ -57,7 +57,7 @@ export function demoUsers(passwords: Partial<Record<keyof typeof DEMO_DEFAULT_PA
 
 /**
  * fits: also give the demo campaign fitted stars (mock photometry of the invented stars, fitted by
- * the worker path; tests/factories-review.ts): the eight season-one stars waiting for review, and the
+ * the worker path; src/seed/review-stars.ts): the eight season-one stars waiting for review, and the
  * few hundred season-two stars of ./demo-stars.ts, partly reviewed. `npm run db:seed` and
  * `npm run demo` ask for them; tests that need an empty campaign leave it off.
  */

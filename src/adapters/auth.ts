@@ -7,9 +7,9 @@ import { drizzleAdapter } from 'better-auth/adapters/drizzle';
 import { APIError } from 'better-auth/api';
 import type { AppDatabase } from '../db/client';
 import { account, session, user, verification } from '../db/schema';
-import type { AccountKind } from './vocabulary';
+import type { AccountKind } from '../contracts/vocabulary';
 import type { Mailer } from './mail';
-import { passwordResetMail } from '../server/mail-templates';
+import { passwordResetMail } from './mail-templates';
 
 /** Set by createAccount() around the better-auth call: the kind the new account gets. */
 export interface AccountGrant {

@@ -1,6 +1,6 @@
 // The words of the e-mails Starkiln sends. Plain text first; the HTML part says the same thing.
-import type { MailMessage } from '../lib/mail';
-import type { CampaignRole } from '../lib/vocabulary';
+import type { MailMessage } from './mail';
+import type { CampaignRole } from '../contracts/vocabulary';
 
 function escapeHtml(s: string): string {
   return s.replace(/[&<>"']/g, (c) => ({ '&': '&amp;', '<': '&lt;', '>': '&gt;', '"': '&quot;', "'": '&#39;' })[c]!);

@@ -1,7 +1,7 @@
 // Queries and mutations for campaigns, used by the islands.
 import { useMutation, useQuery, useQueryClient } from '@tanstack/react-query';
-import type { AddMemberResult, CampaignOverview, CampaignSummary } from '../api-types';
-import type { CampaignRole } from '../vocabulary';
+import type { AddMemberResult, CampaignOverview, CampaignSummary } from '../contracts/api';
+import type { CampaignRole } from '../contracts/vocabulary';
 import { apiFetch } from './api';
 
 export const campaignKeys = {

@@ -1,9 +1,7 @@
 // Intake calls for the islands. Unlike apiFetch, a refused import keeps the server's validation
 // report (422 {error, report}) so the page can show every problem.
-import type { Mapping, MappingRules } from '../../core/mapping';
-import type { CheckSummary, ImportSummary, UploadDetail, UploadSummary } from '../../server/intake/intake';
-import type { MappingPresetView } from '../../server/intake/presets';
-import type { ReportEntry } from '../../server/intake/report';
+import type { Mapping, MappingRules } from '../core/input/mapping';
+import type { CheckSummary, ImportSummary, MappingPresetView, ReportEntry, UploadDetail, UploadSummary } from '../contracts/intake';
 
 export type { CheckSummary, ImportSummary, MappingPresetView, ReportEntry, UploadDetail, UploadSummary };
 

@@ -2,15 +2,15 @@
 // integrating a blackbody through each real passband (planckBandMean) and converting with the band's
 // zero-point, then fitted by the real path (startBatch + a worker draining the queue), so the
 // numbers on the star sheet and in the queue are the core's own.
-import type { AppDatabase } from '../src/db/client';
-import { requireBand, starterBandLibrary } from '../src/core/bands';
-import { dilutionFromThetaMas } from '../src/core/fit/derived';
-import { mulberry32, normalDeviate } from '../src/core/fit/random';
-import { flambdaCgsToMagnitude, planckBandMean } from '../src/core/photometry';
-import { startBatch, type BatchOptionsInput } from '../src/server/batches';
-import type { Actor, AppServices } from '../src/server/context';
-import { decide } from '../src/server/review';
-import { createWorker } from '../workers/runner';
+import type { AppDatabase } from '../db/client';
+import { requireBand, starterBandLibrary } from '../core/bands';
+import { dilutionFromThetaMas } from '../core/fit/derived';
+import { mulberry32, normalDeviate } from '../core/fit/random';
+import { flambdaCgsToMagnitude, planckBandMean } from '../core/photometry';
+import { startBatch, type BatchOptionsInput } from '../server/batches';
+import type { Actor, AppServices } from '../server/context';
+import { decide } from '../server/review';
+import { createWorker } from '../../workers/runner';
 
 export const REVIEW_BANDS = ['B', 'V', 'G', 'BP', 'RP', 'J', 'H', 'Ks', 'W1', 'W2', 'W3', 'W4'] as const;
 
@@ -26,7 +26,7 @@ export interface ReviewStarSpec {
 }
 
 /**
- * The invented Lanternfield Survey's season-one stars (names from src/db/seed.ts). Harthglow is
+ * The invented Lanternfield Survey's season-one stars (names from src/seed/seed.ts). Harthglow is
  * given a mid-infrared excess (W3, W4 brighter than the photosphere) and Orrowind one bad J value,
  * so the sheet and the desk show flagged and excluded bands.
  */

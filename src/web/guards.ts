@@ -3,7 +3,7 @@
 import { getCampaign, getCampaignRoles } from '../server/campaigns';
 import type { Actor, AppServices } from '../server/context';
 import { forbidden, HttpError, unauthenticated } from '../server/errors';
-import type { CampaignRole } from './vocabulary';
+import type { CampaignRole } from '../contracts/vocabulary';
 
 export { HttpError } from '../server/errors';
 

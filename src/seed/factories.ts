@@ -1,10 +1,10 @@
-// Factories shared by tests and the demo seed (src/db/seed.ts): the same code makes both.
+// Factories shared by tests and the demo seed (src/seed/seed.ts): the same code makes both.
 import { eq } from 'drizzle-orm';
-import { user } from '../src/db/schema';
-import { createAccount } from '../src/server/accounts';
-import { addMember, createCampaign } from '../src/server/campaigns';
-import type { Actor, AppServices } from '../src/server/context';
-import type { AccountKind, CampaignRole } from '../src/lib/vocabulary';
+import { user } from '../db/schema';
+import { createAccount } from '../server/accounts';
+import { addMember, createCampaign } from '../server/campaigns';
+import type { Actor, AppServices } from '../server/context';
+import type { AccountKind, CampaignRole } from '../contracts/vocabulary';
 
 let counter = 0;
 const next = () => `${Date.now().toString(36)}${(counter++).toString(36)}`;

@@ -2,10 +2,10 @@
 // test database in tests (createApp).
 import type { AppDatabase } from '../db/client';
 import { getDb } from '../db/client';
-import type { Actor, AppServices } from '../server/context';
-import { createAuth, type SessionUser } from './auth';
-import { getEnv, type AppEnv } from './env';
-import { createMailer } from './mail';
+import { toActor, type Actor, type AppServices } from '../server/context';
+import { createAuth, type SessionUser } from '../adapters/auth';
+import { getEnv, type AppEnv } from '../adapters/env';
+import { createMailer } from '../adapters/mail';
 
 export function createApp(db: AppDatabase, env: AppEnv): AppServices {
   const mailer = createMailer({ transport: env.mailTransport, smtpUrl: env.smtpUrl, from: env.mailFrom });
@@ -26,11 +26,6 @@ let app: AppServices | undefined;
 export function getApp(): AppServices {
   if (!app) app = createApp(getDb(), getEnv());
   return app;
-}
-
-export function toActor(u: SessionUser | { id: string; name: string; email: string; kind: string }): Actor {
-  const kind = u.kind === 'admin' || u.kind === 'guest' ? u.kind : 'member';
-  return { id: u.id, name: u.name, email: u.email, kind };
 }
 
 /** Look up the session behind a request's cookies. */

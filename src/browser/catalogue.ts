@@ -3,8 +3,8 @@
 import { keepPreviousData, useQuery } from '@tanstack/react-query';
 import { apiFetch } from './api';
 
-export type { CatalogueDiagrams, CataloguePage, CatalogueRowView, DensityGrid, DiagramPoint } from '../../server/catalogue';
-import type { CatalogueDiagrams, CataloguePage } from '../../server/catalogue';
+export type { CatalogueDiagrams, CataloguePage, CatalogueRowView, DensityGrid, DiagramPoint } from '../contracts/catalogue';
+import type { CatalogueDiagrams, CataloguePage } from '../contracts/catalogue';
 
 export const SORTABLE = ['star_key', 'teff_k', 'lum_lsun', 'radius_rsun', 'chi2_red', 'review_status'] as const;
 export type SortKey = (typeof SORTABLE)[number];

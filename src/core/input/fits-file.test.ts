@@ -7,7 +7,7 @@ import { tmpdir } from 'node:os';
 import path from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { describe, expect, it } from 'vitest';
-import { FitsError, readFits, readFitsImageHeader, readFitsTable, type FitsCell, type FitsValue } from './fits.ts';
+import { FitsError, readFits, readFitsImageHeader, readFitsTable, type FitsCell, type FitsValue } from './fits-file.ts';
 
 const root = fileURLToPath(new URL('../../..', import.meta.url));
 const fixtures = path.join(root, 'fixtures/fits');

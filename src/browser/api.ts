@@ -1,5 +1,5 @@
 // fetch for islands: JSON in and out, errors as ApiError carrying the server's code and field.
-import type { ApiErrorBody } from '../api-types';
+import type { ApiErrorBody } from '../contracts/api';
 
 export class ApiError extends Error {
   constructor(

@@ -1,12 +1,12 @@
 // Season two of the invented Lanternfield Survey: a few hundred invented stars, so the demo's
 // catalogue diagrams, review desk and downloads have something to show. Names are put together from
 // invented syllables (no real star is named); the photometry is made by the core itself (a blackbody
-// through each real passband, tests/factories-review.ts) with noise, and the fits run through the
+// through each real passband, src/seed/review-stars.ts) with noise, and the fits run through the
 // real batch path (startBatch + a worker draining the queue). Everything is deterministic (fixed seed).
 import { mulberry32 } from '../core/fit/random';
 import type { Actor, AppServices } from '../server/context';
 import { bulkDecide, decide } from '../server/review';
-import { fitAndDrain, insertReviewStars, REVIEW_BANDS, type ReviewStarSpec } from '../../tests/factories-review';
+import { fitAndDrain, insertReviewStars, REVIEW_BANDS, type ReviewStarSpec } from './review-stars';
 
 export const DEMO_SEASON_TWO_COUNT = 300;
 export const DEMO_SEASON_TWO_SOURCE = 'Lanternfield season-two photometry';

@@ -8,7 +8,7 @@ import path from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { describe, expect, it } from 'vitest';
 import { STARTER_BAND_KEYS } from '../bands';
-import { applyMapping, detectMapping, type Mapping, type MappingProblem } from '../mapping';
+import { applyMapping, detectMapping, type Mapping, type MappingProblem } from './mapping';
 import { readUpload, UnreadableFile } from './table-file';
 
 const root = fileURLToPath(new URL('../../..', import.meta.url));

@@ -1,7 +1,7 @@
 // One TanStack Query client per browser page (shared by every island on it), a fresh one per
 // server render so nothing leaks between requests.
 import { QueryClient } from '@tanstack/react-query';
-import { ApiError } from './queries/api';
+import { ApiError } from './api';
 
 let browserClient: QueryClient | undefined;
 

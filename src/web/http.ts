@@ -1,6 +1,7 @@
 // JSON in and out for API routes: one error shape {error: {code, message, field?}}.
 import { z } from 'zod';
 import { HttpError } from '../server/errors';
+import { IntakeError } from '../server/intake/errors';
 import { parseInput } from '../server/validation';
 
 export function json(data: unknown, status = 200, headers?: HeadersInit): Response {
@@ -12,11 +13,13 @@ export function json(data: unknown, status = 200, headers?: HeadersInit): Respon
 
 export function errorResponse(err: unknown): Response {
   if (err instanceof HttpError) return json(err.toJSON(), err.status);
+  // Intake failures have statuses of their own (413, 422) and may carry the validation report.
+  if (err instanceof IntakeError) return json(err.toJSON(), err.status);
   console.error(err);
   return json({ error: { code: 'internal', message: 'Something went wrong on the server. The problem has been logged.' } }, 500);
 }
 
-/** Wrap a handler so thrown HttpErrors (from guards, validation, use cases) become JSON responses. */
+/** Wrap a handler so thrown HttpErrors and IntakeErrors (from guards, validation, use cases) become JSON responses. */
 export function handle<C>(fn: (ctx: C) => Promise<Response> | Response): (ctx: C) => Promise<Response> {
   return async (ctx) => {
     try {
