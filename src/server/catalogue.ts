@@ -10,7 +10,7 @@ import { FLAG_EXPLANATIONS } from '../core/fit';
 import { HttpError } from './errors';
 import { staleChecker } from './stale';
 import { parseInput } from './validation';
-import { CATALOGUE_SORTS, CATALOGUE_STATUSES, type CatalogueDiagrams, type CataloguePage, type CatalogueRowView, type CatalogueSort, type CatalogueStatus } from '../contracts/catalogue';
+import { CATALOGUE_SORTS, CATALOGUE_STATUSES, type CatalogueDiagrams, type CataloguePage, type CatalogueRowView, type CatalogueSort, type CatalogueStatus, type DiagramPoint } from '../contracts/catalogue';
 
 export { CATALOGUE_SORTS, CATALOGUE_STATUSES };
 export type { CatalogueDiagrams, CataloguePage, CatalogueRowView, CatalogueSort, CatalogueStatus, DensityGrid, DiagramPoint } from '../contracts/catalogue';
