@@ -3,7 +3,7 @@ import { sql } from 'drizzle-orm';
 import { index, integer, real, sqliteTable, text, uniqueIndex } from 'drizzle-orm/sqlite-core';
 import { user } from './auth';
 import { campaigns } from './campaigns';
-import { stars } from './photometry';
+import { LUM_CLASSES, stars } from './photometry';
 
 const now = sql`(cast(unixepoch('subsecond') * 1000 as integer))`;
 
@@ -73,6 +73,9 @@ export const jobs = sqliteTable(
   ],
 );
 
+export const LUM_CLASS_SOURCES = ['parallax', 'input', 'batch', 'assumed'] as const;
+export type LumClassSource = (typeof LUM_CLASS_SOURCES)[number];
+
 export const REVIEW_STATUSES = ['pending', 'accepted', 'flagged', 'superseded'] as const;
 export type ReviewStatus = (typeof REVIEW_STATUSES)[number];
 
@@ -111,6 +114,24 @@ export const fitResults = sqliteTable(
     bandsUsed: text('bands_used'),
     irExcessSigma: real('ir_excess_sigma'),
     flags: text('flags').notNull().default(''),
+    // The pure Planck fit, always made beside the calibrated one and never widened by a model term.
+    // teff_*, chi2_red, flags, θ, R, L and F_bol above belong to the calibrated photosphere model
+    // (equal to these when the batch ran Planck only). Fits stored before the model existed were
+    // copied here by drizzle/0009 and keep photosphere_name null until they are re-fitted.
+    tbbK: real('tbb_k'),
+    tbbErrK: real('tbb_err_k'),
+    tbbErrFormalK: real('tbb_err_formal_k'),
+    tbbLowerK: real('tbb_lower_k'),
+    tbbChi2Red: real('tbb_chi2_red'),
+    // Planck band means (erg s⁻¹ cm⁻² Å⁻¹) by band key: the second curve of the star sheet's plot.
+    tbbModelFluxes: text('tbb_model_fluxes', { mode: 'json' }).$type<Record<string, number>>(),
+    // Luminosity class the model used and where it came from (parallax, the star's input, the batch, assumed).
+    lumClass: text('lum_class', { enum: LUM_CLASSES }),
+    lumClassSource: text('lum_class_source', { enum: LUM_CLASS_SOURCES }),
+    fehDex: real('feh_dex'),
+    // The calibrated photosphere model (name and version); null = Planck only, or a fit made before the model.
+    photosphereName: text('photosphere_name'),
+    photosphereVersion: text('photosphere_version'),
     // Everything else the star sheet draws: residuals, model fluxes, excluded bands, covariance.
     detail: text('detail', { mode: 'json' }).$type<Record<string, unknown>>(),
     bandLibraryVersion: text('band_library_version').notNull(),
@@ -132,6 +153,7 @@ export const fitResults = sqliteTable(
     index('fit_results_current_teff_idx').on(t.campaignId, t.teffK).where(sql`is_current = 1`),
     index('fit_results_current_lum_idx').on(t.campaignId, t.lumLsun).where(sql`is_current = 1`),
     index('fit_results_current_radius_idx').on(t.campaignId, t.radiusRsun).where(sql`is_current = 1`),
+    index('fit_results_current_tbb_idx').on(t.campaignId, t.tbbK).where(sql`is_current = 1`),
     index('fit_results_current_chi2_idx').on(t.campaignId, t.chi2Red).where(sql`is_current = 1`),
     index('fit_results_current_review_idx').on(t.campaignId, t.reviewStatus).where(sql`is_current = 1`),
     index('fit_results_current_star_idx').on(t.starId).where(sql`is_current = 1`),

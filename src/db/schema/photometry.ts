@@ -52,6 +52,9 @@ export const mappingPresets = sqliteTable(
   (t) => [uniqueIndex('mapping_presets_name_unique').on(t.campaignId, t.name)],
 );
 
+export const LUM_CLASSES = ['dwarf', 'giant'] as const;
+export type LumClass = (typeof LUM_CLASSES)[number];
+
 export const stars = sqliteTable(
   'stars',
   {
@@ -65,6 +68,9 @@ export const stars = sqliteTable(
     parallaxMas: real('parallax_mas'),
     parallaxErrMas: real('parallax_err_mas'),
     avMag: real('av_mag'),
+    // The star's own luminosity class (input column lum_class) and [Fe/H] (input column feh), when given.
+    lumClass: text('lum_class', { enum: LUM_CLASSES }),
+    fehDex: real('feh_dex'),
     createdAt: integer('created_at', { mode: 'timestamp_ms' }).notNull().default(now),
     updatedAt: integer('updated_at', { mode: 'timestamp_ms' }).notNull().default(now),
   },
