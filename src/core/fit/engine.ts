@@ -1,4 +1,4 @@
-// The fit's hot path (product.md §5–8): weighted least squares y_i = s·φ_i(T, A_V) through the tables.
+// The fit's hot path: weighted least squares y_i = s·φ_i(T, A_V) through the tables (method: README.md).
 //
 // One FitEngine per thread is reused for every star: inputs, scratch and outputs are typed arrays or
 // numeric fields, so fitting a star allocates nothing. Usage:
@@ -10,7 +10,9 @@
 // ln T grid (≈10 % steps), then a safeguarded Newton iteration on dχ²/du = 0 finishes it.
 // A_V fitted: coarse (ln T, A_V) grid, then Levenberg–Marquardt over (ln T, ln s, A_V) with A_V kept
 // inside its bounds (our own small LM: ml-levenberg-marquardt allocates per iteration; the tests check
-// this LM against it).
+// this LM against it). The A_V solver lives in av-solver.ts, the 2×2/3×3 solves in linear-algebra.ts;
+// everything a fixed-A_V star runs through (the model, the profile, the coarse and fine searches, Newton)
+// stays in this file so the hot path reads in one place.
 // Upper limits are censored: a limit adds w(y − sφ)² only while the model exceeds it.
 
 import {
@@ -30,6 +32,7 @@ import {
 } from './tables';
 import { FLAG_BITS } from './flags';
 import { deriveInto, type Derived } from './derived';
+import { AvSolver } from './av-solver';
 
 /** Why a band takes no part in the fit (its residual is still reported). */
 export const EXCLUDE_NONE = 0;
@@ -49,11 +52,6 @@ export const OUTLIER_SIGMA = 3;
 export const MAX_CLIPPED = 2;
 /** Newton stops once the next step in ln T is below this (T to 1e-6 relative, far below any error). */
 const NEWTON_TOL = 1e-6;
-/** A_V spacing of the coarse (ln T, A_V) grid when A_V is fitted, mag: the profile Newton in A_V finds
- * the same minima from 2-mag steps as from 1-mag steps (checked on 5000 bench stars: equal mean χ²). */
-const COARSE_AV_STEP_MAG = 2;
-/** The A_V iteration stops once its step is below this, mag (errors of A_V are ≳ 0.01 mag). */
-const AV_TOL_MAG = 1e-5;
 
 export interface EngineSettings {
   fitAv: boolean;
@@ -90,13 +88,15 @@ export class FitEngine {
   readonly dphiA: Float64Array;
   readonly active: Uint8Array;
   readonly residual: Float64Array;
-  private readonly coarseChi2: Float64Array;
+  /** Profile χ² at the coarse nodes of the last coarseSearch() (engine-internal, read by the A_V solver). */
+  readonly coarseChi2: Float64Array;
   private readonly offC: Int32Array;
   private readonly wyC: Float64Array;
   private readonly wA = new Float64Array(4);
   private readonly dwA = new Float64Array(4);
   private planes: Plane[] = [];
   private singlePlane = true;
+  private readonly avSolver: AvSolver;
   // ---- outputs
   status = STATUS_OK;
   flags = 0;
@@ -143,6 +143,7 @@ export class FitEngine {
       fbolErrCgs: NaN, radiusRsun: NaN, radiusErrRsun: NaN, lumLsun: NaN, lumErrLsun: NaN, avErrMag: NaN,
       errScale: 1, plxFlags: 0,
     };
+    this.avSolver = new AvSolver(this);
   }
 
   begin(): void {
@@ -199,6 +200,14 @@ export class FitEngine {
       else if (this.planes[0].avMag !== pk.k * AV_STEP_MAG || !this.tables.planeReady(pk.k)) this.planes[0] = this.tables.plane(pk.k);
       return;
     }
+    this.usePlanesFour(avMag);
+  }
+
+  /**
+   * The four planes around an A_V value, interpolated (a free A_V always uses these, so dφ/dA_V exists
+   * at plane nodes too). Engine-internal: called by usePlanes() and the A_V solver.
+   */
+  usePlanesFour(avMag: number): void {
     this.singlePlane = false;
     const k0 = avWeights(avMag, this.wA, this.dwA);
     if (this.planes.length !== 4) this.planes = [this.planes[0], this.planes[0], this.planes[0], this.planes[0]];
@@ -211,9 +220,9 @@ export class FitEngine {
 
   /**
    * φ, dφ/du and d²φ/du² (and dφ/dA_V when planes are interpolated) for slots [0, count) at u,
-   * with the A_V weights already set by usePlanes().
+   * with the A_V weights already set by usePlanes(). Engine-internal (the A_V solver calls it too).
    */
-  private evalModel(u: number, count: number): void {
+  evalModel(u: number, count: number): void {
     this.evalModelRange(u, 0, count);
   }
 
@@ -330,6 +339,15 @@ export class FitEngine {
   private gradU = 0;
   private hessU = 0;
 
+  // profileAtFast and profileAtFast4 below are the same Hermite profile loop, written twice on purpose.
+  // Kept apart because (1) the one-plane loop is what nearly every star runs (A_V fixed on a plane node,
+  // no upper limits) and reads 4 table values per band where the four-plane loop reads 16 and also forms
+  // dφ/dA_V; (2) only the one-plane loop can take φ from the plane's tabulated node values and replace
+  // Math.exp by the short node-relative Taylor series, since an interpolated A_V has no tabulated φ.
+  // A shared loop (a per-band branch, or weights (1, 0, 0, 0) on four copies of one plane) does the
+  // four-plane work in the common case; `npm run bench -- --only core` shows it. A change to the sums or
+  // the profile Hessian must be made in both; the tests in this folder run both (fixed-A_V mock and
+  // benchmark stars; the A_V fit against ml-levenberg-marquardt in fit.quality.test.ts).
   /**
    * profileAt for one plane and no upper limits (the common catalogue case) in a single pass: the sums
    * Σwyφ, Σwφ², Σwyφ', Σwφφ', Σwφ'², Σwyφ'', Σwφφ'' give s*, χ², dχ²/du and the profile Hessian.
@@ -568,7 +586,7 @@ export class FitEngine {
    * scale; the parabola through the best and its evaluated neighbours, a walk on the fine nodes and
    * the bracketed Newton finish the job. coarseChi2 holds NaN for nodes not evaluated.
    */
-  private coarseSearch(plane: Plane): number {
+  coarseSearch(plane: Plane): number {
     const nDet = this.nDet;
     const nFit = this.nFit;
     const band = this.band, y = this.y, w = this.w, off = this.offC, wy = this.wyC;
@@ -630,7 +648,7 @@ export class FitEngine {
    * Walks the fine nodes from the one nearest u downhill (a few steps at most) and returns the vertex of
    * the parabola through the lowest node and its neighbours.
    */
-  private fineStart(plane: Plane, u: number): number {
+  fineStart(plane: Plane, u: number): number {
     const phiFine = plane.phi;
     let j = Math.round((u - LN_T_MIN) / LN_T_STEP);
     if (j < 1) j = 1;
@@ -689,7 +707,7 @@ export class FitEngine {
    * Safeguarded Newton on g = dχ²/du = 0 of the profile at the current planes, from u. Sets this.u,
    * this.s, this.chi2 and leaves the scratch state of the solution; returns χ².
    */
-  private newtonU(u0: number, stride: number): number {
+  newtonU(u0: number, stride: number): number {
     let u = u0;
     let lo = u - stride;
     let loSure = false;
@@ -811,260 +829,6 @@ export class FitEngine {
     return true;
   }
 
-  // LM scratch (3 parameters).
-  private readonly jtj = new Float64Array(9);
-  private readonly jtr = new Float64Array(3);
-  private readonly step3 = new Float64Array(3);
-
-  /** χ² at (u, ln s, A_V) with censored limits; leaves φ, dφ/du, dφ/dA in scratch. */
-  private chi2Full(u: number, lnS: number, a: number): number {
-    this.usePlanesFree(a);
-    this.evalModel(u, this.nFit);
-    const s = Math.exp(lnS);
-    const y = this.y, w = this.w, phi = this.phi, active = this.active;
-    let chi2 = 0;
-    for (let k = 0; k < this.nFit; k++) {
-      const r = y[k] - s * phi[k];
-      if (k >= this.nDet) {
-        active[k] = r < 0 ? 1 : 0;
-        if (r >= 0) continue;
-      }
-      chi2 += w[k] * r * r;
-    }
-    return chi2;
-  }
-
-  /** Planes for a free A_V: always the interpolating four (so dφ/dA_V exists at plane nodes too). */
-  private usePlanesFree(a: number): void {
-    this.singlePlane = false;
-    const k0 = avWeights(a, this.wA, this.dwA);
-    if (this.planes.length !== 4) this.planes = [this.planes[0], this.planes[0], this.planes[0], this.planes[0]];
-    for (let q = 0; q < 4; q++) {
-      const k = k0 - 1 + q;
-      const cur = this.planes[q];
-      if (cur === undefined || cur.avMag !== k * AV_STEP_MAG || !this.tables.planeReady(k)) this.planes[q] = this.tables.plane(k);
-    }
-  }
-
-  /** JᵀWJ and JᵀWr at the state left by chi2Full. */
-  private normalEquations(lnS: number): void {
-    const s = Math.exp(lnS);
-    const y = this.y, w = this.w, phi = this.phi, dphi = this.dphi, dphiA = this.dphiA, active = this.active;
-    const m = this.jtj;
-    const v = this.jtr;
-    m.fill(0);
-    v.fill(0);
-    for (let k = 0; k < this.nFit; k++) {
-      if (k >= this.nDet && active[k] === 0) continue;
-      const wk = w[k];
-      const r = y[k] - s * phi[k];
-      const ju = s * dphi[k];
-      const js = s * phi[k];
-      const ja = s * dphiA[k];
-      m[0] += wk * ju * ju;
-      m[1] += wk * ju * js;
-      m[2] += wk * ju * ja;
-      m[4] += wk * js * js;
-      m[5] += wk * js * ja;
-      m[8] += wk * ja * ja;
-      v[0] += wk * ju * r;
-      v[1] += wk * js * r;
-      v[2] += wk * ja * r;
-    }
-    m[3] = m[1];
-    m[6] = m[2];
-    m[7] = m[5];
-  }
-
-  /**
-   * Fitted A_V: coarse grid over (ln T, A_V planes 2 mag apart), then Newton on the profile χ²_p(A_V) =
-   * min over (ln T, s) — variable projection (Golub & Pereyra 1973): each A_V gets the fast 1-D fit in
-   * ln T with s in closed form, and the A_V step uses the Gauss–Newton curvature of the profile, the
-   * Schur complement M_aa − M_aθ M_θθ⁻¹ M_θa of JᵀWJ. This follows the curved T–A_V valley that makes a
-   * plain 3-parameter LM zig-zag; the LM below remains as the fallback.
-   */
-  private fitFree(avMin: number, avMax: number, solver: 'profile' | 'lm'): boolean {
-    // Coarse grid: ln T nodes (≈ 20 % steps) × A_V planes COARSE_AV_STEP_MAG apart.
-    let bestChi = Infinity;
-    let bestC = 0;
-    let bestK = 0;
-    const kLo = Math.ceil(avMin / AV_STEP_MAG - 1e-9);
-    const kHi = Math.floor(avMax / AV_STEP_MAG + 1e-9);
-    const kStep = Math.max(1, Math.round(COARSE_AV_STEP_MAG / AV_STEP_MAG));
-    for (let k = kLo; k <= kHi; k += kStep) {
-      const c = this.coarseSearch(this.tables.plane(k));
-      const v = this.coarseChi2[c];
-      if (v < bestChi) {
-        bestChi = v;
-        bestC = c;
-        bestK = k;
-      }
-    }
-    if (bestChi === Infinity) return false;
-    const bestPlane = this.tables.plane(bestK);
-    // ln T on the best plane refined on the fine nodes. (Moving A_V off the plane without moving T along
-    // the T–A_V valley would start LM far up its wall.)
-    let u = this.fineStart(bestPlane, LN_T_MIN + bestC * COARSE_STRIDE * LN_T_STEP);
-    let a = bestK * AV_STEP_MAG;
-    a = Math.min(Math.max(a, avMin), avMax);
-    const stride = COARSE_STRIDE * LN_T_STEP;
-    this.usePlanesFree(a);
-    let chi2 = this.newtonU(u, stride);
-    u = this.u;
-    if (!(this.s > 0)) return false;
-    if (solver === 'lm') return this.fitFreeLM(avMin, avMax, u, Math.log(this.s), a);
-    const m = this.jtj, v = this.jtr;
-    let lo = avMin;
-    let hi = avMax;
-    let loSure = a <= avMin;
-    let hiSure = a >= avMax;
-    let converged = false;
-    for (let outer = 0; outer < 40; outer++) {
-      this.normalEquations(Math.log(this.s));
-      const det2 = m[0] * m[4] - m[1] * m[1];
-      if (!(det2 > 0)) break;
-      const x0 = (m[4] * m[2] - m[1] * m[5]) / det2;
-      const x1 = (m[0] * m[5] - m[1] * m[2]) / det2;
-      const y0 = (m[4] * v[0] - m[1] * v[1]) / det2;
-      const y1 = (m[0] * v[1] - m[1] * v[0]) / det2;
-      // gp = −½ dχ²_p/dA_V (positive: χ² falls as A_V grows); hp = ½ d²χ²_p/dA_V² (Gauss–Newton).
-      const gp = v[2] - (m[2] * y0 + m[5] * y1);
-      const hp = m[8] - (m[2] * x0 + m[5] * x1);
-      if (gp > 0) {
-        if (a >= avMax) {
-          converged = true;
-          break;
-        }
-        lo = a;
-        loSure = true;
-      } else {
-        if (a <= avMin) {
-          converged = true;
-          break;
-        }
-        hi = a;
-        hiSure = true;
-      }
-      let next = hp > 0 ? a + gp / hp : NaN;
-      if (Math.abs(next - a) < AV_TOL_MAG) {
-        converged = true;
-        break;
-      }
-      if (!(next > lo && next < hi)) {
-        if (gp > 0) next = hiSure ? 0.5 * (a + hi) : hi;
-        else next = loSure ? 0.5 * (a + lo) : lo;
-      }
-      // Follow the valley: the (ln T, ln s) optimum moves by −M_θθ⁻¹ M_θa per unit A_V.
-      let uStart = u - x0 * (next - a);
-      if (uStart < LN_T_MIN) uStart = LN_T_MIN;
-      if (uStart > LN_T_MAX) uStart = LN_T_MAX;
-      const step = Math.abs(next - a);
-      a = next;
-      if (a <= avMin) loSure = true;
-      if (a >= avMax) hiSure = true;
-      this.usePlanesFree(a);
-      chi2 = this.newtonU(uStart, stride);
-      u = this.u;
-      if (!(this.s > 0)) return false;
-      if (step < AV_TOL_MAG || hi - lo < AV_TOL_MAG) {
-        converged = true;
-        break;
-      }
-    }
-    if (!converged) return this.fitFreeLM(avMin, avMax, u, Math.log(this.s), a);
-    this.normalEquations(Math.log(this.s));
-    return this.finishFree(a, avMin, avMax, chi2);
-  }
-
-  /** Bounded Levenberg–Marquardt over (ln T, ln s, A_V) from a start: the fallback of fitFree. */
-  private fitFreeLM(avMin: number, avMax: number, u0: number, lnS0: number, a0: number): boolean {
-    let u = u0;
-    let lnS = lnS0;
-    let a = a0;
-    let chi2 = this.chi2Full(u, lnS, a);
-    let lambda = 1e-3;
-    const m = this.jtj, v = this.jtr, d = this.step3;
-    let it = 0;
-    let converged = false;
-    for (; it < 100; it++) {
-      this.normalEquations(lnS);
-      let accepted = false;
-      for (let tries = 0; tries < 12; tries++) {
-        // (JᵀWJ + λ·diag(JᵀWJ)) δ = JᵀWr  (Marquardt 1963 scaling).
-        if (!solve3(m, v, lambda, d)) {
-          lambda *= 10;
-          continue;
-        }
-        let na = a + d[2];
-        if (na < avMin || na > avMax) {
-          // Bound reached: put A_V on it and re-solve (ln T, ln s) for that A_V change (projected step),
-          // instead of clipping, which leaves a non-descent step that LM would keep rejecting.
-          na = na < avMin ? avMin : avMax;
-          const dA = na - a;
-          if (!solve2(m, v[0] - m[2] * dA, v[1] - m[5] * dA, lambda, d)) {
-            lambda *= 10;
-            continue;
-          }
-          d[2] = dA;
-        }
-        let nu = u + d[0];
-        const nl = lnS + d[1];
-        if (nu < LN_T_MIN) nu = LN_T_MIN;
-        if (nu > LN_T_MAX) nu = LN_T_MAX;
-        const nchi = this.chi2Full(nu, nl, na);
-        if (nchi <= chi2) {
-          const du = Math.abs(nu - u), dl = Math.abs(nl - lnS), da = Math.abs(na - a);
-          const gain = chi2 - nchi;
-          u = nu;
-          lnS = nl;
-          a = na;
-          chi2 = nchi;
-          lambda = Math.max(lambda * 0.2, 1e-9);
-          accepted = true;
-          // Converged when the step is far below any error (1e-7 in ln T and ln s, 1e-6 mag) or χ² stalls.
-          if ((du < 1e-7 && dl < 1e-7 && da < 1e-6) || gain <= 1e-10 * chi2) converged = true;
-          break;
-        }
-        lambda *= 8;
-      }
-      if (!accepted || converged) break;
-    }
-    this.iterations = it;
-    // Final state and covariance.
-    chi2 = this.chi2Full(u, lnS, a);
-    this.normalEquations(lnS);
-    this.u = u;
-    this.s = Math.exp(lnS);
-    return this.finishFree(a, avMin, avMax, chi2);
-  }
-
-  /** Solution bookkeeping and covariance for a fitted A_V; JᵀWJ must be in jtj. */
-  private finishFree(a: number, avMin: number, avMax: number, chi2: number): boolean {
-    const m = this.jtj;
-    this.avMag = a;
-    this.chi2 = chi2;
-    if (!Number.isFinite(chi2) || !(this.s > 0)) return false;
-    let nActive = 0;
-    for (let k = this.nDet; k < this.nFit; k++) nActive += this.active[k];
-    if (nActive > 0) this.flags |= FLAG_BITS.upper_limit_active;
-    const atBound = a <= avMin + 1e-9 || a >= avMax - 1e-9;
-    const cov = this.cov;
-    cov.fill(0);
-    if (atBound) {
-      this.flags |= FLAG_BITS.av_at_bound;
-      const det = m[0] * m[4] - m[1] * m[1];
-      cov[0] = m[4] / det;
-      cov[1] = cov[3] = -m[1] / det;
-      cov[4] = m[0] / det;
-      this.avFree = false;
-    } else {
-      if (!invert3(m, cov)) return false;
-      this.avFree = true;
-    }
-    this.dof = this.nDet - 3;
-    return true;
-  }
-
   /** Profile χ² at u for fixed A_V (planes already set), used by the lower-bound search. */
   private profileChi2(u: number): number {
     return this.profileAt(u);
@@ -1088,7 +852,7 @@ export class FitEngine {
       return this.status;
     }
     for (;;) {
-      const ok = settings.fitAv ? this.fitFree(settings.avMinMag, settings.avMaxMag, settings.avSolver ?? 'profile') : this.fitFixed(avMag);
+      const ok = settings.fitAv ? this.avSolver.fit(settings.avMinMag, settings.avMaxMag, settings.avSolver ?? 'profile') : this.fitFixed(avMag);
       if (!ok) {
         this.status = STATUS_NO_CONVERGENCE;
         return this.status;
@@ -1203,50 +967,4 @@ export class FitEngine {
     this.profileAt(uBest);
     this.s = sBest;
   }
-}
-
-/** Solve (M + λ·diag M) x = v for symmetric 3×3 M; false when singular. */
-function solve3(M: Float64Array, v: Float64Array, lambda: number, x: Float64Array): boolean {
-  const a00 = M[0] * (1 + lambda), a01 = M[1], a02 = M[2];
-  const a11 = M[4] * (1 + lambda), a12 = M[5];
-  const a22 = M[8] * (1 + lambda);
-  const c00 = a11 * a22 - a12 * a12;
-  const c01 = a02 * a12 - a01 * a22;
-  const c02 = a01 * a12 - a02 * a11;
-  const det = a00 * c00 + a01 * c01 + a02 * c02;
-  if (!(Math.abs(det) > 0) || !Number.isFinite(det)) return false;
-  const c11 = a00 * a22 - a02 * a02;
-  const c12 = a01 * a02 - a00 * a12;
-  const c22 = a00 * a11 - a01 * a01;
-  x[0] = (c00 * v[0] + c01 * v[1] + c02 * v[2]) / det;
-  x[1] = (c01 * v[0] + c11 * v[1] + c12 * v[2]) / det;
-  x[2] = (c02 * v[0] + c12 * v[1] + c22 * v[2]) / det;
-  return true;
-}
-
-/** Solve the damped 2×2 (ln T, ln s) block of M for right-hand side (r0, r1); x[0], x[1]. */
-function solve2(M: Float64Array, r0: number, r1: number, lambda: number, x: Float64Array): boolean {
-  const a00 = M[0] * (1 + lambda), a01 = M[1], a11 = M[4] * (1 + lambda);
-  const det = a00 * a11 - a01 * a01;
-  if (!(Math.abs(det) > 0) || !Number.isFinite(det)) return false;
-  x[0] = (a11 * r0 - a01 * r1) / det;
-  x[1] = (a00 * r1 - a01 * r0) / det;
-  return true;
-}
-
-/** Inverse of a symmetric 3×3 matrix into out (row-major); false when singular. */
-export function invert3(M: Float64Array, out: Float64Array): boolean {
-  const a00 = M[0], a01 = M[1], a02 = M[2], a11 = M[4], a12 = M[5], a22 = M[8];
-  const c00 = a11 * a22 - a12 * a12;
-  const c01 = a02 * a12 - a01 * a22;
-  const c02 = a01 * a12 - a02 * a11;
-  const det = a00 * c00 + a01 * c01 + a02 * c02;
-  if (!(Math.abs(det) > 0) || !Number.isFinite(det)) return false;
-  out[0] = c00 / det;
-  out[1] = out[3] = c01 / det;
-  out[2] = out[6] = c02 / det;
-  out[4] = (a00 * a22 - a02 * a02) / det;
-  out[5] = out[7] = (a01 * a02 - a00 * a12) / det;
-  out[8] = (a00 * a11 - a01 * a01) / det;
-  return true;
 }

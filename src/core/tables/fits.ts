@@ -332,6 +332,10 @@ function layoutOf(header: FitsHeader, hduIndex: number, source: string, offset: 
   }
   const pcount = header.has('PCOUNT') ? requireInt(header, 'PCOUNT', hduIndex, source, offset) : 0;
   const gcount = header.has('GCOUNT') ? requireInt(header, 'GCOUNT', hduIndex, source, offset) : 1;
+  if (pcount < 0 || gcount < 0) {
+    const keyword = pcount < 0 ? 'PCOUNT' : 'GCOUNT';
+    throw new FitsError(`${source}: HDU ${hduIndex}: ${keyword} = ${pcount < 0 ? pcount : gcount} is negative`, { byteOffset: offset, hdu: hduIndex, keyword });
+  }
   // Random groups (section 6): NAXIS1 = 0 and GROUPS = T in the primary; NAXIS1 is not part of the size.
   const groups = kind === 'primary' && naxis > 0 && axes[0] === 0 && header.get('GROUPS') === true;
   if (groups) kind = 'random-groups';
@@ -361,6 +365,13 @@ export function readFits(bytes: Uint8Array, options: ReadFitsOptions = {}): Fits
   let offset = 0;
   while (offset < bytes.length) {
     const index = hdus.length;
+    if (index > 0 && bytes.length - offset >= 8 && ascii(bytes, offset, offset + 8) === 'XTENSION' && bytes.length - offset < FITS_BLOCK) {
+      // An extension whose header is cut off: reading on would take the file for its primary HDU alone.
+      throw new FitsError(
+        `${source}: truncated file: HDU ${index} (an extension starting at byte ${offset}) is cut off inside its header, ${bytes.length - offset} of at least ${FITS_BLOCK} bytes present`,
+        { byteOffset: bytes.length, hdu: index },
+      );
+    }
     if (index > 0 && (bytes.length - offset < FITS_BLOCK || ascii(bytes, offset, offset + 8) !== 'XTENSION')) {
       // Astropy also ignores what follows the last HDU when it is not an extension; say so.
       warnings.push(`${source}: ${bytes.length - offset} bytes after the last HDU (from byte ${offset}) are not a FITS extension and were ignored`);
@@ -429,6 +440,33 @@ export interface FitsColumn {
 /** A decoded cell. Repeat > 1 and variable-length arrays give arrays; 64-bit integers give bigint. */
 export type FitsCell = string | number | bigint | boolean | FitsComplex | null | FitsCell[];
 
+/**
+ * TDIMn = '(l,m,n…)' (section 7.3.2): every axis a whole number ≥ 1 and their product at most the
+ * repeat count. An axis of 0 would make reshape() never advance, so it is refused here, by name.
+ */
+function parseTdim(tdim: string, repeat: number, variableLength: boolean, w: { source: string; hduIndex: number; n: number; name: string; card?: number }): number[] {
+  const where = `${w.source}: HDU ${w.hduIndex} header card ${w.card}: column ${w.n} (${w.name}) has TDIM${w.n} = '${tdim.trim()}'`;
+  const m = /^\s*\(\s*(\d+(?:\s*,\s*\d+)*)\s*\)\s*$/.exec(tdim);
+  if (!m) throw new FitsError(`${where}, which is not of the form '(l,m,…)' with whole numbers`, { hdu: w.hduIndex, keyword: `TDIM${w.n}`, column: w.name });
+  const dims = m[1].split(',').map((x) => Number(x.trim()));
+  if (dims.some((d) => !Number.isSafeInteger(d) || d < 1)) {
+    throw new FitsError(`${where}: every axis must be at least 1`, { hdu: w.hduIndex, keyword: `TDIM${w.n}`, column: w.name });
+  }
+  const product = dims.reduce((a, b) => a * b, 1);
+  if (!variableLength && product > repeat) {
+    throw new FitsError(`${where}: the axes hold ${product} elements but TFORM${w.n} gives ${repeat}`, { hdu: w.hduIndex, keyword: `TDIM${w.n}`, column: w.name });
+  }
+  return dims;
+}
+
+/**
+ * Element reads allowed while decoding one table: a few full passes over its bytes. Only
+ * variable-length descriptors pointing at the same heap bytes again and again can get there.
+ */
+function workLimitFor(dataBytes: number): number {
+  return 32 * dataBytes + 1_000_000;
+}
+
 function parseTform(tform: string): { repeat: number; type: string; vla?: 'P' | 'Q'; vlaType?: string } | null {
   const m = /^\s*(\d*)([LXBIJKAEDCMPQ])([LXBIJKAEDCM])?(\(\s*\d*\s*\))?\s*$/.exec(tform) ?? /^\s*(\d*)([LXBIJKAEDCM])/.exec(tform);
   if (!m) return null;
@@ -452,6 +490,8 @@ export class FitsTable {
   private readonly hduIndex: number;
   private readonly source: string;
   private readonly cache = new Map<string, FitsCell[]>();
+  private readonly workLimit: number;
+  private work = 0;
 
   constructor(bytes: Uint8Array, header: FitsHeader, dataOffset: number, dataBytes: number, hduIndex: number, source: string) {
     this.bytes = bytes;
@@ -466,9 +506,27 @@ export class FitsTable {
     if (typeof tfields !== 'number' || !Number.isInteger(tfields) || tfields < 0 || tfields > 999) {
       throw new FitsError(`${source}: HDU ${hduIndex}: TFIELDS must be an integer 0..999, found ${tfields === undefined ? 'none' : String(tfields)}`, { hdu: hduIndex, keyword: 'TFIELDS' });
     }
-    const theap = header.getNumber('THEAP') ?? this.rowBytes * this.rowCount;
+    // Rows are bounded by the bytes present (readFits has checked NAXIS1 × NAXIS2 against the file);
+    // rows of zero bytes would not be, so a table declaring rows but no bytes per row is refused
+    // rather than looped over (NAXIS2 = 3e9 with NAXIS1 = 0 ran to out-of-memory).
+    if (this.rowCount > 0 && this.rowBytes === 0) {
+      throw new FitsError(
+        `${source}: HDU ${hduIndex} header card ${at('NAXIS2')}: NAXIS2 = ${this.rowCount} rows of NAXIS1 = 0 bytes: rows that hold no bytes cannot be read (the file holds ${dataBytes} bytes of table data)`,
+        { hdu: hduIndex, keyword: 'NAXIS2' },
+      );
+    }
+    const mainBytes = this.rowBytes * this.rowCount;
+    const theap = header.getNumber('THEAP') ?? mainBytes;
+    // THEAP ≥ NAXIS1 × NAXIS2 and the heap inside the data (section 7.3.5).
+    if (!Number.isInteger(theap) || theap < mainBytes || theap > dataBytes) {
+      throw new FitsError(`${source}: HDU ${hduIndex} header card ${at('THEAP')}: THEAP = ${theap} must lie between NAXIS1 × NAXIS2 = ${mainBytes} and the data size ${dataBytes}`, {
+        hdu: hduIndex,
+        keyword: 'THEAP',
+      });
+    }
     this.heapOffset = dataOffset + theap;
     this.heapEnd = dataOffset + dataBytes;
+    this.workLimit = workLimitFor(dataBytes);
     const columns: FitsColumn[] = [];
     let offsetInRow = 0;
     for (let n = 1; n <= tfields; n++) {
@@ -495,10 +553,7 @@ export class FitsTable {
       const unit = header.getString(`TUNIT${n}`)?.trim();
       const tdim = header.getString(`TDIM${n}`);
       let dims: number[] | undefined;
-      if (tdim) {
-        const m = /^\s*\(([\d\s,]+)\)\s*$/.exec(tdim);
-        if (m) dims = m[1].split(',').map((x) => Number(x.trim()));
-      }
+      if (tdim) dims = parseTdim(tdim, repeat, vla !== undefined, { source, hduIndex, n, name, card: at(`TDIM${n}`) });
       columns.push({
         number: n,
         name,
@@ -649,6 +704,13 @@ export class FitsTable {
 
   private decode(col: FitsColumn, pos: number, count: number, width: number, forceArray: boolean): FitsCell {
     const t = col.type;
+    this.work += Math.max(1, t === 'A' ? width : count);
+    if (this.work > this.workLimit) {
+      throw new FitsError(
+        `${this.source}: HDU ${this.hduIndex} column "${col.name}": decoding needs more than ${this.workLimit} element reads (32 per byte of table data); its variable-length arrays point at the same heap bytes again and again`,
+        { hdu: this.hduIndex, column: col.name, byteOffset: pos },
+      );
+    }
     if (t === 'A') {
       const len = col.dims && col.dims.length > 1 && !forceArray ? col.dims[0] : 0;
       if (len > 0) {
@@ -724,7 +786,8 @@ function scaleNumber(x: number, scale: number, zero: number | bigint): number {
 /** Nests a flat, Fortran-ordered (first axis fastest) array into arrays following TDIM. */
 function reshape(values: FitsCell[], dims: number[]): FitsCell[] {
   if (dims.length <= 1) return values;
-  const inner = dims[0];
+  // parseTdim guarantees axes ≥ 1; a zero here would loop forever.
+  const inner = Math.max(1, dims[0]);
   const grouped: FitsCell[] = [];
   for (let i = 0; i < values.length; i += inner) grouped.push(values.slice(i, i + inner));
   return reshape(grouped, dims.slice(1));

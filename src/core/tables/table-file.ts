@@ -91,10 +91,12 @@ function readFitsUpload(bytes: Uint8Array, file: string, hdu?: number | string):
     hdus = readFits(bytes, { source: file }).hdus;
   } catch (err) {
     if (!(err instanceof FitsError)) throw err;
-    // A header-only image (data cut off) still gives its observation metadata.
+    // A header-only image (data cut off) still gives its observation metadata; a cut binary table
+    // is a truncated table, never an image.
     try {
+      const partial = readFits(bytes, { source: file, allowTruncatedData: true });
       const meta = readFitsImageHeader(bytes, { source: file });
-      if (meta.filter || meta.object) return imageUpload(meta);
+      if (!partial.hdus.some((h) => h.kind === 'bintable') && (meta.filter || meta.object)) return imageUpload(meta);
     } catch {
       // fall through to the table error, which says what is wrong
     }

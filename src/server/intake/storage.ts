@@ -2,7 +2,7 @@
 // chooses; the browser's file name is kept for display only and its content type is ignored.
 import Busboy from 'busboy';
 import { createHash } from 'node:crypto';
-import { createWriteStream, mkdirSync, rmSync } from 'node:fs';
+import { createWriteStream, mkdirSync, renameSync, rmSync } from 'node:fs';
 import path from 'node:path';
 import { Readable } from 'node:stream';
 import type { ReadableStream as NodeWebStream } from 'node:stream/web';
@@ -28,6 +28,9 @@ export function intakeConfigFromEnv(databasePath: string, env: Record<string, st
   const dataDir = env.DATA_DIR?.trim() ? path.resolve(env.DATA_DIR.trim()) : path.dirname(databasePath);
   return { dataDir, maxBytes };
 }
+
+/** Prefix of an upload still arriving; it gets its final name only once complete (see cleanupUploads). */
+export const PARTIAL_PREFIX = '.partial-';
 
 export interface StoredFile {
   originalName: string;
@@ -68,12 +71,18 @@ export async function receiveUpload(request: Request, campaignId: string, config
 
   const dir = path.join(config.dataDir, 'uploads', campaignId);
   mkdirSync(dir, { recursive: true });
-  const storedPath = path.join(dir, newId(20));
+  const name = newId(20);
+  const storedPath = path.join(dir, name);
+  // Written under a temporary name and renamed once complete, so a killed upload never leaves a
+  // file that looks finished (the start-up clean-up removes what is left under this name).
+  const partialPath = path.join(dir, PARTIAL_PREFIX + name);
 
   return new Promise<StoredFile>((resolve, reject) => {
     let busboy: Busboy.Busboy;
     try {
-      busboy = Busboy({ headers: { 'content-type': type }, limits: { files: 1, fileSize: config.maxBytes, fields: 20, fieldSize: 64 * 1024 } });
+      // defParamCharset: file names in Content-Disposition are UTF-8 as browsers send them (busboy's
+      // default, latin1, turns "étoiles" into "Ã©toiles").
+      busboy = Busboy({ headers: { 'content-type': type }, defParamCharset: 'utf8', limits: { files: 1, fileSize: config.maxBytes, fields: 20, fieldSize: 64 * 1024 } });
     } catch (err) {
       reject(new IntakeError(400, 'bad_request', `The multipart body cannot be read: ${(err as Error).message}`));
       return;
@@ -81,12 +90,17 @@ export async function receiveUpload(request: Request, campaignId: string, config
     let settled = false;
     let sawFile = false;
     let writeDone: Promise<StoredFile> | null = null;
+    let out: ReturnType<typeof createWriteStream> | null = null;
     const fail = (err: unknown) => {
       if (settled) return;
       settled = true;
+      out?.destroy();
+      rmSync(partialPath, { force: true });
       rmSync(storedPath, { force: true });
       reject(err);
     };
+    const cutOff = (err: Error) =>
+      fail(new IntakeError(400, 'bad_request', `The upload was cut off or is not valid multipart data (${err.message}); nothing was stored.`));
     busboy.on('file', (_field, stream, info) => {
       if (sawFile) {
         stream.resume();
@@ -96,28 +110,37 @@ export async function receiveUpload(request: Request, campaignId: string, config
       const hash = createHash('sha256');
       let size = 0;
       let truncated = false;
-      const out = createWriteStream(storedPath, { flags: 'wx', mode: 0o600 });
+      const file = createWriteStream(partialPath, { flags: 'wx', mode: 0o600 });
+      out = file;
+      // A body that ends before its closing boundary makes busboy fail the file stream ("Unexpected
+      // end of form"); without this handler that error event would end the whole server process.
+      stream.on('error', cutOff);
       stream.on('data', (chunk: Buffer) => {
         size += chunk.length;
         hash.update(chunk);
       });
       stream.on('limit', () => {
         truncated = true;
-        out.destroy();
         fail(tooLarge(config));
       });
       writeDone = new Promise<StoredFile>((res, rej) => {
-        out.on('error', rej);
-        out.on('finish', () => {
-          if (truncated) return;
+        file.on('error', rej);
+        file.on('finish', () => {
+          if (truncated || settled) return;
+          try {
+            renameSync(partialPath, storedPath);
+          } catch (err) {
+            rej(err);
+            return;
+          }
           res({ originalName: displayName(info.filename), storedPath, sizeBytes: size, sha256: hash.digest('hex') });
         });
       });
       writeDone.catch(fail);
-      stream.pipe(out);
+      stream.pipe(file);
     });
     busboy.on('filesLimit', () => undefined);
-    busboy.on('error', (err) => fail(new IntakeError(400, 'bad_request', `The upload was cut off or is not valid multipart data (${(err as Error).message}); nothing was stored.`)));
+    busboy.on('error', (err) => cutOff(err as Error));
     busboy.on('close', () => {
       if (settled) return;
       if (!sawFile || !writeDone) {
