@@ -305,3 +305,39 @@ describe('download route', () => {
     expect((await call(collaborator, 'csv', '?teffMin=warm')).status).toBe(400);
   });
 });
+
+// OWASP Cheat Sheet "CSV Injection": a downloaded cell must not start with = + - @ tab or CR.
+describe('CSV download and formula injection', () => {
+  it('prefixes hostile text cells with a single quote and leaves numbers alone', async () => {
+    const hostile = ['=HYPERLINK("http://evil.test","x")', '+1+1', '@SUM(1)', '-2+3', '\tcmd'];
+    const rows = t.sqlite
+      .prepare("SELECT s.id, s.star_key, s.dec_deg FROM stars s JOIN fit_results f ON f.star_id = s.id AND f.is_current = 1 WHERE s.campaign_id = ? AND f.review_status = 'accepted' ORDER BY s.id LIMIT ?")
+      .all(campaign.id, hostile.length) as { id: number; star_key: string; dec_deg: number | null }[];
+    expect(rows).toHaveLength(hostile.length);
+    const rename = t.sqlite.prepare('UPDATE stars SET star_key = ?, dec_deg = ? WHERE id = ?');
+    try {
+      // South of the equator, so each row also carries a negative number.
+      rows.forEach((r, i) => rename.run(hostile[i], -12.5 - i, r.id));
+      const url = new URL(`http://127.0.0.1/api/campaigns/${campaign.id}/downloads/csv?status=accepted`);
+      const res = await downloadRoute({ locals: { app: t.app, actor: collaborator }, params: { id: campaign.id, format: 'csv' }, request: new Request(url), url } as never);
+      expect(res.status).toBe(200);
+      const text = await res.text();
+      const records = parseCsv(text, { comment: '#', columns: true, skip_empty_lines: true, relax_quotes: false }) as Record<string, string>[];
+      for (const id of hostile) {
+        const rec = records.find((r) => r.id === `'${id}`);
+        expect(rec, `row for ${JSON.stringify(id)}`).toBeDefined();
+        // The declination is a plain negative number, not neutralised.
+        expect(Number(rec!.dec)).toBeLessThan(0);
+        expect(rec!.dec.startsWith('-')).toBe(true);
+      }
+      for (const line of text.split('\n').filter((l) => l && !l.startsWith('#'))) {
+        for (const cell of parseCsv(line)[0] as string[]) {
+          if (/^[ ]*[=+@\t\r]/.test(cell)) throw new Error(`cell ${JSON.stringify(cell)} starts a formula`);
+          if (cell.startsWith('-')) expect(Number.isFinite(Number(cell)), `text cell ${JSON.stringify(cell)}`).toBe(true);
+        }
+      }
+    } finally {
+      rows.forEach((r) => rename.run(r.star_key, r.dec_deg, r.id));
+    }
+  });
+});

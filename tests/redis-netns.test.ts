@@ -105,7 +105,7 @@ describe('Redis backend across network namespaces', () => {
 
     if (address) {
       // Each worker process really lives in its namespace, and that namespace has only the test link.
-      await waitFor('the workers to start', () => workers.every((w) => /fit worker started/.test(w.output())), 30_000, logs);
+      await waitFor('the workers to start', () => workers.every((w) => /fit worker started/.test(w.output())), 120_000, logs); // four tsx processes starting on a loaded machine
       namespaces.forEach((ns, i) => {
         const pids = ip('netns', 'pids', ns).stdout.split('\n').filter(Boolean).map(Number);
         expect(pids, logs()).toContain(workers[i].child.pid);

@@ -24,6 +24,7 @@ import {
   type FitChunk,
   type ResultChunk,
 } from '../src/server/queue-redis';
+import { databaseBackoffMs, isDatabaseError } from '../src/server/sqlite-errors';
 
 export interface ResultWriterOptions {
   owner: string;
@@ -250,8 +251,15 @@ export function createResultWriter(app: AppServices, options: ResultWriterOption
   };
 
   async function run(): Promise<void> {
-    // Dispatched jobs stay leased to their chunks across a restart of this process.
-    store.renewAll(leaseMs);
+    // Dispatched jobs stay leased to their chunks across a restart of this process (upkeep renews
+    // them again shortly if the database is busy right now).
+    try {
+      store.renewAll(leaseMs);
+    } catch (err) {
+      if (!isDatabaseError(err)) throw err;
+      log(`[${owner}] lease renewal at start skipped: ${(err as Error).message}`);
+    }
+    let failures = 0;
     const upkeepTimer = setInterval(() => void upkeep(), Math.min(1_000, Math.max(100, Math.floor(leaseMs / 3))));
     const writing = resultsWorker.run();
     try {
@@ -260,8 +268,14 @@ export function createResultWriter(app: AppServices, options: ResultWriterOption
         if (!options.noDispatch) {
           try {
             n = await dispatchOnce();
+            failures = 0;
           } catch (err) {
-            log(`[${owner}] dispatch failed, will retry: ${err instanceof Error ? err.message : String(err)}`);
+            // A busy database (an import holding the write lock) or Redis away: wait longer each time.
+            failures++;
+            const waitMs = databaseBackoffMs(failures, Math.max(idleMs, 200));
+            log(`[${owner}] dispatch failed, retrying in ${waitMs} ms: ${err instanceof Error ? err.message : String(err)}`);
+            await sleep(waitMs);
+            continue;
           }
         }
         if (n > 0) continue;

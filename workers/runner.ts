@@ -4,6 +4,7 @@
 import { batchQueue, finishBatchIfDone } from '../src/server/batches';
 import type { AppServices } from '../src/server/context';
 import type { ClaimedJob, JobQueue } from '../src/server/queue';
+import { databaseBackoffMs, isDatabaseError } from '../src/server/sqlite-errors';
 import { createFitStarHandler, kind as fitStarKind } from './fit-star';
 
 export interface WorkerOptions {
@@ -17,6 +18,8 @@ export interface WorkerOptions {
   /** Extra time each chunk is held before it is fitted: simulates slow jobs (tests, demonstrations). */
   slowMs?: number;
   backoffBaseMs?: number;
+  /** First wait after a database error (SQLITE_BUSY …), doubled per error in a row up to 30 s. */
+  databaseBackoffMs?: number;
   /** Exit when no job is waiting or running anywhere (benchmarks, tests). */
   drain?: boolean;
   log?: (line: string) => void;
@@ -40,6 +43,7 @@ export function createWorker(app: AppServices, options: WorkerOptions): Worker {
   const idleMs = options.idleMs ?? 500;
   const slowMs = options.slowMs ?? 0;
   const log = options.log ?? (() => {});
+  const dbBackoffMs = options.databaseBackoffMs ?? 200;
   const deadBatches = new Set<string>();
   const queue = batchQueue(app.db, { backoffBaseMs: options.backoffBaseMs, onDeadBatches: (ids) => ids.forEach((b) => deadBatches.add(b)) });
   const handleFitStar = createFitStarHandler(app.db);
@@ -63,9 +67,15 @@ export function createWorker(app: AppServices, options: WorkerOptions): Worker {
     });
 
   // Leases are renewed between chunks' synchronous steps; a chunk is fitted far faster than a lease lasts.
+  // A busy database here only skips one renewal (a throw from a timer would end the process).
   const renewTimer = setInterval(() => {
     if (held.length === 0) return;
-    held = queue.renew(owner, held, leaseMs);
+    try {
+      held = queue.renew(owner, held, leaseMs);
+    } catch (err) {
+      if (!isDatabaseError(err)) throw err;
+      log(`[${owner}] lease renewal skipped: ${(err as Error).message}`);
+    }
   }, Math.max(50, Math.floor(leaseMs / 3)));
   renewTimer.unref();
 
@@ -113,9 +123,25 @@ export function createWorker(app: AppServices, options: WorkerOptions): Worker {
   }
 
   async function run(): Promise<void> {
+    let failures = 0;
     try {
       while (!stopping) {
-        const n = await runOnce();
+        let n: number;
+        try {
+          n = await runOnce();
+          failures = 0;
+        } catch (err) {
+          // SQLITE_BUSY while an import holds the write lock longer than the busy timeout, or any
+          // other database error: the chunk's jobs stay leased (their lease runs out and any worker
+          // takes them again), and this worker waits and goes on instead of exiting.
+          if (!isDatabaseError(err)) throw err;
+          failures++;
+          const waitMs = databaseBackoffMs(failures, dbBackoffMs);
+          log(`[${owner}] database error (${(err as { code?: string }).code ?? 'unknown'}: ${(err as Error).message}); retrying in ${waitMs} ms (${failures} in a row)`);
+          tryRelease();
+          await sleep(waitMs);
+          continue;
+        }
         if (n > 0) {
           // Let timers (lease renewal) and signals run between chunks.
           await new Promise((r) => setImmediate(r));
@@ -126,9 +152,19 @@ export function createWorker(app: AppServices, options: WorkerOptions): Worker {
       }
     } finally {
       clearInterval(renewTimer);
-      if (held.length > 0) queue.release(owner, held);
-      held = [];
+      tryRelease();
     }
+  }
+
+  /** Hands back what this worker still holds after a failed chunk; a busy database leaves it to the lease. */
+  function tryRelease() {
+    if (held.length === 0) return;
+    try {
+      queue.release(owner, held);
+    } catch {
+      // the lease runs out instead
+    }
+    held = [];
   }
 
   return {

@@ -1,6 +1,6 @@
 // Catalogue rows and their text form (product.md, "Interfaces": output catalogue).
 import { describe, expect, it } from 'vitest';
-import { catalogueCsvLine, catalogueRow, csvField, formatCatalogueValue, provenanceLines, CATALOGUE_COLUMNS } from './catalogue';
+import { catalogueCsvLine, catalogueRow, csvField, formatCatalogueValue, neutraliseFormula, provenanceLines, CATALOGUE_COLUMNS } from './catalogue';
 import { FLAG_EXPLANATIONS } from './fit';
 
 describe('catalogue text', () => {
@@ -19,6 +19,21 @@ describe('catalogue text', () => {
     expect(csvField('a,b')).toBe('"a,b"');
     expect(csvField('say "hi"')).toBe('"say ""hi"""');
     expect(csvField('#7')).toBe('"#7"');
+  });
+
+  // OWASP Cheat Sheet "CSV Injection": cells starting with = + - @ tab or carriage return are
+  // prefixed with a single quote, and the usual RFC 4180 quoting still applies around the result.
+  it('neutralises text cells a spreadsheet would run as a formula, keeping the quoting right', () => {
+    for (const id of ['=HYPERLINK("http://evil.test","x")', '+1+1', '-2+3', '@SUM(1)', '\t=1', '\r=1', '  =1+1']) {
+      expect(neutraliseFormula(id)).toBe(`'${id}`);
+    }
+    for (const id of ['kiln 1', 'a=b', "'quoted", '#7', '']) expect(neutraliseFormula(id)).toBe(id);
+    const row = (id: string) => catalogueRow({ id, raDeg: 10, decDeg: -5, result: { ok: false, id, reason: 'few_bands', message: 'x', excluded: [] } });
+    expect(catalogueCsvLine(row('=HYPERLINK("http://evil.test","x")'))).toBe(`"'=HYPERLINK(""http://evil.test"",""x"")",10,-5,,,,,,,,,,,,,,,,0,,,few_bands`);
+    expect(catalogueCsvLine(row('@SUM(1)'))).toBe(`'@SUM(1),10,-5,,,,,,,,,,,,,,,,0,,,few_bands`);
+    expect(catalogueCsvLine(row('+1,+1'))).toBe(`"'+1,+1",10,-5,,,,,,,,,,,,,,,,0,,,few_bands`);
+    // A number is a number: the negative declination is not touched.
+    expect(catalogueCsvLine(row('-7')).split(',').slice(0, 3)).toEqual(["'-7", '10', '-5']);
   });
 
   it('a failed fit keeps id and position and names the reason in flags', () => {

@@ -134,6 +134,16 @@ export function csvField(text: string, delimiter = ','): string {
   return text;
 }
 
+/**
+ * Spreadsheet formula injection (OWASP "CSV Injection"): a text cell that starts with =, +, -, @,
+ * a tab or a carriage return, also after leading blanks, gets a single quote in front so a
+ * spreadsheet shows it as text instead of running it. Only text cells (ids, band lists, flags) pass
+ * through here; numbers are written as numbers, so a negative declination stays -5.
+ */
+export function neutraliseFormula(text: string): string {
+  return /^[ ]*[=+\-@\t\r]/.test(text) ? `'${text}` : text;
+}
+
 export function catalogueColumns(withReview = false): CatalogueColumn[] {
   return withReview ? [...CATALOGUE_COLUMNS, REVIEW_STATUS_COLUMN] : [...CATALOGUE_COLUMNS];
 }
@@ -146,7 +156,9 @@ export function catalogueCsvLine(row: CatalogueRow, columns: readonly CatalogueC
   let s = '';
   for (let i = 0; i < columns.length; i++) {
     if (i > 0) s += delimiter;
-    s += csvField(formatCatalogueValue(row[columns[i].name], columns[i]), delimiter);
+    const v = row[columns[i].name];
+    const text = formatCatalogueValue(v, columns[i]);
+    s += csvField(typeof v === 'string' ? neutraliseFormula(text) : text, delimiter);
   }
   return s;
 }

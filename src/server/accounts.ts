@@ -153,7 +153,7 @@ export function acceptInvitations(db: AppServices['db'], userId: string, email: 
       tx.update(invitations).set({ acceptedAt: new Date(), acceptedUserId: userId }).where(eq(invitations.id, inv.id)).run();
       recordAudit(tx, { actorId: userId, action: 'campaign.invitation_accepted', campaignId: inv.campaignId, details: { roles } });
     }
-  });
+  }, { behavior: 'immediate' });
   return open.length;
 }
 

@@ -80,7 +80,7 @@ export function createApiToken(db: AppDatabase, actor: Actor, raw: unknown, now 
   db.transaction((tx) => {
     tx.insert(apiTokens).values({ id, userId: actor.id, name: input.name, tokenHash: hashToken(secret), prefix: secret.slice(0, 10), createdAt: now, expiresAt }).run();
     recordAudit(tx, { actorId: actor.id, action: 'token.created', details: { tokenId: id, name: input.name, expiresAt: expiresAt?.toISOString() ?? null } });
-  });
+  }, { behavior: 'immediate' });
   const row = db.select().from(apiTokens).where(eq(apiTokens.id, id)).get()!;
   return { token: view(row), secret };
 }
@@ -93,7 +93,7 @@ export function revokeApiToken(db: AppDatabase, actor: Actor, tokenId: string, n
     db.transaction((tx) => {
       tx.update(apiTokens).set({ revokedAt: now }).where(eq(apiTokens.id, tokenId)).run();
       recordAudit(tx, { actorId: actor.id, action: 'token.revoked', details: { tokenId, name: row.name } });
-    });
+    }, { behavior: 'immediate' });
   }
   return view(db.select().from(apiTokens).where(eq(apiTokens.id, tokenId)).get()!);
 }

@@ -90,7 +90,7 @@ export function createCampaign(db: AppDatabase, actor: Actor, raw: unknown): Cam
       tx.insert(campaignMembers).values({ campaignId: id, userId: actor.id, addedById: actor.id }).run();
       tx.insert(campaignMemberRoles).values({ campaignId: id, userId: actor.id, role: 'analyst' }).run();
       recordAudit(tx, { actorId: actor.id, action: 'campaign.created', campaignId: id, details: { name: input.name } });
-    });
+    }, { behavior: 'immediate' });
   } catch (err) {
     if (isUniqueViolation(err)) throw duplicate();
     throw err;
@@ -210,7 +210,7 @@ export async function addMember(app: AppServices, actor: Actor, campaignId: stri
         tx.insert(campaignMembers).values({ campaignId, userId: existing.id, addedById: actor.id }).run();
         tx.insert(campaignMemberRoles).values(input.roles.map((role) => ({ campaignId, userId: existing.id, role }))).run();
         recordAudit(tx, { actorId: actor.id, action: 'campaign.member_added', campaignId, details: { userId: existing.id, roles: input.roles } });
-      });
+      }, { behavior: 'immediate' });
     } catch (err) {
       if (isUniqueViolation(err)) throw already();
       throw err;
@@ -247,7 +247,7 @@ export async function addMember(app: AppServices, actor: Actor, campaignId: stri
         .run();
       recordAudit(tx, { actorId: actor.id, action: 'campaign.invitation_sent', campaignId, details: { email: input.email, roles: input.roles } });
       return mailer.record(tx, mail);
-    });
+    }, { behavior: 'immediate' });
   } catch (err) {
     if (isUniqueViolation(err)) throw alreadyInvited();
     throw err;

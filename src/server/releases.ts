@@ -138,7 +138,7 @@ export async function createRelease(app: AppServices, actor: Actor, campaign: { 
       .run();
     for (const m of mails) outboxIds.push(mailer.record(tx, m));
     recordAudit(tx, { actorId: actor.id, action: 'catalogue.released', campaignId: campaign.id, details: { releaseId: id, title: input.title, rows: total, query, notified: people.length } });
-  });
+  }, { behavior: 'immediate' });
   for (const o of outboxIds) await mailer.dispatch(db, o);
   return listReleases(db, campaign.id).find((r) => r.id === id)!;
 }

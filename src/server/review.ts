@@ -94,7 +94,7 @@ export function setReviewSettings(db: AppDatabase, actor: Actor, campaignId: str
     if (before.fourEyes !== input.fourEyes) {
       recordAudit(tx, { actorId: actor.id, action: input.fourEyes ? 'review.four_eyes_on' : 'review.four_eyes_off', campaignId, details: {} });
     }
-  });
+  }, { behavior: 'immediate' });
   return getReviewSettings(db, campaignId);
 }
 

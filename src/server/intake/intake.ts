@@ -180,7 +180,7 @@ export async function createUpload(app: AppServices, actor: Actor, campaignId: s
   app.db.transaction((tx) => {
     tx.insert(uploads).values(row).run();
     recordAudit(tx, { actorId: actor.id, action: problem ? 'upload.rejected' : 'upload.received', campaignId, details: { uploadId: id, name: stored.originalName, sizeBytes: stored.sizeBytes, sha256: stored.sha256 } });
-  });
+  }, { behavior: 'immediate' });
   if (problem) {
     // The content is useless; keep the record and report, not the bytes.
     rmSync(stored.storedPath, { force: true });
@@ -341,7 +341,7 @@ export function importUpload(app: AppServices, actor: Actor, campaignId: string,
     sqlite
       .prepare('INSERT INTO audit_events (actor_id, action, campaign_id, details) VALUES (?, ?, ?, ?)')
       .run(actor.id, 'upload.imported', campaignId, JSON.stringify({ uploadId, source, ...counts, problems: result.errorCount }));
-  })();
+  }).immediate();
 
   const totals = campaignCounts(app.db, campaignId);
   return { ...check, source, ...counts, campaignStars: totals.stars, campaignMeasurements: totals.measurements };
