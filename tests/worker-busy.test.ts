@@ -3,7 +3,7 @@
 // batch is finished once the lock is gone. Before, the first SQLITE_BUSY ended the worker for good.
 import { afterEach, describe, expect, it } from 'vitest';
 import { openDatabase } from '../src/db/client';
-import { createApp } from '../src/lib/app';
+import { createApp } from '../src/app/app';
 import { startBatch } from '../src/server/batches';
 import { databaseBackoffMs, isBusy, isDatabaseError } from '../src/server/sqlite-errors';
 import { createWorker } from '../workers/runner';
