@@ -9,7 +9,7 @@ import { afterEach, describe, expect, it } from 'vitest';
 import { projectRoot } from '../src/db/paths';
 import { startBatch } from '../src/server/batches';
 import { createUpload, importUpload } from '../src/server/intake/intake';
-import { makeCampaign, makeUser } from './factories';
+import { makeCampaign, makeUser } from '../src/seed/factories';
 import { insertMockStars } from './factories-photometry';
 import { createTestApp, type TestApp } from './setup/db';
 

@@ -7,7 +7,7 @@ import { createApp } from '../src/app/app';
 import { startBatch } from '../src/server/batches';
 import { databaseBackoffMs, isBusy, isDatabaseError } from '../src/server/sqlite-errors';
 import { createWorker } from '../workers/runner';
-import { makeCampaign, makeUser } from './factories';
+import { makeCampaign, makeUser } from '../src/seed/factories';
 import { insertMockStars } from './factories-photometry';
 import { createTestApp, type TestApp } from './setup/db';
 

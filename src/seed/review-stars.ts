@@ -86,7 +86,7 @@ export function insertReviewStars(
       }
       made.push({ id, starKey: spec.starKey, spec });
     }
-  })();
+  }).immediate();
   return made;
 }
 
