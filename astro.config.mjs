@@ -11,7 +11,7 @@ export default defineConfig({
   integrations: [react()],
   server: { host: '127.0.0.1', port: 4321 },
   // Behind the Node adapter Astro sees its own URL as http://localhost/; list the hosts we serve
-  // so its same-origin check accepts multipart and form posts (stack-notes gotcha 4).
+  // so its same-origin check accepts multipart and form posts.
   security: {
     checkOrigin: true,
     allowedDomains: [

@@ -142,7 +142,7 @@ describe('a batch from start to finish', () => {
     const star = new Map(w.mock.map((m) => [m.id, m]));
     for (const r of ok) {
       // Noise-free magnitudes made by direct integration through the passbands: the fit recovers
-      // T and θ to 1e-4 (product.md check values, self-consistency).
+      // T and θ to 1e-4 (docs/science.md check values, self-consistency).
       expect(Math.abs(r.teff_k / star.get(r.star_id)!.teffK - 1)).toBeLessThan(1e-4);
       expect(Math.abs(r.theta_mas / star.get(r.star_id)!.thetaMas - 1)).toBeLessThan(1e-4);
       const detail = JSON.parse(r.detail);

@@ -98,7 +98,7 @@ describe('CSV', () => {
     expect(header).toMatch(/# fit batch \w+: .* extinction law ccm89, R_V = 3\.1/);
     expect(header).toMatch(/# selection: review status accepted; \d+ rows/);
     expect(header).toMatch(/# created: \d{4}-\d\d-\d\dT/);
-    // The zero-points used, with their sources (Bessell V: Bessell, Castelli & Plez 1998, product.md).
+    // The zero-points used, with their sources (Bessell V: Bessell, Castelli & Plez 1998, docs/science.md).
     expect(header).toContain(`# zero-point V (${lib.bands.V.system}, Vega): F_lambda,0 = ${lib.bands.V.zeroPoint!.fLambdaCgs} erg s-1 cm-2 A-1`);
     expect(header).toContain(`# zero-point Ks (${lib.bands.Ks.system}, Vega)`);
     for (const [code, words] of Object.entries(FLAG_EXPLANATIONS)) expect(header).toContain(`#   ${code}: ${words}`);

@@ -83,7 +83,7 @@ describe('the star sheet', () => {
     for (const b of sheet.bands) expect(b.pivotUm).toBeCloseTo(requireBand(library, b.key).pivotAngstrom / 1e4, 12);
     const pivots = sheet.bands.map((b: { pivotUm: number }) => b.pivotUm);
     expect(pivots).toEqual([...pivots].sort((a, b) => a - b));
-    // W3 and W4 (beyond ~5 µm) are excess checks, not fit inputs (product.md §8), and say so.
+    // W3 and W4 (beyond ~5 µm) are excess checks, not fit inputs (docs/science.md §8), and say so.
     for (const key of ['W3', 'W4']) {
       const b = sheet.bands.find((x: { key: string }) => x.key === key);
       expect(b.role).toBe('excluded');
@@ -98,7 +98,7 @@ describe('the star sheet', () => {
       const direct = s * planckBandMean(requireBand(library, b.key), sheet.fit.teffK, 0, { law: 'f99', rv: 3.1 });
       expect(Math.abs(b.modelFluxCgs / direct - 1)).toBeLessThan(1e-4);
       expect(b.modelLambdaFlux).toBeCloseTo(b.modelFluxCgs * b.pivotAngstrom, 20);
-      // Residual in σ: (data − model)/σ with the 2 % floor (product.md §5, §6).
+      // Residual in σ: (data − model)/σ with the 2 % floor (docs/science.md §5, §6).
       expect(b.residualSigma).toBeCloseTo((b.observedFluxCgs - b.modelFluxCgs) / b.sigmaCgs, 6);
     }
     // The curve is s·πB_λ(T) (A_V = 0 here): at the V pivot it equals the core's one-wavelength preview.

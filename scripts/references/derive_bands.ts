@@ -57,7 +57,7 @@ const twomassZp = (f: number, err: number): ZeroPoint => ({
 
 const GAIA_CITE =
   'Riello, M. et al. 2021, A&A, 649, A3 (Gaia EDR3/DR3 photometric passbands, photon-counting; https://www.cosmos.esa.int/web/gaia/edr3-passbands); file gaiadr3-%.ecsv from speclite.';
-// m_AB = m_Vega + (ZP_AB − ZP_Vega), Riello et al. 2021 (product.md 3).
+// m_AB = m_Vega + (ZP_AB − ZP_Vega), Riello et al. 2021 (docs/science.md 3).
 const gaiaZp = (zpAb: number, zpVega: number): ZeroPoint => ({
   fnuJy: 3631,
   relErr: 0,
@@ -79,7 +79,7 @@ const sdssZp = (offset: number): ZeroPoint => ({
 
 const WISE_CITE =
   'Wright, E. L. et al. 2010, AJ, 140, 1868 (doi:10.1088/0004-6256/140/6/1868), Fig. 6: weighted mean relative spectral response per photon; zero-points Jarrett, T. H. et al. 2011, ApJ, 735, 112; file wise2010-%.ecsv from speclite.';
-// Jarrett et al. 2011 isophotal F_ν,0 for F_ν ∝ ν⁻² and λ_iso (product.md 3); the 1σ values
+// Jarrett et al. 2011 isophotal F_ν,0 for F_ν ∝ ν⁻² and λ_iso (docs/science.md 3); the 1σ values
 // (4.582, 2.516, 0.450, 0.123 Jy) are from memory of the same table.
 const wiseZp = (fnu: number, err: number, isoUm: number): ZeroPoint => ({
   fnuJy: fnu,

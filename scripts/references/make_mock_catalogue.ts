@@ -48,7 +48,7 @@ export function mockCsv(stars: MockStar[], law: 'f99' | 'ccm89' | 'od94' = 'f99'
   const library = starterBandLibrary();
   const lines = [['id', 'ra', 'dec', 'parallax_mas', 'parallax_err_mas', 'av', ...MOCK_BANDS.flatMap((b) => [b, `${b}_err`])].join(',')];
   for (const [i, s] of stars.entries()) {
-    // s = (θ/2)² with θ in radians (product.md §1).
+    // s = (θ/2)² with θ in radians (docs/science.md §1).
     const dilution = (s.thetaMas / MAS_PER_RAD / 2) ** 2;
     const cells = [s.id, ((i * 7.31) % 360).toFixed(6), (((i * 3.7) % 170) - 85).toFixed(6), String(s.parallaxMas), String(s.parallaxMas / 50), String(s.avMag)];
     for (const key of MOCK_BANDS) {

@@ -10,7 +10,7 @@ Writes (under --out, default <project>/fixtures/bands):
   pivots.json             synphot pivot() of each curve, with provenance
 
 These curves are our own (no published instrument). synphot assumes a per-photon throughput, so the
-energy-type curve is divided by lambda before it is given to synphot (product.md, "Band means").
+energy-type curve is divided by lambda before it is given to synphot (docs/science.md, "Band means").
 Each pivot is computed twice: on the file's nodes alone (synphot's trapezoids) and on a fine grid
 where the curve is linear between the nodes (what Starkiln integrates); the tests compare with the
 fine-grid value and also check the node value is within 2 A.

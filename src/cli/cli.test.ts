@@ -1,7 +1,7 @@
 // `starkiln fit` end to end: the real command in a child process on files in a temporary folder.
 // Numbers: invented noise-free mock stars whose magnitudes come from direct integration of a
 // blackbody through each band (planckBandMean, checked against synphot), not from the fit's tables;
-// T and θ must come back to 1e-4 (product.md, check values: self-consistency).
+// T and θ must come back to 1e-4 (docs/science.md, check values: self-consistency).
 import { spawnSync } from 'node:child_process';
 import { createHash } from 'node:crypto';
 import { existsSync, mkdtempSync, readFileSync, readdirSync, rmSync, writeFileSync } from 'node:fs';
@@ -86,7 +86,7 @@ describe('starkiln fit, end to end', () => {
       expect(row.id).toBe(s.id);
       expect(Math.abs(Number(row.teff_k) / s.teffK - 1)).toBeLessThan(1e-4);
       expect(Math.abs(Number(row.theta_mas) / s.thetaMas - 1)).toBeLessThan(1e-4);
-      // R/R☉ = 107.516 θ[mas]/ϖ[mas] (IAU 2015 B3 R☉, IAU 2012 au; product.md §7).
+      // R/R☉ = 107.516 θ[mas]/ϖ[mas] (IAU 2015 B3 R☉, IAU 2012 au; docs/science.md §7).
       expect(Math.abs(Number(row.radius_rsun) / ((107.516 * s.thetaMas) / s.parallaxMas) - 1)).toBeLessThan(2e-4);
       // W3 (beyond ~5 µm) is a diagnostic, not a fit input, by default.
       expect(row.bands_used.split(' ').sort()).toEqual(['B', 'BP', 'G', 'H', 'J', 'Ks', 'RP', 'V', 'W1', 'W2']);
@@ -270,7 +270,7 @@ describe('starkiln fit, end to end', () => {
       });
     }
     expect(cat.rows.some((x) => x.bands_used.split(' ').includes('J'))).toBe(true);
-    // product.md check: median T_fit / Teff − 1 within ±3 % (a blackbody is a colour temperature).
+    // docs/science.md check: median T_fit / Teff − 1 within ±3 % (a blackbody is a colour temperature).
     const ratios = fitted.map((x) => Number(x.teff_k) / byHip.get(x.id)!.teffK - 1).sort((a, b) => a - b);
     expect(Math.abs(ratios[Math.floor(ratios.length / 2)])).toBeLessThan(0.03);
     const header = cat.comments.join('\n');

@@ -44,7 +44,7 @@ export function crossmatchStars(): CrossmatchStar[] {
   }));
 }
 
-/** Catalogue magnitude of a noise-free star in a band: s π B through the curve, s = (θ/2)² (product.md §1–3). */
+/** Catalogue magnitude of a noise-free star in a band: s π B through the curve, s = (θ/2)² (docs/science.md §1–3). */
 export function mockMag(bandKey: string, star: { teffK: number; thetaMas: number }): number {
   const band = getBand(starterBandLibrary(), bandKey)!;
   const dilution = (star.thetaMas / MAS_PER_RAD / 2) ** 2;

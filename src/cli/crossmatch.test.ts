@@ -3,7 +3,7 @@
 // core/input/mapping). Fixtures: fixtures/crossmatch/ (FITS and VOTable written by Debian's astropy,
 // scripts/references/make_crossmatch_fixture.py); invented noise-free stars whose photometry was
 // integrated through each band by the core (src/cli/crossmatch-mock.ts), so the fit must give back
-// T and θ (product.md check values: self-consistency).
+// T and θ (docs/science.md check values: self-consistency).
 import { spawnSync } from 'node:child_process';
 import { existsSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
@@ -44,7 +44,7 @@ function expectRecovered(rows: Record<string, string>[], stars: CrossmatchStar[]
     const row = rows[i];
     expect(Math.abs(Number(row.teff_k) / s.teffK - 1), `${row.id} teff`).toBeLessThan(tolerance);
     expect(Math.abs(Number(row.theta_mas) / s.thetaMas - 1), `${row.id} theta`).toBeLessThan(tolerance);
-    // R/R☉ = 107.516 θ[mas]/ϖ[mas] (IAU 2015 B3 R☉, IAU 2012 au; product.md §7).
+    // R/R☉ = 107.516 θ[mas]/ϖ[mas] (IAU 2015 B3 R☉, IAU 2012 au; docs/science.md §7).
     expect(Math.abs(Number(row.radius_rsun) / ((107.516 * s.thetaMas) / s.parallaxMas) - 1), `${row.id} radius`).toBeLessThan(tolerance + 1e-4);
   });
 }

@@ -1,4 +1,4 @@
-// Catalogue rows and their text form (product.md, "Interfaces": output catalogue).
+// Catalogue rows and their text form (docs/science.md, "Interfaces": output catalogue).
 import { describe, expect, it } from 'vitest';
 import { catalogueCsvLine, catalogueRow, csvField, formatCatalogueValue, neutraliseFormula, provenanceLines, CATALOGUE_COLUMNS } from './catalogue';
 import { FLAG_EXPLANATIONS } from './fit';

@@ -1,4 +1,4 @@
-// The output catalogue (product.md, "Interfaces"): one row per star with the fitted and derived
+// The output catalogue (docs/science.md, "Interfaces"): one row per star with the fitted and derived
 // values, and a provenance header. Shared by the CLI, the worker and the downloads, so every export
 // says the same thing the same way.
 import { FLAG_EXPLANATIONS, type FitFailure, type FitResult } from './fit';
@@ -178,7 +178,7 @@ export interface Provenance {
   notes?: string[];
 }
 
-/** Constants the numbers depend on (product.md, "The science"). */
+/** Constants the numbers depend on (docs/science.md, "The science"). */
 export const PROVENANCE_CONSTANTS =
   'CODATA 2018 (h, c, k_B exact; σ = 5.670374419e-8 W m-2 K-4); IAU 2015 Resolution B3 nominal solar values (R_sun = 6.957e8 m, L_sun = 3.828e26 W, Teff_sun = 5772 K); au = 1.495978707e11 m (IAU 2012 B2)';
 

@@ -18,19 +18,19 @@ const CHECK_UM = [0.44, 0.55, 0.7, 1.25, 1.65, 2.2];
 
 describe('extinction laws: check values', () => {
   it('F99 A_λ/A_V at 0.44…2.20 µm (R_V 3.1) = 1.3093, 0.9778, 0.6882, 0.2568, 0.1650, 0.1091', () => {
-    // Source: python3-extinction 0.4.6 (product.md check table).
+    // Source: python3-extinction 0.4.6 (docs/science.md check table).
     const want = [1.3093, 0.9778, 0.6882, 0.2568, 0.165, 0.1091];
     CHECK_UM.forEach((um, i) => expect(fitzpatrick99(um * 1e4, 3.1)).toBeCloseTo(want[i], 4));
   });
 
   it('CCM89 at the same wavelengths = 1.3245, 0.9989, 0.7502, 0.2821, 0.1804, 0.1135', () => {
-    // Source: python3-extinction 0.4.6 (product.md check table).
+    // Source: python3-extinction 0.4.6 (docs/science.md check table).
     const want = [1.3245, 0.9989, 0.7502, 0.2821, 0.1804, 0.1135];
     CHECK_UM.forEach((um, i) => expect(ccm89(um * 1e4, 3.1)).toBeCloseTo(want[i], 4));
   });
 
   it('F99 gives A(5494.5 Å) = 0.979 A_V while CCM89 gives 1 there', () => {
-    // Source: product.md 4 (python3-extinction 0.4.6); CCM89 a(x)=1, b(x)=0 near 5494.5 Å by construction.
+    // Source: docs/science.md 4 (python3-extinction 0.4.6); CCM89 a(x)=1, b(x)=0 near 5494.5 Å by construction.
     expect(fitzpatrick99(5494.5, 3.1)).toBeCloseTo(0.979, 3);
     expect(ccm89(5494.5, 3.1)).toBeCloseTo(1, 3);
   });

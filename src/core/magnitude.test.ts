@@ -43,7 +43,7 @@ describe('AB bands', () => {
   });
 
   it('SDSS u and z carry the catalogue offsets u_AB = u − 0.04, z_AB = z + 0.02', () => {
-    // Source: SDSS flux calibration notes (from memory), product.md 3.
+    // Source: SDSS flux calibration notes (from memory), docs/science.md 3.
     expect(rel(bandFlambdaCgsToFnuJy(b.u, magnitudeToFlambdaCgs(b.u, 0)), 3631 * 10 ** (0.4 * 0.04))).toBeLessThan(1e-12);
     expect(rel(bandFlambdaCgsToFnuJy(b.z, magnitudeToFlambdaCgs(b.z, 0)), 3631 * 10 ** (-0.4 * 0.02))).toBeLessThan(1e-12);
     expect(rel(bandFlambdaCgsToFnuJy(b.g, magnitudeToFlambdaCgs(b.g, 0)), 3631)).toBeLessThan(1e-12);
@@ -60,7 +60,7 @@ describe('AB bands', () => {
 
 describe('WISE isophotal zero-points', () => {
   it('W1 = 0: ⟨F_ν⟩ = F_ν,0 ν_iso² ⟨ν⁻²⟩ = 309.540 Jy × (λ_p/λ_iso)², i.e. ⟨F_λ⟩ = F_ν,0 c/λ_iso²', () => {
-    // Source: Jarrett et al. 2011 (F_ν,0 = 309.540 Jy at λ_iso = 3.3526 µm for F_ν ∝ ν⁻²), product.md 3.
+    // Source: Jarrett et al. 2011 (F_ν,0 = 309.540 Jy at λ_iso = 3.3526 µm for F_ν ∝ ν⁻²), docs/science.md 3.
     const f = magnitudeToFlambdaCgs(b.W1, 0);
     expect(rel(f, (309.54e-23 * 2.99792458e18) / 33526 ** 2)).toBeLessThan(1e-9);
     const lp = pivotWavelength(b.W1);
@@ -68,7 +68,7 @@ describe('WISE isophotal zero-points', () => {
   });
 
   it('skipping ⟨ν⁻²⟩ would bias W1/W2 by ~0.8 % and W3 by ~9 %', () => {
-    // product.md 3. Bias = 1 − (λ_iso/λ_p)² of treating F_ν,0 as the band-mean F_ν.
+    // docs/science.md 3. Bias = 1 − (λ_iso/λ_p)² of treating F_ν,0 as the band-mean F_ν.
     const bias = (key: string) => {
       const zp = b[key].zeroPoint!;
       return bandFlambdaCgsToFnuJy(b[key], magnitudeToFlambdaCgs(b[key], 0)) / zp.fnuJy! - 1;

@@ -129,7 +129,7 @@ export function measurementToBandFlux(band: Band, m: Measurement, options: Conve
 
 /**
  * Adds a systematic floor, a fraction of the flux, in quadrature to the uncertainty
- * (product.md 6: default 0.02; 0 leaves the error unchanged).
+ * (docs/science.md 6: default 0.02; 0 leaves the error unchanged).
  */
 export function applyFloor(flux: BandFlux, floorFraction = 0.02): BandFlux {
   if (!(Number.isFinite(floorFraction) && floorFraction >= 0)) {

@@ -11,7 +11,7 @@ const F99 = { law: 'f99' as const, rv: 3.1 };
 
 describe('pivot wavelength and the response convention', () => {
   it('Bessell V (energy-type as printed) has its pivot at 5477.7 Å; the per-photon formula would give 5500.5 Å', () => {
-    // Source: product.md 2 (synphot pivot() on S/λ at the published nodes = 5477.70 Å; the continuous
+    // Source: docs/science.md 2 (synphot pivot() on S/λ at the published nodes = 5477.70 Å; the continuous
     // integral of the linear curve gives 5477.23 Å, fixtures/synphot). Both readings within 0.5 Å.
     const v = lib.bands.V;
     expect(v.convention).toBe('energy');
@@ -21,7 +21,7 @@ describe('pivot wavelength and the response convention', () => {
   });
 
   it('the convention changes broad-band fluxes by per cents (Gaia G, WISE W3)', () => {
-    // product.md 2: wrong convention moves Gaia G by up to 13 % and WISE W3 by up to 19 %.
+    // docs/science.md 2: wrong convention moves Gaia G by up to 13 % and WISE W3 by up to 19 %.
     const g = lib.bands.G;
     const gWrong: Band = { ...g, convention: 'energy' };
     const w3 = lib.bands.W3;
@@ -33,7 +33,7 @@ describe('pivot wavelength and the response convention', () => {
   });
 
   it('an energy curve S behaves exactly like the per-photon curve R = S/λ', () => {
-    // Identity of the two formulas (product.md 2); R = S/λ sampled finely so linear interpolation holds.
+    // Identity of the two formulas (docs/science.md 2); R = S/λ sampled finely so linear interpolation holds.
     const v = lib.bands.V;
     const w: number[] = [];
     const r: number[] = [];
@@ -98,7 +98,7 @@ describe('band integration accuracy', () => {
 
 describe('the one-wavelength shortcut is only a preview', () => {
   it('differs from the band integral by far more than the 5e-4 tolerance for broad bands', () => {
-    // product.md 2: evaluating Planck at one wavelength instead of integrating is biased.
+    // docs/science.md 2: evaluating Planck at one wavelength instead of integrating is biased.
     for (const key of ['G', 'W3', 'u', 'NUV']) {
       const b = lib.bands[key];
       const worst = Math.max(

@@ -3,7 +3,7 @@
 // each interval is cut into pieces no wider than 1 % of λ and integrated with 3-point
 // Gauss–Legendre, so ∫ F(λ) R(λ) λ dλ is accurate to ~1e-9 even for a steep Wien tail.
 //
-// Conventions (product.md, "Band means"; Bessell & Murphy 2012, PASP 124, 140, for the notation):
+// Conventions (docs/science.md, "Band means"; Bessell & Murphy 2012, PASP 124, 140, for the notation):
 //   per-photon R:  ⟨F_λ⟩ = ∫F R λ dλ / ∫R λ dλ,   λ_p² = ∫R λ dλ / ∫R λ⁻¹ dλ
 //   energy S:      ⟨F_λ⟩ = ∫F S dλ / ∫S dλ,       λ_p² = ∫S dλ / ∫S λ⁻² dλ   (R = S/λ)
 //   ⟨F_ν⟩ = ⟨F_λ⟩ λ_p² / c.

@@ -71,8 +71,8 @@ describe('blackbody band means agree with synphot', () => {
     }
   });
 
-  it('product.md check values: 5772 K, R☉ at 10 pc: V 4.0742e-11 (AB 4.874), G/Ks/W1 AB 4.816/5.241/5.930', () => {
-    // Source: synphot (Debian python3-synphot) through the published curves, product.md check table.
+  it('docs/science.md check values: 5772 K, R☉ at 10 pc: V 4.0742e-11 (AB 4.874), G/Ks/W1 AB 4.816/5.241/5.930', () => {
+    // Source: synphot (Debian python3-synphot) through the published curves, docs/science.md check table.
     const ab = (key: string) => {
       const band = lib.bands[key];
       return -2.5 * Math.log10(bandFlambdaCgsToFnuJy(band, dilution * planckBandMean(band, 5772, 0, fixture.extinction)) / 3631);

@@ -1,6 +1,6 @@
 // Synthetic photometry of a reddened blackbody: the model the fit compares with band fluxes.
 //   φ(T, A_V) = ⟨π B_λ(T) · 10^(−0.4 A_V k(λ))⟩_band   with k = A_λ/A_V of the chosen law,
-// so a star of dilution s = (R/d)² = (θ/2)² has ⟨F_λ⟩ = s · φ (product.md 1, 2, 4).
+// so a star of dilution s = (R/d)² = (θ/2)² has ⟨F_λ⟩ = s · φ (docs/science.md 1, 2, 4).
 // The band quadrature (passband.ts) is reused, with π·2hc²/λ⁵ and hc/λk precomputed per node and
 // the extinction curve cached per law and R_V, because the fit's table builder calls this a lot.
 import { bandQuadrature, pivotWavelength, type PassbandCurve } from './passband';
@@ -99,7 +99,7 @@ export function planckBandMean(band: PassbandCurve, teffK: number, avMag: number
 /**
  * PREVIEW ONLY — never for a fit or a catalogue value. π B_λ(T) · 10^(−0.4 A_V k) evaluated at the
  * band's pivot wavelength alone. Cheap for a quick plot, but it differs from the band integral by
- * far more than the fit's tolerance for broad bands (product.md 2: 0.5–6 % in Teff).
+ * far more than the fit's tolerance for broad bands (docs/science.md 2: 0.5–6 % in Teff).
  */
 export function previewPlanckAtPivot(band: PassbandCurve, teffK: number, avMag: number, ext: ExtinctionSpec): number {
   const lp = pivotWavelength(band);

@@ -15,7 +15,7 @@ import { luminosityW, planckLambdaCgsAngstrom, planckLambdaSI, surfaceFluxWm2, w
 
 describe('Planck law', () => {
   it('B_λ(5772 K, 500 nm) = 2.62385406e13 W m⁻³ sr⁻¹', () => {
-    // Source: astropy BlackBody with CODATA 2018 constants (independent code), product.md check table.
+    // Source: astropy BlackBody with CODATA 2018 constants (independent code), docs/science.md check table.
     expect(planckLambdaSI(500e-9, 5772) / 2.62385406e13 - 1).toBeCloseTo(0, 8);
   });
 
@@ -91,7 +91,7 @@ describe('Stefan–Boltzmann and Wien', () => {
 
 describe('constants and units', () => {
   it('θ of R☉ at 10 pc is 0.93009345 mas and R/R☉ = 107.516 θ/ϖ', () => {
-    // Source: IAU 2015 B3 R☉, IAU 2012 B2 au, pc = au·648000/π (IAU 2015 B2); product.md check table.
+    // Source: IAU 2015 B3 R☉, IAU 2012 B2 au, pc = au·648000/π (IAU 2015 B2); docs/science.md check table.
     const thetaMas = ((2 * SOLAR_RADIUS_M) / (10 * PARSEC_M)) * MAS_PER_RAD;
     expect(thetaMas).toBeCloseTo(0.93009345, 8);
     expect(AU_M / (2 * SOLAR_RADIUS_M)).toBeCloseTo(107.516, 3);

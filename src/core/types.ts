@@ -1,7 +1,7 @@
 // Shared vocabulary of the science core (see src/core/README.md for the glossary).
 // Contract between the band library / synthetic photometry and the fit engine.
 
-/** How a passband curve weights the spectrum (product.md, "Band means"). */
+/** How a passband curve weights the spectrum (docs/science.md, "Band means"). */
 export type ResponseConvention = 'photon' | 'energy';
 
 /** Magnitude system of a band's default magnitudes. */

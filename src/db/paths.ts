@@ -1,5 +1,5 @@
 // Paths resolve from the project root, never from the working directory: the built server runs from
-// dist/, tests from a temp dir, scripts from anywhere (stack-notes gotcha 10).
+// dist/, tests from a temp dir, scripts from anywhere.
 import { existsSync, readFileSync } from 'node:fs';
 import path from 'node:path';
 import { fileURLToPath } from 'node:url';

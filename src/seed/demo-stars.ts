@@ -46,7 +46,7 @@ export function seasonTwoSpecs(count = DEMO_SEASON_TWO_COUNT, seed = 2026): Revi
     const radiusRsun = (giant ? 6 + rand() * 14 : (teffK / 5772) ** 1.1) * (0.85 + 0.3 * rand());
     const distancePc = 15 + rand() * 235;
     const parallaxMas = 1000 / distancePc;
-    // θ[mas] = R/R☉ · ϖ[mas] / 107.516 (product.md, derived values).
+    // θ[mas] = R/R☉ · ϖ[mas] / 107.516 (docs/science.md, derived values).
     const thetaMas = (radiusRsun * parallaxMas) / 107.516;
     const spec: ReviewStarSpec = { starKey, teffK, thetaMas: Number(thetaMas.toPrecision(5)), parallaxMas: Number(parallaxMas.toFixed(3)) };
     const u = rand();

@@ -67,7 +67,7 @@ const CURVE_MAX_UM = 30;
 const CURVE_POINTS = 300;
 
 /**
- * λF_λ of the fitted model over 0.1–30 µm: F_λ = s · π B_λ(T) · 10^(−0.4 A_V k(λ)) (product.md 1, 4)
+ * λF_λ of the fitted model over 0.1–30 µm: F_λ = s · π B_λ(T) · 10^(−0.4 A_V k(λ)) (docs/science.md 1, 4)
  * with s = (θ/2)². Drawn for the eye; the fit itself compares band means, never this curve.
  */
 export function sampleCurve(teffK: number, thetaMas: number, avMag: number, law: ExtinctionLawKey, rv: number): { wavelengthUm: number[]; lambdaFlux: number[] } {

@@ -162,7 +162,7 @@ export async function launchBrowser(): Promise<Browser> {
 export async function signInCookie(baseUrl: string, email: string, password: string): Promise<string> {
   const res = await fetch(`${baseUrl}/api/auth/sign-in/email`, {
     method: 'POST',
-    // better-auth refuses cookie-carrying POSTs without an Origin it trusts (stack-notes gotcha 5).
+    // better-auth refuses cookie-carrying POSTs without an Origin it trusts.
     headers: { 'content-type': 'application/json', origin: baseUrl },
     body: JSON.stringify({ email, password }),
   });

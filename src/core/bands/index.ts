@@ -13,7 +13,7 @@ export interface BandLibrary {
   sourceLicences?: Readonly<Record<string, string>>;
 }
 
-/** Keys of the starter bands in their documented order (product.md, "Interfaces"). */
+/** Keys of the starter bands in their documented order (docs/science.md, "Interfaces"). */
 export const STARTER_BAND_KEYS = [
   'U', 'B', 'V', 'R', 'I',
   'J', 'H', 'Ks',

@@ -69,7 +69,7 @@ describe('starter band library', () => {
     expect(lib.sourceLicences?.sedpy).toMatch(/Permission is hereby granted, free of charge/);
   });
 
-  it('holds the zero-points of product.md 3 with their sources', () => {
+  it('holds the zero-points of docs/science.md 3 with their sources', () => {
     const zp = (k: string) => lib.bands[k].zeroPoint!;
     expect(zp('B').fLambdaCgs).toBeCloseTo(632.0e-11, 20);
     expect(zp('B').source).toMatch(/Bessell, Castelli & Plez 1998/);

@@ -1,4 +1,4 @@
-// Derived quantities against the check values of product.md (sources named beside each check).
+// Derived quantities against the check values of docs/science.md (sources named beside each check).
 import { describe, expect, it } from 'vitest';
 import { AU_M, PARSEC_M, SOLAR_LUMINOSITY_W, SOLAR_RADIUS_M } from '../constants';
 import {
@@ -28,7 +28,7 @@ describe('derived quantities', () => {
 
   it('R/R☉ = 1.000000 for θ = 0.93009345 mas and ϖ = 100 mas (IAU 2015 + IAU 2012 au)', () => {
     expect(radiusRsunFromTheta(0.93009345, 100)).toBeCloseTo(1, 6);
-    // au/(2R☉) = 107.516 (product.md §7).
+    // au/(2R☉) = 107.516 (docs/science.md §7).
     expect(RADIUS_FACTOR).toBeCloseTo(107.516, 3);
     expect(RADIUS_FACTOR).toBe(AU_M / (2 * SOLAR_RADIUS_M));
   });
@@ -46,7 +46,7 @@ describe('derived quantities', () => {
     expect(luminosityLsun(1, 5772)).toBe(1);
   });
 
-  it('propagates the covariance: σ²(ln F_bol) = σ²(ln s) + 16σ²(ln T) + 8cov, σ²(ln L) adds 4(σϖ/ϖ)² (product.md §6–7)', () => {
+  it('propagates the covariance: σ²(ln F_bol) = σ²(ln s) + 16σ²(ln T) + 8cov, σ²(ln L) adds 4(σϖ/ϖ)² (docs/science.md §6–7)', () => {
     const d = blank();
     const cov = new Float64Array([1e-4, -1.8e-4, 0, -1.8e-4, 4e-4, 0, 0, 0, 0]); // ρ = −0.9
     const s = dilutionFromThetaMas(1);

@@ -1,4 +1,4 @@
-// Derived quantities and their uncertainties (product.md §6–7).
+// Derived quantities and their uncertainties (docs/science.md §6–7).
 //   θ [mas] = 2√s · 206 264 806.247 (s = (θ/2)², θ in rad)
 //   R/R☉ = θ[mas]/ϖ[mas] · au/(2R☉) (≈ 107.516; IAU 2015 B3 R☉, IAU 2012 B2 au)
 //   F_bol = s σ T⁴ (Stefan–Boltzmann), L/L☉ = (R/R☉)² (T/5772 K)⁴ (IAU 2015 B3 nominal Teff☉)
@@ -15,7 +15,7 @@ import { FLAG_BITS } from './flags';
 export const RADIUS_FACTOR = AU_M / (2 * SOLAR_RADIUS_M);
 /** σ in erg s⁻¹ cm⁻² K⁻⁴ (1 W m⁻² = 1e3 erg s⁻¹ cm⁻²). */
 export const STEFAN_BOLTZMANN_CGS = STEFAN_BOLTZMANN_SIGMA * 1e3;
-/** Parallax over error below which 1/ϖ is flagged as biased (product.md §7). */
+/** Parallax over error below which 1/ϖ is flagged as biased (docs/science.md §7). */
 export const PLX_SNR_MIN = 5;
 
 export interface Derived {

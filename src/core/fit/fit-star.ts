@@ -29,7 +29,7 @@ import {
 import { FLAG_BITS, flagCodes, type FlagCode } from './flags';
 import { mulberry32, normalDeviate } from './random';
 
-/** Bands whose pivot lies beyond this are excess diagnostics, not fit inputs, by default (product.md §8). */
+/** Bands whose pivot lies beyond this are excess diagnostics, not fit inputs, by default (docs/science.md §8). */
 export const LONG_BAND_PIVOT_ANGSTROM = 50000;
 
 export interface FitOptions {

@@ -1,6 +1,6 @@
 // The fit on real stars: Gaia FGK benchmark stars v3 (Soubiran et al. 2024; ../shared/data/benchmark,
 // licence beside the file), fundamental Teff from interferometric angular diameters and bolometric flux.
-// product.md check table: median T_fit/Teff − 1 within ±3 % in each 1000 K bin from 4000 to 7000 K
+// docs/science.md check table: median T_fit/Teff − 1 within ±3 % in each 1000 K bin from 4000 to 7000 K
 // with Gaia DR3 G/BP/RP and quality-A 2MASS bands. The same stars measure the blackbody model error
 // recorded in model-error.ts.
 import { readFileSync } from 'node:fs';

@@ -1,5 +1,5 @@
 // Recovery of mock stars built by DIRECT integration (planckBandMean, not the fit's tables):
-// product.md check table, "noise-free mock stars, 8 bands … T and θ recovered to 1e-4" (self-consistency),
+// docs/science.md check table, "noise-free mock stars, 8 bands … T and θ recovered to 1e-4" (self-consistency),
 // and noisy mock stars for the honesty of the errors (pulls ≈ N(0, 1), 68 % coverage of 1σ; common practice).
 import { describe, expect, it } from 'vitest';
 import { starterBandLibrary, requireBand } from '../bands';

@@ -1,4 +1,4 @@
-// Quality handling of the fit (product.md §8): censored upper limits, Rayleigh–Jeans lower bounds,
+// Quality handling of the fit (docs/science.md §8): censored upper limits, Rayleigh–Jeans lower bounds,
 // clipping, infrared excess, parallax flags, too few bands, Monte Carlo, and the A_V-fitting LM
 // against the general-purpose ml-levenberg-marquardt library.
 import { describe, expect, it } from 'vitest';

@@ -1,4 +1,4 @@
-// Table interpolation against direct band integrals (product.md §5: interpolation error < 1e-5 relative).
+// Table interpolation against direct band integrals (docs/science.md §5: interpolation error < 1e-5 relative).
 // Reference: planckBandMean (src/core/photometry.ts, itself checked against synphot fixtures) called
 // directly at temperatures and A_V values that are not table nodes.
 import { describe, expect, it } from 'vitest';

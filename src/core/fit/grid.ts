@@ -1,4 +1,4 @@
-// Band-mean tables φ_i(T, A_V) for the fit (product.md, "The science" §5).
+// Band-mean tables φ_i(T, A_V) for the fit (docs/science.md, "The science" §5).
 //
 // Why tables: a fit evaluates the model hundreds of times, and one band mean is an integral over a
 // passband curve (hundreds of nodes). Tabulating ln φ on a ln T grid once per (band set, law, R_V,

@@ -1,4 +1,4 @@
-// The blackbody model-error term (product.md §6): a single blackbody gives a colour temperature, not
+// The blackbody model-error term (docs/science.md §6): a single blackbody gives a colour temperature, not
 // Teff. Beyond the photometric noise, T_fit/Teff scatters on real stars; this term, added in quadrature
 // to σ(ln T) when FitOptions.modelErrorFraction is set to it, makes the reported 1σ intervals cover the
 // true Teff about 68 % of the time.

@@ -815,7 +815,7 @@ export function readFitsTable(bytes: Uint8Array, options: ReadFitsTableOptions =
   return Object.assign(hdu.table, { hdu });
 }
 
-/** Per-observation metadata from an image header (product.md, "Interfaces"). */
+/** Per-observation metadata from an image header (docs/science.md, "Interfaces"). */
 export interface FitsObservationMeta {
   hdu: number;
   object?: string;

@@ -10,7 +10,7 @@ function roles(columns: string[], rows: (string | number | null)[][] = []) {
 }
 
 describe('detectMapping: column names', () => {
-  it('reads the canonical wide names (product.md, "Interfaces")', () => {
+  it('reads the canonical wide names (docs/science.md, "Interfaces")', () => {
     expect(roles(['id', 'ra', 'dec', 'parallax_mas', 'parallax_err_mas', 'av', 'V', 'V_err', 'W1_jy', 'W1_jy_err', 'W4_ul', 'Ks_jy_ul'])).toEqual({
       id: 'id', ra: 'ra', dec: 'dec', parallax_mas: 'parallax', parallax_err_mas: 'parallax_err', av: 'av',
       V: 'V:mag', V_err: 'V:mag_err', W1_jy: 'W1:jy', W1_jy_err: 'W1:jy_err', W4_ul: 'W4:mag_ul', Ks_jy_ul: 'Ks:jy_ul',

@@ -175,7 +175,7 @@ interface Template {
 const GAIA_KEYS = ['G', 'BP', 'RP'] as const;
 
 // Common spellings in exported catalogues (VizieR e_Xmag, 2MASS PSC j_m/j_msigcom, AllWISE w1mpro,
-// Gaia archive phot_g_mean_flux) and Starkiln's canonical names (product.md, "Interfaces").
+// Gaia archive phot_g_mean_flux) and Starkiln's canonical names (docs/science.md, "Interfaces").
 const TEMPLATES: Template[] = [
   { prefix: '', suffix: '', role: 'mag', rank: 0, exactKey: true },
   { prefix: '', suffix: '_err', role: 'mag_err', rank: 0, exactKey: true },

@@ -1,7 +1,7 @@
 // A photometry file's bytes → stars with measurements and problems naming file, row, line and
 // column, through the one path the web intake and `starkiln fit` share: readUpload (format from the
 // content) → detectMapping (column names) → applyMapping (rows and checks). Canonical wide and long
-// formats per product.md, "Interfaces"; quoting per RFC 4180. Star names are invented; the numbers
+// formats per docs/science.md, "Interfaces"; quoting per RFC 4180. Star names are invented; the numbers
 // are arbitrary inputs, not reference values.
 import { readFileSync } from 'node:fs';
 import path from 'node:path';
@@ -12,7 +12,7 @@ import { applyMapping, detectMapping, type Mapping, type MappingProblem } from '
 import { readUpload, UnreadableFile } from './table-file';
 
 const root = fileURLToPath(new URL('../../..', import.meta.url));
-// The starter library's keys (product.md, "Interfaces"); passed in, as the CLI and intake pass the library's.
+// The starter library's keys (docs/science.md, "Interfaces"); passed in, as the CLI and intake pass the library's.
 const KEYS = STARTER_BAND_KEYS;
 const errors = (ps: MappingProblem[]) => ps.filter((p) => p.severity === 'error');
 

@@ -18,7 +18,7 @@ export const FORMAT_LABELS: Record<DetectedFormat, string> = {
   'fits-image': 'FITS image',
 };
 
-/** Per-observation metadata of a FITS image (product.md, "Interfaces"). */
+/** Per-observation metadata of a FITS image (docs/science.md, "Interfaces"). */
 export interface ImageObservation {
   object?: string;
   filter?: string;

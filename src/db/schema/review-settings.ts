@@ -10,7 +10,7 @@ export const campaignReviewSettings = sqliteTable('campaign_review_settings', {
   campaignId: text('campaign_id')
     .primaryKey()
     .references(() => campaigns.id, { onDelete: 'cascade' }),
-  // Four-eyes rule (product.md): whoever started a batch may not accept its fits.
+  // Four-eyes rule (docs/science.md): whoever started a batch may not accept its fits.
   fourEyes: integer('four_eyes', { mode: 'boolean' }).notNull().default(true),
   updatedById: text('updated_by_id').references(() => user.id, { onDelete: 'set null' }),
   updatedAt: integer('updated_at', { mode: 'timestamp_ms' }).notNull().default(now),
