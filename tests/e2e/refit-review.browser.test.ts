@@ -67,7 +67,7 @@ describe('re-fit after a zero-point change', () => {
     const batchRows = await page.locator('[data-testid="batch-table"] tbody tr').count();
     const preview = page.getByTestId('refit-preview');
     await expect.poll(() => preview.textContent()).toMatch(new RegExp(`${reviewed}\\s+of them have a review decision\\s+\\(${reviewed - 1} accepted, 1 flagged\\)`));
-    expect(await preview.textContent()).toMatch(/carries over .* less than 0\.25σ/);
+    expect(await preview.textContent()).toMatch(/carries over[\s\S]*less than 0\.25σ/);
     await Promise.all([page.waitForURL(/\/batches\/[^/]+$/), page.getByTestId('refit-stale').click()]);
     // The worker fits the re-fit batch (in this process, on the server's database file).
     await createWorker(run.app, { owner: 'e2e-refit', drain: true, idleMs: 5 }).run();
