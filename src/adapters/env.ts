@@ -4,6 +4,7 @@ import { existsSync, mkdirSync, readFileSync, writeFileSync } from 'node:fs';
 import path from 'node:path';
 import { z } from 'zod';
 import { projectRoot, resolveDatabasePath } from '../db/paths';
+import { limitsFromEnv, type InputLimits } from '../core/input/limits';
 
 const optionalPassword = z
   .string()
@@ -51,6 +52,8 @@ export interface AppEnv {
   demoPasswords: { admin?: string; analyst?: string; reviewer?: string; collaborator?: string };
   queueBackend: 'sqlite' | 'redis';
   redisUrl: string;
+  /** What one input file may cost to read (INPUT_MAX_*; docs/decisions/0017-input-limits.md). */
+  inputLimits: InputLimits;
 }
 
 /** Load `.env` from the project root into process.env (values already set win). */
@@ -76,8 +79,15 @@ export function parseEnv(source: Record<string, string | undefined>): AppEnv {
   // An empty line in .env (KEY=) means "not set", not "set to nothing".
   const present = Object.fromEntries(Object.entries(source).filter(([, v]) => v !== undefined && v.trim() !== ''));
   const result = envSchema.safeParse(present);
-  if (!result.success) {
-    const lines = result.error.issues.map((i) => `  ${i.path.join('.')}: ${i.message}`);
+  let inputLimits: InputLimits | undefined;
+  let limitProblems: string[] = [];
+  try {
+    inputLimits = limitsFromEnv(present);
+  } catch (err) {
+    limitProblems = (err as Error).message.split('; ').map((m) => `  ${m.split(' ')[0]}: ${m.slice(m.indexOf(' ') + 1)}`);
+  }
+  if (!result.success || !inputLimits) {
+    const lines = [...(result.success ? [] : result.error.issues.map((i) => `  ${i.path.join('.')}: ${i.message}`)), ...limitProblems];
     throw new Error(`Starkiln configuration is invalid:\n${lines.join('\n')}`);
   }
   const e = result.data;
@@ -103,6 +113,7 @@ export function parseEnv(source: Record<string, string | undefined>): AppEnv {
     authRateLimit: e.AUTH_RATE_LIMIT === 'on',
     queueBackend: e.STARKILN_QUEUE,
     redisUrl: e.REDIS_URL,
+    inputLimits,
     demoPasswords: {
       admin: e.DEMO_ADMIN_PASSWORD,
       analyst: e.DEMO_ANALYST_PASSWORD,
