@@ -28,7 +28,7 @@ const envSchema = z
       .string()
       .regex(/^rediss?:\/\/[^\s]+$/, 'REDIS_URL must look like redis://host:6379 (or rediss:// for TLS)')
       .default('redis://127.0.0.1:6379'),
-    // Stars per fit job (a chunk: claimed, fitted and written together; docs/decisions/0016).
+    // Stars per fit job (a chunk: claimed, fitted and written together; docs/decisions/0017).
     FIT_CHUNK_STARS: z.coerce
       .number('FIT_CHUNK_STARS must be a whole number of stars, e.g. 1000')
       .int('FIT_CHUNK_STARS must be a whole number of stars, e.g. 1000')

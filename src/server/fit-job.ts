@@ -1,4 +1,4 @@
-// The `fit-chunk` job: a chunk of stars of one batch (docs/decisions/0016-chunked-fit-jobs.md).
+// The `fit-chunk` job: a chunk of stars of one batch (docs/decisions/0017-chunked-fit-jobs.md).
 // Workers run a chunk with one read of its stars and measurements, one fit model per (options, band
 // library version) reused for every chunk, and one transaction that completes the job and writes
 // its results. (`fit-star` jobs, one star each, were enqueued before chunks existed; they run as
@@ -25,7 +25,7 @@ export const FIT_CHUNK_JOB = 'fit-chunk';
 /** One star per job, as enqueued before chunks; still run (as a chunk of one). */
 export const FIT_STAR_JOB = 'fit-star';
 
-/** Stars per fit job unless FIT_CHUNK_STARS says otherwise (measured: docs/decisions/0016-chunked-fit-jobs.md). */
+/** Stars per fit job unless FIT_CHUNK_STARS says otherwise (measured: docs/decisions/0017-chunked-fit-jobs.md). */
 export const DEFAULT_FIT_CHUNK_STARS = 1000;
 
 export function isFitJob(kind: string): boolean {

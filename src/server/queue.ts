@@ -4,7 +4,7 @@
 //   job       one unit of work of one kind, e.g. `fit-chunk` for a chunk of stars of one batch. Its
 //             idempotency key (`fit-chunk:<batch>:<first star>`) makes enqueueing twice a no-op. A
 //             job counts `stars` units (1 for kinds other than fit chunks); the progress counts add them.
-//   chunk     a fit job's stars (docs/decisions/0016-chunked-fit-jobs.md): claimed, fitted, written
+//   chunk     a fit job's stars (docs/decisions/0017-chunked-fit-jobs.md): claimed, fitted, written
 //             and completed together, one transaction per chunk.
 //   claim     a worker takes up to N ready jobs at once; a job is ready when it is pending and its
 //             runAfter has passed. Claiming sets status `leased`, the lease owner and expiry, and
