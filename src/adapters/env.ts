@@ -29,6 +29,13 @@ const envSchema = z
       .string()
       .regex(/^rediss?:\/\/[^\s]+$/, 'REDIS_URL must look like redis://host:6379 (or rediss:// for TLS)')
       .default('redis://127.0.0.1:6379'),
+    // Stars per fit job (a chunk: claimed, fitted and written together; docs/decisions/0017).
+    FIT_CHUNK_STARS: z.coerce
+      .number('FIT_CHUNK_STARS must be a whole number of stars, e.g. 1000')
+      .int('FIT_CHUNK_STARS must be a whole number of stars, e.g. 1000')
+      .min(1, 'FIT_CHUNK_STARS must be at least 1')
+      .max(100_000, 'FIT_CHUNK_STARS can be at most 100000')
+      .default(1000),
     DEMO_ADMIN_PASSWORD: optionalPassword,
     DEMO_ANALYST_PASSWORD: optionalPassword,
     DEMO_REVIEWER_PASSWORD: optionalPassword,
@@ -54,6 +61,8 @@ export interface AppEnv {
   redisUrl: string;
   /** What one input file may cost to read (INPUT_MAX_*; docs/decisions/0017-input-limits.md). */
   inputLimits: InputLimits;
+  /** Stars per fit job (chunk). */
+  fitChunkStars: number;
 }
 
 /** Load `.env` from the project root into process.env (values already set win). */
@@ -114,6 +123,7 @@ export function parseEnv(source: Record<string, string | undefined>): AppEnv {
     queueBackend: e.STARKILN_QUEUE,
     redisUrl: e.REDIS_URL,
     inputLimits,
+    fitChunkStars: e.FIT_CHUNK_STARS,
     demoPasswords: {
       admin: e.DEMO_ADMIN_PASSWORD,
       analyst: e.DEMO_ANALYST_PASSWORD,
