@@ -59,7 +59,7 @@ export interface AppEnv {
   demoPasswords: { admin?: string; analyst?: string; reviewer?: string; collaborator?: string };
   queueBackend: 'sqlite' | 'redis';
   redisUrl: string;
-  /** What one input file may cost to read (INPUT_MAX_*; docs/decisions/0017-input-limits.md). */
+  /** What one input file may cost to read (INPUT_MAX_*; docs/decisions/0018-input-limits.md). */
   inputLimits: InputLimits;
   /** Stars per fit job (chunk). */
   fitChunkStars: number;

@@ -1,7 +1,7 @@
 // What any one input file may cost to read: its size, its rows, columns and cells (the memory it
 // takes once read), and the time its reading may take. Every reader (CSV/TSV, VOTable, FITS) checks
 // the same budget and answers with an InputLimitError naming the file, where in it the limit was
-// passed, the limit and the setting that raises it (docs/decisions/0017-input-limits.md).
+// passed, the limit and the setting that raises it (docs/decisions/0018-input-limits.md).
 // Pure: the intake and `starkiln fit` share it; the settings are read from an environment record.
 
 /**

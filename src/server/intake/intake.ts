@@ -50,7 +50,7 @@ export function readStoredUpload(storedPath: string, file: string, limits?: Part
 
 /**
  * How the intake answers a file it will not read: 400 for what is refused for safety (hostile XML),
- * 422 for a file it cannot read or one past a limit (docs/decisions/0017-input-limits.md).
+ * 422 for a file it cannot read or one past a limit (docs/decisions/0018-input-limits.md).
  */
 function unreadableAnswer(err: UnreadableFile): { status: number; code: string } {
   if (err.kind === 'unsafe') return { status: 400, code: 'unsafe_file' };
