@@ -25,6 +25,7 @@ import { IntakeError } from './errors';
 import { FORMAT_LABELS, readUpload, UnreadableFile, type DetectedFormat, type ReadUpload } from '../../core/input/table-file';
 import type { InputLimits } from '../../core/input/limits';
 import { starIdProblem } from '../../core/input/star-id';
+import { MAG_RANGE } from '../../core/input/apply-mapping';
 import { fileProblem, toReport } from './report';
 import type { CheckSummary, ImportSummary, ReportEntry, UploadDetail, UploadSummary } from '../../contracts/intake';
 
@@ -98,7 +99,7 @@ export const importInput = z.object({
           if (problem) ctx.addIssue({ code: 'custom', message: `${problem[0].toUpperCase()}${problem.slice(1)}.` });
         }),
       band: z.string().min(1, 'Choose the band.').max(40),
-      mag: z.number({ error: 'mag must be a number.' }).finite(),
+      mag: z.number({ error: 'mag must be a number.' }).finite().min(MAG_RANGE.min, `mag must be within ${MAG_RANGE.min}…${MAG_RANGE.max}.`).max(MAG_RANGE.max, `mag must be within ${MAG_RANGE.min}…${MAG_RANGE.max}.`),
       magErr: z.number({ error: 'magErr must be a number.' }).finite().nonnegative('The magnitude error cannot be negative.'),
     })
     .optional(),
