@@ -30,7 +30,9 @@ let app: AppServices | undefined;
  */
 export function getApp(role: 'server' | 'worker' = 'server'): AppServices {
   if (!app) {
-    app = createApp(getDb(), getEnv());
+    // Settings first (they load .env), then the database they name.
+    const env = getEnv();
+    app = createApp(getDb(env.databasePath), env);
     startUpCleanUp(app, role);
   }
   return app;
