@@ -62,6 +62,13 @@ const settingsShape = z.object({
   DEMO_ANALYST_PASSWORD: optionalPassword,
   DEMO_REVIEWER_PASSWORD: optionalPassword,
   DEMO_COLLABORATOR_PASSWORD: optionalPassword,
+  // What one input file may cost to read (INPUT_MAX_BYTES, _ROWS, _COLUMNS, _CELLS, _SECONDS):
+  // checked by limitsFromEnv in src/core/input/limits.ts, which the CLI shares.
+  INPUT_MAX_BYTES: z.string().optional(),
+  INPUT_MAX_ROWS: z.string().optional(),
+  INPUT_MAX_COLUMNS: z.string().optional(),
+  INPUT_MAX_CELLS: z.string().optional(),
+  INPUT_MAX_SECONDS: z.string().optional(),
 });
 
 /** Every setting Starkiln reads (.env.example lists each one). */

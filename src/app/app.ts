@@ -6,7 +6,7 @@ import { toActor, type Actor, type AppServices } from '../server/context';
 import { createAuth, type SessionUser } from '../adapters/auth';
 import { getEnv, type AppEnv } from '../adapters/env';
 import { createMailer } from '../adapters/mail';
-import { intakeConfigFromEnv, PARTIAL_IDLE_MS, processStartedAt, removeLeftoverPartials } from '../server/intake/storage';
+import { PARTIAL_IDLE_MS, processStartedAt, removeLeftoverPartials } from '../server/intake/storage';
 
 export function createApp(db: AppDatabase, env: AppEnv): AppServices {
   const mailer = createMailer({ transport: env.mailTransport, smtpUrl: env.smtpUrl, from: env.mailFrom });
@@ -42,7 +42,7 @@ function startUpCleanUp(services: AppServices, role: 'server' | 'worker'): void 
   const started = processStartedAt();
   const before = role === 'server' ? started : Math.min(started, Date.now() - PARTIAL_IDLE_MS);
   try {
-    const removed = removeLeftoverPartials(intakeConfigFromEnv(services.env.databasePath).dataDir, before);
+    const removed = removeLeftoverPartials(services.env.dataDir, before);
     if (removed.length > 0) console.log(`Removed ${removed.length} partial upload file(s) left by an upload that never finished.`);
   } catch (err) {
     // A clean-up that cannot run must not keep the service from starting.

@@ -136,6 +136,9 @@ export async function receiveUpload(request: Request, campaignId: string, config
     const fail = (err: unknown) => {
       if (settled) return;
       settled = true;
+      // The write stream opens its file asynchronously: destroyed before that, it still creates the
+      // file, then closes it. Remove it once closed too, or a cut upload could leave its partial file.
+      if (out && !out.closed) out.once('close', () => rmSync(partialPath, { force: true }));
       out?.destroy();
       rmSync(partialPath, { force: true });
       rmSync(storedPath, { force: true });
