@@ -1,0 +1,1 @@
+ALTER TABLE `campaigns` ADD `archived_at` integer;
