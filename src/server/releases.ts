@@ -15,7 +15,7 @@ import { EXPORT_FORMATS, EXPORT_FORMAT_NAMES, exportBytes, exportFileName, type 
 import { openExport } from './exports/source';
 import type { MailMessage } from '../adapters/mail';
 import { recordAudit } from './audit';
-import { catalogueCount, describeFilter, filterToParams, parseCatalogueFilter, type CatalogueFilter } from './catalogue';
+import { catalogueCount, catalogueFilterFromQuery, describeFilter, filterToParams, type CatalogueFilter } from './catalogue';
 import type { Actor, AppServices } from './context';
 import { HttpError } from './errors';
 import { appVersion } from './health';
@@ -99,7 +99,7 @@ function view(r: ReleaseRow, by: { id: string; name: string } | null, notified: 
     title: r.title,
     note: r.note,
     query,
-    selection: describeFilter(parseCatalogueFilter(new URLSearchParams(query))),
+    selection: describeFilter(catalogueFilterFromQuery(query)),
     rowCount: r.rowCount,
     bandLibraryVersion: r.bandLibraryVersion,
     softwareVersion: r.softwareVersion,
@@ -198,7 +198,7 @@ function collaborators(db: AppDatabase, campaignId: string): { id: string; name:
 export async function createRelease(app: AppServices, actor: Actor, campaign: { id: string; name: string }, raw: unknown): Promise<ReleaseView> {
   const { db, mailer, env } = app;
   const input = parseInput(releaseInput, raw);
-  const filter: CatalogueFilter = parseCatalogueFilter(new URLSearchParams(input.query ?? 'status=accepted'));
+  const filter: CatalogueFilter = catalogueFilterFromQuery(input.query ?? 'status=accepted');
   const query = filterToParams(filter).toString();
   const id = newId();
   const address = `${env.baseUrl}${releasePath(campaign.id, id)}`;

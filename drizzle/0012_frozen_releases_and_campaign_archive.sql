@@ -19,6 +19,7 @@ CREATE TABLE `release_rows` (
 	FOREIGN KEY (`release_id`) REFERENCES `catalogue_releases`(`id`) ON UPDATE no action ON DELETE cascade
 );
 --> statement-breakpoint
+ALTER TABLE `campaigns` ADD `archived_at` integer;--> statement-breakpoint
 ALTER TABLE `catalogue_releases` ADD `frozen` integer DEFAULT false NOT NULL;--> statement-breakpoint
 ALTER TABLE `catalogue_releases` ADD `provenance` text;--> statement-breakpoint
 -- A frozen release never changes (decision record 0017): its files and rows cannot be updated, nor
