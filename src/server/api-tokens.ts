@@ -14,23 +14,14 @@ import type { Actor } from './context';
 import { HttpError } from './errors';
 import { hashToken, newId } from './ids';
 import { parseInput } from './validation';
+import type { ApiTokenView } from '../contracts/api';
 
 export const TOKEN_PREFIX = 'sk_';
 export const MAX_TOKENS_PER_USER = 50;
 /** lastUsedAt is written at most this often per token, so scripts do not turn reads into writes. */
 const LAST_USED_RESOLUTION_MS = 60_000;
 
-export interface ApiTokenView {
-  id: string;
-  name: string;
-  /** The first characters of the secret, to tell tokens apart. */
-  prefix: string;
-  createdAt: string;
-  lastUsedAt: string | null;
-  expiresAt: string | null;
-  revokedAt: string | null;
-  status: 'active' | 'revoked' | 'expired';
-}
+export type { ApiTokenView };
 
 export const createTokenInput = z.object({
   name: z

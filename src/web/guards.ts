@@ -13,10 +13,6 @@ export interface GuardLocals {
   actor: Actor | null;
 }
 
-export function getUser(locals: GuardLocals): Actor | null {
-  return locals.actor;
-}
-
 export function requireUser(locals: GuardLocals): Actor {
   if (!locals.actor) throw unauthenticated();
   return locals.actor;
