@@ -12,6 +12,11 @@ export const AUDIT_ACTIONS = [
   'campaign.member_added',
   'campaign.invitation_sent',
   'campaign.invitation_accepted',
+  'campaign.invitation_revoked',
+  'campaign.member_roles_changed',
+  'campaign.member_removed',
+  'campaign.archived',
+  'campaign.restored',
   'catalogue.released',
   'person.kind_changed',
   'person.deactivated',
@@ -31,6 +36,7 @@ export const AUDIT_ACTIONS = [
   'upload.received',
   'upload.rejected',
   'upload.imported',
+  'intake.upload_withdrawn',
 ] as const;
 export type AuditAction = (typeof AUDIT_ACTIONS)[number];
 
