@@ -31,6 +31,13 @@ const envSchema = z
       .string()
       .regex(/^rediss?:\/\/[^\s]+$/, 'REDIS_URL must look like redis://host:6379 (or rediss:// for TLS)')
       .default('redis://127.0.0.1:6379'),
+    // Stars per fit job (a chunk: claimed, fitted and written together; docs/decisions/0017).
+    FIT_CHUNK_STARS: z.coerce
+      .number('FIT_CHUNK_STARS must be a whole number of stars, e.g. 1000')
+      .int('FIT_CHUNK_STARS must be a whole number of stars, e.g. 1000')
+      .min(1, 'FIT_CHUNK_STARS must be at least 1')
+      .max(100_000, 'FIT_CHUNK_STARS can be at most 100000')
+      .default(1000),
     DEMO_ADMIN_PASSWORD: optionalPassword,
     DEMO_ANALYST_PASSWORD: optionalPassword,
     DEMO_REVIEWER_PASSWORD: optionalPassword,
@@ -58,6 +65,8 @@ export interface AppEnv {
   demoPasswords: { admin?: string; analyst?: string; reviewer?: string; collaborator?: string };
   queueBackend: 'sqlite' | 'redis';
   redisUrl: string;
+  /** Stars per fit job (chunk). */
+  fitChunkStars: number;
 }
 
 /** Load `.env` from the project root into process.env (values already set win). */
@@ -118,6 +127,7 @@ export function parseEnv(source: Record<string, string | undefined>): AppEnv {
     secureCookies: new URL(baseUrl).protocol === 'https:',
     queueBackend: e.STARKILN_QUEUE,
     redisUrl: e.REDIS_URL,
+    fitChunkStars: e.FIT_CHUNK_STARS,
     demoPasswords: {
       admin: e.DEMO_ADMIN_PASSWORD,
       analyst: e.DEMO_ANALYST_PASSWORD,
