@@ -12,7 +12,7 @@ export default defineConfig({
   server: { host: '127.0.0.1', port: 4321 },
   // Astro's own same-origin check is off: it refuses every bodiless write without an Origin, bearer
   // tokens included. src/middleware.ts applies the rule instead: a same-origin Origin (or Referer)
-  // for every write except bearer-token requests (docs/decisions/0019-same-origin-writes-and-headers.md).
+  // for every write except bearer-token requests (docs/decisions/0020-same-origin-writes-and-headers.md).
   // The hosts we serve stay listed, for the URL Astro builds from Host and X-Forwarded-Host.
   security: {
     checkOrigin: false,

@@ -3,7 +3,7 @@
 // X-Forwarded-For value as the client's address, whoever sent it; this listener tells the app the
 // TCP peer's address instead, in the x-starkiln-peer header (a value sent by the client is
 // replaced), and the app decides from TRUSTED_PROXIES whether X-Forwarded-For may be believed
-// (src/adapters/client-address.ts, docs/decisions/0018-rate-limits-and-client-address.md).
+// (src/adapters/client-address.ts, docs/decisions/0019-rate-limits-and-client-address.md).
 // Started by `npm start`, `npm run demo` and the test harness: HOST and PORT as for the adapter.
 import fs from 'node:fs';
 import http from 'node:http';

@@ -1,7 +1,7 @@
 // Identifies the person behind the request's session cookie and nothing more: every page and API
 // route checks authorisation itself with the guards in src/web/guards.ts. Also, for every request:
 // the client's address (rate limits), the same-origin rule for writes and the security headers
-// (docs/decisions/0018-rate-limits-and-client-address.md, 0019-same-origin-writes-and-headers.md).
+// (docs/decisions/0019-rate-limits-and-client-address.md, 0020-same-origin-writes-and-headers.md).
 import { defineMiddleware } from 'astro:middleware';
 import { getApp, resolveActor } from './app/app';
 import { json } from './web/http';

@@ -3,7 +3,7 @@
 // X-Forwarded-For that is not itself a trusted proxy (each proxy appends the address it saw, so
 // everything left of the first untrusted hop may be invented by the client). An X-Forwarded-For
 // from any other peer is ignored: a client can write whatever it likes there
-// (docs/decisions/0018-rate-limits-and-client-address.md).
+// (docs/decisions/0019-rate-limits-and-client-address.md).
 import net from 'node:net';
 
 export interface TrustedProxies {

@@ -1,7 +1,7 @@
 // A growing wait after failed sign-ins, per account and per client address, on both ways in: the
 // sign-in page and better-auth's POST /api/auth/sign-in/email. While the wait runs, attempts are
 // refused with 429 before the password is looked at, so the wait bounds guessing whatever the
-// password. The schedule (docs/decisions/0018-rate-limits-and-client-address.md):
+// password. The schedule (docs/decisions/0019-rate-limits-and-client-address.md):
 //
 //   account (the e-mail as typed, lower-cased; known or not, so the answer tells nothing):
 //     the first 3 failures cost nothing; after the n-th (n ≥ 3) the next attempt waits
