@@ -294,7 +294,7 @@ describe('download route', () => {
 
   it('streams every format to members with a file name, and refuses others', async () => {
     expect((await call(null, 'csv')).status).toBe(401);
-    expect((await call(outsider, 'csv')).status).toBe(403);
+    expect((await call(outsider, 'csv')).status).toBe(404);
     for (const format of EXPORT_FORMAT_NAMES) {
       const res = await call(collaborator, format);
       expect(res.status).toBe(200);
