@@ -17,8 +17,11 @@ import { planckBandMean, previewPlanckAtPivot } from '../src/core/photometry';
 import { DEMO_SEASON_TWO_COUNT, seasonTwoSpecs } from '../src/seed/demo-stars';
 import { DEMO_CAMPAIGN, demoUsers, seedDemo } from '../src/seed/seed';
 import { finishBatchIfDone } from '../src/server/batches';
+import { updateZeroPoint } from '../src/server/band-library';
+import { refitPreview, refitStaleStars } from '../src/server/stale';
+import { createWorker } from '../workers/runner';
 import type { Actor } from '../src/server/context';
-import { FOUR_EYES_MESSAGE, notifyReviewersOfBatch } from '../src/server/review';
+import { FOUR_EYES_MESSAGE, fitHistory, notifyReviewersOfBatch } from '../src/server/review';
 import { starSheet } from '../src/server/star-sheet';
 import { sedFigure } from '../src/components/ui/review/sed-figure';
 import { addToCampaign, makeCampaign, makeUser } from '../src/seed/factories';
@@ -233,14 +236,44 @@ describe('decisions', () => {
     expect(bulk.body.decided).toBe(0);
     expect(bulk.body.skippedFourEyes).toBe(one<number>(w.t, "SELECT count(*) FROM fit_results WHERE ok = 1 AND review_status = 'pending' AND chi2_red < 100"));
 
-    // Only the campaign's analysts (and admins) switch the rule; the change is audited.
-    expect((await call(setSettingsRoute, w.t, w.reviewer, { id: w.campaign.id }, { body: { fourEyes: false } })).status).toBe(403);
+    // The person the rule holds back (the lead started the batch whose fits wait) cannot switch it off, with or without a reason.
+    const self = await call(setSettingsRoute, w.t, w.lead, { id: w.campaign.id }, { body: { fourEyes: false, reason: 'in a hurry' } });
+    expect(self.status).toBe(403);
+    expect(self.body.error.message).toMatch(/You started batch .*, whose fits wait for review, so the four-eyes rule applies to you/);
+    // Nor a guest, nor anyone outside the campaign's analysts and reviewers.
+    expect((await call(setSettingsRoute, w.t, w.collaborator, { id: w.campaign.id }, { body: { fourEyes: false, reason: 'please' } })).status).toBe(403);
+    expect((await call(setSettingsRoute, w.t, w.outsider, { id: w.campaign.id }, { body: { fourEyes: false, reason: 'please' } })).status).toBe(403);
+    // A reviewer whose account an admin later made a guest one keeps the role row, but not the switch.
+    const madeGuest = await makeUser(w.t.app, { name: 'Gus Guest' });
+    await addToCampaign(w.t.app, w.lead, w.campaign.id, madeGuest, ['reviewer']);
+    w.t.sqlite.prepare("UPDATE user SET kind = 'guest' WHERE id = ?").run(madeGuest.id);
+    const guestAnalyst = { ...madeGuest, kind: 'guest' as const };
+    const guest = await call(setSettingsRoute, w.t, guestAnalyst, { id: w.campaign.id }, { body: { fourEyes: false, reason: 'please' } });
+    expect(guest.status).toBe(403);
+    expect(guest.body.error.message).toMatch(/Guest accounts/);
+    // Another analyst or reviewer may, with a reason; a wrong type or a missing reason is a 400 naming the field.
     expect((await call(setSettingsRoute, w.t, w.analyst, { id: w.campaign.id }, { body: { fourEyes: 'no' } })).status).toBe(400);
-    const off = await call(setSettingsRoute, w.t, w.analyst, { id: w.campaign.id }, { body: { fourEyes: false } });
-    expect(off.body.settings).toEqual({ fourEyes: false });
-    expect((await call(getSettingsRoute, w.t, w.collaborator, { id: w.campaign.id })).body.settings).toEqual({ fourEyes: false });
-    expect(one<string>(w.t, "SELECT actor_id FROM audit_events WHERE action = 'review.four_eyes_off'")).toBe(w.analyst.id);
-    expect((await call(decisionRoute, w.t, w.lead, { fitId }, { body: { decision: 'accepted' } })).status).toBe(201);
+    const noReason = await call(setSettingsRoute, w.t, w.reviewer, { id: w.campaign.id }, { body: { fourEyes: false } });
+    expect(noReason.status).toBe(400);
+    expect(noReason.body.error.field).toBe('reason');
+    expect(one<number>(w.t, 'SELECT count(*) FROM campaign_review_settings')).toBe(0);
+    const off = await call(setSettingsRoute, w.t, w.reviewer, { id: w.campaign.id }, { body: { fourEyes: false, reason: 'Only one reviewer this week' } });
+    expect(off.status).toBe(200);
+    expect(off.body.settings).toMatchObject({ fourEyes: false, reason: 'Only one reviewer this week', updatedBy: { id: w.reviewer.id } });
+    expect((await call(getSettingsRoute, w.t, w.collaborator, { id: w.campaign.id })).body.settings).toMatchObject({ fourEyes: false });
+    const audit = w.t.sqlite.prepare("SELECT actor_id AS actorId, details FROM audit_events WHERE action = 'review.four_eyes_off'").get() as { actorId: string; details: string };
+    expect(audit.actorId).toBe(w.reviewer.id);
+    expect(JSON.parse(audit.details)).toEqual({ reason: 'Only one reviewer this week' });
+    // A decision made while the rule is off carries the mark, in the history and the audit event.
+    const accepted = await call(decisionRoute, w.t, w.lead, { fitId }, { body: { decision: 'accepted' } });
+    expect(accepted.status).toBe(201);
+    expect(accepted.body.decision).toMatchObject({ decision: 'accepted', fourEyesOff: true });
+    expect((await call(historyRoute, w.t, w.reviewer, { fitId })).body.history[0]).toMatchObject({ decision: 'accepted', fourEyesOff: true });
+    expect(JSON.parse(one<string>(w.t, "SELECT details FROM audit_events WHERE action = 'review.accepted' ORDER BY id DESC LIMIT 1")).fourEyesOff).toBe(true);
+    // Switching back on needs only the role (the lead may); decisions after that carry no mark.
+    expect((await call(setSettingsRoute, w.t, w.lead, { id: w.campaign.id }, { body: { fourEyes: true } })).body.settings).toMatchObject({ fourEyes: true });
+    const other = String(fitIdOf(w.t.db, w.batchId, 'Cindermoor'));
+    expect((await call(decisionRoute, w.t, w.reviewer, { fitId: other }, { body: { decision: 'accepted' } })).body.decision).toMatchObject({ fourEyesOff: false });
   });
 });
 
@@ -320,6 +353,96 @@ describe('re-fit after review', () => {
   });
 });
 
+describe('re-fit after a zero-point change', () => {
+  it('carries over the decisions whose Teff and θ moved by less than 0.25σ with the same flags, returns the others with the reason, all in the audit trail', async () => {
+    const w = await world();
+    // The analyst fits Ashbright once more (same options): the lead, who did not start that batch, accepts it.
+    const own = await fitAndDrain(w.t.app, w.analyst, w.campaign.id, {}, ['Ashbright']);
+    expect((await call(decisionRoute, w.t, w.lead, { fitId: String(fitIdOf(w.t.db, own, 'Ashbright')) }, { body: { decision: 'accepted', comment: 'second look' } })).status).toBe(201);
+    // The reviewer decides on every other fit of the first batch: accepts most, flags one with a comment.
+    const keys = LANTERNFIELD_STARS.map((s) => s.starKey).filter((k) => k !== 'Ashbright');
+    for (const k of keys) {
+      const body = k === 'Harthglow' ? { decision: 'flagged', reason: 'ir_excess', comment: 'W3 and W4 high' } : { decision: 'accepted' };
+      expect((await call(decisionRoute, w.t, w.reviewer, { fitId: String(fitIdOf(w.t.db, w.batchId, k)) }, { body })).status).toBe(201);
+    }
+    const reviewed = keys.length + 1;
+    const before = new Map(
+      (w.t.sqlite.prepare("SELECT s.star_key AS k, r.* FROM fit_results r JOIN stars s ON s.id = r.star_id WHERE r.is_current = 1").all() as Record<string, any>[]).map((r) => [r.k as string, r]), // eslint-disable-line @typescript-eslint/no-explicit-any
+    );
+
+    // A 0.6 % change of the Ks zero-point (invented recalibration).
+    const ks = starterBandLibrary().bands.Ks.zeroPoint!;
+    updateZeroPoint(w.t.db, w.admin, 'Ks', { ...ks, fLambdaCgs: (ks as { fLambdaCgs: number }).fLambdaCgs * 1.006, source: 'Lanternfield recalibration (invented, +0.6 %)' }, 'Ks recalibration');
+    // Before the re-fit, the page's numbers: how many reviewed fits the re-fit touches.
+    const preview = refitPreview(w.t.db, w.campaign.id);
+    expect(preview).toMatchObject({ stars: LANTERNFIELD_STARS.length, accepted: reviewed - 1, flagged: 1, pending: 0, batches: 1 });
+
+    // The lead starts the re-fit: one batch, although the stale fits came from two batches (same options).
+    const made = refitStaleStars(w.t.app, w.lead, w.campaign.id);
+    expect(made.batches).toHaveLength(1);
+    expect(made.batches[0].starCount).toBe(LANTERNFIELD_STARS.length);
+    await createWorker(w.t.app, { owner: 'refit', drain: true, idleMs: 5 }).run();
+    const refit = made.batches[0].id;
+
+    let carried = 0;
+    let returned = 0;
+    for (const s of LANTERNFIELD_STARS) {
+      const old = before.get(s.starKey)!;
+      const nf = w.t.sqlite.prepare('SELECT r.* FROM fit_results r JOIN stars st ON st.id = r.star_id WHERE r.batch_id = ? AND st.star_key = ?').get(refit, s.starKey) as Record<string, any>; // eslint-disable-line @typescript-eslint/no-explicit-any
+      // The rule of decision record 0016, computed here from the two stored fits.
+      const within = (a: number, b: number, ea: number, eb: number) => Math.abs(b - a) < 0.25 * Math.min(ea, eb);
+      const agrees = within(old.teff_k, nf.teff_k, old.teff_err_k, nf.teff_err_k) && within(old.theta_mas, nf.theta_mas, old.theta_err_mas, nf.theta_err_mas) && old.flags === nf.flags;
+      const fourEyes = s.starKey === 'Ashbright'; // accepted by the lead, who started the re-fit
+      const c = w.t.sqlite.prepare('SELECT * FROM review_carryovers WHERE fit_result_id = ?').get(nf.id) as Record<string, any>; // eslint-disable-line @typescript-eslint/no-explicit-any
+      expect(c, s.starKey).toBeDefined();
+      expect(c).toMatchObject({ from_fit_result_id: old.id, old_teff_k: old.teff_k, new_teff_k: nf.teff_k, old_theta_mas: old.theta_mas, new_theta_mas: nf.theta_mas });
+      if (agrees && !fourEyes) {
+        carried++;
+        expect(c.outcome, s.starKey).toBe('carried');
+        expect(nf.review_status).toBe(old.review_status);
+        const h = fitHistory(w.t.db, nf.id);
+        expect(h).toHaveLength(1);
+        expect(h[0]).toMatchObject({ decision: old.review_status, reviewer: { id: w.reviewer.id }, supersededAt: null, carriedOver: { outcome: 'carried', fromFitResultId: old.id } });
+        expect(h[0].carriedOver!.text).toMatch(/^Carried over from the earlier fit after a re-fit: Teff \d+ → \d+ K \(0\.\d\dσ\), θ/);
+        if (s.starKey === 'Harthglow') expect(h[0]).toMatchObject({ reason: 'ir_excess', comment: 'W3 and W4 high' });
+      } else {
+        returned++;
+        expect(c.outcome, s.starKey).toBe('returned');
+        expect(nf.review_status).toBe('pending');
+        if (fourEyes) expect(c.reasons).toContain('four_eyes');
+        if (!agrees) expect(c.reasons).toMatch(/teff|theta|flags/);
+      }
+      // The earlier decision is superseded, never deleted.
+      expect(one<string>(w.t, 'SELECT review_status FROM fit_results WHERE id = ?', old.id)).toBe('superseded');
+    }
+    // A 0.6 % Ks change moves these stars by far less than 0.25σ: all but the four-eyes case carry over.
+    expect(carried).toBe(reviewed - 1);
+    expect(returned).toBe(1);
+    // The catalogue's accepted rows survive the re-fit.
+    expect(one<number>(w.t, "SELECT count(*) FROM fit_results WHERE campaign_id = ? AND is_current = 1 AND review_status = 'accepted'", w.campaign.id)).toBe(keys.length - 1);
+    // The queue shows the returned fit with its reason.
+    const queue = (await call(queueRoute, w.t, w.reviewer, { id: w.campaign.id })).body;
+    expect(queue.total).toBe(1);
+    expect(queue.items[0]).toMatchObject({ starKey: 'Ashbright', returned: { outcome: 'returned', reasons: ['four_eyes'] } });
+    expect(queue.items[0].returned.text).toMatch(/four-eyes rule/);
+    // The audit trail: one event per carried or returned decision, beside the supersessions.
+    const audit = (action: string) => one<number>(w.t, 'SELECT count(*) FROM audit_events WHERE action = ? AND campaign_id = ?', action, w.campaign.id);
+    expect(audit('review.carried_over')).toBe(carried);
+    expect(audit('review.returned')).toBe(returned);
+    expect(audit('review.superseded')).toBe(reviewed);
+  });
+
+  it('returns every decision to the queue when the re-fit used other options', async () => {
+    const w = await world();
+    const fit = fitIdOf(w.t.db, w.batchId, 'Cindermoor');
+    expect((await call(decisionRoute, w.t, w.reviewer, { fitId: String(fit) }, { body: { decision: 'accepted' } })).status).toBe(201);
+    const second = await fitAndDrain(w.t.app, w.analyst, w.campaign.id, { law: 'ccm89' }, ['Cindermoor']);
+    const c = w.t.sqlite.prepare('SELECT outcome, reasons FROM review_carryovers WHERE fit_result_id = ?').get(fitIdOf(w.t.db, second, 'Cindermoor')) as { outcome: string; reasons: string };
+    expect(c.outcome).toBe('returned');
+    expect(c.reasons.split(' ')).toContain('options');
+  });
+});
+
 describe('the queue', () => {
   it('pages on the server by star key and filters by χ²_ν, flags and Teff', async () => {
     const w = await world();
@@ -391,7 +514,7 @@ describe('who may call each endpoint', () => {
       { name: 'GET history', route: historyRoute, params: { fitId }, expect: { anonymous: 401, outsider: 403, collaborator: 200, analyst: 200, reviewer: 200, admin: 200 } },
       { name: 'GET settings', route: getSettingsRoute, params: { id }, expect: { anonymous: 401, outsider: 403, collaborator: 200, analyst: 200, reviewer: 200, admin: 200 } },
       { name: 'GET audit', route: auditRoute, params: { id }, expect: { anonymous: 401, outsider: 403, collaborator: 403, analyst: 200, reviewer: 200, admin: 200 } },
-      { name: 'POST settings', route: setSettingsRoute, params: { id }, body: { fourEyes: true }, expect: { anonymous: 401, outsider: 403, collaborator: 403, analyst: 200, reviewer: 403, admin: 200 } },
+      { name: 'POST settings', route: setSettingsRoute, params: { id }, body: { fourEyes: true }, expect: { anonymous: 401, outsider: 403, collaborator: 403, analyst: 200, reviewer: 200, admin: 200 } },
     ];
     for (const e of endpoints) {
       for (const who of Object.keys(actors) as Who[]) {

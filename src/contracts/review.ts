@@ -91,6 +91,8 @@ export interface StarSheet {
   curve: { wavelengthUm: number[]; lambdaFlux: number[]; teffK: number; note: string } | null;
   earlierFits: { id: number; batchId: string; createdAt: string; ok: boolean; teffK: number | null; teffLowerK: number | null; chi2Red: number | null; reviewStatus: string }[];
   history: DecisionView[];
+  /** What the re-fit that made the current fit did with the earlier decision (null: it found none). */
+  carryover: CarryoverView | null;
 }
 
 export interface QueueItem {
@@ -108,6 +110,8 @@ export interface QueueItem {
   nBands: number | null;
   flags: string[];
   createdAt: string;
+  /** Set when a re-fit sent this fit back to the queue instead of carrying the earlier decision over. */
+  returned: CarryoverView | null;
 }
 
 export interface QueuePage {
@@ -133,6 +137,59 @@ export interface DecisionView {
   supersededAt: string | null;
   /** 'changed': a later decision on the same fit; 'refit': the star was fitted again. */
   supersededReason: string | null;
+  /** Set when a re-fit carried this decision over from the one on the star's earlier fit. */
+  carriedOver: CarryoverView | null;
+  /** The campaign's four-eyes rule was switched off when this decision was made. */
+  fourEyesOff: boolean;
+}
+
+/**
+ * What a re-fit did with a review decision (decision record 0016): carried it over to the new fit,
+ * or returned the new fit to the queue. Reason codes: options, bands, flags, teff, theta, four_eyes.
+ */
+export interface CarryoverView {
+  outcome: 'carried' | 'returned';
+  reasons: string[];
+  fromFitResultId: number;
+  fromDecisionId: number;
+  /** The decision on the earlier fit (accepted or flagged). */
+  decision: 'accepted' | 'flagged';
+  old: { teffK: number | null; teffErrK: number | null; thetaMas: number | null; thetaErrMas: number | null; flags: string[] };
+  new: { teffK: number | null; teffErrK: number | null; thetaMas: number | null; thetaErrMas: number | null; flags: string[] };
+  /** Plain words for the page: what changed and why the decision did or did not carry over. */
+  text: string;
+}
+
+/** The agreement a carried-over decision needs, in units of the smaller of the two fits' σ. */
+export const CARRYOVER_TOLERANCE_SIGMA = 0.25;
+
+const CARRYOVER_REASON_WORDS: Record<string, string> = {
+  options: 'the fit options differ',
+  bands: 'a different set of bands was fitted',
+  flags: 'the flags changed',
+  teff: `Teff moved by ${CARRYOVER_TOLERANCE_SIGMA}σ or more`,
+  theta: `θ moved by ${CARRYOVER_TOLERANCE_SIGMA}σ or more`,
+  four_eyes: 'the reviewer started the re-fit, and the four-eyes rule is on',
+};
+
+export function carryoverReasonWords(code: string): string {
+  return CARRYOVER_REASON_WORDS[code] ?? code;
+}
+
+function fmt(v: number | null, digits: number): string {
+  return v === null ? '—' : v.toFixed(digits);
+}
+
+/** "Teff 5801 → 5803 K (0.05σ), θ 0.412 → 0.411 mas (0.02σ)" — the old and new values side by side. */
+export function describeCarryover(c: Omit<CarryoverView, 'text'>): string {
+  const sigmas = (a: number | null, b: number | null, ea: number | null, eb: number | null) => {
+    if (a === null || b === null || !ea || !eb) return '';
+    return ` (${(Math.abs(b - a) / Math.min(ea, eb)).toFixed(2)}σ)`;
+  };
+  const values = `Teff ${fmt(c.old.teffK, 0)} → ${fmt(c.new.teffK, 0)} K${sigmas(c.old.teffK, c.new.teffK, c.old.teffErrK, c.new.teffErrK)}, θ ${fmt(c.old.thetaMas, 4)} → ${fmt(c.new.thetaMas, 4)} mas${sigmas(c.old.thetaMas, c.new.thetaMas, c.old.thetaErrMas, c.new.thetaErrMas)}`;
+  const flags = c.old.flags.join(' ') === c.new.flags.join(' ') ? '' : `; flags ${c.old.flags.join(' ') || 'none'} → ${c.new.flags.join(' ') || 'none'}`;
+  if (c.outcome === 'carried') return `Carried over from the earlier fit after a re-fit: ${values}${flags}.`;
+  return `Back for review after a re-fit (the earlier fit was ${c.decision}): ${c.reasons.map(carryoverReasonWords).join('; ')}. ${values}${flags}.`;
 }
 
 export interface BulkOutcome {
@@ -144,4 +201,8 @@ export interface BulkOutcome {
 
 export interface ReviewSettings {
   fourEyes: boolean;
+  /** Why the rule was last switched (always given when it was switched off). */
+  reason: string;
+  updatedBy: { id: string; name: string } | null;
+  updatedAt: string | null;
 }

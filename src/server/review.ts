@@ -7,17 +7,17 @@
 import { eq } from 'drizzle-orm';
 import { z } from 'zod';
 import type { AppDatabase, DbOrTx } from '../db/client';
-import { campaignReviewSettings } from '../db/schema';
+import { campaignReviewSettings, user } from '../db/schema';
 import { FLAG_EXPLANATIONS } from '../core/fit/flags';
 import { REVIEW_REASON_CODES, reviewReasonLabel, type ReviewFilter } from '../contracts/review-reasons';
-import type { BulkOutcome, DecisionView, QueueItem, QueuePage, ReviewSettings } from '../contracts/review';
+import { describeCarryover, type BulkOutcome, type CarryoverView, type DecisionView, type QueueItem, type QueuePage, type ReviewSettings } from '../contracts/review';
 import { recordAudit } from './audit';
 import type { Actor, AppServices } from './context';
 import { forbidden, HttpError } from './errors';
 import { reviewNoticeMail } from '../adapters/mail-templates';
 import { parseInput } from './validation';
 
-export type { BulkOutcome, DecisionView, QueueItem, QueuePage, ReviewSettings } from '../contracts/review';
+export type { BulkOutcome, CarryoverView, DecisionView, QueueItem, QueuePage, ReviewSettings } from '../contracts/review';
 
 // ---------------------------------------------------------------------------------------------
 // Input
@@ -73,27 +73,59 @@ export const queueQueryInput = z.object({
   limit: z.coerce.number({ error: 'limit must be a number.' }).int('limit must be a whole number.').min(1, 'limit must be at least 1.').max(200, 'limit can be at most 200.').default(50),
 });
 
-export const reviewSettingsInput = z.strictObject({ fourEyes: z.boolean({ error: 'fourEyes must be true or false.' }) }, { error: 'Send {"fourEyes": true|false}.' });
+export const reviewSettingsInput = z.strictObject(
+  {
+    fourEyes: z.boolean({ error: 'fourEyes must be true or false.' }),
+    reason: z.string({ error: 'reason must be text.' }).trim().max(500, 'The reason can have at most 500 characters.').optional(),
+  },
+  { error: 'Send {"fourEyes": true|false, "reason": "…"} (a reason is needed to switch the rule off).' },
+);
 
 // ---------------------------------------------------------------------------------------------
 // Settings
 
 export function getReviewSettings(db: DbOrTx, campaignId: string): ReviewSettings {
   const row = db.select().from(campaignReviewSettings).where(eq(campaignReviewSettings.campaignId, campaignId)).get();
-  return { fourEyes: row ? row.fourEyes : true };
+  if (!row) return { fourEyes: true, reason: '', updatedBy: null, updatedAt: null };
+  const by = row.updatedById ? db.select({ id: user.id, name: user.name }).from(user).where(eq(user.id, row.updatedById)).get() : undefined;
+  return { fourEyes: row.fourEyes, reason: row.reason, updatedBy: by ?? null, updatedAt: row.updatedAt.toISOString() };
 }
 
-export function setReviewSettings(db: AppDatabase, actor: Actor, campaignId: string, raw: unknown): ReviewSettings {
+/**
+ * Who may switch the four-eyes rule off (decision record 0011, amended): an admin, or an analyst or
+ * reviewer of the campaign — but never a guest account, and never the person the rule holds back
+ * right now, that is whoever started a batch of the campaign whose fits wait for review. Returns the
+ * refusal in words, or null when allowed. Switching the rule on needs only the role.
+ */
+export function fourEyesSwitchRefusal(db: AppDatabase, actor: Actor, campaignId: string, roles: readonly string[], turnOff: boolean): string | null {
+  if (actor.kind === 'guest') return 'Guest accounts cannot change the four-eyes rule.';
+  if (actor.kind !== 'admin' && !roles.includes('analyst') && !roles.includes('reviewer')) return 'Only the campaign’s analysts and reviewers, or an admin, can change the four-eyes rule.';
+  if (!turnOff) return null;
+  const own = db.$client
+    .prepare(
+      `SELECT b.id FROM batches b WHERE b.campaign_id = ? AND b.started_by_id = ?
+       AND EXISTS (SELECT 1 FROM fit_results r WHERE r.batch_id = b.id AND r.ok = 1 AND r.review_status = 'pending') ORDER BY b.created_at LIMIT 1`,
+    )
+    .pluck()
+    .get(campaignId, actor.id) as string | undefined;
+  if (own) return `You started batch ${own}, whose fits wait for review, so the four-eyes rule applies to you: another analyst or reviewer of the campaign, or an admin, must switch it off.`;
+  return null;
+}
+
+export function setReviewSettings(db: AppDatabase, actor: Actor, campaignId: string, raw: unknown, roles: readonly string[] = []): ReviewSettings {
   const input = parseInput(reviewSettingsInput, raw);
+  const reason = input.reason ?? '';
   db.transaction((tx) => {
     const before = getReviewSettings(tx, campaignId);
+    if (before.fourEyes === input.fourEyes) return;
+    const refusal = fourEyesSwitchRefusal(db, actor, campaignId, roles, !input.fourEyes);
+    if (refusal) throw forbidden(refusal);
+    if (!input.fourEyes && reason.length < 3) throw new HttpError('validation_failed', 'Say why the four-eyes rule is switched off (a reason of at least 3 characters); it is kept in the audit trail.', 'reason');
     tx.insert(campaignReviewSettings)
-      .values({ campaignId, fourEyes: input.fourEyes, updatedById: actor.id, updatedAt: new Date() })
-      .onConflictDoUpdate({ target: campaignReviewSettings.campaignId, set: { fourEyes: input.fourEyes, updatedById: actor.id, updatedAt: new Date() } })
+      .values({ campaignId, fourEyes: input.fourEyes, reason, updatedById: actor.id, updatedAt: new Date() })
+      .onConflictDoUpdate({ target: campaignReviewSettings.campaignId, set: { fourEyes: input.fourEyes, reason, updatedById: actor.id, updatedAt: new Date() } })
       .run();
-    if (before.fourEyes !== input.fourEyes) {
-      recordAudit(tx, { actorId: actor.id, action: input.fourEyes ? 'review.four_eyes_on' : 'review.four_eyes_off', campaignId, details: {} });
-    }
+    recordAudit(tx, { actorId: actor.id, action: input.fourEyes ? 'review.four_eyes_on' : 'review.four_eyes_off', campaignId, details: { reason } });
   }, { behavior: 'immediate' });
   return getReviewSettings(db, campaignId);
 }
@@ -116,6 +148,48 @@ interface FitRowLite {
   n_bands: number | null;
   flags: string;
   created_at: number;
+}
+
+interface CarryoverRow {
+  outcome: 'carried' | 'returned';
+  reasons: string;
+  from_fit_result_id: number;
+  from_decision_id: number;
+  decision: 'accepted' | 'flagged';
+  old_teff_k: number | null;
+  old_teff_err_k: number | null;
+  new_teff_k: number | null;
+  new_teff_err_k: number | null;
+  old_theta_mas: number | null;
+  old_theta_err_mas: number | null;
+  new_theta_mas: number | null;
+  new_theta_err_mas: number | null;
+  old_flags: string;
+  new_flags: string;
+}
+
+const CARRYOVER_SELECT = `SELECT c.outcome, c.reasons, c.from_fit_result_id, c.from_decision_id, d.decision, c.old_teff_k, c.old_teff_err_k, c.new_teff_k, c.new_teff_err_k,
+  c.old_theta_mas, c.old_theta_err_mas, c.new_theta_mas, c.new_theta_err_mas, c.old_flags, c.new_flags
+  FROM review_carryovers c JOIN review_decisions d ON d.id = c.from_decision_id`;
+
+function toCarryover(r: CarryoverRow): CarryoverView {
+  const split = (s: string) => (s ? s.split(' ') : []);
+  const base = {
+    outcome: r.outcome,
+    reasons: split(r.reasons),
+    fromFitResultId: r.from_fit_result_id,
+    fromDecisionId: r.from_decision_id,
+    decision: r.decision,
+    old: { teffK: r.old_teff_k, teffErrK: r.old_teff_err_k, thetaMas: r.old_theta_mas, thetaErrMas: r.old_theta_err_mas, flags: split(r.old_flags) },
+    new: { teffK: r.new_teff_k, teffErrK: r.new_teff_err_k, thetaMas: r.new_theta_mas, thetaErrMas: r.new_theta_err_mas, flags: split(r.new_flags) },
+  };
+  return { ...base, text: describeCarryover(base) };
+}
+
+/** What a re-fit did with the earlier decision, for the new fit; null when it found none. */
+export function carryoverOf(db: AppDatabase, fitResultId: number): CarryoverView | null {
+  const r = db.$client.prepare(`${CARRYOVER_SELECT} WHERE c.fit_result_id = ?`).get(fitResultId) as CarryoverRow | undefined;
+  return r ? toCarryover(r) : null;
 }
 
 /** SQL condition for "waiting for review" plus the filter; the fit table is `r`, stars `s`. */
@@ -162,7 +236,18 @@ function toItem(r: FitRowLite): QueueItem {
     nBands: r.n_bands,
     flags: r.flags ? r.flags.split(' ') : [],
     createdAt: new Date(r.created_at).toISOString(),
+    returned: null,
   };
+}
+
+/** Fill in `returned` for the items a re-fit sent back (one query per page). */
+function withReturns(db: AppDatabase, items: QueueItem[]): QueueItem[] {
+  if (items.length === 0) return items;
+  const rows = db.$client
+    .prepare(`${CARRYOVER_SELECT.replace('SELECT ', 'SELECT c.fit_result_id, ')} WHERE c.outcome = 'returned' AND c.fit_result_id IN (SELECT value FROM json_each(?))`)
+    .all(JSON.stringify(items.map((i) => i.fitResultId))) as (CarryoverRow & { fit_result_id: number })[];
+  const byFit = new Map(rows.map((r) => [r.fit_result_id, toCarryover(r)]));
+  return items.map((i) => ({ ...i, returned: byFit.get(i.fitResultId) ?? null }));
 }
 
 /** Pending fits in star-key order, paged on the server by key (stable while decisions are made). */
@@ -183,7 +268,7 @@ export function reviewQueue(db: AppDatabase, campaignId: string, options: { filt
     )
     .all(campaignId, ...args, ...(options.cursor ? [options.cursor] : []), limit + 1) as FitRowLite[];
   const more = rows.length > limit;
-  const items = rows.slice(0, limit).map(toItem);
+  const items = withReturns(db, rows.slice(0, limit).map(toItem));
   return { items, total, nextCursor: more ? items[items.length - 1].starKey : null };
 }
 
@@ -203,13 +288,15 @@ interface DecisionRow {
   created_at: number;
   superseded_at: number | null;
   superseded_reason: string | null;
+  carried_from_decision_id: number | null;
+  four_eyes_off: number;
 }
 
 const DECISION_SELECT = `SELECT d.id, d.fit_result_id, r.batch_id, d.decision, d.reason, d.comment, d.reviewer_id, u.name AS reviewer_name,
-  d.bulk_filter, d.created_at, d.superseded_at, d.superseded_reason
+  d.bulk_filter, d.created_at, d.superseded_at, d.superseded_reason, d.carried_from_decision_id, d.four_eyes_off
   FROM review_decisions d JOIN fit_results r ON r.id = d.fit_result_id LEFT JOIN user u ON u.id = d.reviewer_id`;
 
-function toDecision(r: DecisionRow): DecisionView {
+function toDecision(r: DecisionRow, db?: AppDatabase): DecisionView {
   return {
     id: r.id,
     fitResultId: r.fit_result_id,
@@ -224,17 +311,19 @@ function toDecision(r: DecisionRow): DecisionView {
     bulkFilter: r.bulk_filter ? (JSON.parse(r.bulk_filter) as Record<string, unknown>) : null,
     supersededAt: r.superseded_at === null ? null : new Date(r.superseded_at).toISOString(),
     supersededReason: r.superseded_reason,
+    carriedOver: r.carried_from_decision_id !== null && db ? carryoverOf(db, r.fit_result_id) : null,
+    fourEyesOff: r.four_eyes_off === 1,
   };
 }
 
 /** Every decision on one fit, newest first. */
 export function fitHistory(db: AppDatabase, fitResultId: number): DecisionView[] {
-  return (db.$client.prepare(`${DECISION_SELECT} WHERE d.fit_result_id = ? ORDER BY d.created_at DESC, d.id DESC`).all(fitResultId) as DecisionRow[]).map(toDecision);
+  return (db.$client.prepare(`${DECISION_SELECT} WHERE d.fit_result_id = ? ORDER BY d.created_at DESC, d.id DESC`).all(fitResultId) as DecisionRow[]).map((r) => toDecision(r, db));
 }
 
 /** Every decision on any fit of one star, newest first. */
 export function starHistory(db: AppDatabase, starId: number): DecisionView[] {
-  return (db.$client.prepare(`${DECISION_SELECT} WHERE r.star_id = ? ORDER BY d.created_at DESC, d.id DESC`).all(starId) as DecisionRow[]).map(toDecision);
+  return (db.$client.prepare(`${DECISION_SELECT} WHERE r.star_id = ? ORDER BY d.created_at DESC, d.id DESC`).all(starId) as DecisionRow[]).map((r) => toDecision(r, db));
 }
 
 export interface FitRef {
@@ -269,7 +358,7 @@ export function requireFitRef(db: AppDatabase, rawId: string | undefined): FitRe
   return fit;
 }
 
-export const FOUR_EYES_MESSAGE = 'Four-eyes rule: you started the batch this fit belongs to, so another reviewer must accept it. You may still flag it. (The campaign’s analysts can switch the rule off.)';
+export const FOUR_EYES_MESSAGE = 'Four-eyes rule: you started the batch this fit belongs to, so another reviewer must accept it. You may still flag it. (Another analyst or reviewer of the campaign, or an admin, can switch the rule off, with a reason.)';
 
 function assertReviewable(fit: FitRef): void {
   if (!fit.ok) throw new HttpError('conflict', `Star ${fit.starKey} could not be fitted in this batch, so there is no fit to review.`);
@@ -291,28 +380,29 @@ export function decide(db: AppDatabase, actor: Actor, fitResultId: number, raw: 
       const fit = getFitRef(db, fitResultId);
       if (!fit) throw new HttpError('not_found', 'No fit with that id.');
       assertReviewable(fit);
-      if (input.decision === 'accepted' && fit.batchStartedById === actor.id && getReviewSettings(tx, fit.campaignId).fourEyes) {
+      const fourEyesOn = getReviewSettings(tx, fit.campaignId).fourEyes;
+      if (input.decision === 'accepted' && fit.batchStartedById === actor.id && fourEyesOn) {
         throw forbidden(FOUR_EYES_MESSAGE);
       }
       const now = Date.now();
       const previous = sqlite.prepare('SELECT id FROM review_decisions WHERE fit_result_id = ? AND superseded_at IS NULL').pluck().all(fit.id) as number[];
       sqlite.prepare("UPDATE review_decisions SET superseded_at = ?, superseded_reason = 'changed' WHERE fit_result_id = ? AND superseded_at IS NULL").run(now, fit.id);
       const decisionId = sqlite
-        .prepare('INSERT INTO review_decisions (fit_result_id, campaign_id, reviewer_id, decision, reason, comment, created_at) VALUES (?, ?, ?, ?, ?, ?, ?) RETURNING id')
+        .prepare('INSERT INTO review_decisions (fit_result_id, campaign_id, reviewer_id, decision, reason, comment, created_at, four_eyes_off) VALUES (?, ?, ?, ?, ?, ?, ?, ?) RETURNING id')
         .pluck()
-        .get(fit.id, fit.campaignId, actor.id, input.decision, input.reason ?? null, input.comment, now) as number;
+        .get(fit.id, fit.campaignId, actor.id, input.decision, input.reason ?? null, input.comment, now, fourEyesOn ? 0 : 1) as number;
       sqlite.prepare('UPDATE fit_results SET review_status = ? WHERE id = ?').run(input.decision, fit.id);
       recordAudit(tx, {
         actorId: actor.id,
         action: `review.${input.decision}`,
         campaignId: fit.campaignId,
-        details: { decisionId, fitResultId: fit.id, starId: fit.starId, starKey: fit.starKey, batchId: fit.batchId, reason: input.reason ?? null, comment: input.comment, supersedes: previous },
+        details: { decisionId, fitResultId: fit.id, starId: fit.starId, starKey: fit.starKey, batchId: fit.batchId, reason: input.reason ?? null, comment: input.comment, supersedes: previous, ...(fourEyesOn ? {} : { fourEyesOff: true }) },
       });
       return decisionId;
     },
     { behavior: 'immediate' },
   );
-  return toDecision(sqlite.prepare(`${DECISION_SELECT} WHERE d.id = ?`).get(id) as DecisionRow);
+  return toDecision(sqlite.prepare(`${DECISION_SELECT} WHERE d.id = ?`).get(id) as DecisionRow, db);
 }
 
 /**
@@ -329,25 +419,26 @@ export function bulkDecide(db: AppDatabase, actor: Actor, campaignId: string, ra
       const rows = sqlite
         .prepare(`SELECT ${LITE_COLUMNS} FROM fit_results r JOIN stars s ON s.id = r.star_id JOIN batches b ON b.id = r.batch_id WHERE ${where} ORDER BY s.star_key`)
         .all(...args) as FitRowLite[];
-      const fourEyes = input.decision === 'accepted' && getReviewSettings(tx, campaignId).fourEyes;
+      const fourEyesOn = getReviewSettings(tx, campaignId).fourEyes;
+      const fourEyes = input.decision === 'accepted' && fourEyesOn;
       const eligible = fourEyes ? rows.filter((r) => r.started_by_id !== actor.id) : rows;
       const now = Date.now();
       const supersede = sqlite.prepare("UPDATE review_decisions SET superseded_at = ?, superseded_reason = 'changed' WHERE fit_result_id = ? AND superseded_at IS NULL");
       const insert = sqlite.prepare(
-        'INSERT INTO review_decisions (fit_result_id, campaign_id, reviewer_id, decision, reason, comment, bulk_filter, created_at) VALUES (?, ?, ?, ?, ?, ?, ?, ?) RETURNING id',
+        'INSERT INTO review_decisions (fit_result_id, campaign_id, reviewer_id, decision, reason, comment, bulk_filter, created_at, four_eyes_off) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?) RETURNING id',
       );
       const setStatus = sqlite.prepare('UPDATE fit_results SET review_status = ? WHERE id = ?');
       const filterJson = JSON.stringify(filterRecord);
       const decisionIds: number[] = [];
       for (const r of eligible) {
         supersede.run(now, r.id);
-        const decisionId = insert.pluck().get(r.id, campaignId, actor.id, input.decision, input.reason ?? null, input.comment, filterJson, now) as number;
+        const decisionId = insert.pluck().get(r.id, campaignId, actor.id, input.decision, input.reason ?? null, input.comment, filterJson, now, fourEyesOn ? 0 : 1) as number;
         setStatus.run(input.decision, r.id);
         recordAudit(tx, {
           actorId: actor.id,
           action: `review.${input.decision}`,
           campaignId,
-          details: { decisionId, fitResultId: r.id, starId: r.star_id, starKey: r.star_key, batchId: r.batch_id, reason: input.reason ?? null, comment: input.comment, bulkFilter: filterRecord },
+          details: { decisionId, fitResultId: r.id, starId: r.star_id, starKey: r.star_key, batchId: r.batch_id, reason: input.reason ?? null, comment: input.comment, bulkFilter: filterRecord, ...(fourEyesOn ? {} : { fourEyesOff: true }) },
         });
         decisionIds.push(decisionId);
       }

@@ -98,29 +98,73 @@ function allStaleFits(db: AppDatabase, campaignId: string, current: string): Sta
   return all;
 }
 
+/** What a re-fit of the stale stars would do to review work, said on the page before it starts. */
+export interface RefitPreview {
+  stars: number;
+  /** Stale fits with a live decision: accepted, flagged. */
+  accepted: number;
+  flagged: number;
+  /** Stale fits nobody has decided on yet (their new fits simply wait for review). */
+  pending: number;
+  /** Batches the re-fit makes: one per set of earlier options (usually one). */
+  batches: number;
+}
+
+export function refitPreview(db: AppDatabase, campaignId: string): RefitPreview {
+  const all = allStaleFits(db, campaignId, getCurrentVersion(db).label);
+  const out: RefitPreview = { stars: all.length, accepted: 0, flagged: 0, pending: 0, batches: groupByOptions(db, all).size };
+  const status = db.$client.prepare('SELECT review_status FROM fit_results WHERE id = ?').pluck();
+  for (const f of all) {
+    const s = status.get(f.fitId) as string;
+    if (s === 'accepted') out.accepted++;
+    else if (s === 'flagged') out.flagged++;
+    else out.pending++;
+  }
+  return out;
+}
+
+/** Stale fits grouped by the options of the batch that made them (stable JSON of the options). */
+function groupByOptions(db: AppDatabase, all: StaleFit[]): Map<string, { options: FitOptions; batchIds: Set<string>; starIds: number[] }> {
+  const groups = new Map<string, { options: FitOptions; batchIds: Set<string>; starIds: number[] }>();
+  const optionsOf = new Map<string, FitOptions | null>();
+  for (const f of all) {
+    if (!optionsOf.has(f.batchId)) optionsOf.set(f.batchId, (getBatch(db, f.batchId)?.options as unknown as FitOptions | undefined) ?? null);
+    const options = optionsOf.get(f.batchId);
+    if (!options) continue;
+    const key = stableJson(options);
+    let g = groups.get(key);
+    if (!g) groups.set(key, (g = { options, batchIds: new Set(), starIds: [] }));
+    g.batchIds.add(f.batchId);
+    g.starIds.push(f.starId);
+  }
+  return groups;
+}
+
+function stableJson(v: unknown): string {
+  if (Array.isArray(v)) return `[${v.map(stableJson).join(',')}]`;
+  if (v && typeof v === 'object') return `{${Object.keys(v).sort().map((k) => `${JSON.stringify(k)}:${stableJson((v as Record<string, unknown>)[k])}`).join(',')}}`;
+  return JSON.stringify(v);
+}
+
 /**
  * One action for the analyst: re-fit every star whose current fit is stale, on the current band
- * library version, with the options of the batch that made the stale fit. Stars from batches with
- * different options go into one new batch per earlier batch (each keeps its options, and its
- * refitOfBatchId says where it came from).
+ * library version, with the options of the batch that made the stale fit. Stars whose earlier
+ * batches had the same options go into one new batch, so a re-fit is one batch on the page; only
+ * stars fitted with different options need a batch of their own (each keeps its options). A new
+ * batch's refitOfBatchId names the earlier batch (the first, when several had the same options).
+ * What happens to review decisions is the database's work (decision record 0016): each decision
+ * carries over or its new fit returns to the queue with the reason.
  */
-export function refitStaleStars(app: AppServices, actor: Actor, campaignId: string): { batches: BatchSummary[]; stars: number } {
+export function refitStaleStars(app: AppServices, actor: Actor, campaignId: string): { batches: BatchSummary[]; stars: number; preview: RefitPreview } {
   const { db } = app;
   const all = allStaleFits(db, campaignId, getCurrentVersion(db).label);
   if (all.length === 0) throw new HttpError('conflict', 'No fit in this campaign is stale: every current fit uses bands unchanged in the current band library version.');
-  const byBatch = new Map<string, number[]>();
-  for (const f of all) {
-    let list = byBatch.get(f.batchId);
-    if (!list) byBatch.set(f.batchId, (list = []));
-    list.push(f.starId);
-  }
+  const preview = refitPreview(db, campaignId);
   const started: BatchSummary[] = [];
-  for (const [batchId, starIds] of byBatch) {
-    const source = getBatch(db, batchId);
-    if (!source) continue;
-    started.push(insertBatch(app, actor, campaignId, source.options as unknown as FitOptions, starIds.sort((a, b) => a - b), batchId));
+  for (const g of groupByOptions(db, all).values()) {
+    started.push(insertBatch(app, actor, campaignId, g.options, g.starIds.sort((a, b) => a - b), [...g.batchIds][0]));
   }
-  return { batches: started, stars: all.length };
+  return { batches: started, stars: all.length, preview };
 }
 
 export interface BandUsage {

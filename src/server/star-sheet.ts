@@ -13,7 +13,7 @@ import type { SheetBand, SheetFit, SheetMeasurement, StarSheet } from '../contra
 import { findLibrary, getCurrentLibrary } from './band-library';
 import type { FitResultRow } from './fit-job';
 import { HttpError } from './errors';
-import { explainFlags, getReviewSettings, starHistory } from './review';
+import { carryoverOf, explainFlags, getReviewSettings, starHistory } from './review';
 
 export type { SheetBand, SheetFit, SheetMeasurement, StarSheet } from '../contracts/review';
 
@@ -246,5 +246,6 @@ export function starSheet(db: AppDatabase, campaignId: string, starRef: string |
       reviewStatus: f.review_status,
     })),
     history: starHistory(db, star.id),
+    carryover: fit ? carryoverOf(db, fit.id) : null,
   };
 }

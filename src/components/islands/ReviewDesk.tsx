@@ -195,6 +195,7 @@ function Desk({ campaignId, actorId, canDecide, fourEyes, initialFilter = {} }: 
                     <span className="font-medium truncate">{it.starKey}</span>
                     <span className="num ml-auto text-ink-600 whitespace-nowrap">{it.teffK !== null ? `${num(it.teffK)} K` : it.teffLowerK !== null ? `> ${num(it.teffLowerK)} K` : '—'}</span>
                     <span className="num text-ink-500 w-24 text-right whitespace-nowrap" title="reduced χ²">χ²<sub>ν</sub> {num(it.chi2Red, 2)}</span>
+                    {it.returned && <span className="role-chip bg-paper-deep text-ink-700" title={it.returned.text}>back</span>}
                     {it.flags.length > 0 && <span className="role-chip bg-alarm-100 text-alarm-700" title={it.flags.join(' ')}>{it.flags.length}</span>}
                   </li>
                 );
@@ -227,6 +228,7 @@ function Desk({ campaignId, actorId, canDecide, fourEyes, initialFilter = {} }: 
                 batch <span className="num">{current.batchId}</span> · fitted {formatDate(current.createdAt)}
               </span>
             </header>
+            {current.returned && <p className="notice notice-info mb-3 text-sm" data-testid="returned-note">{current.returned.text}</p>}
             <dl className="grid grid-cols-2 md:grid-cols-4 gap-x-4 gap-y-2 text-sm mb-4">
               <Value label="Teff (colour temperature)" value={current.teffK !== null ? `${num(current.teffK)} ± ${num(current.teffErrK)} K` : current.teffLowerK !== null ? `above ${num(current.teffLowerK)} K` : '—'} />
               <Value label="θ (angular diameter)" value={sheet.data?.fit ? `${sig(sheet.data.fit.thetaMas)} ± ${sig(sheet.data.fit.thetaErrMas, 2)} mas` : '…'} />

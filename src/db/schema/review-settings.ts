@@ -12,6 +12,8 @@ export const campaignReviewSettings = sqliteTable('campaign_review_settings', {
     .references(() => campaigns.id, { onDelete: 'cascade' }),
   // Four-eyes rule (docs/science.md): whoever started a batch may not accept its fits.
   fourEyes: integer('four_eyes', { mode: 'boolean' }).notNull().default(true),
+  // Why the rule was last switched (required to switch it off).
+  reason: text('reason').notNull().default(''),
   updatedById: text('updated_by_id').references(() => user.id, { onDelete: 'set null' }),
   updatedAt: integer('updated_at', { mode: 'timestamp_ms' }).notNull().default(now),
 });

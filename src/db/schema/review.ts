@@ -1,6 +1,6 @@
 // Review decisions on fits, personal API tokens and catalogue releases.
 import { sql } from 'drizzle-orm';
-import { index, integer, sqliteTable, text } from 'drizzle-orm/sqlite-core';
+import { index, integer, real, sqliteTable, text } from 'drizzle-orm/sqlite-core';
 import { user } from './auth';
 import { campaigns } from './campaigns';
 import { fitResults } from './batches';
@@ -34,11 +34,54 @@ export const reviewDecisions = sqliteTable(
     createdAt: integer('created_at', { mode: 'timestamp_ms' }).notNull().default(now),
     supersededAt: integer('superseded_at', { mode: 'timestamp_ms' }),
     supersededReason: text('superseded_reason'),
+    // Set on a decision a re-fit carried over from the decision on the star's earlier fit
+    // (drizzle/0010, review_carryovers holds the old and new values). The reviewer stays the same.
+    carriedFromDecisionId: integer('carried_from_decision_id'),
+    // The four-eyes rule was switched off in the campaign when the decision was made.
+    fourEyesOff: integer('four_eyes_off', { mode: 'boolean' }).notNull().default(false),
   },
   (t) => [
     index('review_decisions_fit_idx').on(t.fitResultId, t.createdAt),
     index('review_decisions_campaign_idx').on(t.campaignId, t.createdAt),
   ],
+);
+
+export const CARRYOVER_OUTCOMES = ['carried', 'returned'] as const;
+
+/**
+ * What a re-fit did with the review decision on the star's earlier fit (decision record 0016): the
+ * decision carried over to the new fit, or the new fit went back to the review queue with the
+ * reasons (space-separated codes, see src/contracts/review). One row per new fit that found a live
+ * decision; written by the trigger fit_results_refit_supersedes, whoever inserts the fit.
+ */
+export const reviewCarryovers = sqliteTable(
+  'review_carryovers',
+  {
+    id: integer('id').primaryKey({ autoIncrement: true }),
+    campaignId: text('campaign_id')
+      .notNull()
+      .references(() => campaigns.id, { onDelete: 'cascade' }),
+    fitResultId: integer('fit_result_id')
+      .notNull()
+      .unique()
+      .references(() => fitResults.id, { onDelete: 'cascade' }),
+    fromFitResultId: integer('from_fit_result_id').notNull(),
+    fromDecisionId: integer('from_decision_id').notNull(),
+    outcome: text('outcome', { enum: CARRYOVER_OUTCOMES }).notNull(),
+    reasons: text('reasons').notNull().default(''),
+    oldTeffK: real('old_teff_k'),
+    oldTeffErrK: real('old_teff_err_k'),
+    newTeffK: real('new_teff_k'),
+    newTeffErrK: real('new_teff_err_k'),
+    oldThetaMas: real('old_theta_mas'),
+    oldThetaErrMas: real('old_theta_err_mas'),
+    newThetaMas: real('new_theta_mas'),
+    newThetaErrMas: real('new_theta_err_mas'),
+    oldFlags: text('old_flags').notNull().default(''),
+    newFlags: text('new_flags').notNull().default(''),
+    createdAt: integer('created_at', { mode: 'timestamp_ms' }).notNull().default(now),
+  },
+  (t) => [index('review_carryovers_campaign_idx').on(t.campaignId, t.outcome)],
 );
 
 /** Personal API tokens: only a SHA-256 of the secret is stored; the secret is shown once. */

@@ -4,7 +4,7 @@
 import type { APIRoute } from 'astro';
 import { requireCampaignRole } from '#web/guards';
 import { handle, json } from '#web/http';
-import { refitStaleStars, staleFits } from '#server/stale';
+import { refitPreview, refitStaleStars, staleFits } from '#server/stale';
 
 export const GET: APIRoute = handle(({ locals, params, url }) => {
   const { campaign } = requireCampaignRole(locals, params.id ?? '', 'any', { allowAdmin: true });
@@ -12,7 +12,7 @@ export const GET: APIRoute = handle(({ locals, params, url }) => {
     const v = url.searchParams.get(name);
     return v === null || !/^\d+$/.test(v) ? undefined : Number(v);
   };
-  return json(staleFits(locals.app.db, campaign.id, { limit: num('limit'), offset: num('offset') }));
+  return json({ ...staleFits(locals.app.db, campaign.id, { limit: num('limit'), offset: num('offset') }), preview: refitPreview(locals.app.db, campaign.id) });
 });
 
 export const POST: APIRoute = handle(({ locals, params }) => {

@@ -1,0 +1,76 @@
+// In real Chromium against the built server: the four-eyes rule's switch. The analyst who started
+// the batch whose fits wait for review is told she cannot switch the rule off; the reviewer can,
+// with a reason, which the page then shows; a decision made while the rule is off is marked so in
+// the star's review history; switching it back on needs no reason.
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import type { Page } from 'playwright-core';
+import { eq } from 'drizzle-orm';
+import { campaigns, user } from '../../src/db/schema';
+import { DEMO_CAMPAIGN, demoUsers } from '../../src/seed/seed';
+import { nameKey } from '../../src/server/campaigns';
+import { decide } from '../../src/server/review';
+import { fitIdOf, seedReviewDemo } from '../../src/seed/review-stars';
+import { launchBrowser, startApp, type Browser, type RunningApp } from './harness';
+
+let run: RunningApp;
+let browser: Browser;
+let campaignId: string;
+let batchId: string;
+const people = demoUsers();
+
+const actor = (email: string) => {
+  const u = run.app.db.select().from(user).where(eq(user.email, email)).get()!;
+  return { id: u.id, name: u.name, email: u.email, kind: u.kind };
+};
+
+beforeAll(async () => {
+  run = await startApp();
+  browser = await launchBrowser();
+  campaignId = run.app.db.select().from(campaigns).where(eq(campaigns.nameKey, nameKey(DEMO_CAMPAIGN.name))).get()!.id;
+  batchId = (await seedReviewDemo(run.app, actor(people.analyst.email), actor(people.reviewer.email), campaignId))!;
+});
+afterAll(async () => {
+  await browser?.close();
+  await run?.stop();
+});
+
+async function signIn(page: Page, who: keyof typeof people) {
+  await browser.context.clearCookies();
+  await page.goto(`${run.baseUrl}/sign-in`);
+  await page.getByLabel('E-mail').fill(people[who].email);
+  await page.getByLabel('Password').fill(people[who].password);
+  await Promise.all([page.waitForURL(`${run.baseUrl}/campaigns`), page.getByRole('button', { name: 'Sign in' }).click()]);
+}
+
+describe('the four-eyes switch', () => {
+  it('is refused to the person it holds back, needs a reason from another member, and marks decisions made while it is off', async () => {
+    const page = await browser.context.newPage();
+    await signIn(page, 'analyst');
+    await page.goto(`${run.baseUrl}/campaigns/${campaignId}/review`);
+    expect(await page.getByTestId('four-eyes-refusal').textContent()).toMatch(/You started batch .* whose fits wait for review/);
+    expect(await page.getByTestId('four-eyes-form').count()).toBe(0);
+
+    await signIn(page, 'reviewer');
+    await page.goto(`${run.baseUrl}/campaigns/${campaignId}/review`);
+    const reason = page.getByLabel('Why switch the four-eyes rule off?');
+    // The browser keeps the form from going without a reason (required); the server refuses it too (unit tests).
+    expect(await reason.getAttribute('required')).not.toBeNull();
+    await reason.fill('Only one reviewer this week');
+    await Promise.all([page.waitForLoadState('load'), page.getByRole('button', { name: 'Switch the rule off' }).click()]);
+    await expect.poll(() => page.getByTestId('four-eyes-state').textContent()).toMatch(/off for this campaign/);
+    expect(await page.getByTestId('four-eyes-reason').textContent()).toBe('Only one reviewer this week');
+    const audit = run.app.db.$client.prepare("SELECT actor_id AS actorId, details FROM audit_events WHERE action = 'review.four_eyes_off'").all() as { actorId: string; details: string }[];
+    expect(audit).toEqual([{ actorId: actor(people.reviewer.email).id, details: JSON.stringify({ reason: 'Only one reviewer this week' }) }]);
+
+    // A decision while the rule is off: marked in the star's history.
+    decide(run.app.db, actor(people.reviewer.email), fitIdOf(run.app.db, batchId, 'Tamsel Minor'), { decision: 'accepted' });
+    await page.goto(`${run.baseUrl}/campaigns/${campaignId}/stars/Tamsel%20Minor`);
+    expect(await page.locator('[data-testid="review-history"] li[data-current="true"]').getByTestId('four-eyes-off-mark').textContent()).toMatch(/four-eyes rule was switched off/);
+
+    // Back on, without a reason.
+    await page.goto(`${run.baseUrl}/campaigns/${campaignId}/review`);
+    await Promise.all([page.waitForLoadState('load'), page.getByRole('button', { name: 'Switch the four-eyes rule back on' }).click()]);
+    await expect.poll(() => page.getByTestId('four-eyes-state').textContent()).toMatch(/^\s*Four-eyes rule on/);
+    await page.close();
+  });
+});
