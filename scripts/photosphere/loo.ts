@@ -5,7 +5,7 @@ import { starterBandLibrary, type BandLibrary } from '../../src/core/bands';
 import { fitStar, prepareFitModel, type FitResult } from '../../src/core/fit';
 import { calibrate, DEFAULT_CALIB_SETTINGS, median, robustSigma, type CalibPoint, type CalibSettings } from '../../src/core/photosphere/calibrate';
 import type { LumClass, PhotosphereData, TeffTermBin } from '../../src/core/photosphere/model';
-import { BENCHMARK_CITATION, SEQUENCE_CITATION, calibPoints, type Calibrator } from './calibrators';
+import { BENCHMARK_CITATION, SEQUENCE_CITATION, type Calibrator } from './calibrators';
 
 export const MODEL_NAME = 'Kiln photosphere';
 export const MODEL_VERSION = 'kp-1';

@@ -12,6 +12,8 @@ export interface BatchOptionsView {
   floorFraction: number;
   excludeBands: string[];
   includeLongBands: boolean;
+  planckOnly?: boolean;
+  lumClass?: 'auto' | 'dwarf' | 'giant';
   clip: boolean;
 }
 
@@ -55,6 +57,8 @@ export interface StartBatchBody {
     excludeBands: string[];
     clip: boolean;
     includeLongBands: boolean;
+    planckOnly?: boolean;
+    lumClass?: 'auto' | 'dwarf' | 'giant';
   };
   /** Only these stars (their ids in the campaign); all stars when absent. */
   starKeys?: string[];

@@ -55,6 +55,8 @@ export const batchOptionsInput = z.strictObject(
       .default([]),
     clip: z.boolean({ error: 'clip must be true or false.' }).default(false),
     includeLongBands: z.boolean({ error: 'includeLongBands must be true or false.' }).default(false),
+    planckOnly: z.boolean({ error: 'planckOnly must be true or false.' }).default(false),
+    lumClass: z.enum(['auto', 'dwarf', 'giant'], { error: 'lumClass must be auto, dwarf or giant.' }).default('auto'),
   },
   { error: (issue) => (issue.code === 'unrecognized_keys' ? `options: unknown option ${issue.keys.map((k) => `"${k}"`).join(', ')}.` : 'options must be an object.') },
 );
@@ -91,6 +93,8 @@ export function toFitOptions(o: z.output<typeof batchOptionsInput>): FitOptions 
     excludeBands: [...new Set(o.excludeBands)],
     clip: o.clip,
     includeLongBands: o.includeLongBands,
+    planckOnly: o.planckOnly,
+    lumClass: o.lumClass,
   });
 }
 

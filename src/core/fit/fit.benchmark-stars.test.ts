@@ -78,7 +78,7 @@ function median(a: number[]): number {
 
 describe('Gaia FGK benchmark stars v3 (Soubiran et al. 2024)', () => {
   const stars = loadStars();
-  const model = prepareFitModel(lib, { planckOnly: true, planckOnly: true }); // F99, R_V 3.1, A_V 0 (stars within ~100 pc), floor 0.02
+  const model = prepareFitModel(lib, { planckOnly: true }); // F99, R_V 3.1, A_V 0 (stars within ~100 pc), floor 0.02
   const fits = stars.map((s) => ({ star: s, r: fitStar(model, { id: s.id, bandFluxes: s.bands, parallaxMas: s.parallaxMas, parallaxErrMas: s.parallaxErrMas }) }));
   const good = fits.flatMap(({ star, r }) => (r.ok && r.teffK !== null ? [{ star, teffK: r.teffK, errK: r.teffErrK as number }] : []));
 

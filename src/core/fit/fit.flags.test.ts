@@ -55,7 +55,7 @@ describe('chi2_high', () => {
 
 describe('temp_cool_edge', () => {
   it('is raised for a star just cooler than the grid (1400 K against 1500 K), seen in the near- and mid-infrared', () => {
-    const model = prepareFitModel(lib, { planckOnly: true, planckOnly: true });
+    const model = prepareFitModel(lib, { planckOnly: true });
     const r = ok(fitStar(model, { id: 'brown', bandFluxes: mock(['J', 'H', 'Ks', 'W1', 'W2'], 1400, 0.5, 0.02) }));
     expect(r.flags).toContain('temp_cool_edge');
     expect(r.teffK).toBeCloseTo(1500, 6);
@@ -66,7 +66,7 @@ describe('temp_cool_edge', () => {
 
 describe('no_convergence', () => {
   it('is the failure of photometry no positive curve can follow (every flux negative)', () => {
-    const model = prepareFitModel(lib, { planckOnly: true, planckOnly: true });
+    const model = prepareFitModel(lib, { planckOnly: true });
     const bands = mock(KEYS, 5500, 1, 0.05).map((b) => ({ ...b, fluxCgs: -b.fluxCgs }));
     const r = fitStar(model, { id: 'negative', bandFluxes: bands });
     expect(r.ok).toBe(false);

@@ -85,7 +85,7 @@ describe('upper limits are censored', () => {
   });
 
   it('an upper limit does not count as a detection', () => {
-    const model = prepareFitModel(lib, { planckOnly: true, planckOnly: true });
+    const model = prepareFitModel(lib, { planckOnly: true });
     const bands = [...mock(['V'], 5000, 1), { bandKey: 'Ks', fluxCgs: 1e-12, errCgs: 0, upperLimit: true }];
     const r = fitStar(model, { id: 'c', bandFluxes: bands });
     expect(r.ok).toBe(false);
@@ -95,7 +95,7 @@ describe('upper limits are censored', () => {
 
 describe('Rayleigh–Jeans tail', () => {
   it('a 45 000 K star seen only from V to Ks with 5 % errors gets a lower bound, not a value', () => {
-    const model = prepareFitModel(lib, { planckOnly: true, planckOnly: true });
+    const model = prepareFitModel(lib, { planckOnly: true });
     const r = ok(fitStar(model, { id: 'hot', bandFluxes: mock(['V', 'G', 'RP', 'J', 'H', 'Ks'], 45000, 0.01, 0.05) }));
     expect(r.flags).toContain('temp_lower_bound');
     expect(r.teffK).toBeNull();
@@ -118,14 +118,14 @@ describe('Rayleigh–Jeans tail', () => {
   });
 
   it('a 30 000 K star seen only in the near-IR (2 % errors) gets a lower bound', () => {
-    const model = prepareFitModel(lib, { planckOnly: true, planckOnly: true });
+    const model = prepareFitModel(lib, { planckOnly: true });
     const r = ok(fitStar(model, { id: 'hot', bandFluxes: mock(['J', 'H', 'Ks', 'W1', 'W2'], 30000, 0.01, 0.05) }));
     expect(r.flags).toContain('temp_lower_bound');
     expect(r.teffLowerK as number).toBeLessThan(30000);
   });
 
   it('the same 45 000 K star with 2 % errors keeps a value with a wide error', () => {
-    const model = prepareFitModel(lib, { planckOnly: true, planckOnly: true });
+    const model = prepareFitModel(lib, { planckOnly: true });
     const r = ok(fitStar(model, { id: 'hot', bandFluxes: mock(['V', 'G', 'RP', 'J', 'H', 'Ks'], 45000, 0.01, 0.02) }));
     expect(r.flags).not.toContain('temp_lower_bound');
     expect(Math.abs((r.teffK as number) / 45000 - 1)).toBeLessThan(1e-4);
@@ -133,7 +133,7 @@ describe('Rayleigh–Jeans tail', () => {
   });
 
   it('the same star with far-UV bands gets a value', () => {
-    const model = prepareFitModel(lib, { planckOnly: true, planckOnly: true });
+    const model = prepareFitModel(lib, { planckOnly: true });
     const r = ok(fitStar(model, { id: 'hot', bandFluxes: mock(['FUV', 'NUV', 'U', 'B', 'V', 'J'], 45000, 0.01) }));
     expect(r.flags).not.toContain('temp_lower_bound');
     expect(Math.abs((r.teffK as number) / 45000 - 1)).toBeLessThan(1e-3);
@@ -187,7 +187,7 @@ describe('infrared excess', () => {
   it('bands beyond 5 µm are diagnostics by default and report their excess', () => {
     const bands = mock(['B', 'V', 'G', 'J', 'H', 'Ks', 'W1', 'W3', 'W4'], 5500, 1);
     bands[7].fluxCgs *= 3; // W3 excess (dust)
-    const model = prepareFitModel(lib, { planckOnly: true, planckOnly: true });
+    const model = prepareFitModel(lib, { planckOnly: true });
     const r = ok(fitStar(model, { id: 'ir', bandFluxes: bands }));
     expect(r.bandsUsed).toContain('W1');
     expect(r.bandsUsed).not.toContain('W3');
@@ -207,14 +207,14 @@ describe('infrared excess', () => {
 describe('parallax and failures', () => {
   const bands = mock(['B', 'V', 'G', 'RP', 'J', 'Ks'], 5772, 0.93009345);
   it('R☉-sized 5772 K star at 10 pc: R = 1 R☉, L = 1 L☉ (IAU 2015 B3 nominal values)', () => {
-    const model = prepareFitModel(lib, { planckOnly: true, planckOnly: true });
+    const model = prepareFitModel(lib, { planckOnly: true });
     const r = ok(fitStar(model, { id: 'sun', bandFluxes: bands, parallaxMas: 100, parallaxErrMas: 0.1 }));
     expect(r.radiusRsun as number).toBeCloseTo(1, 4);
     expect(r.lumLsun as number).toBeCloseTo(1, 3);
     expect(r.flags).toEqual([]);
   });
   it('flags weak, non-positive and missing parallaxes', () => {
-    const model = prepareFitModel(lib, { planckOnly: true, planckOnly: true });
+    const model = prepareFitModel(lib, { planckOnly: true });
     const weak = ok(fitStar(model, { id: 's', bandFluxes: bands, parallaxMas: 1, parallaxErrMas: 0.5 }));
     expect(weak.flags).toContain('plx_weak');
     expect(weak.radiusRsun).not.toBeNull();
@@ -226,7 +226,7 @@ describe('parallax and failures', () => {
     expect(none.flags).toContain('plx_missing');
   });
   it('fails clearly with too few bands', () => {
-    const model = prepareFitModel(lib, { planckOnly: true, planckOnly: true });
+    const model = prepareFitModel(lib, { planckOnly: true });
     const one = fitStar(model, { id: 'lonely', bandFluxes: bands.slice(0, 1) });
     expect(one.ok).toBe(false);
     expect((one as FitFailure).reason).toBe('few_bands');
@@ -242,7 +242,7 @@ describe('parallax and failures', () => {
 
 describe('Monte Carlo intervals', () => {
   it('are reproducible with a fixed seed and about ±1σ wide', () => {
-    const model = prepareFitModel(lib, { planckOnly: true, planckOnly: true });
+    const model = prepareFitModel(lib, { planckOnly: true });
     const bands = mock(['B', 'V', 'G', 'RP', 'J', 'H', 'Ks'], 4800, 1.2, 0.02);
     const opts = { monteCarlo: { samples: 400, seed: 5 } };
     const a = ok(fitStar(model, { id: 'mc', bandFluxes: bands, parallaxMas: 20, parallaxErrMas: 1 }, opts));
