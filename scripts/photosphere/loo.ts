@@ -41,7 +41,7 @@ export function baseData(library: BandLibrary = starterBandLibrary()): Omit<Phot
       sources: [SEQUENCE_CITATION, BENCHMARK_CITATION],
       licences: {
         'dwarf-sequence': 'Derived from the mean dwarf sequence table (E. Mamajek, public repository emamajek/SpectralType); cite Pecaut & Mamajek 2013. The file\'s own header and notes give its caveats.',
-        benchmark: 'Derived from gbs_v3_dev_half.fits, MIT License, Copyright (c) 2024 Sven Buder: "Permission is hereby granted, free of charge, to any person obtaining a copy of this software and associated documentation files (the \\"Software\\"), to deal in the Software without restriction … The above copyright notice and this permission notice shall be included in all copies or substantial portions of the Software." (full text: ../shared/data/benchmark/LICENSE-gbs_v3.txt, reproduced in LICENSES/).',
+        benchmark: 'Derived from gbs_v3_dev_half.fits, MIT License, Copyright (c) 2024 Sven Buder: "Permission is hereby granted, free of charge, to any person obtaining a copy of this software and associated documentation files (the \\"Software\\"), to deal in the Software without restriction … The above copyright notice and this permission notice shall be included in all copies or substantial portions of the Software." (full text in LICENSES/gbs_v3-MIT.txt).',
       },
       gaiaDr2:
         'The sequence\'s Gaia colours are DR2: measured through the revised DR2 curves (gaiadr2-*) with ZP_AB − ZP_Vega = 0.1020, 0.0318, 0.3534 (G, BP, RP; Evans et al. 2018, from memory); the ratio found is used for the DR3 bands of the same key.',

@@ -55,7 +55,9 @@ export const batchOptionsInput = z.strictObject(
       .default([]),
     clip: z.boolean({ error: 'clip must be true or false.' }).default(false),
     includeLongBands: z.boolean({ error: 'includeLongBands must be true or false.' }).default(false),
-    planckOnly: z.boolean({ error: 'planckOnly must be true or false.' }).default(false),
+    // The app's batches stay Planck-only by default until the star sheet, review desk and catalogue show
+    // the calibrated fit beside the Planck one; the CLI and the core default to the photosphere.
+    planckOnly: z.boolean({ error: 'planckOnly must be true or false.' }).default(true),
     lumClass: z.enum(['auto', 'dwarf', 'giant'], { error: 'lumClass must be auto, dwarf or giant.' }).default('auto'),
   },
   { error: (issue) => (issue.code === 'unrecognized_keys' ? `options: unknown option ${issue.keys.map((k) => `"${k}"`).join(', ')}.` : 'options must be an object.') },

@@ -156,8 +156,8 @@ function StartForm({ campaignId, starCount, bandKeys, serverError }: Props) {
         <span>Fit bands beyond ~5 µm too (by default they only show infrared excess)</span>
       </label>
       <label className="flex items-start gap-2 text-sm">
-        <input type="checkbox" name="planckOnly" className="mt-1 accent-ember-600" />
-        <span>Planck only: fit a blackbody, no photosphere model (Teff is then a colour temperature, see About)</span>
+        <input type="checkbox" name="planckOnly" defaultChecked className="mt-1 accent-ember-600" />
+        <span>Planck only: fit a blackbody, no photosphere model (Teff is then a colour temperature, see About). Untick for the calibrated Kiln photosphere.</span>
       </label>
       <div>
         <label className="field-label" htmlFor="batch-lum-class">

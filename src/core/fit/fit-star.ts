@@ -157,8 +157,11 @@ export function prepareFitModel(library: BandLibrary, options: Partial<FitOption
 export function bandIndexAll(model: FitModel, key: string): number {
   const i = model.tables.bandIndex(key);
   if (model.photosphere) {
+    // Bring every photosphere table up to the Planck table's bands, in its order (callers may have
+    // added bands to model.tables directly).
     for (const t of Object.values(model.photosphere.tables)) {
-      if (t.bandIndex(key) !== i) throw new Error(`band ${key}: table indices diverged`);
+      while (t.bandCount < model.tables.bandCount) t.bandIndex(model.tables.bandKeys[t.bandCount]);
+      if (t.getBandIndex(key) !== i) throw new Error(`band ${key}: table indices diverged`);
     }
   }
   return i;
