@@ -12,8 +12,6 @@ export interface BatchOptionsView {
   floorFraction: number;
   excludeBands: string[];
   includeLongBands: boolean;
-  planckOnly?: boolean;
-  lumClass?: 'auto' | 'dwarf' | 'giant';
   clip: boolean;
 }
 
@@ -57,8 +55,6 @@ export interface StartBatchBody {
     excludeBands: string[];
     clip: boolean;
     includeLongBands: boolean;
-    planckOnly?: boolean;
-    lumClass?: 'auto' | 'dwarf' | 'giant';
   };
   /** Only these stars (their ids in the campaign); all stars when absent. */
   starKeys?: string[];

@@ -18,6 +18,7 @@ import { FitStarRunner, fitChunkJobs, jobStarIds } from './fit-job';
 import { appVersion } from './health';
 import { newId } from './ids';
 import { createSqliteQueue, type ClaimedJob, type JobQueue, type SqliteQueueOptions } from './queue';
+import { assertNotArchived } from './members';
 import { notifyReviewersOfBatch } from './review';
 
 /** Fit options as the analyst gives them (API and start form). Every field has a default. */
@@ -55,10 +56,6 @@ export const batchOptionsInput = z.strictObject(
       .default([]),
     clip: z.boolean({ error: 'clip must be true or false.' }).default(false),
     includeLongBands: z.boolean({ error: 'includeLongBands must be true or false.' }).default(false),
-    // The app's batches stay Planck-only by default until the star sheet, review desk and catalogue show
-    // the calibrated fit beside the Planck one; the CLI and the core default to the photosphere.
-    planckOnly: z.boolean({ error: 'planckOnly must be true or false.' }).default(true),
-    lumClass: z.enum(['auto', 'dwarf', 'giant'], { error: 'lumClass must be auto, dwarf or giant.' }).default('auto'),
   },
   { error: (issue) => (issue.code === 'unrecognized_keys' ? `options: unknown option ${issue.keys.map((k) => `"${k}"`).join(', ')}.` : 'options must be an object.') },
 );
@@ -95,8 +92,6 @@ export function toFitOptions(o: z.output<typeof batchOptionsInput>): FitOptions 
     excludeBands: [...new Set(o.excludeBands)],
     clip: o.clip,
     includeLongBands: o.includeLongBands,
-    planckOnly: o.planckOnly,
-    lumClass: o.lumClass,
   });
 }
 
@@ -234,6 +229,7 @@ export function startBatch(app: AppServices, actor: Actor, campaignId: string, r
  */
 export function insertBatch(app: AppServices, actor: Actor, campaignId: string, options: FitOptions, starIds: number[], refitOfBatchId: string | null): BatchSummary {
   const { db } = app;
+  assertNotArchived(db, campaignId);
   const id = newId();
   const queue = batchQueue(db);
   const bandLibraryVersion = getCurrentVersion(db).label;
