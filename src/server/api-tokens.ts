@@ -63,8 +63,8 @@ function view(r: TokenRow, now = Date.now()): ApiTokenView {
   };
 }
 
-export function listApiTokens(db: AppDatabase, userId: string): ApiTokenView[] {
-  return db.select().from(apiTokens).where(eq(apiTokens.userId, userId)).orderBy(desc(apiTokens.createdAt)).all().map((r) => view(r));
+export function listApiTokens(db: AppDatabase, userId: string, now = Date.now()): ApiTokenView[] {
+  return db.select().from(apiTokens).where(eq(apiTokens.userId, userId)).orderBy(desc(apiTokens.createdAt)).all().map((r) => view(r, now));
 }
 
 /** Makes a token; the secret is in the answer and nowhere else. */
@@ -96,6 +96,24 @@ export function revokeApiToken(db: AppDatabase, actor: Actor, tokenId: string, n
     }, { behavior: 'immediate' });
   }
   return view(db.select().from(apiTokens).where(eq(apiTokens.id, tokenId)).get()!);
+}
+
+/** How many of the person's tokens work today (neither revoked nor expired). */
+export function countActiveApiTokens(db: AppDatabase, userId: string): number {
+  return listApiTokens(db, userId).filter((t) => t.status === 'active').length;
+}
+
+/** Revokes every active token of the person (after a password reset, when they ask); returns how many. */
+export function revokeAllApiTokens(db: AppDatabase, userId: string, reason: string, now = new Date()): number {
+  const active = listApiTokens(db, userId, now.getTime()).filter((t) => t.status === 'active');
+  if (active.length === 0) return 0;
+  db.transaction((tx) => {
+    for (const t of active) {
+      tx.update(apiTokens).set({ revokedAt: now }).where(eq(apiTokens.id, t.id)).run();
+      recordAudit(tx, { actorId: userId, action: 'token.revoked', details: { tokenId: t.id, name: t.name, reason } });
+    }
+  }, { behavior: 'immediate' });
+  return active.length;
 }
 
 /** The secret of an `Authorization: Bearer …` header, or null when there is none. */
