@@ -1,6 +1,6 @@
 // Builds the Kiln photosphere model (src/core/photosphere/photosphere-v1.json) from the real stars in
 // ../shared/data, with its provenance, residual scatter per band and range, the calibration term and
-// the leave-one-out accuracy (decision 0018). Run:  npx tsx scripts/photosphere/build.ts
+// the leave-one-out accuracy (decision 0022). Run:  npx tsx scripts/photosphere/build.ts
 // A new band library version with a changed curve or zero-point needs a rebuild and a new MODEL_VERSION.
 import { writeFileSync } from 'node:fs';
 import path from 'node:path';

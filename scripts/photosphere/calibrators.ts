@@ -5,12 +5,12 @@
 //    One star per spectral type at 10 pc: V = M_V and the colours give B, Rc, Ic, Gaia DR2 G/BP/RP,
 //    2MASS J/H/Ks and WISE W1/W2/W3; Teff and R/R☉ are the reference values (θ = 2R/10 pc). The Gaia
 //    colours are DR2: they are measured through the DR2 curves (gaiadr2-*, revised DR2 passbands) and
-//    the correction found is used for the DR3 bands of the same name (decision 0018).
+//    the correction found is used for the DR3 bands of the same name (decision 0022).
 // 2. The Gaia FGK benchmark stars v3 (Soubiran et al. 2024, A&A 682, A145; gbs_v3_dev_half.fits, MIT
 //    licence beside it): fundamental Teff, interferometric limb-darkened θ_LD, log g, [Fe/H]; Gaia DR3
 //    G/BP/RP and the 2MASS bands of quality A. WISE is not used for them: every one is far brighter
 //    than the W1/W2 saturation limits (about 8 and 7 mag; Wright et al. 2010, from memory).
-//    Luminosity class: log g < 3.5 → giant, else dwarf (subgiants go with the dwarfs; decision 0018).
+//    Luminosity class: log g < 3.5 → giant, else dwarf (subgiants go with the dwarfs; decision 0022).
 import { readFileSync } from 'node:fs';
 import path from 'node:path';
 import { fileURLToPath } from 'node:url';

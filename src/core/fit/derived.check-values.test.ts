@@ -64,7 +64,7 @@ describe('derived quantities', () => {
     expect(d.teffErrK).toBeCloseTo(6000 * Math.sqrt(4e-4 + 0.03 ** 2), 9);
   });
 
-  it('moves a model term in ln T along the T–θ degeneracy: σ(θ), σ(R) widen, σ(F_bol), σ(L) stay near their measurement values (docs/decisions/0018; Stefan–Boltzmann: F_bol = sσT⁴)', () => {
+  it('moves a model term in ln T along the T–θ degeneracy: σ(θ), σ(R) widen, σ(F_bol), σ(L) stay near their measurement values (docs/decisions/0022; Stefan–Boltzmann: F_bol = sσT⁴)', () => {
     const d = blank();
     const cov = new Float64Array([1e-4, -3.6e-4, 0, -3.6e-4, 16e-4, 0, 0, 0, 0]);
     const s = dilutionFromThetaMas(1);

@@ -8,7 +8,7 @@
 // A model term σ_m² in ln T (the photosphere's calibration term, or the blackbody model-error term) is
 // a temperature error at fixed photometry, so it moves along the T–θ degeneracy of the fit: with
 // β = d(ln s*)/d(ln T) of the closed-form scale, it adds σ_m² to var(ln T), β σ_m² to cov(ln T, ln s) and
-// β² σ_m² to var(ln s) (docs/decisions/0018). It widens σ(θ) and σ(R); σ(F_bol) grows only by
+// β² σ_m² to var(ln s) (docs/decisions/0022). It widens σ(θ) and σ(R); σ(F_bol) grows only by
 // (β + 4)² σ_m², small when the bands straddle the peak (β ≈ −4).
 // Uncertainties are linear (first-order) propagations of the reported covariance; the Monte Carlo
 // option in fit-star.ts gives asymmetric intervals when they matter.

@@ -80,7 +80,7 @@ export const DEFAULT_FIT_OPTIONS: Readonly<FitOptions> = Object.freeze({
   includeLongBands: false,
   clip: false,
   // Opt-in for now: the CLI, the app and the exports do not yet carry the tbb_* columns beside teff_*
-  // (decision 0018), so every caller keeps the Planck fit unless it asks for the photosphere.
+  // (decision 0022), so every caller keeps the Planck fit unless it asks for the photosphere.
   planckOnly: true,
   lumClass: 'auto' as const,
 });

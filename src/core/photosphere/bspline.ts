@@ -1,4 +1,4 @@
-// Uniform cubic B-splines in x = ln T: the form of the photosphere correction ln c_b(T) (decision 0018).
+// Uniform cubic B-splines in x = ln T: the form of the photosphere correction ln c_b(T) (decision 0022).
 // Coefficients c_0 … c_{m+2} on m intervals of width h starting at x0; on interval i with t ∈ [0, 1)
 // the curve is Σ_q c_{i+q} B_q(t) with the standard uniform cubic weights (C² everywhere).
 

@@ -1,4 +1,4 @@
-// Builds the photosphere corrections from calibrating stars (pure; decision 0018). The caller measures
+// Builds the photosphere corrections from calibrating stars (pure; decision 0022). The caller measures
 // d = ln(F_obs / (s·φ_b(Teff))) for every calibrating star and band, with s = (θ/2)² from the star's
 // angular diameter (interferometric θ_LD, or R and distance for the dwarf sequence) and φ_b the Planck
 // band mean at the reference Teff, and σ(d) from the photometry and the reference values' errors.

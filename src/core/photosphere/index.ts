@@ -1,4 +1,4 @@
-// The empirical photosphere model (decision 0018): data, evaluation and the calibration builder.
+// The empirical photosphere model (decision 0022): data, evaluation and the calibration builder.
 import file from './photosphere-v1.json';
 import type { PhotosphereData } from './model';
 

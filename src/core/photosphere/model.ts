@@ -1,5 +1,5 @@
 // The Starkiln empirical photosphere ("Kiln photosphere"): Planck band means times a smooth per-band
-// correction c_b(Teff, class), calibrated on real stars (decision 0018; built by
+// correction c_b(Teff, class), calibrated on real stars (decision 0022; built by
 // scripts/photosphere/build.ts into photosphere-v1.json with its provenance). Pure data + evaluation.
 //
 //   ln c_b(T) = a uniform cubic B-spline in ln T (dwarfs), fitted with a second-difference penalty;
