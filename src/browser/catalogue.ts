@@ -10,6 +10,7 @@ export const SORTABLE = ['star_key', 'teff_k', 'lum_lsun', 'radius_rsun', 'chi2_
 export type SortKey = (typeof SORTABLE)[number];
 export const DOWNLOAD_FORMATS = [
   { key: 'csv', label: 'CSV' },
+  { key: 'ecsv', label: 'ECSV' },
   { key: 'votable', label: 'VOTable' },
   { key: 'fits', label: 'FITS table' },
   { key: 'json', label: 'JSON' },
