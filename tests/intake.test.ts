@@ -255,7 +255,7 @@ describe('malformed files are rejected with a clear message and nothing imported
     const u = await upload('long.csv', csv);
     const err = await rejected(() => importUpload(t.app, analyst, campaignId, u.id, { mapping: mappingOf(u), rules: { quality: [] } }));
     const msgs = err.extra.report!.map((r) => `${r.row}/${r.column}: ${r.message}`);
-    expect(msgs[0]).toBe('1/mag_err: row 1, column mag_err: negative error -0.02');
+    expect(msgs[0]).toBe('1/mag_err: row 1 (file line 2), column mag_err: negative error -0.02');
     expect(msgs[1]).toMatch(/^2\/band: .*unknown band "Vmag"/);
     expect(counts()).toEqual({ stars: 0, measurements: 0 });
   });

@@ -7,6 +7,7 @@ import { existsSync, mkdirSync, readFileSync, writeFileSync } from 'node:fs';
 import path from 'node:path';
 import { z } from 'zod';
 import { projectRoot, resolveDatabasePath } from '../db/paths';
+import { limitsFromEnv, type InputLimits } from '../core/input/limits';
 
 const optionalPassword = z
   .string()
@@ -61,6 +62,13 @@ const settingsShape = z.object({
   DEMO_ANALYST_PASSWORD: optionalPassword,
   DEMO_REVIEWER_PASSWORD: optionalPassword,
   DEMO_COLLABORATOR_PASSWORD: optionalPassword,
+  // What one input file may cost to read (INPUT_MAX_BYTES, _ROWS, _COLUMNS, _CELLS, _SECONDS):
+  // checked by limitsFromEnv in src/core/input/limits.ts, which the CLI shares.
+  INPUT_MAX_BYTES: z.string().optional(),
+  INPUT_MAX_ROWS: z.string().optional(),
+  INPUT_MAX_COLUMNS: z.string().optional(),
+  INPUT_MAX_CELLS: z.string().optional(),
+  INPUT_MAX_SECONDS: z.string().optional(),
 });
 
 /** Every setting Starkiln reads (.env.example lists each one). */
@@ -94,6 +102,8 @@ export interface AppEnv {
   demoPasswords: { admin?: string; analyst?: string; reviewer?: string; collaborator?: string };
   queueBackend: 'sqlite' | 'redis';
   redisUrl: string;
+  /** What one input file may cost to read (INPUT_MAX_*; docs/decisions/0018-input-limits.md). */
+  inputLimits: InputLimits;
   /** Stars per fit job (chunk). */
   fitChunkStars: number;
 }
@@ -121,8 +131,15 @@ export function parseEnv(source: Record<string, string | undefined>): AppEnv {
   // An empty line in .env (KEY=) means "not set", not "set to nothing".
   const present = Object.fromEntries(Object.entries(source).filter(([, v]) => v !== undefined && v.trim() !== ''));
   const result = envSchema.safeParse(present);
-  if (!result.success) {
-    const lines = result.error.issues.map((i) => `  ${i.path.join('.')}: ${i.message}`);
+  let inputLimits: InputLimits | undefined;
+  let limitProblems: string[] = [];
+  try {
+    inputLimits = limitsFromEnv(present);
+  } catch (err) {
+    limitProblems = (err as Error).message.split('; ').map((m) => `  ${m.split(' ')[0]}: ${m.slice(m.indexOf(' ') + 1)}`);
+  }
+  if (!result.success || !inputLimits) {
+    const lines = [...(result.success ? [] : result.error.issues.map((i) => `  ${i.path.join('.')}: ${i.message}`)), ...limitProblems];
     throw new Error(`Starkiln configuration is invalid:\n${lines.join('\n')}`);
   }
   const e = result.data;
@@ -156,6 +173,7 @@ export function parseEnv(source: Record<string, string | undefined>): AppEnv {
     authRateLimit: e.AUTH_RATE_LIMIT === 'on',
     queueBackend: e.STARKILN_QUEUE,
     redisUrl: e.REDIS_URL,
+    inputLimits,
     fitChunkStars: e.FIT_CHUNK_STARS,
     demoPasswords: {
       admin: e.DEMO_ADMIN_PASSWORD,

@@ -197,8 +197,8 @@ describe('starkiln fit, end to end', () => {
     writeFileSync(path.join(dir, 'bad.csv'), lines.join('\n') + '\n');
     const r = run('fit', 'bad.csv', '-o', 'bad-out.csv');
     expect(r.code).toBe(2);
-    expect(r.stderr).toContain('bad.csv:3:9: row 2, column V: V magnitude "bright" is not a number');
-    expect(r.stderr).toContain('bad.csv:5:1: row 4, column id: duplicate star id "cinder-000001" (first in row 1); the row was left out');
+    expect(r.stderr).toContain('bad.csv:3:9: row 2 (file line 3), column V: V magnitude "bright" is not a number');
+    expect(r.stderr).toContain('bad.csv:5:1: row 4 (file line 5), column id: duplicate star id "cinder-000001" (first in row 1); the row was left out');
     expect(r.stderr).toMatch(/2 stars fitted, 2 input rows left out, 2 errors/);
     const cat = readCatalogue(path.join(dir, 'bad-out.csv'));
     expect(cat.rows.map((x) => x.id)).toEqual([stars[0].id, stars[2].id]);
@@ -214,7 +214,7 @@ describe('starkiln fit, end to end', () => {
     );
     const r = run('fit', 'neg.csv', '-o', 'neg-out.csv');
     expect(r.code).toBe(2);
-    expect(r.stderr).toContain('neg.csv:3:3: row 2, column V_err: negative error -0.02');
+    expect(r.stderr).toContain('neg.csv:3:3: row 2 (file line 3), column V_err: negative error -0.02');
     expect(r.stderr).toContain('neg.csv:W5_jy: warning: unknown band column "W5_jy" (with W5_jy_err): "W5" is not a band key (band keys are case-sensitive: ');
     expect(r.stderr).toMatch(/2 stars fitted, 1 input row left out, 1 error and 1 warning/);
     const cat = readCatalogue(path.join(dir, 'neg-out.csv'));
