@@ -15,6 +15,7 @@ const SECTIONS: { name: string; file: string; what: string }[] = [
   { name: 'cli', file: 'cli.ts', what: 'the whole starkiln fit command on 100 000 stars, CSV in and out' },
   { name: 'end-to-end', file: 'end-to-end.ts', what: 'CSV upload → stored results with two worker processes (SQLite queue)' },
   { name: 'catalogue', file: 'catalogue.ts', what: 'catalogue page requests on a million stored results (p50/p95)' },
+  { name: 'readers', file: 'readers.ts', what: 'CSV, VOTable and FITS readers: time and memory held per table cell' },
   { name: 'redis', file: 'redis.ts', what: 'BullMQ on Redis: 1, 2 and 4 worker processes and the result writer' },
 ];
 

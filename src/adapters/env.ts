@@ -8,6 +8,7 @@ import path from 'node:path';
 import { z } from 'zod';
 import { projectRoot, resolveDatabasePath } from '../db/paths';
 import { limitsFromEnv, type InputLimits } from '../core/input/limits';
+import { parseTrustedProxies, type TrustedProxies } from './client-address';
 
 const optionalPassword = z
   .string()
@@ -45,6 +46,8 @@ const settingsShape = z.object({
   MAIL_FROM: z.string().default('Starkiln <no-reply@starkiln.test>'),
   SIGNUP_OPEN: z.enum(['true', 'false']).default('false'),
   AUTH_RATE_LIMIT: z.enum(['on', 'off']).default('on'),
+  // Reverse proxies (addresses or CIDR ranges, comma-separated) whose X-Forwarded-For is believed.
+  TRUSTED_PROXIES: z.string().optional(),
   // Queue backend: sqlite (embedded, default) or redis (BullMQ; workers on other machines).
   STARKILN_QUEUE: z.enum(['sqlite', 'redis'], 'STARKILN_QUEUE must be sqlite or redis').default('sqlite'),
   REDIS_URL: z
@@ -99,6 +102,10 @@ export interface AppEnv {
   mailFrom: string;
   signupOpen: boolean;
   authRateLimit: boolean;
+  /** Peers whose X-Forwarded-For names the client (src/adapters/client-address.ts). */
+  trustedProxies: TrustedProxies;
+  /** The public address is https: cookies get the Secure flag. */
+  secureCookies: boolean;
   demoPasswords: { admin?: string; analyst?: string; reviewer?: string; collaborator?: string };
   queueBackend: 'sqlite' | 'redis';
   redisUrl: string;
@@ -143,6 +150,12 @@ export function parseEnv(source: Record<string, string | undefined>): AppEnv {
     throw new Error(`Starkiln configuration is invalid:\n${lines.join('\n')}`);
   }
   const e = result.data;
+  let trustedProxies: TrustedProxies;
+  try {
+    trustedProxies = parseTrustedProxies(e.TRUSTED_PROXIES);
+  } catch (err) {
+    throw new Error(`Starkiln configuration is invalid:\n  TRUSTED_PROXIES: ${(err as Error).message}`);
+  }
   const databasePath = resolveDatabasePath(e.DATABASE_PATH);
   const baseUrl = e.BETTER_AUTH_URL.replace(/\/+$/, '');
   const origins = new Set([new URL(baseUrl).origin]);
@@ -171,6 +184,8 @@ export function parseEnv(source: Record<string, string | undefined>): AppEnv {
     mailFrom: e.MAIL_FROM,
     signupOpen: e.SIGNUP_OPEN === 'true',
     authRateLimit: e.AUTH_RATE_LIMIT === 'on',
+    trustedProxies,
+    secureCookies: new URL(baseUrl).protocol === 'https:',
     queueBackend: e.STARKILN_QUEUE,
     redisUrl: e.REDIS_URL,
     inputLimits,

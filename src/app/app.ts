@@ -17,6 +17,7 @@ export function createApp(db: AppDatabase, env: AppEnv): AppServices {
     baseUrl: env.baseUrl,
     trustedOrigins: env.trustedOrigins,
     rateLimit: env.authRateLimit,
+    secureCookies: env.secureCookies,
   });
   return { db, env, mailer, auth };
 }

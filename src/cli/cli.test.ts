@@ -187,6 +187,36 @@ describe('starkiln fit, end to end', () => {
     expect(second.bands_used.split(' ')).toContain('J');
   });
 
+  it('--include-long fits W3 (12 µm) instead of keeping it as an excess diagnostic', () => {
+    // W3 of the first star 1 mag too bright: a 12 µm excess (dust, a companion) on a noise-free star.
+    const stars = mockStars(2, 17);
+    const lines = mockCsv(stars).trimEnd().split('\n');
+    const w3At = lines[0].split(',').indexOf('W3');
+    const cells = lines[1].split(',');
+    cells[w3At] = String(Number(cells[w3At]) - 1);
+    lines[1] = cells.join(',');
+    writeFileSync(path.join(dir, 'long.csv'), lines.join('\n') + '\n');
+
+    expect(run('fit', 'long.csv', '-o', 'long-default.json').code).toBe(0);
+    const plain = JSON.parse(readFileSync(path.join(dir, 'long-default.json'), 'utf8'));
+    expect(plain.provenance.options.include_long).toBe(false);
+    for (const [i, row] of plain.rows.entries()) {
+      expect(row.bands_used.split(' ')).not.toContain('W3');
+      expect(Math.abs(row.teff_k / stars[i].teffK - 1)).toBeLessThan(1e-4);
+    }
+    expect(plain.rows[0].flags.split(' ')).toContain('ir_excess');
+    expect(plain.rows[1].flags.split(' ')).not.toContain('ir_excess');
+
+    expect(run('fit', 'long.csv', '-o', 'long-fitted.json', '--include-long').code).toBe(0);
+    const fitted = JSON.parse(readFileSync(path.join(dir, 'long-fitted.json'), 'utf8'));
+    expect(fitted.provenance.options.include_long).toBe(true);
+    for (const row of fitted.rows) expect(row.bands_used.split(' ')).toContain('W3');
+    // The clean star still comes back to 1e-4; the bright W3 now pulls the first star's fit.
+    expect(Math.abs(fitted.rows[1].teff_k / stars[1].teffK - 1)).toBeLessThan(1e-4);
+    expect(fitted.rows[0].flags.split(' ')).not.toContain('ir_excess');
+    expect(Math.abs(fitted.rows[0].teff_k / stars[0].teffK - 1)).toBeGreaterThan(1e-3);
+  });
+
   it('reports bad rows as file:line:column, fits the good ones, exits with 2', () => {
     const stars = mockStars(3, 5);
     const lines = mockCsv(stars).trimEnd().split('\n');

@@ -28,7 +28,7 @@ export interface InputLimits {
   maxRows: number;
   /** Most columns in one table. */
   maxColumns: number;
-  /** Most cells (rows × columns) in one table: the memory budget (about 100 bytes a cell while read). */
+  /** Most cells (rows × columns) in one table: the memory budget (at most about 100 bytes a cell while read). */
   maxCells: number;
   /** Longest a file's reading may take, in seconds (checked as the reader goes). */
   maxSeconds: number;
@@ -47,7 +47,7 @@ export const DEFAULT_INPUT_LIMITS: Readonly<InputLimits> = Object.freeze({
   maxBytes: 200 * 1024 * 1024,
   maxRows: 2_000_000,
   maxColumns: 1000,
-  maxCells: 20_000_000,
+  maxCells: 10_000_000,
   maxSeconds: 120,
 });
 
@@ -130,9 +130,11 @@ export class ReadBudget {
     if (n > this.limits.maxColumns) throw new InputLimitError(this.file, where(), `${n} columns, more than ${this.limits.maxColumns}; keep the columns you need`, 'maxColumns', this.limits.maxColumns);
   }
 
-  cells(n: number, where: () => string): void {
-    if (n > this.limits.maxCells) {
-      throw new InputLimitError(this.file, where(), `more than ${this.limits.maxCells} cells (rows × columns) to hold in memory; split the file or keep fewer columns`, 'maxCells', this.limits.maxCells);
+  /** `weight`: what one cell of this format costs in text cells (a VOTable's XML tree costs more). */
+  cells(n: number, where: () => string, weight = 1): void {
+    if (n * weight > this.limits.maxCells) {
+      const counted = weight === 1 ? '' : ` (a cell of this format counts ${weight} times: reading it takes ${weight} times the memory)`;
+      throw new InputLimitError(this.file, where(), `more than ${Math.floor(this.limits.maxCells / weight)} cells (rows × columns) to hold in memory${counted}; split the file or keep fewer columns`, 'maxCells', this.limits.maxCells);
     }
   }
 }

@@ -8,6 +8,12 @@ import { ReadBudget } from './limits';
 
 /** Deepest element nesting read (a VOTable with nested RESOURCEs and GROUPs stays far below). */
 export const XML_MAX_DEPTH = 64;
+/**
+ * What one VOTable cell costs against the cell budget: its XML tree takes about five times the
+ * memory of a CSV cell while read (1 000 000 TDs need 350–500 MB of heap, the same cells as CSV
+ * under 100 MB; measured with node --max-old-space-size, see docs/decisions/0018-input-limits.md).
+ */
+export const XML_CELL_WEIGHT = 5;
 /** Longest attribute value or element name read, in characters. */
 export const XML_MAX_ATTRIBUTE_CHARS = 65_536;
 
@@ -134,7 +140,7 @@ export function guardXml(text: string, budget: ReadBudget, fail: (p: XmlProblem)
       budget.rows(counts.rows, where(i));
     } else if (name === 'TD') {
       counts.cells++;
-      budget.cells(counts.cells, where(i));
+      budget.cells(counts.cells, where(i), XML_CELL_WEIGHT);
     }
     if (!selfClosing) {
       depth++;

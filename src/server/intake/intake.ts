@@ -19,7 +19,7 @@ import { measurements, stars, uploads } from '../../db/schema';
 import type { Actor, AppServices } from '../context';
 import { newId } from '../ids';
 import { parseInput } from '../validation';
-import { recordAudit } from '../audit';
+import { recordAudit, recordAuditSql } from '../audit';
 import { getCurrentLibrary } from '../band-library';
 import { IntakeError } from './errors';
 import { FORMAT_LABELS, readUpload, UnreadableFile, type DetectedFormat, type ReadUpload } from '../../core/input/table-file';
@@ -367,9 +367,7 @@ export function importUpload(app: AppServices, actor: Actor, campaignId: string,
     sqlite
       .prepare('UPDATE uploads SET status = ?, report = ?, imported_row_count = ?, imported_at = ? WHERE id = ?')
       .run('imported', JSON.stringify(check.report), result.rowCount - result.rejectedRows, nowMs, uploadId);
-    sqlite
-      .prepare('INSERT INTO audit_events (actor_id, action, campaign_id, details) VALUES (?, ?, ?, ?)')
-      .run(actor.id, 'upload.imported', campaignId, JSON.stringify({ uploadId, source, ...counts, problems: result.errorCount }));
+    recordAuditSql(sqlite, { actorId: actor.id, action: 'upload.imported', campaignId, details: { uploadId, source, ...counts, problems: result.errorCount } });
   }).immediate();
 
   const totals = campaignCounts(app.db, campaignId);
