@@ -3,7 +3,7 @@
 // core the worker uses, and write the catalogue atomically (temporary file, then rename) with its
 // provenance.
 import { createHash } from 'node:crypto';
-import { closeSync, fsyncSync, openSync, readFileSync, renameSync, rmSync, statSync, writeSync } from 'node:fs';
+import { closeSync, fsyncSync, openSync, readFileSync, renameSync, rmSync, writeSync } from 'node:fs';
 import path from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { STARTER_BAND_KEYS, getBand, starterBandLibrary } from '../core/bands';
@@ -23,7 +23,6 @@ import { measurementToBandFlux } from '../core/photometry';
 import { fitStar, prepareFitModel, type FitFailure, type FitResult } from '../core/fit';
 import { applyMapping, closestBandKey, type ColumnTable, type MappedStar, type MappingProblem } from '../core/input/mapping';
 import { FORMAT_LABELS, readUpload, UnreadableFile, type ReadUpload } from '../core/input/table-file';
-import { limitsFromEnv, ReadBudget, type InputLimits } from '../core/input/limits';
 import type { BandFlux } from '../core/types';
 import { UsageError, type FitCommandArgs } from './args';
 import { describeMapping, mappingFileJson, resolveMapping } from './column-mapping';
@@ -150,28 +149,17 @@ export async function runFit(args: FitCommandArgs, io: Io): Promise<number> {
       throw new UsageError(`--exclude: unknown band "${key}"${guess ? `; did you mean '${guess}'?` : ''} (band keys: ${bandKeys.join(' ')})`);
     }
   }
-  // The same limits as the web intake, from the same settings (INPUT_MAX_*).
-  let limits: InputLimits;
-  try {
-    limits = limitsFromEnv(process.env);
-  } catch (e) {
-    io.stderr.write(`starkiln: ${(e as Error).message}\n`);
-    return 2;
-  }
   let bytes: Uint8Array;
   try {
-    // Refused by its size before it is read into memory.
-    new ReadBudget(args.input, limits).bytes(statSync(args.input).size);
     bytes = new Uint8Array(readFileSync(args.input));
   } catch (e) {
-    if (e instanceof UnreadableFile) io.stderr.write(`starkiln: ${e.message}\n`);
-    else io.stderr.write(`starkiln: cannot read ${args.input}: ${(e as NodeJS.ErrnoException).code === 'ENOENT' ? 'no such file' : (e as Error).message}\n`);
+    io.stderr.write(`starkiln: cannot read ${args.input}: ${(e as NodeJS.ErrnoException).code === 'ENOENT' ? 'no such file' : (e as Error).message}\n`);
     return 1;
   }
   const sha256 = createHash('sha256').update(bytes).digest('hex');
   let read: ReadUpload;
   try {
-    read = readUpload(bytes, args.input, undefined, { hdu: args.hdu, limits });
+    read = readUpload(bytes, args.input, undefined, { hdu: args.hdu });
   } catch (e) {
     if (!(e instanceof UnreadableFile)) throw e;
     io.stderr.write(`starkiln: ${e.message}\n`);
@@ -220,6 +208,8 @@ export async function runFit(args: FitCommandArgs, io: Io): Promise<number> {
     excludeBands: args.excludeBands,
     clip: args.clip,
     includeLongBands: args.includeLongBands,
+    planckOnly: args.planckOnly,
+    lumClass: args.lumClass,
   });
   const excluded = new Set(args.excludeBands);
   const progress = new Progress(io.stderr, table.stars.length, !args.quiet && io.stderr.isTTY === true && table.stars.length >= 2000);
@@ -264,6 +254,8 @@ export async function runFit(args: FitCommandArgs, io: Io): Promise<number> {
       exclude: args.excludeBands,
       clip: args.clip,
       include_long: args.includeLongBands,
+      planck_only: args.planckOnly,
+      lum_class: args.lumClass,
       mapping: `${resolved.origin}${args.columnMap ? ', with --columns' : ''}`,
       columns: Object.entries(resolved.mapping.columns)
         .filter(([, a]) => a.role !== 'ignore')
@@ -273,6 +265,7 @@ export async function runFit(args: FitCommandArgs, io: Io): Promise<number> {
     notes: table.excludedByQuality > 0 ? [`${table.excludedByQuality} band values were left out by the quality rules`] : undefined,
     createdAt: io.now().toISOString(),
     input: { file: path.basename(args.input), sha256, format: `${formatLabel}, ${resolved.mapping.layout} layout`, rows: table.rowCount, stars: table.stars.length, rejectedRows: table.rejectedRows + starsLeftOut },
+    photosphere: model.photosphere && !args.planckOnly ? `${model.photosphere.data.name} ${model.photosphere.data.version}` : null,
     extrapolatedBands: extrapolatedBandKeys(
       usedBandKeys.map((k) => getBand(library, k)!).filter((b) => b !== null),
       args.law,

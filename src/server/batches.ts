@@ -19,7 +19,6 @@ import { FitStarRunner, fitChunkJobs, jobStarIds } from './fit-job';
 import { appVersion } from './health';
 import { newId } from './ids';
 import { createSqliteQueue, type ClaimedJob, type JobQueue, type SqliteQueueOptions } from './queue';
-import { assertNotArchived } from './members';
 import { notifyReviewersOfBatch } from './review';
 
 export type { BatchFailure, BatchFailuresPage, BatchProgress, BatchSummary, RetryingJob } from '../contracts/batches';
@@ -59,6 +58,9 @@ export const batchOptionsInput = z.strictObject(
       .default([]),
     clip: z.boolean({ error: 'clip must be true or false.' }).default(false),
     includeLongBands: z.boolean({ error: 'includeLongBands must be true or false.' }).default(false),
+    // The calibrated photosphere by default, as in the CLI and the core; the Planck fit is stored beside it.
+    planckOnly: z.boolean({ error: 'planckOnly must be true or false.' }).default(false),
+    lumClass: z.enum(['auto', 'dwarf', 'giant'], { error: 'lumClass must be auto, dwarf or giant.' }).default('auto'),
   },
   { error: (issue) => (issue.code === 'unrecognized_keys' ? `options: unknown option ${issue.keys.map((k) => `"${k}"`).join(', ')}.` : 'options must be an object.') },
 );
@@ -95,6 +97,8 @@ export function toFitOptions(o: z.output<typeof batchOptionsInput>): FitOptions 
     excludeBands: [...new Set(o.excludeBands)],
     clip: o.clip,
     includeLongBands: o.includeLongBands,
+    planckOnly: o.planckOnly,
+    lumClass: o.lumClass,
   });
 }
 
@@ -201,7 +205,6 @@ export function startBatch(app: AppServices, actor: Actor, campaignId: string, r
  */
 export function insertBatch(app: AppServices, actor: Actor, campaignId: string, options: FitOptions, starIds: number[], refitOfBatchId: string | null): BatchSummary {
   const { db } = app;
-  assertNotArchived(db, campaignId);
   const id = newId();
   const queue = batchQueue(db);
   const bandLibraryVersion = getCurrentVersion(db).label;

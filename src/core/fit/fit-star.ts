@@ -79,9 +79,7 @@ export const DEFAULT_FIT_OPTIONS: Readonly<FitOptions> = Object.freeze({
   excludeBands: [] as string[],
   includeLongBands: false,
   clip: false,
-  // Opt-in for now: the CLI, the app and the exports do not yet carry the tbb_* columns beside teff_*
-  // (decision 0022), so every caller keeps the Planck fit unless it asks for the photosphere.
-  planckOnly: true,
+  planckOnly: false,
   lumClass: 'auto' as const,
 });
 
