@@ -192,6 +192,7 @@ export interface PlanckFit {
   flags: FlagCode[];
   thetaMas: number | null;
   radiusRsun: number | null;
+  avMag: number | null;
 }
 
 export type ExclusionReason = 'excluded_by_option' | 'long_wavelength' | 'clipped' | 'no_valid_error';
@@ -479,6 +480,7 @@ export function fitStar(model: FitModel, star: StarInput, options?: Partial<FitO
     flags: planckRes.flags,
     thetaMas: planckRes.thetaMas,
     radiusRsun: planckRes.radiusRsun,
+    avMag: planckRes.avMag,
   };
   if (!rt) {
     // Planck only: teff_* = tbb_*; the optional blackbody model-error term widens teff_* alone.
