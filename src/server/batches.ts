@@ -19,6 +19,7 @@ import { FitStarRunner, fitChunkJobs, jobStarIds } from './fit-job';
 import { appVersion } from './health';
 import { newId } from './ids';
 import { createSqliteQueue, type ClaimedJob, type JobQueue, type SqliteQueueOptions } from './queue';
+import { assertNotArchived } from './members';
 import { notifyReviewersOfBatch } from './review';
 
 export type { BatchFailure, BatchFailuresPage, BatchProgress, BatchSummary, RetryingJob } from '../contracts/batches';
@@ -205,6 +206,7 @@ export function startBatch(app: AppServices, actor: Actor, campaignId: string, r
  */
 export function insertBatch(app: AppServices, actor: Actor, campaignId: string, options: FitOptions, starIds: number[], refitOfBatchId: string | null): BatchSummary {
   const { db } = app;
+  assertNotArchived(db, campaignId);
   const id = newId();
   const queue = batchQueue(db);
   const bandLibraryVersion = getCurrentVersion(db).label;
