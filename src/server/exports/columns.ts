@@ -43,7 +43,7 @@ const META: Record<string, ColumnMeta> = {
   flags: { kind: 'text', ucd: 'meta.code.qual' },
   lum_class: { kind: 'text', ucd: 'src.class.luminosity' },
   lum_class_source: { kind: 'text', ucd: 'meta.note' },
-  // [Fe/H] in dex: neither VOUnit 1.0 nor the FITS Standard has dex (astropy refuses it in both), so no unit here.
+  // [Fe/H] in dex: neither VOUnit 1.0 nor the FITS Standard has dex (astropy refuses it in both), so no unit.
   feh: { kind: 'double', ucd: 'phys.abund.Fe' },
   model: { kind: 'text', ucd: 'meta.code' },
   review_status: { kind: 'text', ucd: 'meta.code.status' },
