@@ -17,7 +17,8 @@ import { performance } from 'node:perf_hooks';
 import { openDatabase } from '../src/db/client';
 import { migrateDatabase } from '../src/db/migrate';
 import { mulberry32 } from '../src/core/fit/random';
-import { CATALOGUE_SORTS, catalogueCount, catalogueDiagrams, cataloguePage, parseCataloguePageRequest } from '../src/server/catalogue';
+import { CATALOGUE_SORTS, catalogueCount, catalogueDiagrams, cataloguePage } from '../src/server/catalogue';
+import { parseCataloguePageRequest } from '../src/web/catalogue-params';
 
 const FLAG_MIX: [string, number][] = [
   ['plx_weak', 0.1],

@@ -19,7 +19,8 @@ import {
   updateZeroPoint,
 } from '../src/server/band-library';
 import { getBatch, startBatch } from '../src/server/batches';
-import { cataloguePage, parseCataloguePageRequest } from '../src/server/catalogue';
+import { cataloguePage } from '../src/server/catalogue';
+import { parseCataloguePageRequest } from '../src/web/catalogue-params';
 import { bandKeys as intakeBandKeys } from '../src/server/intake/intake';
 import { decide, fitHistory } from '../src/server/review';
 import { bandUsage, checkStale, refitStaleStars, staleChecker, staleFits } from '../src/server/stale';

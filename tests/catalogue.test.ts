@@ -15,10 +15,10 @@ import {
   catalogueSummaryStats,
   catalogueVersion,
   catalogueTuning,
-  parseCataloguePageRequest,
   type CatalogueRowView,
   type CatalogueSort,
 } from '../src/server/catalogue';
+import { parseCataloguePageRequest } from '../src/web/catalogue-params';
 import Database from 'better-sqlite3';
 import { mulberry32 } from '../src/core/fit/random';
 import type { Actor } from '../src/server/context';

@@ -10,7 +10,7 @@ import type { AppDatabase } from '../db/client';
 import { campaignMemberRoles, catalogueReleases, user } from '../db/schema';
 import type { MailMessage } from '../adapters/mail';
 import { recordAudit } from './audit';
-import { catalogueCount, describeFilter, filterToParams, parseCatalogueFilter, type CatalogueFilter } from './catalogue';
+import { catalogueCount, catalogueFilterFromQuery, describeFilter, filterToParams, type CatalogueFilter } from './catalogue';
 import type { Actor, AppServices } from './context';
 import { HttpError } from './errors';
 import { appVersion } from './health';
@@ -72,7 +72,7 @@ function view(r: ReleaseRow, by: { id: string; name: string } | null, notified: 
     title: r.title,
     note: r.note,
     query,
-    selection: describeFilter(parseCatalogueFilter(new URLSearchParams(query))),
+    selection: describeFilter(catalogueFilterFromQuery(query)),
     rowCount: r.rowCount,
     bandLibraryVersion: r.bandLibraryVersion,
     softwareVersion: r.softwareVersion,
@@ -106,7 +106,7 @@ function collaborators(db: AppDatabase, campaignId: string): { id: string; name:
 export async function createRelease(app: AppServices, actor: Actor, campaign: { id: string; name: string }, raw: unknown): Promise<ReleaseView> {
   const { db, mailer, env } = app;
   const input = parseInput(releaseInput, raw);
-  const filter: CatalogueFilter = parseCatalogueFilter(new URLSearchParams(input.query ?? 'status=accepted'));
+  const filter: CatalogueFilter = catalogueFilterFromQuery(input.query ?? 'status=accepted');
   const query = filterToParams(filter).toString();
   const { total } = catalogueCount(db, campaign.id, filter);
   if (total === 0) throw new HttpError('conflict', `There is nothing to release: no star matches ${describeFilter(filter)}.`, 'query');

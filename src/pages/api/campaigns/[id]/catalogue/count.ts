@@ -3,7 +3,8 @@
 import type { APIRoute } from 'astro';
 import { requireCampaignRole } from '#web/guards';
 import { handle, json } from '#web/http';
-import { catalogueCount, parseCatalogueFilter } from '#server/catalogue';
+import { catalogueCount } from '#server/catalogue';
+import { parseCatalogueFilter } from '#web/catalogue-params';
 
 export const GET: APIRoute = handle(({ locals, params, url }) => {
   const { campaign } = requireCampaignRole(locals, params.id ?? '', 'any', { allowAdmin: true });

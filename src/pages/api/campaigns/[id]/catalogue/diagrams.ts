@@ -4,7 +4,8 @@
 import type { APIRoute } from 'astro';
 import { requireCampaignRole } from '#web/guards';
 import { handle, json } from '#web/http';
-import { catalogueDiagrams, parseCatalogueFilter } from '#server/catalogue';
+import { catalogueDiagrams } from '#server/catalogue';
+import { parseCatalogueFilter } from '#web/catalogue-params';
 
 export const GET: APIRoute = handle(({ locals, params, url }) => {
   const { campaign } = requireCampaignRole(locals, params.id ?? '', 'any', { allowAdmin: true });

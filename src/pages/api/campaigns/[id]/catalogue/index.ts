@@ -6,7 +6,8 @@
 import type { APIRoute } from 'astro';
 import { requireCampaignRole } from '#web/guards';
 import { handle, json } from '#web/http';
-import { cataloguePage, parseCataloguePageRequest } from '#server/catalogue';
+import { cataloguePage } from '#server/catalogue';
+import { parseCataloguePageRequest } from '#web/catalogue-params';
 
 export const GET: APIRoute = handle(({ locals, params, url }) => {
   const { campaign } = requireCampaignRole(locals, params.id ?? '', 'any', { allowAdmin: true });

@@ -4,7 +4,7 @@
 import type { APIRoute } from 'astro';
 import { requireCampaignRole } from '#web/guards';
 import { handle } from '#web/http';
-import { parseCatalogueFilter } from '#server/catalogue';
+import { parseCatalogueFilter } from '#web/catalogue-params';
 import { HttpError } from '#server/errors';
 import { EXPORT_FORMAT_NAMES, exportResponse, isExportFormat } from '#server/exports';
 

@@ -1,0 +1,148 @@
+// The shapes of column mapping: the in-memory table every reader produces (ColumnTable), what a
+// column means (ColumnRole), a mapping and its quality rules, and what applying it gives back.
+// Pure types and vocabularies; the steps are in column-names.ts (detection), check-mapping.ts and
+// apply-mapping.ts, and mapping.ts re-exports them all.
+import type { Measurement } from '../types';
+
+/** A cell as readers give it: text (CSV), numbers/booleans/null (FITS, VOTable). */
+export type TableCell = string | number | bigint | boolean | null | undefined;
+
+/** The in-memory table every reader produces. */
+export interface ColumnTable {
+  /** Name of the file, used in problems. */
+  file: string;
+  columns: string[];
+  /** Units per column when the format carries them (FITS TUNIT, VOTable unit). */
+  units?: (string | undefined)[];
+  /** Data rows; rows[i] is data row i + 1 as a person counts it. */
+  rows: TableCell[][];
+  /** 1-based line of the file where each row starts (text formats); absent = rows are table rows. */
+  lines?: number[];
+}
+
+/** What one column means. Band roles carry the band key (wide format). */
+export type ColumnRole =
+  | 'ignore'
+  | 'id'
+  | 'ra'
+  | 'dec'
+  | 'parallax'
+  | 'parallax_err'
+  | 'av'
+  /** magnitude in the band's default system */
+  | 'mag'
+  | 'mag_err'
+  /** band-mean F_ν in Jy */
+  | 'jy'
+  | 'jy_err'
+  /** upper limit as a magnitude (the star is fainter) */
+  | 'mag_ul'
+  /** upper limit as a flux in Jy */
+  | 'jy_ul'
+  /** Gaia mean flux in e⁻/s, converted with the Gaia DR3 Vega zero-point */
+  | 'gaia_flux'
+  | 'gaia_flux_err'
+  /** catalogue quality letters, one per band in `bands` (2MASS ph_qual: J H Ks) */
+  | 'quality'
+  /** long format: the column naming the band of each row */
+  | 'band'
+  /** long format: 1 = upper limit */
+  | 'ul';
+
+export const COLUMN_ROLES: readonly ColumnRole[] = [
+  'ignore', 'id', 'ra', 'dec', 'parallax', 'parallax_err', 'av', 'mag', 'mag_err', 'jy', 'jy_err',
+  'mag_ul', 'jy_ul', 'gaia_flux', 'gaia_flux_err', 'quality', 'band', 'ul',
+];
+
+/** Roles that belong to one band in the wide format. */
+export const BAND_ROLES: readonly ColumnRole[] = ['mag', 'mag_err', 'jy', 'jy_err', 'mag_ul', 'jy_ul', 'gaia_flux', 'gaia_flux_err'];
+
+/** Plain-word labels for the mapping screen. */
+export const ROLE_LABELS: Record<ColumnRole, string> = {
+  ignore: 'not used',
+  id: 'star id',
+  ra: 'right ascension (deg)',
+  dec: 'declination (deg)',
+  parallax: 'parallax (mas)',
+  parallax_err: 'parallax error (mas)',
+  av: 'A_V (mag)',
+  mag: 'magnitude',
+  mag_err: 'magnitude error',
+  jy: 'flux (Jy)',
+  jy_err: 'flux error (Jy)',
+  mag_ul: 'upper limit (mag)',
+  jy_ul: 'upper limit (Jy)',
+  gaia_flux: 'Gaia flux (e⁻/s)',
+  gaia_flux_err: 'Gaia flux error (e⁻/s)',
+  quality: 'quality letters',
+  band: 'band name (long format)',
+  ul: 'upper-limit flag (long format)',
+};
+
+export interface ColumnAssignment {
+  role: ColumnRole;
+  /** Band key for band roles in the wide format. */
+  band?: string;
+  /** For 'quality': the band each letter belongs to, in order (one band = the whole cell). */
+  bands?: string[];
+}
+
+export type TableLayout = 'wide' | 'long';
+
+export interface Mapping {
+  layout: TableLayout;
+  /** By column name; a column not listed is not used. */
+  columns: Record<string, ColumnAssignment>;
+}
+
+/** Keep a band's value only where the quality column's letter for it is one of `keep`. */
+export interface QualityRule {
+  column: string;
+  keep: string[];
+}
+
+export interface MappingRules {
+  quality: QualityRule[];
+}
+
+export interface MappingProblem {
+  file: string;
+  /** 1-based data row; 0 for the header or the whole file. */
+  row: number;
+  /** 1-based line of the file when the format has lines. */
+  line?: number;
+  column?: { name: string; number: number };
+  severity: 'error' | 'warning';
+  message: string;
+}
+
+export interface MappedStar {
+  id: string;
+  raDeg?: number;
+  decDeg?: number;
+  parallaxMas?: number;
+  parallaxErrMas?: number;
+  avMag?: number;
+  measurements: (Measurement & { quality?: string })[];
+  /** First data row of the star. */
+  row: number;
+}
+
+export interface MappingResult {
+  stars: MappedStar[];
+  problems: MappingProblem[];
+  rowCount: number;
+  /** Rows left out because of an error in them (or in another row of the same star). */
+  rejectedRows: number;
+  /** Band values left out by a quality rule (not an error: the rule asked for it). */
+  excludedByQuality: number;
+  errorCount: number;
+  warningCount: number;
+}
+
+export interface DetectedMapping extends Mapping {
+  /** Suggested quality rules (2MASS and WISE quality letters: keep A and B). */
+  rules: MappingRules;
+  /** Why a column was not used when its name looked like something (e.g. a second id column). */
+  notes: Record<string, string>;
+}
