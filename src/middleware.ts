@@ -2,12 +2,15 @@
 // route checks authorisation itself with the guards in src/web/guards.ts.
 import { defineMiddleware } from 'astro:middleware';
 import { getApp, resolveActor } from './app/app';
+import { startIntakeThread } from './app/intake-runner';
 import { json } from './web/http';
 import { actorFromBearer, bearerSecret } from './server/api-tokens';
 import { activeActor, DEACTIVATED_MESSAGE } from './server/people';
 
 export const onRequest = defineMiddleware(async (context, next) => {
   const app = getApp();
+  // Uploads are read, checked and imported off this event loop, in the intake thread (started once).
+  startIntakeThread(app.db, app.env.databasePath);
   context.locals.app = app;
   context.locals.actor = null;
   context.locals.authMethod = null;

@@ -179,18 +179,23 @@ function readTextUpload(bytes: Uint8Array, file: string): ReadUpload {
     if (err instanceof DelimitedError) throw new UnreadableFile(`${file}: ${stripSource(err.message, file)}`);
     throw err;
   }
-  if (parsed.header.length === 0 || parsed.header.every((h) => h === '')) throw new UnreadableFile(`${file}: the file has no header line with column names`);
-  const seen = new Map<string, number>();
-  parsed.header.forEach((h, i) => {
-    if (h === '') throw new UnreadableFile(`${file}, line ${parsed.headerLine}, column ${i + 1}: the header has an empty column name`);
-    if (seen.has(h)) throw new UnreadableFile(`${file}, line ${parsed.headerLine}: the column name "${h}" appears twice (columns ${seen.get(h)! + 1} and ${i + 1})`);
-    seen.set(h, i);
-  });
+  checkTextHeader(file, parsed.header, parsed.headerLine);
   if (parsed.rows.length === 0) throw new UnreadableFile(`${file}: the file has a header but no data rows`);
   return {
     format: parsed.delimiter === '\t' ? 'tsv' : 'csv',
     table: { file, columns: parsed.header, rows: parsed.rows, lines: parsed.lines, ...(parsed.units ? { units: parsed.units } : {}) },
   };
+}
+
+/** A text table's header must name every column once (also checked by the streaming intake). */
+export function checkTextHeader(file: string, header: readonly string[], headerLine: number): void {
+  if (header.length === 0 || header.every((h) => h === '')) throw new UnreadableFile(`${file}: the file has no header line with column names`);
+  const seen = new Map<string, number>();
+  header.forEach((h, i) => {
+    if (h === '') throw new UnreadableFile(`${file}, line ${headerLine}, column ${i + 1}: the header has an empty column name`);
+    if (seen.has(h)) throw new UnreadableFile(`${file}, line ${headerLine}: the column name "${h}" appears twice (columns ${seen.get(h)! + 1} and ${i + 1})`);
+    seen.set(h, i);
+  });
 }
 
 export type XmlTableReader = (bytes: Uint8Array, file: string) => ColumnTable;
