@@ -2,7 +2,7 @@
 // one is claimed by the runner, and its progress. Decision record 0017.
 import { and, desc, eq } from 'drizzle-orm';
 import type { DbOrTx } from '../../db/client';
-import { intakeJobs, type IntakeJobKind } from '../../db/schema';
+import { intakeJobs, uploads, type IntakeJobKind } from '../../db/schema';
 import type { IntakeJobView } from '../../contracts/intake';
 import { newId } from '../ids';
 import { IntakeError } from './errors';
@@ -123,4 +123,17 @@ export function outcomeOf(db: DbOrTx, jobId: string): Record<string, unknown> {
     throw new Error(String(o.detail ?? r?.error.message ?? 'intake job failed'));
   }
   return o;
+}
+
+/** The campaign's recent intake jobs, newest first, with the name of each one's upload. */
+export function listJobs(db: DbOrTx, campaignId: string, limit = 20): (IntakeJobView & { uploadName: string })[] {
+  const rows = db
+    .select({ job: intakeJobs, uploadName: uploads.originalName })
+    .from(intakeJobs)
+    .innerJoin(uploads, eq(uploads.id, intakeJobs.uploadId))
+    .where(eq(intakeJobs.campaignId, campaignId))
+    .orderBy(desc(intakeJobs.createdAt), desc(intakeJobs.id))
+    .limit(limit)
+    .all();
+  return rows.map((r) => ({ ...jobView(r.job), uploadName: r.uploadName }));
 }
