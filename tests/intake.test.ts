@@ -45,7 +45,7 @@ function multipart(name: string, bytes: Uint8Array | string, type = 'text/csv'):
   return new Request('http://127.0.0.1/upload', { method: 'POST', body: form });
 }
 
-// Reading, checking and importing are jobs (decision record 0017): here they run inline, one after
+// Reading, checking and importing are jobs (decision record 0018): here they run inline, one after
 // the other, and the finished job's answer (or refusal) is what the test sees.
 async function upload(name: string, bytes: Uint8Array | string, type?: string): Promise<UploadDetail> {
   const u = await createUpload(t.app, analyst, campaignId, multipart(name, bytes, type), config);

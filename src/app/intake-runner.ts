@@ -25,9 +25,10 @@ export function startIntakeThread(db: AppDatabase, databasePath: string): void {
   const spawn = () => {
     const root = projectRoot();
     const entry = pathToFileURL(path.join(root, 'src/app/intake-thread.ts')).href;
-    const tsx = pathToFileURL(createRequire(path.join(root, 'package.json')).resolve('tsx/esm/api')).href;
+    // require.resolve gives tsx's CommonJS build of its ESM API; the ES module one sits beside it.
+    const tsx = pathToFileURL(createRequire(path.join(root, 'package.json')).resolve('tsx/esm/api').replace(/\.cjs$/, '.mjs')).href;
     // tsx compiles the TypeScript thread body, as `npm run worker` does for the fit workers.
-    const w = new Worker(`import(${JSON.stringify(tsx)}).then((api) => { (api.register ?? api.default.register)(); return import(${JSON.stringify(entry)}); });`, {
+    const w = new Worker(`import(${JSON.stringify(tsx)}).then((api) => { api.register(); return import(${JSON.stringify(entry)}); });`, {
       eval: true,
       workerData: { databasePath, pollMs: 2000 },
       resourceLimits: { maxOldGenerationSizeMb: THREAD_HEAP_MB },

@@ -1,6 +1,6 @@
 // The intake thread's body: a worker thread of the web process that runs intake jobs (reading,
 // checking, importing uploads) one at a time on its own database connection, so parsing and
-// import never run on the web server's event loop (decision record 0017). Started by
+// import never run on the web server's event loop (decision record 0018). Started by
 // intake-runner.ts; tells the web process each job's progress.
 import { parentPort, workerData } from 'node:worker_threads';
 import { openDatabase } from '../db/client';

@@ -1,7 +1,7 @@
 // Delimited text (CSV / TSV) read piece by piece: the same records, header, units line and line
 // numbers as parseDelimited (delimited.ts), but text is pushed in chunks and each record is handed
 // on as soon as it is complete, so a file of any size is read with memory bounded by the longest
-// record. The intake job reads uploads through this (decision record 0017).
+// record. The intake job reads uploads through this (decision record 0018).
 import { DelimitedError, detectDelimiter, type Delimiter } from './delimited';
 
 export interface DelimitedHeader {

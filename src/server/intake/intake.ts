@@ -1,6 +1,6 @@
 // Intake use cases: receive an upload, then read it, check a mapping against every row and import
 // the stars and measurements in one transaction — each of those three as an intake job that runs
-// off the request (src/server/intake/run.ts, decision record 0017). Views read what the jobs
+// off the request (src/server/intake/run.ts, decision record 0018). Views read what the jobs
 // stored; no request parses the file.
 import { and, count, desc, eq, inArray } from 'drizzle-orm';
 import { rmSync } from 'node:fs';

@@ -1,6 +1,6 @@
 // An upload's table read from disk row by row, for the intake job. CSV/TSV text streams through
 // DelimitedStream in 1 MB pieces (memory bounded by the longest record); a VOTable or FITS file
-// is read whole by its reader, within the upload limit (decision record 0017).
+// is read whole by its reader, within the upload limit (decision record 0018).
 import { createReadStream, openSync, readFileSync, readSync, closeSync } from 'node:fs';
 import { DelimitedError, decodeText } from '../../core/input/delimited';
 import { DelimitedStream } from '../../core/input/delimited-stream';

@@ -1,4 +1,4 @@
-// The bodies of the intake jobs (decision record 0017). Each reads the upload at most once, row by
+// The bodies of the intake jobs (decision record 0018). Each reads the upload at most once, row by
 // row: the rows go through the column mapping into a staging file beside the upload, problems are
 // counted and the first ones kept, and only the summary and report enter the database. An import
 // then writes the staged stars in one IMMEDIATE transaction. They run in the web process's intake

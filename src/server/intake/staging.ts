@@ -2,7 +2,7 @@
 // instead of in memory: one row per star with its values and measurements as JSON, plus the first
 // row of every id seen (duplicates) and the state of long-format stars while their rows arrive.
 // A million stars cost disk, not memory, and the import reads them back one at a time
-// (decision record 0017). The file is rebuilt by any check, so it needs no journal.
+// (decision record 0018). The file is rebuilt by any check, so it needs no journal.
 import Database from 'better-sqlite3';
 import { rmSync } from 'node:fs';
 import type { LongStar, MappedStar, MapperStore } from '../../core/input/apply-mapping';
