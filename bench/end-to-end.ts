@@ -93,7 +93,7 @@ async function main() {
     const tStart = performance.now();
 
     const workers = Array.from({ length: WORKERS }, (_, i) =>
-      spawn(process.execPath, ['--import', 'tsx', path.join(root, 'workers/index.ts'), '--id', `bench-${i + 1}`, '--drain', '--quiet', '--chunk', '500', '--idle-ms', '50'], {
+      spawn(process.execPath, ['--import', 'tsx', path.join(root, 'workers/index.ts'), '--id', `bench-${i + 1}`, '--drain', '--quiet', '--idle-ms', '50'], {
         cwd: root,
         env: { ...process.env, ...env },
         stdio: ['ignore', 'inherit', 'inherit'],

@@ -1,4 +1,4 @@
-// `npm run bench` section (or `npx tsx bench/redis.ts [--redis-stars N]`): the Redis backend on this
+// `npm run bench` section (or `npx tsx bench/redis.ts [--redis-stars N] [--redis-chunk N]`): the Redis backend on this
 // machine. A private redis-server; a migrated temporary database with N invented stars; the result
 // writer process and 1, 2 and 4 fit worker processes (`workers/index.ts --backend redis`), started
 // before the batch so process start-up is not timed. Reports stars per second from the start of the
@@ -35,7 +35,7 @@ const argValue = (name: string) => {
   return i >= 0 ? args[i + 1] : undefined;
 };
 const N = Number(argValue('--redis-stars') ?? 20_000);
-const CHUNK = 500;
+const CHUNK = Number(argValue('--redis-chunk') ?? 1000);
 const WORKER_COUNTS = [1, 2, 4];
 
 const secret = 'bench-secret-bench-secret-bench-secret-01';
@@ -44,7 +44,7 @@ async function world(dir: string, name: string) {
   const databasePath = path.join(dir, `${name}.db`);
   const opened = openDatabase(databasePath);
   migrateDatabase(opened.db);
-  const app = createApp(opened.db, parseEnv({ DATABASE_PATH: databasePath, BETTER_AUTH_SECRET: secret, MAIL_TRANSPORT: 'outbox' }));
+  const app = createApp(opened.db, parseEnv({ DATABASE_PATH: databasePath, BETTER_AUTH_SECRET: secret, MAIL_TRANSPORT: 'outbox', FIT_CHUNK_STARS: String(CHUNK) }));
   const analyst = await makeUser(app);
   const campaign = makeCampaign(app, analyst, { name: 'Kestrel wide-field bench' });
   insertMockStars(opened.db, { campaignId: campaign.id, count: N });
@@ -89,7 +89,7 @@ async function flush(redis: TestRedis) {
 async function workersRun(redis: TestRedis, dir: string, workers: number): Promise<{ seconds: number; rate: number }> {
   await flush(redis);
   const w = await world(dir, `workers-${workers}`);
-  const writer = spawnRole(['--role', 'writer', '--id', 'bench-writer', '--redis-url', redis.url, '--quiet', '--chunk', String(CHUNK), '--idle-ms', '20'], w.databasePath);
+  const writer = spawnRole(['--role', 'writer', '--id', 'bench-writer', '--redis-url', redis.url, '--quiet', '--idle-ms', '20'], w.databasePath);
   const fits = Array.from({ length: workers }, (_, i) => spawnRole(['--id', `bench-fit-${i + 1}`, '--redis-url', redis.url, '--quiet']));
   await Promise.all([writer.started, ...fits.map((f) => f.started)]);
   await new Promise((r) => setTimeout(r, 500)); // BullMQ connections up
@@ -119,8 +119,8 @@ async function writerRun(redis: TestRedis, dir: string): Promise<{ seconds: numb
   function fitPrepared(options: Parameters<typeof prepareFitModel>[1] & { law: 'f99' | 'ccm89' | 'od94' }) {
     return { model: prepareFitModel(library, options), extrapolated: extrapolatedBandKeys(Object.values(library.bands), options.law) };
   }
-  for (let i = 0; i < claimed.length; i += CHUNK) {
-    const { chunks } = store.buildChunks('redis-dispatch:bench', claimed.slice(i, i + CHUNK));
+  for (let i = 0; i < claimed.length; i++) {
+    const { chunks } = store.buildChunks('redis-dispatch:bench', [claimed[i]]);
     for (const c of chunks) {
       prepared ??= fitPrepared(c.data.batch.options);
       const { rows } = fitChunk(c.data, prepared);

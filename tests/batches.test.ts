@@ -20,8 +20,8 @@ afterEach(() => {
   for (const a of apps.splice(0)) a.cleanup();
 });
 
-async function world(stars = 40) {
-  const t = createTestApp();
+async function world(stars = 40, chunkStars?: number) {
+  const t = createTestApp(chunkStars ? { FIT_CHUNK_STARS: String(chunkStars) } : {});
   apps.push(t);
   const analyst = await makeUser(t.app, { name: 'Ines Analyst' });
   const reviewer = await makeUser(t.app);
@@ -54,7 +54,8 @@ describe('starting a batch', () => {
     const ok = await call(startRoute, w.t, w.analyst, params, { body });
     expect(ok.status).toBe(201);
     expect(ok.body.batch).toMatchObject({ campaignId: w.campaign.id, status: 'queued', starCount: 5, options: { law: 'ccm89', rv: 3.1, fitAv: false, floorFraction: 0.02 } });
-    expect(w.t.sqlite.prepare('SELECT count(*) FROM jobs WHERE batch_id = ?').pluck().get(ok.body.batch.id)).toBe(5);
+    // Five stars make one fit job (a chunk of up to FIT_CHUNK_STARS, default 1000) carrying the batch id.
+    expect(w.t.sqlite.prepare('SELECT kind, star_count, json_array_length(payload, \'$.starIds\') AS ids FROM jobs WHERE batch_id = ?').all(ok.body.batch.id)).toEqual([{ kind: 'fit-chunk', star_count: 5, ids: 5 }]);
     // Any member may read the list and the progress.
     expect((await call(listRoute, w.t, w.collaborator, params)).body.batches).toHaveLength(1);
     expect((await call(progressRoute, w.t, w.reviewer, { batchId: ok.body.batch.id })).status).toBe(200);
@@ -106,13 +107,15 @@ describe('starting a batch', () => {
 
 describe('a batch from start to finish', () => {
   it('reports progress, records provenance with every result, lists failures and e-mails the analyst once', async () => {
-    const w = await world(40);
+    // Chunks of 15 stars: 15, 15 and 10.
+    const w = await world(40, 15);
     const batch = startBatch(w.t.app, w.analyst, w.campaign.id, { options: { law: 'od94', rv: 3.3, floorFraction: 0.01, excludeBands: ['B'] } });
+    expect(w.t.sqlite.prepare('SELECT star_count FROM jobs WHERE batch_id = ? ORDER BY id').pluck().all(batch.id)).toEqual([15, 15, 10]);
 
     const before = batchProgress(w.t.db, batch.id);
     expect(before).toMatchObject({ status: 'queued', starCount: 40, fitted: 0, failed: 0, waiting: 40, running: 0, secondsLeft: null });
 
-    const worker = createWorker(w.t.app, { owner: 'test', chunkSize: 15, idleMs: 5 });
+    const worker = createWorker(w.t.app, { owner: 'test', idleMs: 5 });
     expect(await worker.runOnce()).toBe(15);
     const mid = batchProgress(w.t.db, batch.id);
     expect(mid.status).toBe('running');
@@ -192,20 +195,21 @@ describe('a batch from start to finish', () => {
 
 describe('cancelling a batch', () => {
   it('drops its waiting jobs, lets held ones finish, sends no e-mail, and is for analysts only', async () => {
-    const w = await world(40);
+    // Chunks of 5 stars: 8 jobs.
+    const w = await world(40, 5);
     const batch = startBatch(w.t.app, w.analyst, w.campaign.id, {});
-    const worker = createWorker(w.t.app, { owner: 'test', chunkSize: 10, idleMs: 5 });
+    const worker = createWorker(w.t.app, { owner: 'test', jobsAtOnce: 2, idleMs: 5 });
     expect(await worker.runOnce()).toBe(10);
-    // Another worker holds 5 jobs at the moment of the cancel (its lease runs out at once, as if it died).
-    const held = batchQueue(w.t.db).claim('ghost', 5, 1);
-    expect(held).toHaveLength(5);
+    // Another worker holds a chunk of 5 stars at the moment of the cancel (its lease runs out at once, as if it died).
+    const held = batchQueue(w.t.db).claim('ghost', 1, 1);
+    expect(held.map((j) => j.starCount)).toEqual([5]);
 
     const params = { batchId: batch.id };
     expect((await call(cancelRoute, w.t, null, params, { body: {} })).status).toBe(401);
     expect((await call(cancelRoute, w.t, w.reviewer, params, { body: {} })).status).toBe(403);
     expect((await call(cancelRoute, w.t, w.collaborator, params, { body: {} })).status).toBe(403);
     expect((await call(cancelRoute, w.t, w.outsider, params, { body: {} })).status).toBe(403);
-    expect(w.t.sqlite.prepare("SELECT count(*) FROM jobs WHERE batch_id = ? AND status = 'pending'").pluck().get(batch.id)).toBe(25);
+    expect(w.t.sqlite.prepare("SELECT sum(stars_left) FROM jobs WHERE batch_id = ? AND status = 'pending'").pluck().get(batch.id)).toBe(25);
 
     const res = await call(cancelRoute, w.t, w.analyst, params, { body: {} });
     expect(res.status).toBe(200);
@@ -214,7 +218,7 @@ describe('cancelling a batch', () => {
     expect(w.t.sqlite.prepare("SELECT count(*) FROM jobs WHERE batch_id = ? AND status = 'pending'").pluck().get(batch.id)).toBe(0);
     const audit = w.t.sqlite.prepare("SELECT actor_id, details FROM audit_events WHERE action = 'batch.cancelled'").get() as { actor_id: string; details: string };
     expect(audit.actor_id).toBe(w.analyst.id);
-    expect(JSON.parse(audit.details)).toMatchObject({ batchId: batch.id, removedJobs: 25, inFlightJobs: 5 });
+    expect(JSON.parse(audit.details)).toMatchObject({ batchId: batch.id, removedJobs: 5, removedStars: 25, inFlightStars: 5 });
 
     // The held jobs come back when their lease runs out and are fitted once each; nothing else is.
     await new Promise((r) => setTimeout(r, 5));

@@ -55,7 +55,8 @@ describe('an import while two workers fit on the same database file', () => {
   it('imports and re-imports 20 000 rows, and both workers finish the batch', async () => {
     const STARS = 3000;
     const ROWS = 20_000;
-    const t = createTestApp();
+    // Small chunks: many short write transactions from each worker, all through the import.
+    const t = createTestApp({ FIT_CHUNK_STARS: '10' });
     apps.push(t);
     const analyst = await makeUser(t.app);
     const fitted = makeCampaign(t.app, analyst, { name: 'Fitted season' });
@@ -65,8 +66,7 @@ describe('an import while two workers fit on the same database file', () => {
     const one = <T>(q: string, ...p: unknown[]) => t.sqlite.prepare(q).pluck().get(...p) as T;
     const results = () => one<number>('SELECT count(*) FROM fit_results WHERE batch_id = ?', batch.id);
 
-    // Small chunks: many short write transactions from each worker, all through the import.
-    const common = ['--chunk', '10', '--idle-ms', '20', '--drain', '--quiet'];
+    const common = ['--idle-ms', '20', '--drain', '--quiet'];
     const a = startWorker(t.filePath, ['--id', 'busy-a', ...common]);
     const b = startWorker(t.filePath, ['--id', 'busy-b', ...common]);
     const logs = () => `--- a\n${a.output()}\n--- b\n${b.output()}`;

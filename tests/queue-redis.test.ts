@@ -35,8 +35,8 @@ afterEach(async () => {
 
 const OPTIONS = { law: 'od94', rv: 3.3, floorFraction: 0.01, excludeBands: ['B'] };
 
-async function world(stars: number) {
-  const t = createTestApp();
+async function world(stars: number, chunkStars = 40) {
+  const t = createTestApp({ FIT_CHUNK_STARS: String(chunkStars) });
   apps.push(t);
   const analyst = await makeUser(t.app, { name: 'Ines Analyst' });
   const campaign = makeCampaign(t.app, analyst, { name: 'Kestrel Deep Field' });
@@ -54,7 +54,7 @@ async function waitFor(what: string, check: () => boolean | Promise<boolean>, ti
 }
 
 function startWriter(t: TestApp, extra: Partial<Parameters<typeof createResultWriter>[1]> = {}): { writer: ResultWriter; done: Promise<void> } {
-  const writer = createResultWriter(t.app, { owner: 'writer-test', redisUrl: redis.url, chunkSize: 40, idleMs: 20, ...extra });
+  const writer = createResultWriter(t.app, { owner: 'writer-test', redisUrl: redis.url, idleMs: 20, ...extra });
   const done = writer.run();
   stops.push(async () => {
     writer.stop();
@@ -85,7 +85,7 @@ describe('Redis backend', () => {
   it('fits the same batch to the same results as the SQLite backend, field by field', async () => {
     const STARS = 300;
     const viaSqlite = await world(STARS);
-    await createWorker(viaSqlite.t.app, { owner: 'sqlite-worker', chunkSize: 40, drain: true, idleMs: 5 }).run();
+    await createWorker(viaSqlite.t.app, { owner: 'sqlite-worker', drain: true, idleMs: 5 }).run();
 
     const viaRedis = await world(STARS);
     startWriter(viaRedis.t);
@@ -122,9 +122,9 @@ describe('Redis backend', () => {
     const { t, batch } = await world(30);
     const store = new RedisDispatchStore(t.db);
     const jobs = t.sqlite.prepare('SELECT id FROM jobs WHERE batch_id = ? ORDER BY id').pluck().all(batch.id) as number[];
-    // Lease them to one chunk as the dispatcher does, then fit that chunk with the worker's code.
+    // Lease the batch's one chunk of 30 stars as the dispatcher does, then fit it with the worker's code.
     const claimed = (await import('../src/server/batches')).batchQueue(t.db).claim('redis-dispatch:test', 100, 60_000);
-    expect(claimed).toHaveLength(30);
+    expect(claimed.map((j) => j.starCount)).toEqual([30]);
     const { chunks } = store.buildChunks('redis-dispatch:test', claimed);
     expect(chunks).toHaveLength(1);
     const { fitChunk } = await import('../workers/redis-worker');
@@ -140,12 +140,13 @@ describe('Redis backend', () => {
     expect(first).toMatchObject({ written: 30, ignored: 30 });
     expect(store.writeResults([result])).toMatchObject({ written: 0, ignored: 30 });
     expect(t.sqlite.prepare('SELECT count(*) FROM fit_results WHERE batch_id = ?').pluck().get(batch.id)).toBe(30);
-    expect(jobs).toHaveLength(30);
+    expect(jobs).toHaveLength(1);
+    expect(t.sqlite.prepare('SELECT status, stars_left FROM jobs WHERE id = ?').get(jobs[0])).toEqual({ status: 'done', stars_left: 0 });
   });
 
   it('records a failure per star when a chunk uses its last attempt, shown on the batch page', async () => {
-    const { t, batch } = await world(20);
-    startWriter(t, { chunkSize: 10, chunkAttempts: 2, backoffMs: 10 });
+    const { t, batch } = await world(20, 10);
+    startWriter(t, { chunkAttempts: 2, backoffMs: 10 });
     const conn = new IORedis(redisConnection(redis.url));
     stops.push(async () => conn.disconnect());
     const fitQueue = new Queue(FIT_QUEUE, { connection: redisConnection(redis.url) });
@@ -158,7 +159,7 @@ describe('Redis backend', () => {
     const page = batchFailures(t.db, batch.id);
     expect(page.total).toBe(20);
     expect(page.failures.every((f) => f.kind === 'job' && /gave up after 2 attempts: .*not in Redis/.test(f.reason))).toBe(true);
-    expect(t.sqlite.prepare("SELECT count(*) FROM jobs WHERE batch_id = ? AND status = 'failed'").pluck().get(batch.id)).toBe(20);
+    expect(t.sqlite.prepare("SELECT count(*), sum(star_count) FROM jobs WHERE batch_id = ? AND status = 'failed'").raw().get(batch.id)).toEqual([2, 20]);
     expect(await fitQueue.getFailedCount()).toBe(0);
   }, 60_000);
 });

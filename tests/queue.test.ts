@@ -1,15 +1,16 @@
 // The SQLite job queue against a real migrated database: claims never overlap (two connections,
 // and two processes racing on one file), leases expire and return jobs, failed attempts back off
 // and retry, the last attempt makes a job dead with its error and a failure result, and a job
-// finished twice writes one result.
+// finished twice writes one result. Fit jobs are chunks of stars: a chunk that failed part-way keeps
+// the results it made and its retry fits only the rest.
 import { spawn } from 'node:child_process';
 import { writeFileSync } from 'node:fs';
 import path from 'node:path';
 import { afterEach, describe, expect, it } from 'vitest';
 import { openDatabase } from '../src/db/client';
 import { projectRoot } from '../src/db/paths';
-import { batchQueue, startBatch } from '../src/server/batches';
-import { FitStarRunner } from '../src/server/fit-job';
+import { batchFailures, batchProgress, batchQueue, startBatch } from '../src/server/batches';
+import { FitStarRunner, chunkError } from '../src/server/fit-job';
 import { appVersion } from '../src/server/health';
 import { backoffDelayMs, createSqliteQueue, type NewJob } from '../src/server/queue';
 import { makeCampaign, makeUser } from '../src/seed/factories';
@@ -241,9 +242,9 @@ describe('retries', () => {
   });
 });
 
-describe('fit-star jobs and their results', () => {
-  it('writes one result when a job is delivered twice (lease lost, both workers finish)', async () => {
-    const t = createTestApp();
+describe('fit chunks and their results', () => {
+  it('writes one result per star when a chunk is delivered twice (lease lost, both workers finish)', async () => {
+    const t = createTestApp({ FIT_CHUNK_STARS: '5' });
     open.push(t);
     const analyst = await makeUser(t.app);
     const campaign = makeCampaign(t.app, analyst);
@@ -252,39 +253,115 @@ describe('fit-star jobs and their results', () => {
     const c = clock(Date.now());
     const q = batchQueue(t.db, { now: c.now });
     const runner = new FitStarRunner(t.db);
+    const rowsOf = (runs: ReturnType<FitStarRunner['run']>['runs']) => new Map(runs.map((r) => [r.job.id, r.rows]));
 
     const first = q.claim('a', 10, 1000);
-    const rowsA = runner.run(first).rows;
+    expect(first.map((j) => j.starCount)).toEqual([5]);
+    const rowsA = rowsOf(runner.run(first).runs);
     c.advance(2000); // a stalls past its lease
     const second = q.claim('b', 10, 1000);
     expect(second.map((j) => j.id)).toEqual(first.map((j) => j.id));
-    const rowsB = runner.run(second).rows;
-    expect(q.complete('b', [...rowsB.keys()], (held) => runner.write(held.map((id) => rowsB.get(id)!)))).toHaveLength(5);
-    // a wakes up and tries to finish the same jobs: nothing is held, nothing is written.
-    expect(q.complete('a', [...rowsA.keys()], (held) => runner.write(held.map((id) => rowsA.get(id)!)))).toEqual([]);
+    const rowsB = rowsOf(runner.run(second).runs);
+    expect(q.complete('b', [...rowsB.keys()], (held) => runner.write(held.flatMap((id) => rowsB.get(id)!)))).toHaveLength(1);
+    // a wakes up and tries to finish the same chunk: nothing is held, nothing is written.
+    expect(q.complete('a', [...rowsA.keys()], (held) => runner.write(held.flatMap((id) => rowsA.get(id)!)))).toEqual([]);
     // Even a direct second write of the same results is a no-op (unique batch + star).
-    expect(runner.write(rowsA.values())).toBe(0);
+    expect(runner.write([...rowsA.values()].flat())).toBe(0);
     expect(t.sqlite.prepare('SELECT count(*) FROM fit_results WHERE batch_id = ?').pluck().get(batch.id)).toBe(5);
   });
 
-  it('records a failure result naming the error when a fit-star job gives up', async () => {
+  it('keeps the results of a chunk that failed part-way, retries only the rest, and counts stars', async () => {
+    const t = createTestApp({ FIT_CHUNK_STARS: '6' });
+    open.push(t);
+    const analyst = await makeUser(t.app);
+    const campaign = makeCampaign(t.app, analyst);
+    const stars = insertMockStars(t.db, { campaignId: campaign.id, count: 6 });
+    const batch = startBatch(t.app, analyst, campaign.id, {});
+    const c = clock(Date.now());
+    const q = batchQueue(t.db, { now: c.now, random: () => 0, backoffBaseMs: 10 });
+    const runner = new FitStarRunner(t.db);
+    // Two stars throw on the first attempt (an injected fault around the real fit, as a read error
+    // would): unexpected errors, not data failures.
+    const broken = [stars[1].id, stars[4].id];
+    const realFit = runner.run.bind(runner);
+    const throwing = new Set(broken);
+    runner.run = (jobs) => {
+      const out = realFit(jobs);
+      for (const r of out.runs) {
+        for (const row of r.rows.filter((x) => throwing.has(x.star_id))) {
+          r.errors.push({ starId: row.star_id, starKey: null, error: 'the measurement table could not be read' });
+        }
+        r.rows = r.rows.filter((x) => !throwing.has(x.star_id));
+      }
+      return out;
+    };
+    const [job] = q.claim('a', 1, 60_000);
+    const run1 = runner.run([job]).runs[0];
+    expect(run1.rows).toHaveLength(4);
+    const out = q.fail('a', [{ jobId: job.id, error: chunkError(run1.errors), starsLeft: run1.errors.length }], () => runner.write(run1.rows));
+    expect(out.retried).toHaveLength(1);
+    expect(t.sqlite.prepare('SELECT count(*) FROM fit_results WHERE batch_id = ?').pluck().get(batch.id)).toBe(4);
+    expect(batchProgress(t.db, batch.id)).toMatchObject({ fitted: 4, waiting: 2, retrying: 2, running: 0 });
+    const failures = batchFailures(t.db, batch.id);
+    expect(failures.retrying).toEqual([
+      { starKey: stars[1].starKey, stars: 2, attempts: 1, maxAttempts: 5, lastError: expect.stringMatching(/^star \d+: the measurement table could not be read \(and 1 more star of the chunk\)$/), nextTryAt: expect.any(String) },
+    ]);
+    // The retry fits only the two stars still without a result; they work now.
+    throwing.clear();
+    c.advance(1000);
+    const [again] = q.claim('a', 1, 60_000);
+    expect(again.starsLeft).toBe(2);
+    const run2 = runner.run([again]).runs[0];
+    expect(run2.rows.map((r) => r.star_id).sort()).toEqual([...broken].sort());
+    expect(q.complete('a', [again.id], () => runner.write(run2.rows))).toEqual([again.id]);
+    const perStar = t.sqlite.prepare('SELECT star_id, count(*) AS n FROM fit_results WHERE batch_id = ? GROUP BY star_id').all(batch.id) as { n: number }[];
+    expect(perStar).toHaveLength(6);
+    expect(perStar.every((r) => r.n === 1)).toBe(true);
+    expect(batchProgress(t.db, batch.id)).toMatchObject({ waiting: 0, running: 0 });
+  });
+
+  it('records a failure result naming the error for each star without a result when a chunk gives up', async () => {
+    const t = createTestApp({ FIT_CHUNK_STARS: '3' });
+    open.push(t);
+    const analyst = await makeUser(t.app);
+    const campaign = makeCampaign(t.app, analyst);
+    const stars = insertMockStars(t.db, { campaignId: campaign.id, count: 3 });
+    const batch = startBatch(t.app, analyst, campaign.id, {});
+    t.sqlite.prepare('UPDATE jobs SET max_attempts = 2').run();
+    const c = clock(Date.now());
+    const q = batchQueue(t.db, { now: c.now, backoffBaseMs: 10 });
+    const runner = new FitStarRunner(t.db);
+    for (let i = 0; i < 2; i++) {
+      const [job] = q.claim('a', 1, 60_000);
+      // The first attempt made the first star's result; the others threw.
+      const run = runner.run([job]).runs[0];
+      const keep = i === 0 ? run.rows.filter((r) => r.star_id === stars[0].id) : [];
+      q.fail('a', [{ jobId: job.id, error: 'the measurement table could not be read', starsLeft: run.rows.length + run.errors.length - keep.length }], () => runner.write(keep));
+      c.advance(1000);
+    }
+    const result = t.sqlite.prepare('SELECT ok, failure_reason, star_id, band_library_version, software_version FROM fit_results WHERE batch_id = ? ORDER BY star_id').all(batch.id);
+    const gaveUp = { ok: 0, failure_reason: 'gave up after 2 attempts: the measurement table could not be read', band_library_version: 'starter-1', software_version: appVersion() };
+    expect(result).toEqual([
+      { ok: 1, failure_reason: null, star_id: stars[0].id, band_library_version: 'starter-1', software_version: appVersion() },
+      { ...gaveUp, star_id: stars[1].id },
+      { ...gaveUp, star_id: stars[2].id },
+    ]);
+    expect(t.sqlite.prepare('SELECT status, stars_left FROM jobs WHERE batch_id = ?').get(batch.id)).toEqual({ status: 'failed', stars_left: 2 });
+  });
+
+  it('still runs a one-star job enqueued before chunks existed', async () => {
     const t = createTestApp();
     open.push(t);
     const analyst = await makeUser(t.app);
     const campaign = makeCampaign(t.app, analyst);
     const [star] = insertMockStars(t.db, { campaignId: campaign.id, count: 1 });
     const batch = startBatch(t.app, analyst, campaign.id, {});
-    t.sqlite.prepare('UPDATE jobs SET max_attempts = 2').run();
-    const c = clock(Date.now());
-    const q = batchQueue(t.db, { now: c.now, backoffBaseMs: 10 });
-    for (let i = 0; i < 2; i++) {
-      const [job] = q.claim('a', 1, 60_000);
-      q.fail('a', [{ jobId: job.id, error: 'the measurement table could not be read' }]);
-      c.advance(1000);
-    }
-    const result = t.sqlite.prepare('SELECT ok, failure_reason, star_id, band_library_version, software_version FROM fit_results WHERE batch_id = ?').all(batch.id);
-    expect(result).toEqual([
-      { ok: 0, failure_reason: 'gave up after 2 attempts: the measurement table could not be read', star_id: star.id, band_library_version: 'starter-1', software_version: appVersion() },
-    ]);
+    t.sqlite.prepare("UPDATE jobs SET kind = 'fit-star', payload = json_object('starId', ?), star_count = 1, stars_left = 1").run(star.id);
+    const q = batchQueue(t.db);
+    const runner = new FitStarRunner(t.db);
+    const [job] = q.claim('a', 1, 60_000);
+    const run = runner.run([job]).runs[0];
+    expect(q.complete('a', [job.id], () => runner.write(run.rows))).toEqual([job.id]);
+    expect(t.sqlite.prepare('SELECT star_id, ok FROM fit_results WHERE batch_id = ?').all(batch.id)).toEqual([{ star_id: star.id, ok: 1 }]);
   });
 });

@@ -89,7 +89,7 @@ afterAll(async () => {
 describe('Redis backend across network namespaces', () => {
   it('three fit workers, each in its own network namespace, share one batch', async () => {
     const STARS = 1200;
-    app = createTestApp();
+    app = createTestApp({ FIT_CHUNK_STARS: '40' });
     const t = app;
     const analyst = await makeUser(t.app);
     const campaign = makeCampaign(t.app, analyst);
@@ -97,7 +97,7 @@ describe('Redis backend across network namespaces', () => {
     const batch = startBatch(t.app, analyst, campaign.id, {});
 
     // The writer on the "web host" (the root namespace) reaches Redis on the test link too.
-    const writer = spawnWorker(['--role', 'writer', '--id', 'writer', '--redis-url', redis.url, '--chunk', '40', '--idle-ms', '50', '--drain'], { databasePath: t.filePath });
+    const writer = spawnWorker(['--role', 'writer', '--id', 'writer', '--redis-url', redis.url, '--idle-ms', '50', '--drain'], { databasePath: t.filePath });
     const workers: Spawned[] = namespaces.map((ns, i) =>
       spawnWorker(['--id', `remote-${i}`, '--redis-url', redis.url, '--slow-ms', '60'], address ? { netns: ns } : {}),
     );

@@ -29,7 +29,7 @@ afterEach(() => {
 describe('Redis backend, worker processes', () => {
   it('loses nothing and duplicates nothing when a fit worker is killed mid-batch', async () => {
     const STARS = 1500;
-    const t = createTestApp();
+    const t = createTestApp({ FIT_CHUNK_STARS: '50' });
     apps.push(t);
     const analyst = await makeUser(t.app);
     const campaign = makeCampaign(t.app, analyst);
@@ -37,7 +37,7 @@ describe('Redis backend, worker processes', () => {
     const batch = startBatch(t.app, analyst, campaign.id, {});
     const one = <T>(q: string, ...p: unknown[]) => t.sqlite.prepare(q).pluck().get(...p) as T;
 
-    const writer = spawnWorker(['--role', 'writer', '--id', 'writer', '--redis-url', redis.url, '--chunk', '50', '--idle-ms', '50', '--drain'], { databasePath: t.filePath });
+    const writer = spawnWorker(['--role', 'writer', '--id', 'writer', '--redis-url', redis.url, '--idle-ms', '50', '--drain'], { databasePath: t.filePath });
     const fit = ['--redis-url', redis.url, '--lease-ms', '1500', '--slow-ms', '150'];
     const a = spawnWorker(['--id', 'worker-a', ...fit]);
     const b = spawnWorker(['--id', 'worker-b', ...fit]);

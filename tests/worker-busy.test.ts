@@ -18,7 +18,7 @@ afterEach(() => {
 
 describe('a worker on a busy database', () => {
   it('backs off on SQLITE_BUSY and finishes the batch once the lock is released', async () => {
-    const t = createTestApp();
+    const t = createTestApp({ FIT_CHUNK_STARS: '10' });
     apps.push(t);
     const analyst = await makeUser(t.app);
     const campaign = makeCampaign(t.app, analyst);
@@ -29,7 +29,7 @@ describe('a worker on a busy database', () => {
     const own = openDatabase(t.filePath);
     own.sqlite.pragma('busy_timeout = 20');
     const lines: string[] = [];
-    const worker = createWorker(createApp(own.db, t.app.env), { owner: 'patient', chunkSize: 10, idleMs: 5, drain: true, databaseBackoffMs: 20, log: (l) => lines.push(l) });
+    const worker = createWorker(createApp(own.db, t.app.env), { owner: 'patient', idleMs: 5, drain: true, databaseBackoffMs: 20, log: (l) => lines.push(l) });
 
     // Another connection (the test's) holds the write lock, as a long import does.
     t.sqlite.exec('BEGIN IMMEDIATE');

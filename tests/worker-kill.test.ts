@@ -1,6 +1,7 @@
 // Real worker processes (`tsx workers/index.ts`) on a temporary database: one is killed with
-// SIGKILL while it holds leases, the other finishes the batch; every star still ends with exactly
-// one result, the batch is finished and the analyst gets exactly one e-mail. A worker asked to stop
+// SIGKILL while it holds a chunk (before fitting it, or inside the transaction that writes it), the
+// other finishes the batch; every star still ends with exactly one result, the batch is finished
+// and the analyst gets exactly one e-mail. A worker asked to stop
 // with SIGTERM hands its chunk back and exits 0.
 import { spawn, type ChildProcess } from 'node:child_process';
 import path from 'node:path';
@@ -53,8 +54,8 @@ async function waitFor(what: string, check: () => boolean, timeoutMs: number, lo
   }
 }
 
-async function setUp(count: number) {
-  const t = createTestApp();
+async function setUp(count: number, chunkStars: number) {
+  const t = createTestApp({ FIT_CHUNK_STARS: String(chunkStars) });
   apps.push(t);
   const analyst = await makeUser(t.app);
   const campaign = makeCampaign(t.app, analyst);
@@ -66,9 +67,9 @@ async function setUp(count: number) {
 describe('worker processes', () => {
   it('loses nothing when a worker is killed mid-batch: every star ends with exactly one result', async () => {
     const STARS = 2000;
-    const { t, analyst, batch } = await setUp(STARS);
+    const { t, analyst, batch } = await setUp(STARS, 40);
     const one = <T>(q: string, ...p: unknown[]) => t.sqlite.prepare(q).pluck().get(...p) as T;
-    const common = ['--chunk', '40', '--lease-ms', '1500', '--idle-ms', '50', '--slow-ms', '120'];
+    const common = ['--lease-ms', '1500', '--idle-ms', '50', '--slow-ms', '120'];
     const a = startWorker(t.filePath, ['--id', 'worker-a', ...common]);
     const b = startWorker(t.filePath, ['--id', 'worker-b', '--drain', ...common]);
     const logs = () => `--- a\n${a.output()}\n--- b\n${b.output()}`;
@@ -114,17 +115,51 @@ describe('worker processes', () => {
     expect(mails[0].subject).toContain(`${STARS - STARS / 250} fitted`);
   }, 120_000);
 
+  it('loses nothing and duplicates nothing when a worker is killed inside the write of a chunk', async () => {
+    const STARS = 600;
+    const { t, analyst, batch } = await setUp(STARS, 100);
+    const one = <T>(q: string, ...p: unknown[]) => t.sqlite.prepare(q).pluck().get(...p) as T;
+    // worker-a fits its first chunk, inserts the 100 rows and then holds the transaction open
+    // (a stalled disk) until it is killed; worker-b, started afterwards, drains the queue.
+    const a = startWorker(t.filePath, ['--id', 'worker-a', '--lease-ms', '1500', '--idle-ms', '50', '--pause-in-write-ms', '60000']);
+    await waitFor('worker-a to be inside the write of its chunk', () => /pausing 60000 ms inside the write of 100 result/.test(a.output()), 60_000, a.output);
+    const inHand = t.sqlite.prepare("SELECT id FROM jobs WHERE status = 'leased' AND lease_owner = 'worker-a'").pluck().all() as number[];
+    expect(inHand).toHaveLength(1);
+    // Nothing of it is visible before the commit.
+    expect(one<number>('SELECT count(*) FROM fit_results WHERE batch_id = ?', batch.id)).toBe(0);
+    a.child.kill('SIGKILL');
+    expect((await a.exited).signal).toBe('SIGKILL');
+    // The rolled-back transaction left nothing behind, and the chunk is still leased to the dead worker.
+    expect(one<number>('SELECT count(*) FROM fit_results WHERE batch_id = ?', batch.id)).toBe(0);
+    expect(one<string>('SELECT lease_owner FROM jobs WHERE id = ?', inHand[0])).toBe('worker-a');
+
+    const b = startWorker(t.filePath, ['--id', 'worker-b', '--drain', '--lease-ms', '1500', '--idle-ms', '50']);
+    const bExit = await Promise.race([b.exited, new Promise<never>((_, reject) => setTimeout(() => reject(new Error(`worker-b did not drain the queue:\n${b.output()}`)), 90_000))]);
+    expect(bExit.code, b.output()).toBe(0);
+
+    // The killed chunk came back after its lease and was fitted once, by worker-b.
+    expect(t.sqlite.prepare('SELECT status, attempts, stars_left FROM jobs WHERE id = ?').get(inHand[0])).toEqual({ status: 'done', attempts: 2, stars_left: 0 });
+    expect(one<number>('SELECT count(*) FROM fit_results WHERE batch_id = ?', batch.id)).toBe(STARS);
+    expect(
+      one<number>('SELECT count(*) FROM stars s WHERE s.campaign_id = ? AND (SELECT count(*) FROM fit_results r WHERE r.batch_id = ? AND r.star_id = s.id) != 1', batch.campaignId, batch.id),
+    ).toBe(0);
+    expect(one<number>("SELECT count(*) FROM jobs WHERE batch_id = ? AND status != 'done'", batch.id)).toBe(0);
+    expect(one<string>('SELECT status FROM batches WHERE id = ?', batch.id)).toBe('finished');
+    const mails = t.sqlite.prepare("SELECT to_address AS toAddress FROM outbox_messages WHERE kind = 'notice'").all() as { toAddress: string }[];
+    expect(mails).toEqual([{ toAddress: analyst.email }]);
+  }, 180_000);
+
   it('stops on SIGTERM: hands back the chunk it holds and exits 0', async () => {
-    const { t, batch } = await setUp(100);
-    const w = startWorker(t.filePath, ['--id', 'worker-c', '--chunk', '30', '--slow-ms', '20000', '--idle-ms', '50']);
-    const held = () => t.sqlite.prepare("SELECT count(*) FROM jobs WHERE status = 'leased' AND lease_owner = 'worker-c'").pluck().get() as number;
+    const { t, batch } = await setUp(100, 30);
+    const w = startWorker(t.filePath, ['--id', 'worker-c', '--slow-ms', '20000', '--idle-ms', '50']);
+    const held = () => t.sqlite.prepare("SELECT coalesce(sum(stars_left), 0) FROM jobs WHERE status = 'leased' AND lease_owner = 'worker-c'").pluck().get() as number;
     await waitFor('worker-c to claim a chunk', () => held() === 30, 30_000, w.output);
     w.child.kill('SIGTERM');
     const exit = await w.exited;
     expect(exit.code, w.output()).toBe(0);
     expect(held()).toBe(0);
     // Handed back without counting the attempt; nothing was written.
-    expect(t.sqlite.prepare("SELECT count(*) FROM jobs WHERE batch_id = ? AND status = 'pending' AND attempts = 0").pluck().get(batch.id)).toBe(100);
+    expect(t.sqlite.prepare("SELECT sum(star_count) FROM jobs WHERE batch_id = ? AND status = 'pending' AND attempts = 0").pluck().get(batch.id)).toBe(100);
     expect(t.sqlite.prepare('SELECT count(*) FROM fit_results').pluck().get()).toBe(0);
     expect(w.output()).toMatch(/SIGTERM/);
   }, 60_000);

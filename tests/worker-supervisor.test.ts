@@ -41,7 +41,7 @@ async function waitFor(what: string, check: () => boolean, timeoutMs: number, lo
 
 describe('the worker supervisor', () => {
   it('restarts a worker killed with SIGKILL, and stops all of them on SIGTERM', async () => {
-    const t = createTestApp();
+    const t = createTestApp({ FIT_CHUNK_STARS: '20' });
     apps.push(t);
     const analyst = await makeUser(t.app);
     const campaign = makeCampaign(t.app, analyst);
@@ -49,7 +49,7 @@ describe('the worker supervisor', () => {
     const batch = startBatch(t.app, analyst, campaign.id, {});
 
     const root = projectRoot();
-    const sup = spawn(process.execPath, ['--import', 'tsx', path.join(root, 'workers/supervise.ts'), '--processes', '2', '--id', 'kept', '--chunk', '20', '--idle-ms', '50', '--slow-ms', '50', '--lease-ms', '2000'], {
+    const sup = spawn(process.execPath, ['--import', 'tsx', path.join(root, 'workers/supervise.ts'), '--processes', '2', '--id', 'kept', '--idle-ms', '50', '--slow-ms', '50', '--lease-ms', '2000'], {
       cwd: root,
       env: { ...process.env, DATABASE_PATH: t.filePath, BETTER_AUTH_SECRET: 'supervisor-test-secret-supervisor-0123456', BETTER_AUTH_URL: 'http://127.0.0.1:4321', MAIL_TRANSPORT: 'outbox' },
       stdio: ['ignore', 'pipe', 'pipe'],

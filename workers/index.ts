@@ -6,15 +6,18 @@ import os from 'node:os';
 import { parseArgs } from 'node:util';
 import { closeDb } from '../src/db/client';
 import { getApp } from '../src/app/app';
+import { getEnv } from '../src/adapters/env';
+import { DEFAULT_FIT_CHUNK_STARS } from '../src/server/fit-job';
 import { createWorker } from './runner';
 
 const usage = `Usage: npm run worker -- [options]
   --id <name>          lease owner name (default: <host>:<pid>)
-  --chunk <n>          jobs claimed at once (default 250)
+  --jobs <n>           jobs (chunks of stars, FIT_CHUNK_STARS each) claimed at once (default 1)
   --lease-ms <ms>      lease length; renewed every third of it (default 60000)
   --idle-ms <ms>       wait between polls of an empty queue (default 500)
   --backoff-ms <ms>    first retry delay, doubled per attempt (default 1000)
   --slow-ms <ms>       hold each chunk this long before fitting it (simulates slow jobs)
+  --pause-in-write-ms <ms>  hold each chunk's write transaction open this long before commit (tests)
   --drain              exit when no job is waiting or running
   --quiet              no line per chunk
   --backend <b>        sqlite (default, or STARKILN_QUEUE) | redis
@@ -39,10 +42,12 @@ try {
     options: {
       id: { type: 'string' },
       chunk: { type: 'string' },
+      jobs: { type: 'string' },
       'lease-ms': { type: 'string' },
       'idle-ms': { type: 'string' },
       'backoff-ms': { type: 'string' },
       'slow-ms': { type: 'string' },
+      'pause-in-write-ms': { type: 'string' },
       drain: { type: 'boolean' },
       quiet: { type: 'boolean' },
       backend: { type: 'string' },
@@ -62,7 +67,8 @@ if (values.help) {
   process.exit(0);
 }
 
-const backend = values.backend ?? process.env.STARKILN_QUEUE ?? 'sqlite';
+// Settings (and .env) are read before anything opens the database (getApp below).
+const backend = values.backend ?? getEnv().queueBackend;
 if (backend !== 'sqlite' && backend !== 'redis') {
   console.error(`--backend must be sqlite or redis, got "${backend}".\n${usage}`);
   process.exit(2);
@@ -83,6 +89,9 @@ if (backend === 'redis') {
     quiet: values.quiet ?? false,
     usage,
   });
+} else if (values.chunk !== undefined) {
+  console.error(`--chunk is no longer an option: a batch's stars are split into fit jobs of FIT_CHUNK_STARS stars (default ${DEFAULT_FIT_CHUNK_STARS}) when it starts; --jobs sets how many jobs a worker claims at once.\n${usage}`);
+  process.exit(2);
 } else if (values.role !== undefined || values['redis-url'] !== undefined || values['max-in-flight'] !== undefined) {
   console.error(`--role, --redis-url and --max-in-flight belong to --backend redis.\n${usage}`);
   process.exit(2);
@@ -92,11 +101,12 @@ const owner = values.id ?? `${os.hostname()}:${process.pid}`;
 const app = getApp();
 const worker = createWorker(app, {
   owner,
-  chunkSize: intOption(values, 'chunk', 1),
+  jobsAtOnce: intOption(values, 'jobs', 1),
   leaseMs: intOption(values, 'lease-ms', 100),
   idleMs: intOption(values, 'idle-ms', 10),
   backoffBaseMs: intOption(values, 'backoff-ms', 0),
   slowMs: intOption(values, 'slow-ms', 0),
+  pauseInWriteMs: intOption(values, 'pause-in-write-ms', 0),
   drain: values.drain ?? false,
   log: values.quiet ? undefined : (line) => console.log(line),
 });

@@ -1,6 +1,7 @@
 // `npm run worker -- --backend redis [--role fit|writer]`: the process side of the Redis backend.
 // fit (default) runs on any machine and opens no database; writer runs once, on the web host.
 import os from 'node:os';
+import { getEnv } from '../src/adapters/env';
 import { createRedisFitWorker } from './redis-worker';
 
 export interface RedisRoleArgs {
@@ -32,13 +33,13 @@ export async function runRedisRole(a: RedisRoleArgs): Promise<never> {
   const owner = a.id ?? `${os.hostname()}:${process.pid}`;
   const log = a.quiet ? undefined : (line: string) => console.log(line);
   if (role === 'fit') {
-    for (const [flag, v] of [['--drain', a.drain || undefined], ['--chunk', a.chunk], ['--idle-ms', a.idleMs], ['--backoff-ms', a.backoffMs], ['--max-in-flight', a.maxInFlight]] as const) {
+    for (const [flag, v] of [['--drain', a.drain || undefined], ['--idle-ms', a.idleMs], ['--backoff-ms', a.backoffMs], ['--max-in-flight', a.maxInFlight]] as const) {
       if (v !== undefined) {
         console.error(`${flag} belongs to the writer (--role writer): it dispatches chunks and sets their retries.\n${a.usage}`);
         process.exit(2);
       }
     }
-    const redisUrl = a.redisUrl ?? process.env.REDIS_URL ?? 'redis://127.0.0.1:6379';
+    const redisUrl = a.redisUrl ?? getEnv().redisUrl;
     const worker = createRedisFitWorker({ owner, redisUrl, lockMs: a.leaseMs, slowMs: a.slowMs, log });
     let stopped = false;
     onStopSignals(owner, () => {
@@ -61,6 +62,10 @@ export async function runRedisRole(a: RedisRoleArgs): Promise<never> {
     console.error(`--role must be fit or writer, got "${role}".\n${a.usage}`);
     process.exit(2);
   }
+  if (a.chunk !== undefined) {
+    console.error(`--chunk is no longer an option: a batch's stars are split into chunks of FIT_CHUNK_STARS stars when it starts, and each chunk is one BullMQ job.\n${a.usage}`);
+    process.exit(2);
+  }
   if (a.slowMs !== undefined) {
     console.error(`--slow-ms belongs to fit workers.\n${a.usage}`);
     process.exit(2);
@@ -74,7 +79,6 @@ export async function runRedisRole(a: RedisRoleArgs): Promise<never> {
   const writer = createResultWriter(app, {
     owner,
     redisUrl,
-    chunkSize: a.chunk,
     leaseMs: a.leaseMs,
     idleMs: a.idleMs,
     backoffMs: a.backoffMs,

@@ -1,7 +1,7 @@
 // The web host's side of the Redis backend (`npm run worker -- --backend redis --role writer`):
 // ONE process next to the SQLite file that
-//   - dispatches: claims pending fit-star jobs in SQLite (lease owner `redis:<chunk id>`) and adds
-//     one BullMQ chunk per batch group carrying the stars' photometry, options and band library
+//   - dispatches: claims pending fit jobs (chunks of stars) in SQLite (lease owner `redis:<chunk id>`)
+//     and adds one BullMQ chunk per job carrying the stars' photometry, options and band library
 //     version; publishes each band library version's tables to Redis once;
 //   - writes: takes results jobs and stores several chunks per SQLite transaction, idempotently;
 //   - buries chunks BullMQ gave up on (failure result per star), releases chunks Redis lost, keeps
@@ -16,7 +16,6 @@ import {
   DEFAULT_CHUNK_ATTEMPTS,
   DEFAULT_DISPATCH_LEASE_MS,
   DEFAULT_MAX_IN_FLIGHT,
-  DEFAULT_REDIS_CHUNK,
   FIT_QUEUE,
   RESULTS_QUEUE,
   RedisDispatchStore,
@@ -24,13 +23,14 @@ import {
   type FitChunk,
   type ResultChunk,
 } from '../src/server/queue-redis';
+import { isFitJob } from '../src/server/fit-job';
 import { databaseBackoffMs, isDatabaseError } from '../src/server/sqlite-errors';
 
 export interface ResultWriterOptions {
   owner: string;
   redisUrl: string;
-  /** Stars per chunk (BullMQ job). */
-  chunkSize?: number;
+  /** SQLite fit jobs (chunks) claimed per dispatch round (default 8). */
+  jobsPerRound?: number;
   /** SQLite lease of dispatched jobs, renewed every third of it. */
   leaseMs?: number;
   idleMs?: number;
@@ -63,7 +63,7 @@ export function createResultWriter(app: AppServices, options: ResultWriterOption
   const { owner } = options;
   const log = options.log ?? (() => {});
   const connection = redisConnection(options.redisUrl);
-  const chunkSize = options.chunkSize ?? DEFAULT_REDIS_CHUNK;
+  const jobsPerRound = options.jobsPerRound ?? 8;
   const leaseMs = options.leaseMs ?? DEFAULT_DISPATCH_LEASE_MS;
   const idleMs = options.idleMs ?? 200;
   const maxInFlight = options.maxInFlight ?? DEFAULT_MAX_IN_FLIGHT;
@@ -157,25 +157,13 @@ export function createResultWriter(app: AppServices, options: ResultWriterOption
 
   async function dispatchOnce(): Promise<number> {
     const room = maxInFlight - store.inFlight();
-    if (room < Math.min(chunkSize, maxInFlight)) return 0;
-    const jobs = queue.claim(claimOwner, Math.min(room, chunkSize * 8), leaseMs);
+    if (room <= 0) return 0;
+    // Whole chunks (FIT_CHUNK_STARS stars each, made when the batch started); the last one may overshoot the room a little.
+    const jobs = queue.claim(claimOwner, Math.max(1, Math.min(jobsPerRound, Math.floor(room / app.env.fitChunkStars))), leaseMs);
     if (jobs.length === 0) return 0;
-    const foreign = jobs.filter((j) => j.kind !== 'fit-star' || !j.batchId);
+    const foreign = jobs.filter((j) => !isFitJob(j.kind) || !j.batchId);
     if (foreign.length > 0) queue.fail(claimOwner, foreign.map((j) => ({ jobId: j.id, error: `no worker code for job kind "${j.kind}" on the Redis backend` })));
-    // Chunks of `chunkSize` stars, each of one batch.
-    const mine = jobs.filter((j) => j.kind === 'fit-star' && j.batchId);
-    const groups: (typeof mine)[] = [];
-    const byBatch = new Map<string, typeof mine>();
-    for (const j of mine) {
-      let g = byBatch.get(j.batchId!);
-      if (!g || g.length >= chunkSize) {
-        g = [];
-        byBatch.set(j.batchId!, g);
-        groups.push(g);
-      }
-      g.push(j);
-    }
-    const chunks = groups.flatMap((g) => store.buildChunks(claimOwner, g).chunks);
+    const { chunks } = store.buildChunks(claimOwner, jobs);
     try {
       for (const v of new Set(chunks.map((c) => c.data.batch.bandLibraryVersion))) await publishLibrary(v);
       await fitQueue.addBulk(
@@ -189,10 +177,11 @@ export function createResultWriter(app: AppServices, options: ResultWriterOption
       for (const c of chunks) store.releaseChunk(c.id);
       throw err;
     }
-    totals.dispatchedStars += mine.length;
+    const stars = chunks.reduce((n, c) => n + c.data.stars.length, 0);
+    totals.dispatchedStars += stars;
     totals.chunks += chunks.length;
-    log(`[${owner}] dispatched ${mine.length} star(s) in ${chunks.length} chunk(s)`);
-    return mine.length;
+    log(`[${owner}] dispatched ${stars} star(s) in ${chunks.length} chunk(s)`);
+    return stars;
   }
 
   // --- upkeep: dead chunks, lost chunks, leases ----------------------------------------------------

@@ -5,18 +5,20 @@ import { batchQueue, finishBatchIfDone } from '../src/server/batches';
 import type { AppServices } from '../src/server/context';
 import type { ClaimedJob, JobQueue } from '../src/server/queue';
 import { databaseBackoffMs, isDatabaseError } from '../src/server/sqlite-errors';
-import { createFitStarHandler, kind as fitStarKind } from './fit-star';
+import { createFitStarHandler, isFitJob } from './fit-star';
 
 export interface WorkerOptions {
   /** Lease owner name, unique per process (default host:pid). */
   owner: string;
-  /** Jobs claimed at once. */
-  chunkSize?: number;
+  /** Jobs (chunks of stars) claimed at once; default 1. */
+  jobsAtOnce?: number;
   leaseMs?: number;
   /** Wait between polls of an empty queue. */
   idleMs?: number;
   /** Extra time each chunk is held before it is fitted: simulates slow jobs (tests, demonstrations). */
   slowMs?: number;
+  /** Hold each chunk's write transaction open this long before commit: simulates a stalled disk (tests). */
+  pauseInWriteMs?: number;
   backoffBaseMs?: number;
   /** First wait after a database error (SQLITE_BUSY …), doubled per error in a row up to 30 s. */
   databaseBackoffMs?: number;
@@ -26,7 +28,7 @@ export interface WorkerOptions {
 }
 
 export interface Worker {
-  /** One claim and its chunk; returns the number of jobs claimed. */
+  /** One claim and its chunk(s); returns the number of stars claimed (0: nothing was waiting). */
   runOnce(): Promise<number>;
   /** Loop until stop() (or, with drain, until the queue is empty). */
   run(): Promise<void>;
@@ -38,7 +40,7 @@ export interface Worker {
 
 export function createWorker(app: AppServices, options: WorkerOptions): Worker {
   const owner = options.owner;
-  const chunkSize = options.chunkSize ?? 250;
+  const jobsAtOnce = options.jobsAtOnce ?? 1;
   const leaseMs = options.leaseMs ?? 60_000;
   const idleMs = options.idleMs ?? 500;
   const slowMs = options.slowMs ?? 0;
@@ -46,7 +48,7 @@ export function createWorker(app: AppServices, options: WorkerOptions): Worker {
   const dbBackoffMs = options.databaseBackoffMs ?? 200;
   const deadBatches = new Set<string>();
   const queue = batchQueue(app.db, { backoffBaseMs: options.backoffBaseMs, onDeadBatches: (ids) => ids.forEach((b) => deadBatches.add(b)) });
-  const handleFitStar = createFitStarHandler(app.db);
+  const handleFitStar = createFitStarHandler(app.db, { pauseInWriteMs: options.pauseInWriteMs, log: (line) => log(`[${owner}] ${line}`) });
   const anyOpen = app.db.$client.prepare("SELECT 1 FROM jobs WHERE status IN ('pending', 'leased') LIMIT 1");
   const totals = { claimed: 0, fitted: 0, notFitted: 0, retried: 0, dead: 0 };
   let held: number[] = [];
@@ -81,11 +83,12 @@ export function createWorker(app: AppServices, options: WorkerOptions): Worker {
 
   async function runOnce(): Promise<number> {
     const t0 = performance.now();
-    const jobs: ClaimedJob[] = queue.claim(owner, chunkSize, leaseMs);
+    const jobs: ClaimedJob[] = queue.claim(owner, jobsAtOnce, leaseMs);
     await checkFinished([...deadBatches]);
     deadBatches.clear();
     if (jobs.length === 0) return 0;
     held = jobs.map((j) => j.id);
+    const stars = jobs.reduce((n, j) => n + j.starsLeft, 0);
     totals.claimed += jobs.length;
     if (slowMs > 0) {
       await sleep(slowMs);
@@ -93,11 +96,11 @@ export function createWorker(app: AppServices, options: WorkerOptions): Worker {
         const n = queue.release(owner, held);
         held = [];
         log(`[${owner}] stopping: handed back ${n} job(s) not yet started`);
-        return jobs.length;
+        return stars;
       }
     }
-    const mine = jobs.filter((j) => j.kind === fitStarKind);
-    const unknown = jobs.filter((j) => j.kind !== fitStarKind);
+    const mine = jobs.filter((j) => isFitJob(j.kind));
+    const unknown = jobs.filter((j) => !isFitJob(j.kind));
     const out = handleFitStar(queue, owner, mine);
     const unknownFail = queue.fail(owner, unknown.map((j) => ({ jobId: j.id, error: `no worker code for job kind "${j.kind}"` })));
     held = [];
@@ -110,10 +113,10 @@ export function createWorker(app: AppServices, options: WorkerOptions): Worker {
     const batchIds = new Set([...out.batchIds, ...[...out.fail.dead, ...unknownFail.dead].map((j) => j.batchId).filter((b): b is string => !!b)]);
     await checkFinished([...batchIds]);
     log(
-      `[${owner}] ${jobs.length} job(s): ${out.fitted} fitted, ${out.notFitted} not fitted, ${retried} to retry, ${dead} gave up` +
+      `[${owner}] ${jobs.length} job(s), ${stars} star(s): ${out.fitted} fitted, ${out.notFitted} not fitted, ${retried} job(s) to retry, ${dead} gave up` +
         `${out.completed + out.fail.retried.length + out.fail.dead.length < mine.length ? ', some lost to another worker' : ''} (${Math.round(performance.now() - t0)} ms)`,
     );
-    return jobs.length;
+    return stars;
   }
 
   async function checkFinished(batchIds: string[]) {

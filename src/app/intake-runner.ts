@@ -1,6 +1,6 @@
 // Starts and keeps alive the web process's intake thread (intake-thread.ts, run through tsx like
 // the workers). A thread that dies (a job beyond its memory limit) fails the job it held, with a
-// message, and is started again. Decision record 0017.
+// message, and is started again. Decision record 0018.
 import { Worker } from 'node:worker_threads';
 import { createRequire } from 'node:module';
 import path from 'node:path';

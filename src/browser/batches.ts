@@ -38,7 +38,7 @@ export interface BatchProgressView {
 export interface BatchFailuresView {
   total: number;
   failures: { starId: number; starKey: string; reason: string; kind: 'fit' | 'job' }[];
-  retrying: { starKey: string; attempts: number; maxAttempts: number; lastError: string | null; nextTryAt: string }[];
+  retrying: { starKey: string; stars: number; attempts: number; maxAttempts: number; lastError: string | null; nextTryAt: string }[];
   limit: number;
   offset: number;
 }

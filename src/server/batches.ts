@@ -1,5 +1,6 @@
 // Batches: a fit run over a campaign's stars (or a chosen few) with fixed options. Starting one
-// writes the batch and one fit-star job per star in a single transaction; workers drain the jobs
+// writes the batch and its fit jobs (chunks of FIT_CHUNK_STARS stars, each carrying the batch id) in
+// a single transaction; workers drain the jobs
 // (workers/README.md); the last job to finish marks the batch finished and e-mails the analyst
 // who started it, once. Callers check who may call (src/web/guards.ts: analysts start batches,
 // any member reads progress).
@@ -13,7 +14,7 @@ import { recordAudit } from './audit';
 import { getCurrentLibrary, getCurrentVersion } from './band-library';
 import type { Actor, AppServices } from './context';
 import { HttpError } from './errors';
-import { FitStarRunner, fitStarJob } from './fit-job';
+import { FitStarRunner, fitChunkJobs, jobStarIds } from './fit-job';
 import { appVersion } from './health';
 import { newId } from './ids';
 import { createSqliteQueue, type ClaimedJob, type JobQueue, type SqliteQueueOptions } from './queue';
@@ -135,11 +136,11 @@ export interface BatchProgress extends BatchSummary {
   fitted: number;
   /** Stars whose fit could not be made (data) or whose job gave up (error); each has a reason. */
   failed: number;
-  /** Jobs waiting for a worker (retrying ones included). */
+  /** Stars waiting for a worker (retrying ones included). */
   waiting: number;
-  /** Waiting jobs that failed before and wait for their backoff. */
+  /** Waiting stars whose chunk failed before and waits for its backoff. */
   retrying: number;
-  /** Jobs a worker holds right now. */
+  /** Stars a worker holds right now. */
   running: number;
   /** Results per second over the last minute (or since the start, when shorter). */
   ratePerSecond: number;
@@ -181,7 +182,7 @@ export function requireBatch(db: DbOrTx, batchId: string): BatchRow {
   return row;
 }
 
-/** Start a batch: the batch row and one job per star, all or nothing. */
+/** Start a batch: the batch row and its fit jobs (chunks of stars), all or nothing. */
 export function startBatch(app: AppServices, actor: Actor, campaignId: string, raw: unknown): BatchSummary {
   const { db } = app;
   const input = parseStartInput(raw);
@@ -236,7 +237,7 @@ export function insertBatch(app: AppServices, actor: Actor, campaignId: string, 
       tx.insert(batches)
         .values({ id, campaignId, startedById: actor.id, options: options as unknown as Record<string, unknown>, bandLibraryVersion, softwareVersion, status: 'queued', starCount: starIds.length, refitOfBatchId })
         .run();
-      queue.enqueue(starIds.map((starId) => fitStarJob(id, starId)));
+      queue.enqueue(fitChunkJobs(id, starIds, app.env.fitChunkStars));
       recordAudit(tx, { actorId: actor.id, action: 'batch.started', campaignId, details: { batchId: id, stars: starIds.length, options, bandLibraryVersion, ...(refitOfBatchId ? { refitOfBatchId } : {}) } });
     },
     { behavior: 'immediate' },
@@ -288,8 +289,11 @@ export interface BatchFailure {
   kind: 'fit' | 'job';
 }
 
+/** A chunk waiting to be tried again: its first star still without a result names it. */
 export interface RetryingJob {
   starKey: string;
+  /** Stars of the chunk still without a result. */
+  stars: number;
   attempts: number;
   maxAttempts: number;
   lastError: string | null;
@@ -311,15 +315,24 @@ export function batchFailures(db: AppDatabase, batchId: string, page: { limit?: 
       )
       .all(batchId, limit, offset) as { starId: number; starKey: string; reason: string | null; flags: string }[]
   ).map((f) => ({ starId: f.starId, starKey: f.starKey, reason: f.reason ?? 'no reason recorded', kind: f.flags === '' ? ('job' as const) : ('fit' as const) }));
-  const retrying = (
-    sqlite
-      .prepare(
-        `SELECT s.star_key AS starKey, j.attempts, j.max_attempts AS maxAttempts, j.last_error AS lastError, j.run_after AS runAfter
-         FROM jobs j JOIN stars s ON s.id = json_extract(j.payload, '$.starId')
-         WHERE j.batch_id = ? AND j.status = 'pending' AND j.attempts > 0 ORDER BY j.run_after LIMIT 50`,
-      )
-      .all(batchId) as { starKey: string; attempts: number; maxAttempts: number; lastError: string | null; runAfter: number }[]
-  ).map((r) => ({ starKey: r.starKey, attempts: r.attempts, maxAttempts: r.maxAttempts, lastError: r.lastError, nextTryAt: new Date(r.runAfter).toISOString() }));
+  const retryingJobs = sqlite
+    .prepare(
+      `SELECT payload, stars_left AS stars, attempts, max_attempts AS maxAttempts, last_error AS lastError, run_after AS runAfter
+       FROM jobs WHERE batch_id = ? AND status = 'pending' AND attempts > 0 ORDER BY run_after LIMIT 50`,
+    )
+    .all(batchId) as { payload: string; stars: number; attempts: number; maxAttempts: number; lastError: string | null; runAfter: number }[];
+  const firstWaiting = sqlite.prepare(
+    `SELECT s.star_key FROM stars s WHERE s.id IN (SELECT value FROM json_each(?))
+       AND NOT EXISTS (SELECT 1 FROM fit_results r WHERE r.batch_id = ? AND r.star_id = s.id) ORDER BY s.star_key LIMIT 1`,
+  ).pluck();
+  const retrying = retryingJobs.map((r) => ({
+    starKey: (firstWaiting.get(JSON.stringify(jobStarIds({ payload: JSON.parse(r.payload) as Record<string, unknown> })), batchId) as string | undefined) ?? '',
+    stars: r.stars,
+    attempts: r.attempts,
+    maxAttempts: r.maxAttempts,
+    lastError: r.lastError,
+    nextTryAt: new Date(r.runAfter).toISOString(),
+  }));
   return { total, failures, retrying };
 }
 
@@ -392,9 +405,9 @@ export async function finishBatchIfDone(app: AppServices, batchId: string): Prom
 
 export interface CancelOutcome {
   batch: BatchProgress;
-  /** Jobs no worker had taken: removed, so those stars get no result from this batch. */
+  /** Stars of the jobs no worker had taken: removed, so those stars get no result from this batch. */
   removed: number;
-  /** Jobs a worker held at that moment: they finish and write their results as usual. */
+  /** Stars of the jobs a worker held at that moment: they finish and write their results as usual. */
   inFlight: number;
 }
 
@@ -414,10 +427,11 @@ export function cancelBatch(app: AppServices, actor: Actor, batchId: string): Ca
       if (row.status === 'finished' || row.status === 'cancelled') {
         throw new HttpError('conflict', `This batch has ${row.status === 'finished' ? 'finished' : 'been cancelled'} already; there is nothing left to cancel.`);
       }
-      const removed = sqlite.prepare("DELETE FROM jobs WHERE batch_id = ? AND status = 'pending'").run(batchId).changes;
-      const inFlight = sqlite.prepare("SELECT count(*) FROM jobs WHERE batch_id = ? AND status = 'leased'").pluck().get(batchId) as number;
+      const dropped = sqlite.prepare("DELETE FROM jobs WHERE batch_id = ? AND status = 'pending' RETURNING stars_left").pluck().all(batchId) as number[];
+      const removed = dropped.reduce((n, s) => n + s, 0);
+      const inFlight = sqlite.prepare("SELECT coalesce(sum(stars_left), 0) FROM jobs WHERE batch_id = ? AND status = 'leased'").pluck().get(batchId) as number;
       tx.update(batches).set({ status: 'cancelled', finishedAt: new Date() }).where(eq(batches.id, batchId)).run();
-      recordAudit(tx, { actorId: actor.id, action: 'batch.cancelled', campaignId: row.campaignId, details: { batchId, removedJobs: removed, inFlightJobs: inFlight } });
+      recordAudit(tx, { actorId: actor.id, action: 'batch.cancelled', campaignId: row.campaignId, details: { batchId, removedJobs: dropped.length, removedStars: removed, inFlightStars: inFlight } });
       return { removed, inFlight };
     },
     { behavior: 'immediate' },

@@ -1,11 +1,16 @@
-// The `fit-star` job: one star of one batch. Workers run these a chunk at a time — one read of the
-// chunk's stars and measurements, one fit model per (options, band library version) reused for
-// every chunk, and one transaction that completes the jobs and writes their results.
+// The `fit-chunk` job: a chunk of stars of one batch (docs/decisions/0017-chunked-fit-jobs.md).
+// Workers run a chunk with one read of its stars and measurements, one fit model per (options, band
+// library version) reused for every chunk, and one transaction that completes the job and writes
+// its results. (`fit-star` jobs, one star each, were enqueued before chunks existed; they run as
+// chunks of one star.)
 //
-// Outcomes: a fit, or a fit that cannot be made for a reason of the data (too few usable bands, no
-// convergence) — both are results (fit_results.ok true/false) and the job is done. An unexpected
-// error (a band missing from the library, a database error) fails the job's attempt and the queue
-// retries it with backoff; after its last attempt the job is dead and a failure result names the error.
+// Outcomes per star: a fit, or a fit that cannot be made for a reason of the data (too few usable
+// bands, no convergence) — both are results (fit_results.ok true/false). An unexpected error (a band
+// missing from the library, a star deleted) fails the chunk's attempt: the results of the other
+// stars are written in the same transaction and the queue retries the chunk with backoff; a retry
+// fits only the stars still without a result. After its last attempt the chunk is dead and each of
+// its stars without a result gets a failure result naming the error. Either way every star of a
+// batch ends with exactly one result (fit_results is unique on batch and star).
 import type Database from 'better-sqlite3';
 import type { AppDatabase } from '../db/client';
 import { getBand, type BandLibrary } from '../core/bands';
@@ -16,15 +21,50 @@ import type { Band, BandFlux } from '../core/types';
 import { findLibrary } from './band-library';
 import type { ClaimedJob, JobFailure, NewJob } from './queue';
 
+export const FIT_CHUNK_JOB = 'fit-chunk';
+/** One star per job, as enqueued before chunks; still run (as a chunk of one). */
 export const FIT_STAR_JOB = 'fit-star';
 
-/** The idempotency key: one job per star and batch. */
-export function fitStarJobKey(batchId: string, starId: number): string {
-  return `${FIT_STAR_JOB}:${batchId}:${starId}`;
+/** Stars per fit job unless FIT_CHUNK_STARS says otherwise (measured: docs/decisions/0017-chunked-fit-jobs.md). */
+export const DEFAULT_FIT_CHUNK_STARS = 1000;
+
+export function isFitJob(kind: string): boolean {
+  return kind === FIT_CHUNK_JOB || kind === FIT_STAR_JOB;
 }
 
-export function fitStarJob(batchId: string, starId: number, priority = 0): NewJob {
-  return { kind: FIT_STAR_JOB, batchId, payload: { starId }, idempotencyKey: fitStarJobKey(batchId, starId), priority };
+/** The stars of a fit job, in the order they were enqueued. */
+export function jobStarIds(job: { payload: Record<string, unknown> }): number[] {
+  const ids = job.payload.starIds;
+  return Array.isArray(ids) ? ids.map(Number) : [Number(job.payload.starId)];
+}
+
+/**
+ * A batch's stars as fit jobs of `chunkStars` stars each, in the given order. The idempotency key
+ * (`fit-chunk:<batch>:<first star>`) makes enqueueing the same chunks twice a no-op.
+ */
+export function fitChunkJobs(batchId: string, starIds: number[], chunkStars = DEFAULT_FIT_CHUNK_STARS, priority = 0): NewJob[] {
+  const size = Math.max(1, Math.floor(chunkStars));
+  const jobs: NewJob[] = [];
+  for (let i = 0; i < starIds.length; i += size) {
+    const ids = starIds.slice(i, i + size);
+    jobs.push({ kind: FIT_CHUNK_JOB, batchId, payload: { starIds: ids }, idempotencyKey: `${FIT_CHUNK_JOB}:${batchId}:${ids[0]}`, priority, stars: ids.length });
+  }
+  return jobs;
+}
+
+/** What a fit job's attempt produced: the rows to write, and the stars that failed unexpectedly. */
+export interface ChunkRun {
+  job: ClaimedJob;
+  rows: FitResultRow[];
+  /** Stars that threw (not a data failure: those are rows); empty when the chunk is complete. */
+  errors: { starId: number; starKey: string | null; error: string }[];
+}
+
+/** The error kept on a chunk whose attempt failed: the first failing star and how many more. */
+export function chunkError(errors: ChunkRun['errors']): string {
+  const first = errors[0];
+  const who = first.starKey ? `star ${first.starKey}` : `star ${first.starId}`;
+  return `${who}: ${first.error}${errors.length > 1 ? ` (and ${errors.length - 1} more star${errors.length === 2 ? '' : 's'} of the chunk)` : ''}`;
 }
 
 /** The band library a batch was started with, exactly (versions are immutable; see band-library.ts). */
@@ -239,6 +279,7 @@ export class FitStarRunner {
   private readonly selectStars;
   private readonly selectMeasurements;
   private readonly insertResult;
+  private readonly selectDone;
 
   constructor(db: AppDatabase) {
     this.db = db;
@@ -251,6 +292,7 @@ export class FitStarRunner {
       `SELECT star_id, band_key, source, mag, mag_err, fnu_jy, fnu_err_jy, upper_limit FROM measurements
        WHERE star_id IN (SELECT value FROM json_each(?)) ORDER BY star_id, band_key, source`,
     );
+    this.selectDone = this.sqlite.prepare('SELECT star_id FROM fit_results WHERE batch_id = ? AND star_id IN (SELECT value FROM json_each(?))').pluck();
     this.insertResult = this.sqlite.prepare(
       `INSERT INTO fit_results (${RESULT_COLUMNS.join(', ')}) VALUES (${RESULT_COLUMNS.map((c) => '@' + c).join(', ')})
        ON CONFLICT (batch_id, star_id) DO NOTHING`,
@@ -288,40 +330,39 @@ export class FitStarRunner {
   }
 
   /**
-   * Fits a chunk of fit-star jobs (any mix of batches). Returns the result rows by job id and the
-   * jobs that failed unexpectedly; nothing is written here.
+   * Fits claimed fit jobs (any mix of batches), skipping stars that already have a result of their
+   * batch (written by an earlier attempt of the same chunk). Nothing is written here.
    */
-  run(jobs: ClaimedJob[]): { rows: Map<number, FitResultRow>; failures: JobFailure[] } {
-    const rows = new Map<number, FitResultRow>();
+  run(jobs: ClaimedJob[]): { runs: ChunkRun[]; failures: JobFailure[] } {
+    const runs: ChunkRun[] = [];
     const failures: JobFailure[] = [];
-    const byBatch = new Map<string, ClaimedJob[]>();
-    for (const j of jobs) {
-      const key = j.batchId ?? '';
-      if (!byBatch.has(key)) byBatch.set(key, []);
-      byBatch.get(key)!.push(j);
-    }
-    for (const [batchId, group] of byBatch) {
+    for (const job of jobs) {
       let batch: BatchInfo;
       let prepared: { model: FitModel; extrapolated: string[] };
       try {
-        batch = this.batch(batchId);
+        if (!job.batchId) throw new Error(`fit job ${job.id} has no batch`);
+        batch = this.batch(job.batchId);
         prepared = this.model(batch);
       } catch (err) {
-        const error = err instanceof Error ? err.message : String(err);
-        for (const j of group) failures.push({ jobId: j.id, error });
+        failures.push({ jobId: job.id, error: err instanceof Error ? err.message : String(err) });
         continue;
       }
-      const starIds = group.map((j) => Number(j.payload.starId));
+      let starIds = jobStarIds(job);
+      if (job.attempts > 1 || job.starsLeft < job.starCount) {
+        const done = new Set(this.selectDone.all(batch.id, JSON.stringify(starIds)) as number[]);
+        if (done.size > 0) starIds = starIds.filter((id) => !done.has(id));
+      }
+      const idsJson = JSON.stringify(starIds);
       const stars = new Map<number, StarRow>();
-      for (const s of this.selectStars.all(JSON.stringify(starIds)) as StarRow[]) stars.set(s.id, s);
+      for (const s of this.selectStars.all(idsJson) as StarRow[]) stars.set(s.id, s);
       const measurements = new Map<number, MeasurementRow[]>();
-      for (const m of this.selectMeasurements.all(JSON.stringify(starIds)) as MeasurementRow[]) {
+      for (const m of this.selectMeasurements.all(idsJson) as MeasurementRow[]) {
         let list = measurements.get(m.star_id);
         if (!list) measurements.set(m.star_id, (list = []));
         list.push(m);
       }
-      for (const j of group) {
-        const starId = Number(j.payload.starId);
+      const out: ChunkRun = { job, rows: [], errors: [] };
+      for (const starId of starIds) {
         const star = stars.get(starId);
         try {
           if (!star) throw new Error(`star ${starId} no longer exists in campaign ${batch.campaignId}`);
@@ -333,13 +374,14 @@ export class FitStarRunner {
             parallaxErrMas: star.parallax_err_mas,
             avMag: star.av_mag,
           });
-          rows.set(j.id, resultRow(batch, starId, fit, bandFluxes, skipped, prepared.extrapolated));
+          out.rows.push(resultRow(batch, starId, fit, bandFluxes, skipped, prepared.extrapolated));
         } catch (err) {
-          failures.push({ jobId: j.id, error: err instanceof Error ? err.message : String(err) });
+          out.errors.push({ starId, starKey: star?.star_key ?? null, error: err instanceof Error ? err.message : String(err) });
         }
       }
+      runs.push(out);
     }
-    return { rows, failures };
+    return { runs, failures };
   }
 
   /** Inserts result rows (inside the caller's transaction); a second row for the same star and batch is ignored. */
@@ -349,29 +391,38 @@ export class FitStarRunner {
     return n;
   }
 
-  /** Failure results for dead jobs, so every star of a batch still ends with exactly one result. */
+  /**
+   * Failure results for the stars of dead jobs that have no result of their batch yet, so every
+   * star of a batch still ends with exactly one result.
+   */
   writeDead(jobs: ClaimedJob[], errorOf: (jobId: number) => string): number {
     const rows: FitResultRow[] = [];
+    const exists = this.sqlite.prepare('SELECT id FROM stars WHERE id IN (SELECT value FROM json_each(?))').pluck();
     for (const j of jobs) {
-      if (j.kind !== FIT_STAR_JOB || !j.batchId) continue;
+      if (!isFitJob(j.kind) || !j.batchId) continue;
       let batch: BatchInfo;
       try {
         batch = this.batch(j.batchId);
       } catch {
         continue; // the batch was deleted with its jobs' results
       }
+      const ids = jobStarIds(j);
+      const done = new Set(this.selectDone.all(batch.id, JSON.stringify(ids)) as number[]);
+      // A star deleted meanwhile has no row to point at; skip rather than fail the whole transaction.
+      const present = new Set(exists.all(JSON.stringify(ids)) as number[]);
       const reason = `gave up after ${j.attempts} attempt${j.attempts === 1 ? '' : 's'}: ${errorOf(j.id)}`;
-      rows.push({
-        batch_id: batch.id, campaign_id: batch.campaignId, star_id: Number(j.payload.starId), ok: 0, failure_reason: reason,
-        teff_k: null, teff_err_k: null, teff_err_formal_k: null, teff_lower_k: null, theta_mas: null, theta_err_mas: null,
-        radius_rsun: null, radius_err_rsun: null, lum_lsun: null, lum_err_lsun: null, fbol_cgs: null, fbol_err_cgs: null,
-        av_mag: null, av_err_mag: null, chi2_red: null, n_bands: null, bands_used: null, ir_excess_sigma: null,
-        flags: '', detail: JSON.stringify({ reason: 'job_failed', error: errorOf(j.id), attempts: j.attempts, options: batch.options }),
-        band_library_version: batch.bandLibraryVersion, software_version: batch.softwareVersion,
-      });
+      for (const starId of ids) {
+        if (done.has(starId) || !present.has(starId)) continue;
+        rows.push({
+          batch_id: batch.id, campaign_id: batch.campaignId, star_id: starId, ok: 0, failure_reason: reason,
+          teff_k: null, teff_err_k: null, teff_err_formal_k: null, teff_lower_k: null, theta_mas: null, theta_err_mas: null,
+          radius_rsun: null, radius_err_rsun: null, lum_lsun: null, lum_err_lsun: null, fbol_cgs: null, fbol_err_cgs: null,
+          av_mag: null, av_err_mag: null, chi2_red: null, n_bands: null, bands_used: null, ir_excess_sigma: null,
+          flags: '', detail: JSON.stringify({ reason: 'job_failed', error: errorOf(j.id), attempts: j.attempts, options: batch.options }),
+          band_library_version: batch.bandLibraryVersion, software_version: batch.softwareVersion,
+        });
+      }
     }
-    // A star deleted meanwhile has no row to point at; skip rather than fail the whole transaction.
-    const exists = this.sqlite.prepare('SELECT 1 FROM stars WHERE id = ?');
-    return this.write(rows.filter((r) => exists.get(r.star_id)));
+    return this.write(rows);
   }
 }

@@ -2,15 +2,18 @@
 // chunks of fit-star work to workers on any machine; the web host's SQLite file stays the record.
 //
 // Glossary additions (the rest is in src/server/queue.ts):
-//   dispatch   the web host's result writer claims pending fit-star jobs in SQLite like any worker,
-//              with lease owner `redis:<chunk id>`, and adds one BullMQ job per chunk carrying
-//              everything a fit needs (photometry, options, band library version). The SQLite
-//              jobs table is the outbox: a batch is started exactly as with the SQLite backend.
-//   chunk      one BullMQ job on the `starkiln-fit` queue: up to `chunkSize` stars of one batch.
+//   dispatch   the web host's result writer claims pending fit jobs (chunks of stars) in SQLite like
+//              any worker, relabels each one's lease owner `redis:<chunk id>`, and adds one BullMQ
+//              job per chunk carrying everything a fit needs (photometry, options, band library
+//              version). The SQLite jobs table is the outbox: a batch is started exactly as with the
+//              SQLite backend, and its chunks (FIT_CHUNK_STARS stars each) are the BullMQ chunks.
+//   chunk      one BullMQ job on the `starkiln-fit` queue: the stars of one SQLite fit job that still
+//              have no result.
 //   results    one BullMQ job on the `starkiln-fit-results` queue: a chunk's result rows, added
 //              by the fit worker before its chunk completes. The writer stores them in batched
-//              SQLite transactions; a chunk delivered twice writes once (the jobs must still be
-//              leased to that chunk, and fit_results is unique on (batch_id, star_id)).
+//              SQLite transactions; a chunk delivered twice writes once (the job must still be
+//              leased to that chunk, and fit_results is unique on (batch_id, star_id)). The SQLite
+//              job is done when every star of it has a result.
 //   band table a band library version as JSON under `starkiln:band-library:<version>`, written by
 //              the dispatcher before the first chunk that needs it; workers read it once and cache it.
 //
@@ -18,7 +21,7 @@
 // jitter, lock + stalled checks). A chunk that used its last attempt is buried here: its stars
 // that still have no result get a failure result naming the error, as with the SQLite backend.
 import type { AppDatabase } from '../db/client';
-import { FIT_STAR_JOB, FitStarRunner, bandLibraryByVersion, type BatchInfo, type FitResultRow, type MeasurementRow } from './fit-job';
+import { FitStarRunner, bandLibraryByVersion, isFitJob, jobStarIds, type BatchInfo, type FitResultRow, type MeasurementRow } from './fit-job';
 import type { ClaimedJob } from './queue';
 
 export const FIT_QUEUE = 'starkiln-fit';
@@ -27,7 +30,6 @@ export const BAND_LIBRARY_KEY_PREFIX = 'starkiln:band-library:';
 /** SQLite lease owners of dispatched jobs start with this, followed by the chunk id. */
 export const REDIS_OWNER_PREFIX = 'redis:';
 
-export const DEFAULT_REDIS_CHUNK = 500;
 /** Attempts of one chunk on the fit queue (BullMQ's `attempts`). */
 export const DEFAULT_CHUNK_ATTEMPTS = 5;
 /** SQLite lease of dispatched jobs; the writer renews it while it runs. */
@@ -36,7 +38,7 @@ export const DEFAULT_DISPATCH_LEASE_MS = 10 * 60_000;
 export const DEFAULT_MAX_IN_FLIGHT = 50_000;
 
 export interface ChunkStar {
-  /** SQLite job id (fit-star:<batch>:<star>). */
+  /** SQLite job id (the fit chunk this star belongs to). */
   jobId: number;
   starId: number;
   starKey: string;
@@ -85,9 +87,9 @@ export function redisConnection(url: string): { host: string; port: number; db: 
   };
 }
 
-/** The chunk id (BullMQ job id; no ':' allowed there): batch and the first and last SQLite job ids. */
-export function chunkIdOf(batchId: string, jobIds: number[]): string {
-  return `${batchId}.${jobIds[0]}-${jobIds[jobIds.length - 1]}.${jobIds.length}`;
+/** The chunk id (BullMQ job id; no ':' allowed there): batch, SQLite job id and its star count. */
+export function chunkIdOf(batchId: string, job: { id: number; starCount: number }): string {
+  return `${batchId}.${job.id}.${job.starCount}`;
 }
 
 export function chunkIdOfOwner(owner: string | null): string | null {
@@ -115,16 +117,19 @@ export class RedisDispatchStore {
          WHERE star_id IN (SELECT value FROM json_each(?)) ORDER BY star_id, band_key, source`,
       ),
       renewAll: this.sqlite.prepare(`UPDATE jobs SET lease_expires_at = ? WHERE status = 'leased' AND lease_owner LIKE 'redis:%'`),
-      inFlight: this.sqlite.prepare(`SELECT count(*) FROM jobs WHERE status = 'leased' AND lease_owner LIKE 'redis:%'`).pluck(),
+      inFlight: this.sqlite.prepare(`SELECT coalesce(sum(stars_left), 0) FROM jobs WHERE status = 'leased' AND lease_owner LIKE 'redis:%'`).pluck(),
+      done: this.sqlite.prepare('SELECT star_id FROM fit_results WHERE batch_id = ? AND star_id IN (SELECT value FROM json_each(?))').pluck(),
+      held: this.sqlite.prepare(`SELECT stars_left FROM jobs WHERE id = ? AND status = 'leased' AND lease_owner = ?`).pluck(),
+      starsLeft: this.sqlite.prepare('UPDATE jobs SET stars_left = ? WHERE id = ?'),
       owners: this.sqlite.prepare(`SELECT DISTINCT lease_owner FROM jobs WHERE status = 'leased' AND lease_owner LIKE 'redis:%'`).pluck(),
       bury: this.sqlite.prepare(
         `UPDATE jobs SET status = 'failed', last_error = ?, finished_at = ?, lease_owner = NULL, lease_expires_at = NULL
          WHERE status = 'leased' AND lease_owner = ?
-         RETURNING id, kind, batch_id, payload, priority, attempts, max_attempts`,
+         RETURNING id, kind, batch_id, payload, priority, attempts, max_attempts, star_count, stars_left`,
       ),
       markRunning: this.sqlite.prepare("UPDATE batches SET status = 'running' WHERE id = ? AND status = 'queued'"),
       complete: this.sqlite.prepare(
-        `UPDATE jobs SET status = 'done', finished_at = ?, lease_owner = NULL, lease_expires_at = NULL
+        `UPDATE jobs SET status = 'done', finished_at = ?, stars_left = 0, lease_owner = NULL, lease_expires_at = NULL
          WHERE id = ? AND status = 'leased' AND lease_owner = ?`,
       ),
       release: this.sqlite.prepare(
@@ -139,42 +144,40 @@ export class RedisDispatchStore {
   }
 
   /**
-   * Groups claimed jobs by batch into chunks, relabels their lease owner `redis:<chunk id>` and
-   * reads each chunk's photometry. Jobs of another kind are returned in `foreign` untouched.
+   * One chunk per claimed fit job: relabels its lease owner `redis:<chunk id>` and reads the
+   * photometry of its stars that have no result yet. Jobs of another kind are returned in `foreign` untouched.
    */
   buildChunks(claimOwner: string, jobs: ClaimedJob[]): { chunks: { id: string; data: FitChunk }[]; foreign: ClaimedJob[] } {
-    const foreign = jobs.filter((j) => j.kind !== FIT_STAR_JOB || !j.batchId);
-    const byBatch = new Map<string, ClaimedJob[]>();
-    for (const j of jobs) {
-      if (j.kind !== FIT_STAR_JOB || !j.batchId) continue;
-      let list = byBatch.get(j.batchId);
-      if (!list) byBatch.set(j.batchId, (list = []));
-      list.push(j);
-    }
+    const foreign = jobs.filter((j) => !isFitJob(j.kind) || !j.batchId);
     const chunks: { id: string; data: FitChunk }[] = [];
+    type StarRow = { id: number; star_key: string; parallax_mas: number | null; parallax_err_mas: number | null; av_mag: number | null };
     const build = this.sqlite.transaction(() => {
-      for (const [batchId, group] of byBatch) {
-        group.sort((a, b) => a.id - b.id);
-        const jobIds = group.map((j) => j.id);
-        const id = chunkIdOf(batchId, jobIds);
-        for (const jid of jobIds) this.stmts.relabel.run(REDIS_OWNER_PREFIX + id, jid, claimOwner);
-        const starIds = group.map((j) => Number(j.payload.starId));
-        const stars = new Map<number, { id: number; star_key: string; parallax_mas: number | null; parallax_err_mas: number | null; av_mag: number | null }>();
-        for (const s of this.stmts.stars.all(JSON.stringify(starIds)) as { id: number; star_key: string; parallax_mas: number | null; parallax_err_mas: number | null; av_mag: number | null }[]) stars.set(s.id, s);
+      for (const job of jobs) {
+        if (!isFitJob(job.kind) || !job.batchId) continue;
+        const batchId = job.batchId;
+        const id = chunkIdOf(batchId, job);
+        this.stmts.relabel.run(REDIS_OWNER_PREFIX + id, job.id, claimOwner);
+        let starIds = jobStarIds(job);
+        if (job.starsLeft < job.starCount || job.attempts > 1) {
+          const done = new Set(this.stmts.done.all(batchId, JSON.stringify(starIds)) as number[]);
+          starIds = starIds.filter((s) => !done.has(s));
+        }
+        const idsJson = JSON.stringify(starIds);
+        const stars = new Map<number, StarRow>();
+        for (const s of this.stmts.stars.all(idsJson) as StarRow[]) stars.set(s.id, s);
         const measurements = new Map<number, MeasurementRow[]>();
-        for (const m of this.stmts.measurements.all(JSON.stringify(starIds)) as MeasurementRow[]) {
+        for (const m of this.stmts.measurements.all(idsJson) as MeasurementRow[]) {
           let list = measurements.get(m.star_id);
           if (!list) measurements.set(m.star_id, (list = []));
           list.push(m);
         }
         const chunkStars: ChunkStar[] = [];
-        for (const j of group) {
-          const starId = Number(j.payload.starId);
+        for (const starId of starIds) {
           const s = stars.get(starId);
           // A star deleted since the batch started: the worker reports it as an unexpected error,
           // exactly as the SQLite worker would ("no longer exists").
           chunkStars.push({
-            jobId: j.id,
+            jobId: job.id,
             starId,
             starKey: s?.star_key ?? '',
             parallaxMas: s?.parallax_mas ?? null,
@@ -217,9 +220,10 @@ export class RedisDispatchStore {
   }
 
   /**
-   * Writes results of several chunks in ONE transaction. Only jobs still leased to their chunk are
-   * completed and written, so a chunk delivered twice (a retry, a stalled redelivery) writes once;
-   * fit_results' unique (batch_id, star_id) with ON CONFLICT DO NOTHING is the last line.
+   * Writes results of several chunks in ONE transaction. Only rows of jobs still leased to their
+   * chunk are written, and fit_results' unique (batch_id, star_id) with ON CONFLICT DO NOTHING
+   * ignores rows already stored, so a chunk delivered twice (a retry, a stalled redelivery) writes
+   * once. A job is done when all of its stars have a result.
    */
   writeResults(chunks: ResultChunk[]): { written: number; ignored: number; batchIds: string[] } {
     let written = 0;
@@ -227,17 +231,29 @@ export class RedisDispatchStore {
     const batchIds = new Set<string>();
     const run = this.sqlite.transaction(() => {
       const t = Date.now();
-      const rows: FitResultRow[] = [];
+      for (const c of chunks) if (c.rows.length > 0) batchIds.add(c.batchId);
+      for (const b of batchIds) this.stmts.markRunning.run(b);
       for (const c of chunks) {
         const owner = REDIS_OWNER_PREFIX + c.chunkId;
+        const byJob = new Map<number, FitResultRow[]>();
         for (const r of c.rows) {
-          if (this.stmts.complete.run(t, r.jobId, owner).changes === 1) rows.push(r.row);
-          else ignored++;
+          let list = byJob.get(r.jobId);
+          if (!list) byJob.set(r.jobId, (list = []));
+          list.push(r.row);
         }
-        if (c.rows.length > 0) batchIds.add(c.batchId);
+        for (const [jobId, rows] of byJob) {
+          const left = this.stmts.held.get(jobId, owner) as number | undefined;
+          if (left === undefined) {
+            ignored += rows.length;
+            continue;
+          }
+          const n = this.runner.write(rows);
+          written += n;
+          ignored += rows.length - n;
+          if (left - n <= 0) this.stmts.complete.run(t, jobId, owner);
+          else if (n > 0) this.stmts.starsLeft.run(left - n, jobId);
+        }
       }
-      for (const b of batchIds) this.stmts.markRunning.run(b);
-      written = this.runner.write(rows);
     });
     run.immediate();
     return { written, ignored, batchIds: [...batchIds] };
@@ -250,14 +266,14 @@ export class RedisDispatchStore {
   buryChunk(chunkId: string, error: string, attempts: number): { dead: number; batchIds: string[] } {
     const run = this.sqlite.transaction(() => {
       const rows = this.stmts.bury.all(error.slice(0, 2000), Date.now(), REDIS_OWNER_PREFIX + chunkId) as {
-        id: number; kind: string; batch_id: string | null; payload: string; priority: number; attempts: number; max_attempts: number;
+        id: number; kind: string; batch_id: string | null; payload: string; priority: number; attempts: number; max_attempts: number; star_count: number; stars_left: number;
       }[];
       const jobs: ClaimedJob[] = rows.map((r) => ({
         id: r.id, kind: r.kind, batchId: r.batch_id, payload: JSON.parse(r.payload) as Record<string, unknown>, priority: r.priority,
-        attempts: Math.max(r.attempts, attempts), maxAttempts: r.max_attempts, leaseExpiresAt: 0, lastError: error,
+        attempts: Math.max(r.attempts, attempts), maxAttempts: r.max_attempts, leaseExpiresAt: 0, lastError: error, starCount: r.star_count, starsLeft: r.stars_left,
       }));
-      this.runner.writeDead(jobs, () => error);
-      return { dead: jobs.length, batchIds: [...new Set(jobs.map((j) => j.batchId).filter((b): b is string => !!b))] };
+      const dead = this.runner.writeDead(jobs, () => error);
+      return { dead, batchIds: [...new Set(jobs.map((j) => j.batchId).filter((b): b is string => !!b))] };
     });
     return run.immediate();
   }

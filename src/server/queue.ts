@@ -1,8 +1,11 @@
 // The job queue the workers drain, kept in the app's SQLite file (docs/decisions/0008-sqlite-job-queue.md).
 //
 // Glossary (the same words in code, logs, pages and docs):
-//   job       one unit of work of one kind, e.g. `fit-star` for one star of one batch. Its idempotency
-//             key (`fit-star:<batch>:<star>`) makes enqueueing twice a no-op.
+//   job       one unit of work of one kind, e.g. `fit-chunk` for a chunk of stars of one batch. Its
+//             idempotency key (`fit-chunk:<batch>:<first star>`) makes enqueueing twice a no-op. A
+//             job counts `stars` units (1 for kinds other than fit chunks); the progress counts add them.
+//   chunk     a fit job's stars (docs/decisions/0017-chunked-fit-jobs.md): claimed, fitted, written
+//             and completed together, one transaction per chunk.
 //   claim     a worker takes up to N ready jobs at once; a job is ready when it is pending and its
 //             runAfter has passed. Claiming sets status `leased`, the lease owner and expiry, and
 //             counts one attempt, all in one UPDATE … RETURNING inside an IMMEDIATE transaction, so
@@ -33,6 +36,8 @@ export interface NewJob {
   idempotencyKey: string;
   priority?: number;
   maxAttempts?: number;
+  /** Stars in the job (a fit chunk); default 1. */
+  stars?: number;
 }
 
 export interface ClaimedJob {
@@ -46,11 +51,16 @@ export interface ClaimedJob {
   maxAttempts: number;
   leaseExpiresAt: number;
   lastError: string | null;
+  /** Stars in the job, and those still without a result (after an attempt that failed part-way). */
+  starCount: number;
+  starsLeft: number;
 }
 
 export interface JobFailure {
   jobId: number;
   error: string;
+  /** Stars of the job still without a result after this attempt (a chunk that failed part-way); default unchanged. */
+  starsLeft?: number;
 }
 
 export interface FailOutcome {
@@ -60,6 +70,7 @@ export interface FailOutcome {
   dead: ClaimedJob[];
 }
 
+/** Counts in stars (a fit chunk counts its stars still without a result; other jobs count 1). */
 export interface QueueCounts {
   pending: number;
   /** Pending jobs that already failed at least once and wait for their backoff to pass. */
@@ -83,8 +94,12 @@ export interface JobQueue {
    * with exactly those jobs. Returns the ids completed.
    */
   complete(owner: string, jobIds: number[], writeResults?: (held: number[]) => void): number[];
-  /** Records failed attempts: backoff and retry, or dead after the last attempt. */
-  fail(owner: string, failures: JobFailure[]): FailOutcome;
+  /**
+   * Records failed attempts: backoff and retry, or dead after the last attempt. `writeResults` runs
+   * first in the same transaction with the failed jobs `owner` still holds, so a chunk that failed
+   * part-way keeps the results it made (before a dead job's kind writes failure results for the rest).
+   */
+  fail(owner: string, failures: JobFailure[], writeResults?: (held: number[]) => void): FailOutcome;
   /** Gives held jobs back without counting the attempt (graceful shutdown). */
   release(owner: string, jobIds: number[]): number;
   /** Returns jobs with expired leases to the queue (or to `failed` after their last attempt). */
@@ -129,6 +144,8 @@ interface JobRow {
   max_attempts: number;
   lease_expires_at: number | null;
   last_error: string | null;
+  star_count: number;
+  stars_left: number;
 }
 
 function toClaimed(r: JobRow): ClaimedJob {
@@ -142,10 +159,12 @@ function toClaimed(r: JobRow): ClaimedJob {
     maxAttempts: r.max_attempts,
     leaseExpiresAt: r.lease_expires_at ?? 0,
     lastError: r.last_error,
+    starCount: r.star_count,
+    starsLeft: r.stars_left,
   };
 }
 
-const COLUMNS = 'id, kind, batch_id, payload, priority, attempts, max_attempts, lease_expires_at, last_error';
+const COLUMNS = 'id, kind, batch_id, payload, priority, attempts, max_attempts, lease_expires_at, last_error, star_count, stars_left';
 
 export function createSqliteQueue(db: AppDatabase, options: SqliteQueueOptions = {}): JobQueue {
   const sqlite: Database.Database = db.$client;
@@ -155,8 +174,8 @@ export function createSqliteQueue(db: AppDatabase, options: SqliteQueueOptions =
   const maxMs = options.backoffMaxMs ?? DEFAULT_BACKOFF_MAX_MS;
 
   const insertJob = sqlite.prepare(
-    `INSERT INTO jobs (kind, batch_id, payload, idempotency_key, priority, max_attempts, run_after)
-     VALUES (?, ?, ?, ?, ?, ?, ?) ON CONFLICT (idempotency_key) DO NOTHING`,
+    `INSERT INTO jobs (kind, batch_id, payload, idempotency_key, priority, max_attempts, run_after, star_count, stars_left)
+     VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?) ON CONFLICT (idempotency_key) DO NOTHING`,
   );
   const selectExpired = sqlite.prepare(`SELECT ${COLUMNS} FROM jobs WHERE status = 'leased' AND lease_expires_at < ?`);
   const requeueExpired = sqlite.prepare(
@@ -179,9 +198,10 @@ export function createSqliteQueue(db: AppDatabase, options: SqliteQueueOptions =
   );
   const renewOne = sqlite.prepare(`UPDATE jobs SET lease_expires_at = ? WHERE id = ? AND status = 'leased' AND lease_owner = ?`);
   const completeOne = sqlite.prepare(
-    `UPDATE jobs SET status = 'done', finished_at = ?, lease_owner = NULL, lease_expires_at = NULL
+    `UPDATE jobs SET status = 'done', finished_at = ?, stars_left = 0, lease_owner = NULL, lease_expires_at = NULL
      WHERE id = ? AND status = 'leased' AND lease_owner = ?`,
   );
+  const setStarsLeft = sqlite.prepare('UPDATE jobs SET stars_left = ? WHERE id = ?');
   const selectHeld = sqlite.prepare(`SELECT ${COLUMNS} FROM jobs WHERE id = ? AND status = 'leased' AND lease_owner = ?`);
   const retryOne = sqlite.prepare(
     `UPDATE jobs SET status = 'pending', run_after = ?, last_error = ?, lease_owner = NULL, lease_expires_at = NULL WHERE id = ?`,
@@ -190,11 +210,12 @@ export function createSqliteQueue(db: AppDatabase, options: SqliteQueueOptions =
     `UPDATE jobs SET status = 'pending', attempts = max(attempts - 1, 0), lease_owner = NULL, lease_expires_at = NULL
      WHERE id = ? AND status = 'leased' AND lease_owner = ?`,
   );
+  // Stars: a done job counts all of its stars, the others the stars still without a result.
   const countByStatus = sqlite.prepare(
-    `SELECT status, count(*) AS n FROM jobs WHERE batch_id = ? GROUP BY status`,
+    `SELECT status, sum(CASE WHEN status = 'done' THEN star_count ELSE stars_left END) AS n FROM jobs WHERE batch_id = ? GROUP BY status`,
   );
-  const countRetrying = sqlite.prepare(`SELECT count(*) AS n FROM jobs WHERE batch_id = ? AND status = 'pending' AND attempts > 0`);
-  const countRecent = sqlite.prepare(`SELECT count(*) AS n FROM jobs WHERE batch_id = ? AND finished_at >= ?`);
+  const countRetrying = sqlite.prepare(`SELECT coalesce(sum(stars_left), 0) AS n FROM jobs WHERE batch_id = ? AND status = 'pending' AND attempts > 0`);
+  const countRecent = sqlite.prepare(`SELECT coalesce(sum(star_count), 0) AS n FROM jobs WHERE batch_id = ? AND finished_at >= ?`);
 
   const buryDead = (dead: ClaimedJob[], errors: Map<number, string>, t: number) => {
     if (dead.length === 0) return;
@@ -228,7 +249,8 @@ export function createSqliteQueue(db: AppDatabase, options: SqliteQueueOptions =
       const run = sqlite.transaction((list: NewJob[]) => {
         let added = 0;
         for (const j of list) {
-          added += insertJob.run(j.kind, j.batchId, JSON.stringify(j.payload), j.idempotencyKey, j.priority ?? 0, j.maxAttempts ?? DEFAULT_MAX_ATTEMPTS, t).changes;
+          const stars = j.stars ?? 1;
+          added += insertJob.run(j.kind, j.batchId, JSON.stringify(j.payload), j.idempotencyKey, j.priority ?? 0, j.maxAttempts ?? DEFAULT_MAX_ATTEMPTS, t, stars, stars).changes;
         }
         return added;
       });
@@ -264,16 +286,24 @@ export function createSqliteQueue(db: AppDatabase, options: SqliteQueueOptions =
       return run.immediate();
     },
 
-    fail(owner, failures) {
+    fail(owner, failures, writeResults) {
       const run = sqlite.transaction(() => {
         const t = now();
         const retried: FailOutcome['retried'] = [];
         const dead: ClaimedJob[] = [];
         const errors = new Map<number, string>();
+        const held: { f: JobFailure; row: JobRow }[] = [];
         for (const f of failures) {
           const row = selectHeld.get(f.jobId, owner) as JobRow | undefined;
           // Not ours any more (the lease expired and another worker took it): its outcome is theirs.
-          if (!row) continue;
+          if (row) held.push({ f, row });
+        }
+        if (held.length > 0) writeResults?.(held.map((h) => h.row.id));
+        for (const { f, row } of held) {
+          if (f.starsLeft !== undefined) {
+            setStarsLeft.run(f.starsLeft, row.id);
+            row.stars_left = f.starsLeft;
+          }
           const job = toClaimed(row);
           const error = f.error.slice(0, 2000);
           if (job.attempts >= job.maxAttempts) {

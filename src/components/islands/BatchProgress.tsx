@@ -157,7 +157,9 @@ function Progress({ batchId, initial, initialFailures }: Props) {
             <ul className="text-sm flex flex-col gap-1">
               {f.retrying.map((r) => (
                 <li key={r.starKey}>
-                  <span className="num">{r.starKey}</span> <span className="text-ink-500">attempt {r.attempts} of {r.maxAttempts}:</span> {r.lastError}
+                  <span className="num">{r.starKey}</span>
+                  {r.stars > 1 && <span className="text-ink-500"> and {(r.stars - 1).toLocaleString('en')} more</span>}{' '}
+                  <span className="text-ink-500">attempt {r.attempts} of {r.maxAttempts}:</span> {r.lastError}
                 </li>
               ))}
             </ul>

@@ -37,7 +37,7 @@ export const JOB_STATUSES = ['pending', 'leased', 'done', 'failed'] as const;
 export type JobStatus = (typeof JOB_STATUSES)[number];
 
 /**
- * The queue. A worker claims pending jobs whose runAfter has passed (or leased ones whose lease
+ * The queue. A fit job is a chunk of stars of one batch (payload { starIds }). A worker claims pending jobs whose runAfter has passed (or leased ones whose lease
  * expired) in one UPDATE … RETURNING, renews the lease while working, and finishes each job in the
  * same transaction that writes its result.
  */
@@ -52,6 +52,10 @@ export const jobs = sqliteTable(
     idempotencyKey: text('idempotency_key').notNull(),
     status: text('status', { enum: JOB_STATUSES }).notNull().default('pending'),
     priority: integer('priority').notNull().default(0),
+    // Stars in the job (a fit chunk), 1 for a job of any other kind; the progress counts add these.
+    starCount: integer('star_count').notNull().default(1),
+    // Stars of the job still without a result (a chunk that failed part-way wrote the others).
+    starsLeft: integer('stars_left').notNull().default(1),
     attempts: integer('attempts').notNull().default(0),
     maxAttempts: integer('max_attempts').notNull().default(5),
     runAfter: integer('run_after', { mode: 'timestamp_ms' }).notNull().default(now),

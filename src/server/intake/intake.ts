@@ -22,7 +22,7 @@ import { sniffOnArrival } from './read-table';
 import { checkKey, type Inspection, type StoredCheck } from './run';
 
 export type { CheckSummary, ImportSummary, IntakeJobView, UploadDetail, UploadSummary } from '../../contracts/intake';
-import { intakeConfigFromEnv, receiveUpload, type IntakeConfig } from './storage';
+import { intakeConfigOf, receiveUpload, type IntakeConfig } from './storage';
 
 export const PREVIEW_ROWS = 8;
 
@@ -32,7 +32,7 @@ export function bandKeys(db: DbOrTx): string[] {
 }
 
 export function intakeConfig(app: AppServices): IntakeConfig {
-  return intakeConfigFromEnv(app.env.databasePath);
+  return intakeConfigOf(app.env);
 }
 
 // ---------------------------------------------------------------------------------------------
