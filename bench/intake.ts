@@ -45,12 +45,12 @@ async function writeCsv(file: string, header: string, line: (n: number) => strin
     chunk += l;
     bytes += l.length;
     if (chunk.length > 1 << 20) {
-      if (!out.write(chunk)) await new Promise((r) => out.once('drain', r));
+      if (!out.write(chunk)) await new Promise<void>((r) => out.once('drain', () => r()));
       chunk = '';
     }
   }
   out.write(chunk);
-  await new Promise((r) => out.end(r));
+  await new Promise<void>((r) => out.end(() => r()));
   return n;
 }
 
