@@ -1,6 +1,6 @@
 // Bench section "intake" (or `npx tsx bench/intake.ts [--stars N] [--mb M]`): uploads through the
 // built web server (dist/, `npm run build` first) on a real HTTP port, read and imported by its
-// intake thread (decision record 0018), while /api/health is asked every 50 ms. Two files:
+// intake thread (decision record 0023), while /api/health is asked every 50 ms. Two files:
 //   a wide CSV of N invented stars × 8 bands (default a million) — the memory case;
 //   a narrow CSV of M MB (default 190, one band per star, ~6.7 M rows) — the case that froze health.
 // Prints upload+check+import time and stars/s, the server process's peak RSS (VmHWM, which includes

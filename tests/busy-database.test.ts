@@ -76,7 +76,7 @@ describe('an import while two workers fit on the same database file', () => {
     const form = new FormData();
     form.append('file', new Blob([csvOf(ROWS)], { type: 'text/csv' }), 'cinder.csv');
     const received = await createUpload(t.app, analyst, importing.id, new Request('http://127.0.0.1/upload', { method: 'POST', body: form }), config);
-    // Reading and importing are intake jobs (decision record 0018), run here inline.
+    // Reading and importing are intake jobs (decision record 0023), run here inline.
     await drainIntakeJobs(t.db);
     const upload = getUpload(t.db, importing.id, received.id);
     const importNow = async () => {

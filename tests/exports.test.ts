@@ -13,7 +13,8 @@ import { XMLParser } from 'fast-xml-parser';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { GET as downloadRoute } from '../src/pages/api/campaigns/[id]/downloads/[format]';
 import { starterBandLibrary } from '../src/core/bands';
-import { CATALOGUE_COLUMNS, catalogueColumns } from '../src/core/catalogue';
+import { CATALOGUE_COLUMNS } from '../src/core/catalogue';
+import { exportColumns } from '../src/server/exports/source';
 import { FLAG_EXPLANATIONS } from '../src/core/fit';
 import { readFits, readFitsTable } from '../src/core/input/fits-file';
 import { projectRoot } from '../src/db/paths';
@@ -57,7 +58,9 @@ function dbRows(where = "f.review_status = 'accepted'"): DbRow[] {
     .prepare(
       `SELECT s.star_key AS id, s.ra_deg AS ra, s.dec_deg AS dec, f.teff_k, f.teff_err_k, f.teff_err_formal_k, f.teff_lower_k, f.theta_mas, f.theta_err_mas,
          f.radius_rsun, f.radius_err_rsun, f.lum_lsun, f.lum_err_lsun, f.fbol_cgs, f.fbol_err_cgs, f.av_mag AS av, f.av_err_mag AS av_err, f.chi2_red,
-         f.n_bands, f.bands_used, f.ir_excess_sigma, f.flags, f.review_status
+         f.n_bands, f.bands_used, f.ir_excess_sigma, f.flags, f.review_status, f.batch_id,
+         coalesce((SELECT trim(CASE WHEN d.four_eyes_off = 1 THEN 'four_eyes_off ' ELSE '' END || CASE WHEN d.carried_from_decision_id IS NOT NULL THEN 'carried_over' ELSE '' END)
+           FROM review_decisions d WHERE d.fit_result_id = f.id AND d.superseded_at IS NULL), '') AS review_mark
        FROM fit_results f JOIN stars s ON s.id = f.star_id
        WHERE f.campaign_id = ? AND f.id IN (SELECT id FROM fit_results g WHERE g.star_id = f.star_id ORDER BY g.ok DESC, (SELECT created_at FROM batches WHERE id = g.batch_id) DESC, g.id DESC LIMIT 1)
          AND ${where}
@@ -96,6 +99,8 @@ describe('CSV', () => {
     expect(header).toMatch(/# extinction law: f99, R_V = 3\.1/);
     expect(header).toMatch(/# options: .*fitAv = true/);
     expect(header).toMatch(/# fit batch \w+: .* extinction law ccm89, R_V = 3\.1/);
+    // Every batch line carries all of its options, clip included, and points to the batch_id column.
+    for (const l of comments.filter((c) => c.startsWith('# fit batch '))) expect(l).toMatch(/; options: .*clip = (true|false).*\(the batch_id column names each row's batch\)$/);
     expect(header).toMatch(/# selection: review status accepted; \d+ rows/);
     expect(header).toMatch(/# created: \d{4}-\d\d-\d\dT/);
     // The zero-points used, with their sources (Bessell V: Bessell, Castelli & Plez 1998, docs/science.md).
@@ -106,7 +111,7 @@ describe('CSV', () => {
     const records = parseCsv(csv, { comment: '#', columns: true, skip_empty_lines: true }) as Record<string, string>[];
     const want = dbRows();
     expect(want.length).toBeGreaterThan(30);
-    expect(Object.keys(records[0])).toEqual(catalogueColumns(true).map((c) => c.name));
+    expect(Object.keys(records[0])).toEqual(exportColumns().map((c) => c.name));
     expect(records.map((r) => r.id)).toEqual(want.map((r) => r.id));
     for (let i = 0; i < want.length; i++) {
       for (const c of CATALOGUE_COLUMNS) {
@@ -155,10 +160,10 @@ describe('VOTable', () => {
     expect(doc.VOTABLE.version).toBe('1.4');
     const table = doc.VOTABLE.RESOURCE.TABLE;
     const fields = table.FIELD as { name: string; unit?: string; ucd: string; datatype: string }[];
-    expect(fields.map((f) => f.name)).toEqual(catalogueColumns(true).map((c) => c.name));
+    expect(fields.map((f) => f.name)).toEqual(exportColumns().map((c) => c.name));
     expect(fields.find((f) => f.name === 'teff_k')).toMatchObject({ unit: 'K', ucd: 'phys.temperature.effective', datatype: 'double' });
     expect(fields.find((f) => f.name === 'radius_rsun')).toMatchObject({ unit: 'solRad', ucd: 'phys.size.radius' });
-    expect(fields.find((f) => f.name === 'fbol_cgs')).toMatchObject({ unit: 'mW.m**-2', ucd: 'phot.flux.bol' });
+    expect(fields.find((f) => f.name === 'fbol_cgs')).toMatchObject({ unit: 'mW.m-2', ucd: 'phot.flux.bol' });
     const infos = doc.VOTABLE.RESOURCE.INFO as { name: string; value: string }[];
     expect(infos.find((i) => i.name === 'software')!.value).toBe(`Starkiln ${appVersion()}`);
     expect(infos.filter((i) => i.name === 'provenance').map((i) => i.value)).toEqual(expect.arrayContaining([expect.stringMatching(/^zero-point V /)]));
@@ -195,10 +200,10 @@ describe('FITS', () => {
     expect(table.rowCount).toBe(want.length);
     expect(table.column('teff_k')!.unit).toBe('K');
     expect(table.column('lum_lsun')!.unit).toBe('solLum');
-    expect(table.column('fbol_cgs')!.unit).toBe('erg s-1 cm-2');
+    expect(table.column('fbol_cgs')!.unit).toBe('mW.m-2');
     const rows = table.rows();
     rows.forEach((r, i) => {
-      for (const c of catalogueColumns(true)) {
+      for (const c of exportColumns()) {
         const v = want[i][c.name];
         if (c.name === 'review_status') expect(r[c.name]).toBe('accepted');
         else if (c.name === 'bands_used' || c.name === 'flags' || c.name === 'id') expect(r[c.name], `${want[i].id} ${c.name}`).toBe(v ?? '');
@@ -211,20 +216,31 @@ describe('FITS', () => {
 const hasAstropy = spawnSync('/usr/bin/python3', ['-c', 'import astropy'], { encoding: 'utf8' }).status === 0;
 
 describe.runIf(hasAstropy)('read by astropy (Debian python3-astropy), warnings as errors', () => {
-  it('reads the VOTable and the FITS table with the right units and values', async () => {
+  it('reads the VOTable, the FITS table and the ECSV (Table.read with no options) with the right units and values', async () => {
     const dir = mkdtempSync(path.join(os.tmpdir(), 'starkiln-exports-'));
     try {
       const vot = path.join(dir, 'catalogue.vot');
       const fitsPath = path.join(dir, 'catalogue.fits');
-      writeFileSync(vot, (await download('votable')).bytes);
-      writeFileSync(fitsPath, (await download('fits')).bytes);
+      const ecsvPath = path.join(dir, 'catalogue.ecsv');
+      const votBytes = (await download('votable')).bytes;
+      const fitsBytes = (await download('fits')).bytes;
+      const ecsvBytes = (await download('ecsv')).bytes;
+      writeFileSync(vot, votBytes);
+      writeFileSync(fitsPath, fitsBytes);
+      writeFileSync(ecsvPath, ecsvBytes);
+      // F_bol's unit is spelled the same in every file: mW.m-2 (= erg s-1 cm-2, the same numbers).
+      expect(text(votBytes)).toMatch(/<FIELD name="fbol_cgs"[^>]* unit="mW\.m-2"/);
+      expect(text(ecsvBytes)).toMatch(/# - \{name: "fbol_cgs", unit: "mW\.m-2",/);
+      expect(text(fitsBytes)).toMatch(/TUNIT\d+ *= 'mW\.m-2 *'/);
+      expect(text((await download('csv')).bytes)).toContain('#   fbol_cgs [mW.m-2]:');
       const script = path.join(projectRoot(), 'scripts/references/read_exports.py');
-      const run = spawnSync('/usr/bin/python3', [script, vot, fitsPath], { encoding: 'utf8', maxBuffer: 64 * 1024 * 1024 });
+      const run = spawnSync('/usr/bin/python3', [script, vot, fitsPath, ecsvPath], { encoding: 'utf8', maxBuffer: 64 * 1024 * 1024 });
       expect(run.stderr, 'astropy printed warnings or errors').toBe('');
       expect(run.status).toBe(0);
       const out = JSON.parse(run.stdout) as {
         votable: { fbol_to_cgs: number; units: Record<string, string | null>; fields: Record<string, { ucd: string }>; values: Record<string, unknown[]>; nrows: number };
         fits: { fbol_to_cgs: number; units: Record<string, string | null>; tunits: Record<string, string | null>; header: Record<string, unknown>; values: Record<string, unknown[]>; nrows: number };
+        ecsv: { fbol_to_cgs: number; units: Record<string, string | null>; descriptions: Record<string, string>; values: Record<string, unknown[]>; meta: string[]; provenance_rows: number; batches: { id: string; options: Record<string, unknown> }[]; nrows: number };
       };
       const want = dbRows();
       expect(out.votable.nrows).toBe(want.length);
@@ -238,8 +254,17 @@ describe.runIf(hasAstropy)('read by astropy (Debian python3-astropy), warnings a
       expect(out.votable.fields.chi2_red.ucd).toBe('stat.fit.chi2');
       expect(out.fits.units).toMatchObject({ ra: 'deg', teff_k: 'K', theta_mas: 'mas', radius_rsun: 'solRad', lum_lsun: 'solLum', av: 'mag' });
       expect(out.fits.header).toMatchObject({ SOFTVER: appVersion(), CAMPID: campaign.id, NROWS: want.length });
-      for (const reader of [out.votable, out.fits]) {
-        for (const c of catalogueColumns(true)) {
+      // The ECSV: units, descriptions and the provenance (every batch with all its options, clip included) as metadata.
+      expect(out.ecsv.nrows).toBe(want.length);
+      expect(out.ecsv.fbol_to_cgs).toBeCloseTo(1, 12);
+      expect(out.ecsv.units).toMatchObject({ ra: 'deg', teff_k: 'K', theta_mas: 'mas', radius_rsun: 'solRad', lum_lsun: 'solLum', av: 'mag' });
+      expect(out.ecsv.descriptions.teff_k).toBe(exportColumns().find((c) => c.name === 'teff_k')!.description);
+      expect(out.ecsv.meta).toEqual(['comments', 'provenance']);
+      expect(out.ecsv.provenance_rows).toBe(want.length);
+      expect(out.ecsv.batches.length).toBeGreaterThan(0);
+      for (const b of out.ecsv.batches) expect(Object.keys(b.options)).toEqual(expect.arrayContaining(['clip', 'law', 'rv', 'floorFraction', 'excludeBands']));
+      for (const reader of [out.votable, out.fits, out.ecsv]) {
+        for (const c of exportColumns()) {
           const got = reader.values[c.name];
           const expected = want.map((r) => (c.name === 'review_status' ? 'accepted' : c.name === 'n_bands' ? (r.n_bands ?? 0) : c.name === 'bands_used' ? (r.bands_used ?? '') : r[c.name]));
           // Empty strings come back from a VOTable as masked cells.
@@ -291,11 +316,11 @@ describe('download route', () => {
 
   it('streams every format to members with a file name, and refuses others', async () => {
     expect((await call(null, 'csv')).status).toBe(401);
-    expect((await call(outsider, 'csv')).status).toBe(403);
+    expect((await call(outsider, 'csv')).status).toBe(404);
     for (const format of EXPORT_FORMAT_NAMES) {
       const res = await call(collaborator, format);
       expect(res.status).toBe(200);
-      expect(res.headers.get('content-disposition')).toMatch(new RegExp(`^attachment; filename="brackenfell-open-cluster-catalogue-\\d{4}-\\d\\d-\\d\\d\\.(csv|vot|fits|json)"$`));
+      expect(res.headers.get('content-disposition')).toMatch(new RegExp(`^attachment; filename="brackenfell-open-cluster-catalogue-\\d{4}-\\d\\d-\\d\\d\\.(csv|ecsv|vot|fits|json)"$`));
       expect(res.body).toBeInstanceOf(ReadableStream);
       expect((await res.arrayBuffer()).byteLength).toBeGreaterThan(1000);
     }
@@ -303,6 +328,38 @@ describe('download route', () => {
     expect(unknown.status).toBe(404);
     expect(((await unknown.json()) as { error: { message: string } }).error.message).toMatch(/csv, votable, fits, json/);
     expect((await call(collaborator, 'csv', '?teffMin=warm')).status).toBe(400);
+  });
+
+  it('applies the flag, flagAbsent, q and chi2Max parameters (rows compared with plain SQL)', async () => {
+    const ids = async (query: string) => {
+      const res = await call(collaborator, 'csv', query);
+      expect(res.status, query).toBe(200);
+      return (parseCsv(await res.text(), { comment: '#', columns: true }) as Record<string, string>[]).map((r) => r.id);
+    };
+    const hasFlag = (code: string) => `(' ' || f.flags || ' ') LIKE '% ${code} %'`;
+    const accepted = "f.review_status = 'accepted'";
+    const withFlag = dbRows(`${accepted} AND ${hasFlag('plx_missing')}`).map((r) => r.id);
+    const withoutFlag = dbRows(`${accepted} AND NOT ${hasFlag('plx_missing')}`).map((r) => r.id);
+    expect(withFlag.length).toBeGreaterThan(0);
+    expect(withoutFlag.length).toBeGreaterThan(0);
+    expect(await ids('?status=accepted&flag=plx_missing')).toEqual(withFlag);
+    expect(await ids('?status=accepted&flag=plx_missing&flagAbsent=1')).toEqual(withoutFlag);
+
+    const chi2 = dbRows(accepted).map((r) => Number(r.chi2_red)).filter(Number.isFinite).sort((a, b) => a - b);
+    const cut = chi2[Math.floor(chi2.length / 2)];
+    const belowCut = dbRows(`${accepted} AND f.chi2_red <= ${cut}`).map((r) => r.id);
+    expect(belowCut.length).toBeGreaterThan(0);
+    expect(belowCut.length).toBeLessThan(chi2.length);
+    expect(await ids(`?status=accepted&chi2Max=${cut}`)).toEqual(belowCut);
+
+    const prefix = String(dbRows(accepted)[0].id).slice(0, -1);
+    const byPrefix = dbRows(`${accepted} AND substr(s.star_key, 1, ${prefix.length}) = '${prefix}'`).map((r) => r.id);
+    expect(byPrefix.length).toBeGreaterThan(0);
+    expect(byPrefix.length).toBeLessThan(dbRows(accepted).length);
+    expect(await ids(`?status=accepted&q=${encodeURIComponent(prefix)}`)).toEqual(byPrefix);
+    // The selection line of the file says which filter made it.
+    const res = await call(collaborator, 'csv', `?status=accepted&flag=plx_missing&flagAbsent=1&chi2Max=${cut}&q=${encodeURIComponent(prefix)}`);
+    expect(await res.text()).toContain(`# selection: review status accepted; reduced χ² ≤ ${cut}; without flag plx_missing; star id starting with "${prefix}"`);
   });
 });
 

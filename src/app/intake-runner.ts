@@ -1,6 +1,6 @@
 // Starts and keeps alive the web process's intake thread (intake-thread.ts, run through tsx like
 // the workers). A thread that dies (a job beyond its memory limit) fails the job it held, with a
-// message, and is started again. Decision record 0018.
+// message, and is started again. Decision record 0023.
 import { Worker } from 'node:worker_threads';
 import { createRequire } from 'node:module';
 import path from 'node:path';
@@ -11,13 +11,14 @@ import { projectRoot } from '../db/paths';
 import { intakeJobs } from '../db/schema';
 import { finishJob, reportProgress, setIntakeRunner } from '../server/intake/jobs';
 import type { Progress } from '../server/intake/run';
+import type { InputLimits } from '../core/input/limits';
 
 /** Heap limit of the intake thread: a job beyond it ends the thread, not the web server. */
 const THREAD_HEAP_MB = 1024;
 
 let started = false;
 
-export function startIntakeThread(db: AppDatabase, databasePath: string): void {
+export function startIntakeThread(db: AppDatabase, databasePath: string, inputLimits?: Partial<InputLimits>): void {
   if (started) return;
   started = true;
   let worker: Worker | null = null;
@@ -30,7 +31,7 @@ export function startIntakeThread(db: AppDatabase, databasePath: string): void {
     // tsx compiles the TypeScript thread body, as `npm run worker` does for the fit workers.
     const w = new Worker(`import(${JSON.stringify(tsx)}).then((api) => { api.register(); return import(${JSON.stringify(entry)}); });`, {
       eval: true,
-      workerData: { databasePath, pollMs: 2000 },
+      workerData: { databasePath, pollMs: 2000, inputLimits: { ...inputLimits } },
       resourceLimits: { maxOldGenerationSizeMb: THREAD_HEAP_MB },
     });
     w.unref();

@@ -10,6 +10,8 @@ export interface CampaignSummary {
   name: string;
   description: string;
   createdAt: string;
+  /** Set when the campaign is archived (read-only, listed apart). */
+  archivedAt: string | null;
   myRoles: CampaignRole[];
   memberCount: number;
 }
@@ -32,7 +34,7 @@ export interface PendingInvitation {
 }
 
 export interface CampaignOverview {
-  campaign: { id: string; name: string; description: string; createdAt: string; createdBy: { name: string; email: string } | null };
+  campaign: { id: string; name: string; description: string; createdAt: string; createdBy: { name: string; email: string } | null; archivedAt: string | null };
   myRoles: CampaignRole[];
   canManageMembers: boolean;
   members: CampaignMember[];
@@ -47,4 +49,17 @@ export interface HealthReport {
   status: 'ok' | 'degraded';
   version: string;
   database: { reachable: boolean; migrated: boolean; appliedMigrations: number; expectedMigrations: number; error?: string };
+}
+
+/** A personal API token as GET/POST /api/tokens and DELETE /api/tokens/:id show it (never its secret). */
+export interface ApiTokenView {
+  id: string;
+  name: string;
+  /** The first characters of the secret, to tell tokens apart. */
+  prefix: string;
+  createdAt: string;
+  lastUsedAt: string | null;
+  expiresAt: string | null;
+  revokedAt: string | null;
+  status: 'active' | 'revoked' | 'expired';
 }

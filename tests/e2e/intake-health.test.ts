@@ -1,7 +1,7 @@
 // The web server stays responsive while a large upload is received, read, checked and imported:
 // the built server (dist/) on a real HTTP port, a generated CSV of about 30 MB sent with an API
 // token, and /api/health asked every 50 ms from start to finish. Reading and importing run in the
-// server's intake thread (decision record 0018); before that, a 190 MB file froze health for 12 s
+// server's intake thread (decision record 0023); before that, a 190 MB file froze health for 12 s
 // while arriving and its check stalled the server for 56 s. The bounds here are generous (every
 // answer under 1 s, the median under 300 ms) so a loaded machine passes; `npm run bench -- --only
 // intake` measures the latency precisely.

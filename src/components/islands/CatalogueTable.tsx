@@ -17,7 +17,7 @@ import {
   useCataloguePage,
   type CataloguePage,
   type CatalogueRowView,
-  type SortKey,
+  type CatalogueSort,
 } from '../../browser/catalogue';
 import { getQueryClient } from '../../browser/query-client';
 
@@ -72,7 +72,7 @@ function Table({ campaignId, initialQuery, initialPage, initialCount }: Props) {
   const page = useCataloguePage(campaignId, query, { query: initialQuery, page: initialPage });
   const count = useCatalogueCount(campaignId, query, { query: initialQuery, ...initialCount });
   const params = new URLSearchParams(query);
-  const sort = (params.get('sort') ?? 'teff_k') as SortKey;
+  const sort = (params.get('sort') ?? 'teff_k') as CatalogueSort;
   const dir = params.get('dir') === 'desc' ? 'desc' : 'asc';
   const data = page.data ?? initialPage;
 
@@ -90,7 +90,7 @@ function Table({ campaignId, initialQuery, initialPage, initialCount }: Props) {
     setQuery(next);
   };
 
-  const sortLink = (key: SortKey) => withParams(query, { sort: key, dir: sort === key && dir === 'asc' ? 'desc' : 'asc', after: null, before: null });
+  const sortLink = (key: CatalogueSort) => withParams(query, { sort: key, dir: sort === key && dir === 'asc' ? 'desc' : 'asc', after: null, before: null });
 
   const columns = useMemo(
     () => [
@@ -243,6 +243,10 @@ function Table({ campaignId, initialQuery, initialPage, initialCount }: Props) {
             {f.label}
           </a>
         ))}
+        <p className="basis-full text-xs text-ink-600" data-testid="download-readers">
+          Which file for which reader: ECSV for astropy (<code>Table.read(f)</code> as it is, units and provenance included); VOTable or FITS for astronomy table tools and
+          other astronomy software; JSON for scripts; CSV for spreadsheets and pandas (<code>comment=&apos;#&apos;</code>) — its <code>#</code> provenance lines are not skipped by astropy&apos;s plain CSV reader.
+        </p>
       </div>
 
       {error && (
@@ -256,7 +260,7 @@ function Table({ campaignId, initialQuery, initialPage, initialCount }: Props) {
             {table.getHeaderGroups().map((g) => (
               <tr key={g.id}>
                 {g.headers.map((h) => {
-                  const key = h.column.id as SortKey;
+                  const key = h.column.id as CatalogueSort;
                   const sortable = (['star_key', 'teff_k', 'lum_lsun', 'radius_rsun', 'chi2_red', 'review_status'] as string[]).includes(key);
                   const active = sortable && key === sort;
                   return (

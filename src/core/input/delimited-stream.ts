@@ -1,7 +1,7 @@
 // Delimited text (CSV / TSV) read piece by piece: the same records, header, units line and line
 // numbers as parseDelimited (delimited.ts), but text is pushed in chunks and each record is handed
 // on as soon as it is complete, so a file of any size is read with memory bounded by the longest
-// record. The intake job reads uploads through this (decision record 0018).
+// record. The intake job reads uploads through this (decision record 0023).
 import { DelimitedError, detectDelimiter, type Delimiter } from './delimited';
 
 export interface DelimitedHeader {
@@ -20,6 +20,8 @@ export interface DelimitedStreamHandlers {
 }
 
 const RULE = /^\s*-+\s*$/;
+/** Spreadsheet exports may start with a "sep=;" line naming the delimiter (as in delimited.ts). */
+const SEP_LINE = /^"?sep=([,;\t])"?$/i;
 
 function isNumberText(field: string): boolean {
   const t = field.trim();
@@ -32,6 +34,7 @@ export class DelimitedStream {
   private line = 1;
   private started = false;
   private inPreamble = true;
+  private sepSeen = false;
   private delimiter: Delimiter | undefined;
   private readonly comments: string[] = [];
   /** The header and up to two records under it, held until the units line can be told apart. */
@@ -92,9 +95,16 @@ export class DelimitedStream {
         const content = text.slice(this.pos, nl.end);
         if (content.startsWith('#')) this.comments.push(content.slice(1).replace(/^ /, ''));
         else if (content.trim() !== '') {
-          this.delimiter ??= detectDelimiter(content);
-          this.inPreamble = false;
-          break;
+          const sep = this.sepSeen ? null : SEP_LINE.exec(content.trim());
+          if (sep) {
+            // A spreadsheet's "sep=;" line names the delimiter (as parseDelimited reads it).
+            this.sepSeen = true;
+            this.delimiter ??= sep[1] as Delimiter;
+          } else {
+            this.delimiter ??= detectDelimiter(content);
+            this.inPreamble = false;
+            break;
+          }
         }
         this.pos = nl.next;
         this.line++;

@@ -33,7 +33,7 @@ export const uploads = sqliteTable(
     createdAt: integer('created_at', { mode: 'timestamp_ms' }).notNull().default(now),
     importedAt: integer('imported_at', { mode: 'timestamp_ms' }),
     // What the intake job read once from the file (columns, units, preview rows, detected mapping,
-    // or an image's observation), so views never parse the file again (decision record 0018).
+    // or an image's observation), so views never parse the file again (decision record 0023).
     inspection: text('inspection', { mode: 'json' }).$type<Record<string, unknown>>(),
     // The last check: its summary, the mapping and rules it used and where its staged rows are.
     lastCheck: text('last_check', { mode: 'json' }).$type<Record<string, unknown>>(),
@@ -48,7 +48,7 @@ export type IntakeJobStatus = (typeof INTAKE_JOB_STATUSES)[number];
 
 /**
  * Intake jobs: reading, checking and importing an upload run here, off the web server's request
- * path, one at a time in the web process's intake thread (decision record 0018).
+ * path, one at a time in the web process's intake thread (decision record 0023).
  */
 export const intakeJobs = sqliteTable(
   'intake_jobs',

@@ -1,6 +1,6 @@
 // Intake use cases: receive an upload, then read it, check a mapping against every row and import
 // the stars and measurements in one transaction — each of those three as an intake job that runs
-// off the request (src/server/intake/run.ts, decision record 0018). Views read what the jobs
+// off the request (src/server/intake/run.ts, decision record 0023). Views read what the jobs
 // stored; no request parses the file.
 import { and, count, desc, eq, inArray } from 'drizzle-orm';
 import { rmSync } from 'node:fs';
@@ -20,6 +20,8 @@ import type { IntakeJobView, ReportEntry, UploadDetail, UploadSummary } from '..
 import { enqueueJob, getJob, jobView, latestJob, wakeIntakeRunner } from './jobs';
 import { sniffOnArrival } from './read-table';
 import { checkKey, type Inspection, type StoredCheck } from './run';
+import { starIdProblem } from '../../core/input/star-id';
+import { MAG_RANGE } from '../../core/input/apply-mapping';
 
 export type { CheckSummary, ImportSummary, IntakeJobView, UploadDetail, UploadSummary } from '../../contracts/intake';
 import { intakeConfigOf, receiveUpload, type IntakeConfig } from './storage';
@@ -33,6 +35,16 @@ export function bandKeys(db: DbOrTx): string[] {
 
 export function intakeConfig(app: AppServices): IntakeConfig {
   return intakeConfigOf(app.env);
+}
+
+/**
+ * How the intake answers a file it will not read: 400 for what is refused for safety (hostile XML),
+ * 422 for a file it cannot read or one past a limit (docs/decisions/0018-input-limits.md).
+ */
+export function unreadableAnswer(err: UnreadableFile): { status: number; code: string } {
+  if (err.kind === 'unsafe') return { status: 400, code: 'unsafe_file' };
+  if (err.kind === 'limit') return { status: 422, code: 'input_limit' };
+  return { status: 422, code: 'unreadable_file' };
 }
 
 // ---------------------------------------------------------------------------------------------
@@ -66,9 +78,16 @@ export const importInput = z.object({
   /** FITS image uploads: the value measured on the image. */
   image: z
     .object({
-      starId: z.string().trim().min(1, 'Give the star id the image measures.').max(200),
+      starId: z
+        .string()
+        .trim()
+        .min(1, 'Give the star id the image measures.')
+        .superRefine((id, ctx) => {
+          const problem = starIdProblem(id);
+          if (problem) ctx.addIssue({ code: 'custom', message: `${problem[0].toUpperCase()}${problem.slice(1)}.` });
+        }),
       band: z.string().min(1, 'Choose the band.').max(40),
-      mag: z.number({ error: 'mag must be a number.' }).finite(),
+      mag: z.number({ error: 'mag must be a number.' }).finite().min(MAG_RANGE.min, `mag must be within ${MAG_RANGE.min}…${MAG_RANGE.max}.`).max(MAG_RANGE.max, `mag must be within ${MAG_RANGE.min}…${MAG_RANGE.max}.`),
       magErr: z.number({ error: 'magErr must be a number.' }).finite().nonnegative('The magnitude error cannot be negative.'),
     })
     .optional(),
@@ -139,6 +158,7 @@ export async function createUpload(app: AppServices, actor: Actor, campaignId: s
   const stored = await receiveUpload(request, campaignId, config);
   const id = newId();
   let problem: string | null = null;
+  let answer = { status: 422, code: 'unreadable_file' };
   try {
     sniffOnArrival(stored.storedPath, stored.originalName);
   } catch (err) {
@@ -147,6 +167,7 @@ export async function createUpload(app: AppServices, actor: Actor, campaignId: s
       throw err;
     }
     problem = err.message;
+    answer = unreadableAnswer(err);
   }
   const row = {
     id,
@@ -169,7 +190,7 @@ export async function createUpload(app: AppServices, actor: Actor, campaignId: s
   if (problem) {
     // The content is useless; keep the record and report, not the bytes.
     rmSync(stored.storedPath, { force: true });
-    throw new IntakeError(422, 'unreadable_file', problem, { uploadId: id, report: row.report });
+    throw new IntakeError(answer.status, answer.code, problem, { uploadId: id, report: row.report });
   }
   wakeIntakeRunner();
   return detail(app.db, getUploadRow(app.db, campaignId, id));
@@ -198,7 +219,7 @@ export function checkUpload(app: AppServices, actor: Actor, campaignId: string, 
   const u = getUploadRow(app.db, campaignId, uploadId);
   refuseEarly(u);
   const stored = u.lastCheck as unknown as StoredCheck | null;
-  if (stored && stored.key === checkKey(input.mapping as Mapping, input.rules, bandKeys(app.db))) {
+  if (stored && stored.key === checkKey(input.mapping as Mapping, input.rules, bandKeys(app.db), app.env.inputLimits)) {
     const job = app.db.transaction((tx) => {
       tx.update(uploads).set({ report: stored.summary.report, ...(u.status === 'imported' ? {} : { status: 'checked' as const }) }).where(eq(uploads.id, u.id)).run();
       return enqueueJob(tx, { uploadId, campaignId, kind: 'check', input, actorId: actor.id, done: { check: stored.summary } });

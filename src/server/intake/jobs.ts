@@ -1,5 +1,5 @@
 // Intake jobs: the record of each reading, check and import of an upload (table intake_jobs), how
-// one is claimed by the runner, and its progress. Decision record 0018.
+// one is claimed by the runner, and its progress. Decision record 0023.
 import { and, desc, eq } from 'drizzle-orm';
 import type { DbOrTx } from '../../db/client';
 import { intakeJobs, uploads, type IntakeJobKind } from '../../db/schema';

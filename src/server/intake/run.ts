@@ -1,4 +1,4 @@
-// The bodies of the intake jobs (decision record 0018). Each reads the upload at most once, row by
+// The bodies of the intake jobs (decision record 0023). Each reads the upload at most once, row by
 // row: the rows go through the column mapping into a staging file beside the upload, problems are
 // counted and the first ones kept, and only the summary and report enter the database. An import
 // then writes the staged stars in one IMMEDIATE transaction. They run in the web process's intake
@@ -15,10 +15,12 @@ import { intakeJobs, uploads } from '../../db/schema';
 import type { CheckSummary, ImportSummary, IntakeJobView } from '../../contracts/intake';
 import { IntakeError } from './errors';
 import { claimJob, finishJob } from './jobs';
-import { NotUtf8, readTableFile, type TableHead } from './read-table';
+import { readTableFile, type TableHead } from './read-table';
 import { CappedProblems, fileProblem, type ReportEntry } from './report';
 import { readStaged, removeStaging, stagingPathFor, StagingWriter } from './staging';
-import { bandForFilter, bandKeys, campaignCounts, importInput, mappingInput, PREVIEW_ROWS, rulesInput } from './intake';
+import { bandForFilter, bandKeys, campaignCounts, importInput, mappingInput, PREVIEW_ROWS, rulesInput, unreadableAnswer } from './intake';
+import { recordAuditSql } from '../audit';
+import { DEFAULT_INPUT_LIMITS, type InputLimits } from '../../core/input/limits';
 
 type JobRow = typeof intakeJobs.$inferSelect;
 type UploadRow = typeof uploads.$inferSelect;
@@ -36,6 +38,8 @@ export interface RunHooks {
   /** Called inside the import transaction after each star (tests use it to fail mid-import). */
   afterStar?: (starKey: string) => void;
   progress?: (jobId: string, p: Progress) => void;
+  /** The reader limits (INPUT_MAX_*) of the process running the job; the defaults when absent. */
+  limits?: Partial<InputLimits>;
 }
 
 /** What the upload view shows without reading the file again. */
@@ -55,13 +59,17 @@ export interface StoredCheck {
   staged: boolean;
 }
 
-/** Identifies a check: the mapping and rules as validated, and the band keys they were checked against. */
-export function checkKey(mapping: Mapping, rules: MappingRules, keys: readonly string[]): string {
+/**
+ * Identifies a check: the mapping and rules as validated, the band keys they were checked against
+ * and the reader limits it was read under (a limit changed since means reading the file again).
+ */
+export function checkKey(mapping: Mapping, rules: MappingRules, keys: readonly string[], limits?: Partial<InputLimits>): string {
   const pm = mappingInput.safeParse(mapping);
   const pr = rulesInput.safeParse(rules);
   const m = pm.success ? pm.data : mapping;
   const r = pr.success ? pr.data : rules;
-  return createHash('sha256').update(JSON.stringify({ m, r, keys })).digest('hex');
+  const l = { ...DEFAULT_INPUT_LIMITS, ...limits };
+  return createHash('sha256').update(JSON.stringify({ m, r, keys, l: [l.maxBytes, l.maxRows, l.maxColumns, l.maxCells, l.maxSeconds] })).digest('hex');
 }
 
 class Refusal extends Error {
@@ -98,7 +106,7 @@ interface PassResult {
 async function pass(db: AppDatabase, job: JobRow, u: UploadRow, chosen: { mapping: Mapping; rules: MappingRules } | 'detect', hooks: RunHooks): Promise<PassResult> {
   const keys = bandKeys(db);
   const report = (rowsRead: number) => hooks.progress?.(job.id, { rowsRead, starsWritten: 0, phase: 'reading' });
-  const run = async (encoding: 'utf-8' | 'latin1'): Promise<PassResult> => {
+  const run = async (): Promise<PassResult> => {
     const sample: PassResult['sample'] = [];
     let head: TableHead | null = null;
     let mapper: RowMapper | null = null;
@@ -117,6 +125,8 @@ async function pass(db: AppDatabase, job: JobRow, u: UploadRow, chosen: { mappin
         rules = chosen.rules;
       }
       problems = new CappedProblems();
+      // The stored check no longer holds once its staging file is rebuilt (a stop half-way leaves it partial).
+      markUnstaged(db, u.id);
       staging = new StagingWriter(stagingPathFor(u.storedPath));
       mapper = new RowMapper(head.columns, u.originalName, mapping, rules, { bandKeys: keys }, staging, problems);
       for (const s of sample) mapper.row(s.cells, s.line);
@@ -138,7 +148,7 @@ async function pass(db: AppDatabase, job: JobRow, u: UploadRow, chosen: { mappin
           },
           progress: report,
         },
-        encoding,
+        hooks.limits,
       );
       if (result.kind === 'image') return { head: null, image: result.observation, sample: [], summary: null, rowCount: 1, key: null, mapping: null, rules: null };
       startMapping();
@@ -158,19 +168,18 @@ async function pass(db: AppDatabase, job: JobRow, u: UploadRow, chosen: { mappin
         report: p.report(),
       };
       report(counts.rowCount);
-      return { head, sample, summary, rowCount: counts.rowCount, key: checkKey(mapping!, rules!, keys), mapping, rules };
+      return { head, sample, summary, rowCount: counts.rowCount, key: checkKey(mapping!, rules!, keys, hooks.limits), mapping, rules };
     } catch (err) {
       (staging as StagingWriter | null)?.abandon();
       throw err;
     }
   };
-  try {
-    return await run('utf-8');
-  } catch (err) {
-    // Latin-1 files are still common from older tools: read them byte for byte rather than refuse.
-    if (err instanceof NotUtf8) return run('latin1');
-    throw err;
-  }
+  return run();
+}
+
+function markUnstaged(db: AppDatabase, uploadId: string): void {
+  const stored = db.select({ lastCheck: uploads.lastCheck }).from(uploads).where(eq(uploads.id, uploadId)).get()?.lastCheck as unknown as StoredCheck | null | undefined;
+  if (stored?.staged) db.update(uploads).set({ lastCheck: { ...stored, staged: false } as unknown as Record<string, unknown> }).where(eq(uploads.id, uploadId)).run();
 }
 
 function storeCheck(db: AppDatabase, u: UploadRow, key: string, summary: CheckSummary, extra: Partial<typeof uploads.$inferInsert> = {}): void {
@@ -198,7 +207,8 @@ async function readJob(db: AppDatabase, job: JobRow, u: UploadRow, hooks: RunHoo
     );
     rmSync(u.storedPath, { force: true });
     removeStaging(u.storedPath);
-    throw new Refusal({ status: 422, error: { code: 'unreadable_file', message: err.message }, report, uploadId: u.id });
+    const answer = unreadableAnswer(err);
+    throw new Refusal({ status: answer.status, error: { code: answer.code, message: err.message }, report, uploadId: u.id });
   }
   const keys = bandKeys(db);
   if (r.image) {
@@ -226,7 +236,7 @@ function assertCheckable(u: UploadRow): void {
 
 /** The stored check for this mapping when it is still staged, else a new pass over the file. */
 async function ensureChecked(db: AppDatabase, job: JobRow, u: UploadRow, mapping: Mapping, rules: MappingRules, hooks: RunHooks): Promise<CheckSummary> {
-  const key = checkKey(mapping, rules, bandKeys(db));
+  const key = checkKey(mapping, rules, bandKeys(db), hooks.limits);
   const stored = u.lastCheck as unknown as StoredCheck | null;
   if (stored && stored.key === key && stored.staged && existsSync(stagingPathFor(u.storedPath))) return stored.summary;
   const r = await pass(db, job, u, { mapping, rules }, hooks);
@@ -339,9 +349,7 @@ async function importJob(db: AppDatabase, job: JobRow, u: UploadRow, hooks: RunH
       sqlite
         .prepare('UPDATE uploads SET status = ?, report = ?, imported_row_count = ?, imported_at = ? WHERE id = ?')
         .run('imported', JSON.stringify(check.report), check.rowCount - check.rejectedRows, nowMs, u.id);
-      sqlite
-        .prepare('INSERT INTO audit_events (actor_id, action, campaign_id, details) VALUES (?, ?, ?, ?)')
-        .run(job.actorId, 'upload.imported', campaignId, JSON.stringify({ uploadId: u.id, source, ...counts, problems: check.errorCount }));
+      recordAuditSql(sqlite, { actorId: job.actorId, action: 'upload.imported', campaignId, details: { uploadId: u.id, source, ...counts, problems: check.errorCount } });
     })
     .immediate();
   if (fromStaging) {
@@ -376,6 +384,12 @@ export async function runIntakeJob(db: AppDatabase, job: JobRow, hooks: RunHooks
     }
     if (err instanceof IntakeError) {
       finishJob(db, job.id, 'failed', { refusal: refusalOf(err).refusal }, rowsRead);
+      return;
+    }
+    if (err instanceof UnreadableFile) {
+      // Read when it arrived, so a limit lowered since (or the time limit on a busy machine).
+      const answer = unreadableAnswer(err);
+      finishJob(db, job.id, 'failed', { refusal: { status: answer.status, error: { code: answer.code, message: err.message } } }, rowsRead);
       return;
     }
     console.error(`intake job ${job.id} (${job.kind}) failed:`, err);

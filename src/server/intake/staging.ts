@@ -2,9 +2,11 @@
 // instead of in memory: one row per star with its values and measurements as JSON, plus the first
 // row of every id seen (duplicates) and the state of long-format stars while their rows arrive.
 // A million stars cost disk, not memory, and the import reads them back one at a time
-// (decision record 0018). The file is rebuilt by any check, so it needs no journal.
+// (decision record 0023). The file is rebuilt by any check, so it needs no journal.
 import Database from 'better-sqlite3';
-import { rmSync } from 'node:fs';
+import { readdirSync, rmSync } from 'node:fs';
+import path from 'node:path';
+import type { AppDatabase } from '../../db/client';
 import type { LongStar, MappedStar, MapperStore } from '../../core/input/apply-mapping';
 
 export function stagingPathFor(storedPath: string): string {
@@ -135,4 +137,53 @@ export function* readStaged(path: string): Generator<MappedStar> {
   } finally {
     db.close();
   }
+}
+
+const STAGING_SUFFIX = '.check.sqlite';
+
+/**
+ * Removes staging files no upload can use: the upload is gone (withdrawn, or its campaign deleted),
+ * or its stored check no longer says the file holds its stars (a check cut short by a stopped
+ * process, or an import done since). Run by the web server at start-up, before its intake thread
+ * starts (the only process that writes them), so no job is building one meanwhile. Returns the
+ * files removed.
+ */
+export function removeOrphanStaging(db: AppDatabase, dataDir: string): string[] {
+  const root = path.join(dataDir, 'uploads');
+  const removed: string[] = [];
+  let campaigns: string[];
+  try {
+    campaigns = readdirSync(root);
+  } catch {
+    return removed; // no uploads yet
+  }
+  const lastCheckOf = db.$client.prepare('SELECT last_check FROM uploads WHERE stored_path = ?').pluck();
+  for (const campaign of campaigns) {
+    const dir = path.join(root, campaign);
+    let names: string[];
+    try {
+      names = readdirSync(dir);
+    } catch {
+      continue; // not a folder
+    }
+    for (const name of names) {
+      const at = name.indexOf(STAGING_SUFFIX);
+      if (at < 0 || !['', '-journal', '-wal', '-shm'].includes(name.slice(at + STAGING_SUFFIX.length))) continue;
+      const storedPath = path.join(dir, name.slice(0, at));
+      const raw = lastCheckOf.get(storedPath) as string | null | undefined;
+      let staged = false;
+      if (typeof raw === 'string') {
+        try {
+          staged = (JSON.parse(raw) as { staged?: boolean }).staged === true;
+        } catch {
+          staged = false;
+        }
+      }
+      if (staged) continue;
+      const file = path.join(dir, name);
+      rmSync(file, { force: true });
+      removed.push(file);
+    }
+  }
+  return removed;
 }
