@@ -1,8 +1,10 @@
-// Delimited text (CSV / TSV) read piece by piece: the same records, header, units line and line
-// numbers as parseDelimited (delimited.ts), but text is pushed in chunks and each record is handed
+// Delimited text (CSV / TSV) read piece by piece: text is pushed in chunks and each record is handed
 // on as soon as it is complete, so a file of any size is read with memory bounded by the longest
-// record. The intake job reads uploads through this (decision record 0023).
-import { DelimitedError, detectDelimiter, type Delimiter } from './delimited';
+// record, and the records, header, units line and line numbers do not depend on where the chunks
+// end. The intake job streams uploads through it (decision record 0023); parseDelimited below is the
+// same scanner given a whole text at once, for the readers that hold a table in memory.
+import { DelimitedError, detectDelimiter, isNumberText, RULE, SEP_LINE, type DelimitedTable, type Delimiter } from './delimited';
+import { ReadBudget } from './limits';
 
 export interface DelimitedHeader {
   delimiter: Delimiter;
@@ -17,15 +19,6 @@ export interface DelimitedStreamHandlers {
   header(h: DelimitedHeader): void;
   /** Each data record with the 1-based line it starts on. */
   row(fields: string[], line: number): void;
-}
-
-const RULE = /^\s*-+\s*$/;
-/** Spreadsheet exports may start with a "sep=;" line naming the delimiter (as in delimited.ts). */
-const SEP_LINE = /^"?sep=([,;\t])"?$/i;
-
-function isNumberText(field: string): boolean {
-  const t = field.trim();
-  return t !== '' && Number.isFinite(Number(t));
 }
 
 export class DelimitedStream {
@@ -97,7 +90,7 @@ export class DelimitedStream {
         else if (content.trim() !== '') {
           const sep = this.sepSeen ? null : SEP_LINE.exec(content.trim());
           if (sep) {
-            // A spreadsheet's "sep=;" line names the delimiter (as parseDelimited reads it).
+            // A spreadsheet's "sep=;" line names the delimiter.
             this.sepSeen = true;
             this.delimiter ??= sep[1] as Delimiter;
           } else {
@@ -238,7 +231,17 @@ export class DelimitedStream {
     if (this.head.length === 3) this.flushHead(false);
   }
 
-  /** The header is known once two records follow it (or the file ends): units and rule lines are not data. */
+  /**
+   * The header is known once two records follow it (or the file ends). VizieR's tab-separated output
+   * puts a line of units and a line of dashes right under the column names (common practice of
+   * VizieR's TSV download, from memory):
+   *   RAJ2000  Vmag  e_Vmag        column names
+   *   deg      mag   mag           units, blank for a column without one
+   *   -------  ----  ------        dashes under each column
+   * Neither line is data. A dashes line alone (no units) is skipped the same way. A units line is
+   * only taken as such when the dashes follow it and none of its fields is a number; one column is
+   * no photometry table, and there a lone '--' is more likely a missing value.
+   */
   private flushHead(final: boolean): void {
     if (this.headerDone || (!final && this.head.length < 3)) return;
     this.headerDone = true;
@@ -273,4 +276,48 @@ function countLineBreaks(s: string): number {
     else if (c === 13 && s.charCodeAt(i + 1) !== 10) count++;
   }
   return count;
+}
+
+export interface ParseDelimitedOptions {
+  delimiter?: Delimiter;
+  source?: string;
+  /** Rows, columns, cells and time this text may take (limits.ts); default limits when absent. */
+  budget?: ReadBudget;
+}
+
+/**
+ * A whole delimited text as a table: the stream above given the text in one piece. Leading lines
+ * starting with '#' are comments; blank lines are skipped. Holds every row, so the budget's cell
+ * limit (a memory budget) applies as well as its row, column and time limits.
+ */
+export function parseDelimited(text: string, options: ParseDelimitedOptions = {}): DelimitedTable {
+  const source = options.source ?? 'table';
+  const budget = options.budget ?? new ReadBudget(source);
+  const rows: string[][] = [];
+  const lines: number[] = [];
+  let cells = 0;
+  let units: DelimitedHeader['units'];
+  const stream = new DelimitedStream(
+    {
+      header: (h) => {
+        if (h.header.length) budget.columns(h.header.length, () => `line ${h.headerLine}`);
+        cells = h.header.length;
+        units = h.units;
+      },
+      row: (fields, line) => {
+        const where = () => `line ${line}`;
+        budget.rows(rows.length + 1, where);
+        cells += fields.length;
+        budget.cells(cells, where);
+        budget.tick(where);
+        rows.push(fields);
+        lines.push(line);
+      },
+    },
+    // The whole text is in memory already: a record may be as long as the text.
+    { delimiter: options.delimiter, source, maxRecordChars: Math.max(text.length, 1) },
+  );
+  stream.push(text);
+  const h = stream.end();
+  return { delimiter: h.delimiter, header: h.header, headerLine: h.headerLine, rows, lines, comments: h.comments, ...(units ? { units } : {}) };
 }

@@ -3,10 +3,12 @@
 // intake and the `starkiln fit` command both read files through here, so they accept the same
 // formats and say the same things about a file they cannot read.
 import type { ColumnTable, TableCell } from './mapping';
-import { DelimitedError, decodeText, parseDelimited } from './delimited';
+import { DelimitedError, decodeText } from './delimited';
+import type { DelimitedHeader } from './delimited-stream';
+import { TextTableReader } from './text-table';
 import { FitsError, readFits, readFitsImageHeader, readFitsTable, type FitsCell } from './fits-file';
 import { readVoTable, VoTableError } from './votable';
-import { ReadBudget, shownText, UnreadableFile, type Clock, type InputLimits } from './limits';
+import { ReadBudget, stripSource, UnreadableFile, type Clock, type InputLimits } from './limits';
 
 export { InputLimitError, UnreadableFile } from './limits';
 
@@ -164,106 +166,41 @@ function imageUpload(meta: ReturnType<typeof readFitsImageHeader>): ReadUpload {
   return { format: 'fits-image', observation, warnings: meta.warnings };
 }
 
-function stripSource(message: string, file: string): string {
-  return message.startsWith(`${file}: `) ? message.slice(file.length + 2) : message;
-}
-
-/** Where a cell of a delimited file is, in words: its data row, file line and column. */
-function cellPlace(parsed: { header: string[]; lines: number[] }, r: number, c: number): string {
-  return `row ${r + 1} (file line ${parsed.lines[r]}), column ${parsed.header[c] || c + 1}`;
-}
-
-/**
- * A NUL byte in a cell (text is never expected to hold one; a C string would end there): refused,
- * naming the first cell that has one.
- */
-function refuseNul(parsed: { header: string[]; rows: string[][]; lines: number[] }, file: string): void {
-  for (let r = 0; r < parsed.rows.length; r++) {
-    const row = parsed.rows[r];
-    for (let c = 0; c < row.length; c++) {
-      if (row[c].includes('\u0000')) throw new UnreadableFile(nulCellMessage(file, cellPlace(parsed, r, c), row[c]));
-    }
-  }
-  const h = parsed.header.findIndex((x) => x.includes('\u0000'));
-  if (h >= 0) throw new UnreadableFile(`${file}: column ${h + 1} of the header holds a NUL byte (U+0000)`);
-}
-
-/** A NUL in a cell, in words (also used by the streaming intake). `place`: row, file line and column. */
-export function nulCellMessage(file: string, place: string, cell: string): string {
-  return `${file}, ${place}: the cell "${shownText(cell, 40)}" holds a NUL byte (U+0000), which text never holds; nothing was read`;
-}
-
-export const DECIMAL_COMMA = /^\s*[+-]?(\d+,\d*|,\d+)([eE][+-]?\d+)?\s*$/;
-export const DECIMAL_POINT = /^\s*[+-]?(\d+\.\d*|\.\d+)([eEdD][+-]?\d+)?\s*$/;
-
-/** Decimal commas and decimal points in one semicolon-separated file, in words (also the streaming intake's). */
-export function mixedDecimalsMessage(file: string, comma: { place: string; cell: string }, point: { place: string; cell: string }): string {
-  return `${file}: semicolon-separated with both decimal commas (${comma.place}: "${shownText(comma.cell)}") and decimal points (${point.place}: "${shownText(point.cell)}"); which a number means cannot be told: save the file with one decimal separator (or as comma-separated CSV with decimal points)`;
-}
-
-/**
- * A semicolon-separated file (the export of a spreadsheet set to a language that writes decimal
- * commas) with numbers like 9,52: read as 9.52 when no cell uses a decimal point; refused, naming
- * one cell of each kind, when both kinds appear (which one a cell like 1,234 means cannot be told).
- */
-function readDecimalCommas(parsed: { header: string[]; rows: string[][]; lines: number[] }, file: string): void {
-  let comma: [number, number] | undefined;
-  let point: [number, number] | undefined;
-  for (let r = 0; r < parsed.rows.length && !(comma && point); r++) {
-    const row = parsed.rows[r];
-    for (let c = 0; c < row.length; c++) {
-      const v = row[c];
-      if (!comma && v.includes(',') && DECIMAL_COMMA.test(v)) comma = [r, c];
-      else if (!point && v.includes('.') && DECIMAL_POINT.test(v)) point = [r, c];
-    }
-  }
-  if (!comma) return;
-  if (point) {
-    throw new UnreadableFile(
-      mixedDecimalsMessage(file, { place: cellPlace(parsed, ...comma), cell: parsed.rows[comma[0]][comma[1]] }, { place: cellPlace(parsed, ...point), cell: parsed.rows[point[0]][point[1]] }),
-    );
-  }
-  for (const row of parsed.rows) {
-    for (let c = 0; c < row.length; c++) if (row[c].includes(',') && DECIMAL_COMMA.test(row[c])) row[c] = row[c].replace(',', '.');
-  }
-}
-
-function readTextUpload(bytes: Uint8Array, file: string, budget: ReadBudget): ReadUpload {
-  let text: string;
+/** Bytes of a text upload as text, or an UnreadableFile saying what they are instead (decodeText). */
+export function decodeTextUpload(bytes: Uint8Array, file: string): string {
   try {
-    text = decodeText(bytes, file);
+    return decodeText(bytes, file);
   } catch (err) {
     if (err instanceof DelimitedError) {
       throw new UnreadableFile(`${file}: ${stripSource(err.message, file)}. Upload a CSV or TSV text file, a VOTable or a FITS table.`);
     }
     throw err;
   }
-  let parsed;
-  try {
-    parsed = parseDelimited(text, { source: file, budget });
-  } catch (err) {
-    if (err instanceof DelimitedError) throw new UnreadableFile(`${file}: ${stripSource(err.message, file)}`);
-    throw err;
-  }
-  checkTextHeader(file, parsed.header, parsed.headerLine);
-  if (parsed.rows.length === 0) throw new UnreadableFile(`${file}: the file has a header but no data rows`);
-  if (text.includes('\u0000')) refuseNul(parsed, file);
-  if (parsed.delimiter === ';') readDecimalCommas(parsed, file);
-  return {
-    format: parsed.delimiter === '\t' ? 'tsv' : 'csv',
-    table: { file, columns: parsed.header, rows: parsed.rows, lines: parsed.lines, ...(parsed.units ? { units: parsed.units } : {}) },
-  };
 }
 
-/** A text table's header must name every column once (also checked by the streaming intake). */
-export function checkTextHeader(file: string, header: readonly string[], headerLine: number): void {
-  if (header.length === 0 || header.every((h) => h === '')) throw new UnreadableFile(`${file}: the file has no header line with column names`);
-  const seen = new Map<string, number>();
-  header.forEach((h, i) => {
-    if (h === '') throw new UnreadableFile(`${file}, line ${headerLine}, column ${i + 1}: the header has an empty column name`);
-    if (seen.has(h)) throw new UnreadableFile(`${file}, line ${headerLine}: the column name "${h}" appears twice (columns ${seen.get(h)! + 1} and ${i + 1})`);
-    seen.set(h, i);
-  });
+function readTextUpload(bytes: Uint8Array, file: string, budget: ReadBudget): ReadUpload {
+  const text = decodeTextUpload(bytes, file);
+  let head: DelimitedHeader | undefined;
+  const rows: string[][] = [];
+  const lines: number[] = [];
+  const reader = new TextTableReader(
+    file,
+    {
+      head: (h) => {
+        head = h;
+      },
+      row: (fields, line) => {
+        rows.push(fields);
+        lines.push(line);
+      },
+    },
+    budget,
+    true,
+  );
+  reader.push(text);
+  const { format } = reader.end();
+  const h = head!;
+  return { format, table: { file, columns: h.header, rows, lines, ...(h.units ? { units: h.units } : {}) } };
 }
 
 export type XmlTableReader = (bytes: Uint8Array, file: string, budget?: ReadBudget) => ColumnTable;

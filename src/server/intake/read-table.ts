@@ -1,12 +1,13 @@
 // An upload's table read from disk row by row, for the intake job. CSV/TSV text streams through
-// DelimitedStream in 1 MB pieces (memory bounded by the longest record); a VOTable or FITS file
+// the core's TextTableReader in 1 MB pieces (memory bounded by the longest record; the same checks
+// as a text read whole); a VOTable or FITS file
 // is read whole by its reader, within the upload limit (decision record 0023).
 import { createReadStream, openSync, readFileSync, readSync, closeSync, statSync } from 'node:fs';
-import { DelimitedError, decodeText, firstInvalidUtf8, invalidUtf8Message } from '../../core/input/delimited';
+import { firstInvalidUtf8, invalidUtf8Message } from '../../core/input/delimited';
 import { ReadBudget, type InputLimits } from '../../core/input/limits';
-import { DelimitedStream } from '../../core/input/delimited-stream';
 import type { TableCell } from '../../core/input/column-table';
-import { checkTextHeader, DECIMAL_COMMA, DECIMAL_POINT, mixedDecimalsMessage, nulCellMessage, readUpload, sniffFormat, UnreadableFile, type DetectedFormat, type ImageObservation } from '../../core/input/table-file';
+import { decodeTextUpload, readUpload, sniffFormat, UnreadableFile, type DetectedFormat, type ImageObservation } from '../../core/input/table-file';
+import { TextTableReader } from '../../core/input/text-table';
 
 export interface TableHead {
   format: Exclude<DetectedFormat, 'fits-image'>;
@@ -25,10 +26,6 @@ export type TableFileResult = { kind: 'image'; observation: ImageObservation } |
 
 const PIECE = 1024 * 1024;
 
-function stripSource(message: string, file: string): string {
-  return message.startsWith(`${file}: `) ? message.slice(file.length + 2) : message;
-}
-
 function readHead(storedPath: string, n: number): Uint8Array {
   const fd = openSync(storedPath, 'r');
   try {
@@ -40,28 +37,21 @@ function readHead(storedPath: string, n: number): Uint8Array {
   }
 }
 
-/** The first bytes of a file, cut before its last character (which the read may have split). */
-function headOf(storedPath: string, n: number): { head: Uint8Array; whole: boolean } {
+/** The first n bytes of a file, cut before a character the read may have split. */
+function headOf(storedPath: string, n: number): Uint8Array {
   const head = readHead(storedPath, n + 1);
-  if (head.length <= n) return { head, whole: true };
+  if (head.length <= n) return head;
   let end = n;
   while (end > 0 && (head[end] & 0xc0) === 0x80) end--;
-  return { head: head.subarray(0, end), whole: false };
+  return head.subarray(0, end);
 }
 
 /** Checks done on arrival, before any job: an empty file or binary content named as text. Throws UnreadableFile. */
 export function sniffOnArrival(storedPath: string, file: string): 'fits' | 'xml' | 'text' {
-  const { head } = headOf(storedPath, 65536);
+  const head = headOf(storedPath, 65536);
   const kind = sniffFormat(head);
   if (kind === 'empty') throw new UnreadableFile(`${file}: the file is empty`);
-  if (kind === 'text') {
-    try {
-      decodeText(head, file);
-    } catch (err) {
-      if (err instanceof DelimitedError) throw new UnreadableFile(`${file}: ${stripSource(err.message, file)}. Upload a CSV or TSV text file, a VOTable or a FITS table.`);
-      throw err;
-    }
-  }
+  if (kind === 'text') decodeTextUpload(head, file);
   return kind;
 }
 
@@ -97,51 +87,17 @@ export async function readTableFile(storedPath: string, file: string, handlers: 
   const budget = new ReadBudget(file, limits);
   budget.bytes(statSync(storedPath).size);
   let rows = 0;
-  let format: TableHead['format'] = 'csv';
-  let headerSeen = false;
-  let header: string[] = [];
-  let semicolon = false;
-  let hasNul = false;
-  // Semicolon files: the first cell with a decimal comma and the first with a decimal point (both: refused).
-  let comma: { place: string; cell: string } | undefined;
-  let point: { place: string; cell: string } | undefined;
-  const place = (c: number, line: number) => `row ${rows} (file line ${line}), column ${header[c] || c + 1}`;
-  const stream = new DelimitedStream(
+  const reader = new TextTableReader(
+    file,
     {
-      header: (h) => {
-        checkTextHeader(file, h.header, h.headerLine);
-        budget.columns(h.header.length, () => `line ${h.headerLine}`);
-        const nul = h.header.findIndex((x) => x.includes('\u0000'));
-        if (nul >= 0) throw new UnreadableFile(`${file}: column ${nul + 1} of the header holds a NUL byte (U+0000)`);
-        headerSeen = true;
-        header = h.header;
-        semicolon = h.delimiter === ';';
-        format = h.delimiter === '\t' ? 'tsv' : 'csv';
-        handlers.head({ format, columns: h.header, units: h.units ?? h.header.map(() => undefined) });
-      },
+      head: (h) => handlers.head({ format: h.delimiter === '\t' ? 'tsv' : 'csv', columns: h.header, units: h.units ?? h.header.map(() => undefined) }),
       row: (fields, line) => {
-        budget.rows(rows + 1, () => `line ${line}`);
-        budget.tick(() => `line ${line}`);
-        rows++;
-        if (hasNul) {
-          for (let c = 0; c < fields.length; c++) if (fields[c].includes('\u0000')) throw new UnreadableFile(nulCellMessage(file, place(c, line), fields[c]));
-        }
-        if (semicolon) {
-          for (let c = 0; c < fields.length; c++) {
-            const v = fields[c];
-            if (v.includes(',') && DECIMAL_COMMA.test(v)) {
-              comma ??= { place: place(c, line), cell: v };
-              fields[c] = v.replace(',', '.');
-            } else if (!point && v.includes('.') && DECIMAL_POINT.test(v)) point = { place: place(c, line), cell: v };
-            if (comma && point) throw new UnreadableFile(mixedDecimalsMessage(file, comma, point));
-          }
-        }
         handlers.row(fields, line);
-        if (rows % 5000 === 0) handlers.progress?.(rows);
+        if (++rows % 5000 === 0) handlers.progress?.(rows);
       },
     },
-    // A record may be as long as the file may be (a 52 MB id is read, then refused by the mapping).
-    { source: file, maxRecordChars: budget.limits.maxBytes },
+    budget,
+    false,
   );
   const decoder = new TextDecoder('utf-8', { fatal: true });
   const decode = (chunk: Buffer | undefined): string => {
@@ -151,22 +107,8 @@ export async function readTableFile(storedPath: string, file: string, handlers: 
       throw invalidUtf8Of(storedPath, file);
     }
   };
-  try {
-    for await (const chunk of createReadStream(storedPath, { highWaterMark: PIECE })) {
-      const text = decode(chunk as Buffer);
-      if (!hasNul && text.includes('\u0000')) hasNul = true;
-      stream.push(text);
-    }
-    stream.push(decode(undefined));
-    const h = stream.end();
-    if (!headerSeen) {
-      checkTextHeader(file, h.header, h.headerLine);
-      throw new UnreadableFile(`${file}: the file has a header but no data rows`);
-    }
-  } catch (err) {
-    if (err instanceof DelimitedError) throw new UnreadableFile(`${file}: ${stripSource(err.message, file)}`);
-    throw err;
-  }
-  if (rows === 0) throw new UnreadableFile(`${file}: the file has a header but no data rows`);
+  for await (const chunk of createReadStream(storedPath, { highWaterMark: PIECE })) reader.push(decode(chunk as Buffer));
+  reader.push(decode(undefined));
+  const { format } = reader.end();
   return { kind: 'table', format, rowCount: rows };
 }
