@@ -4,10 +4,11 @@
 // A million stars cost disk, not memory, and the import reads them back one at a time
 // (decision record 0023). The file is rebuilt by any check, so it needs no journal.
 import Database from 'better-sqlite3';
-import { readdirSync, rmSync } from 'node:fs';
+import { rmSync } from 'node:fs';
 import path from 'node:path';
 import type { AppDatabase } from '../../db/client';
 import type { LongStar, MappedStar, MapperStore } from '../../core/input/apply-mapping';
+import { uploadFolderFiles } from './storage';
 
 export function stagingPathFor(storedPath: string): string {
   return `${storedPath}.check.sqlite`;
@@ -149,41 +150,16 @@ const STAGING_SUFFIX = '.check.sqlite';
  * files removed.
  */
 export function removeOrphanStaging(db: AppDatabase, dataDir: string): string[] {
-  const root = path.join(dataDir, 'uploads');
   const removed: string[] = [];
-  let campaigns: string[];
-  try {
-    campaigns = readdirSync(root);
-  } catch {
-    return removed; // no uploads yet
-  }
-  const lastCheckOf = db.$client.prepare('SELECT last_check FROM uploads WHERE stored_path = ?').pluck();
-  for (const campaign of campaigns) {
-    const dir = path.join(root, campaign);
-    let names: string[];
-    try {
-      names = readdirSync(dir);
-    } catch {
-      continue; // not a folder
-    }
-    for (const name of names) {
-      const at = name.indexOf(STAGING_SUFFIX);
-      if (at < 0 || !['', '-journal', '-wal', '-shm'].includes(name.slice(at + STAGING_SUFFIX.length))) continue;
-      const storedPath = path.join(dir, name.slice(0, at));
-      const raw = lastCheckOf.get(storedPath) as string | null | undefined;
-      let staged = false;
-      if (typeof raw === 'string') {
-        try {
-          staged = (JSON.parse(raw) as { staged?: boolean }).staged === true;
-        } catch {
-          staged = false;
-        }
-      }
-      if (staged) continue;
-      const file = path.join(dir, name);
-      rmSync(file, { force: true });
-      removed.push(file);
-    }
+  // 1 when the upload's stored check says the staging file holds its stars; nothing when the upload is gone.
+  const staged = db.$client.prepare("SELECT 1 FROM uploads WHERE stored_path = ? AND json_valid(last_check) AND json_extract(last_check, '$.staged') = 1").pluck();
+  for (const { dir, name } of uploadFolderFiles(dataDir)) {
+    const at = name.indexOf(STAGING_SUFFIX);
+    if (at < 0 || !['', '-journal', '-wal', '-shm'].includes(name.slice(at + STAGING_SUFFIX.length))) continue;
+    if (staged.get(path.join(dir, name.slice(0, at))) === 1) continue;
+    const file = path.join(dir, name);
+    rmSync(file, { force: true });
+    removed.push(file);
   }
   return removed;
 }
