@@ -4,7 +4,7 @@
 // --drain`) fitting every star into fit_results. Reports stars per second per stage and end to end,
 // and the peak resident memory (VmHWM) of each worker. Speeds are measured here, never in tests.
 import { spawn } from 'node:child_process';
-import { mkdtempSync, readFileSync, rmSync } from 'node:fs';
+import { mkdtempSync, rmSync } from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
 import { fileURLToPath } from 'node:url';
@@ -21,6 +21,7 @@ import { createUpload, getUpload, importUpload, type ImportSummary } from '../sr
 import { outcomeOf } from '../src/server/intake/jobs';
 import { drainIntakeJobs } from '../src/server/intake/run';
 import { makeCampaign, makeUser } from '../src/seed/factories';
+import { peakRssMb } from '../tests/support/probes';
 
 const root = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '..');
 const args = process.argv.slice(2);
@@ -50,15 +51,6 @@ function mockCsv(count: number): string {
     lines.push(cells.join(','));
   }
   return lines.join('\n') + '\n';
-}
-
-function peakRssMb(pid: number): number | null {
-  try {
-    const m = /VmHWM:\s+(\d+) kB/.exec(readFileSync(`/proc/${pid}/status`, 'utf8'));
-    return m ? Number(m[1]) / 1024 : null;
-  } catch {
-    return null;
-  }
 }
 
 async function main() {

@@ -6,10 +6,8 @@
 // Prints upload+check+import time and stars/s, the server process's peak RSS (VmHWM, which includes
 // its intake thread) and health latency p50/p95/max. Figures are printed, never asserted.
 import { spawn } from 'node:child_process';
-import { createWriteStream, existsSync, mkdtempSync, readFileSync, rmSync, statSync } from 'node:fs';
+import { createWriteStream, existsSync, mkdtempSync, rmSync, statSync } from 'node:fs';
 import { openAsBlob } from 'node:fs';
-import http from 'node:http';
-import net from 'node:net';
 import os from 'node:os';
 import path from 'node:path';
 import { fileURLToPath } from 'node:url';
@@ -22,6 +20,7 @@ import { parseEnv } from '../src/adapters/env';
 import { createApiToken } from '../src/server/api-tokens';
 import { toActor } from '../src/server/context';
 import { makeCampaign, makeUser } from '../src/seed/factories';
+import { freePort, healthOnce, peakRssMb } from '../tests/support/probes';
 
 const root = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '..');
 const args = process.argv.slice(2);
@@ -56,32 +55,6 @@ async function writeCsv(file: string, header: string, line: (n: number) => strin
 
 const mag = (n: number, k: number) => (6 + ((n * 7919 + k * 104729) % 900) / 100).toFixed(3);
 
-function freePort(): Promise<number> {
-  return new Promise((resolve) => {
-    const s = net.createServer();
-    s.listen(0, '127.0.0.1', () => {
-      const port = (s.address() as net.AddressInfo).port;
-      s.close(() => resolve(port));
-    });
-  });
-}
-
-/** One /api/health request on a new connection (no keep-alive). */
-function healthOnce(baseUrl: string): Promise<number> {
-  return new Promise((resolve, reject) => {
-    const req = http.get(`${baseUrl}/api/health`, { agent: false }, (res) => {
-      res.resume();
-      res.on('end', () => resolve(res.statusCode ?? 0));
-    });
-    req.on('error', reject);
-  });
-}
-
-function peakRssMb(pid: number): number {
-  const m = /VmHWM:\s+(\d+) kB/.exec(readFileSync(`/proc/${pid}/status`, 'utf8'));
-  return m ? Number(m[1]) / 1024 : NaN;
-}
-
 async function measure(label: string, file: string, rows: number) {
   const dir = mkdtempSync(path.join(os.tmpdir(), 'starkiln-bench-intake-'));
   const databasePath = path.join(dir, 'bench.db');
@@ -108,7 +81,7 @@ async function measure(label: string, file: string, rows: number) {
     }
     await fetch(`${baseUrl}/api/health`); // starts the intake thread
     await new Promise((r) => setTimeout(r, 1000));
-    const baseRss = peakRssMb(server.pid!);
+    const baseRss = peakRssMb(server.pid!) ?? NaN;
 
     const samples: number[] = [];
     let sampling = true;
@@ -146,7 +119,7 @@ async function measure(label: string, file: string, rows: number) {
     sampling = false;
     await sampler;
     if (done.status !== 'done') throw new Error(`import failed: ${JSON.stringify(done.refusal)}`);
-    const peak = peakRssMb(server.pid!);
+    const peak = peakRssMb(server.pid!) ?? NaN;
 
     const sorted = [...samples].sort((a, b) => a - b);
     const q = (p: number) => sorted[Math.min(sorted.length - 1, Math.floor(p * sorted.length))].toFixed(1);

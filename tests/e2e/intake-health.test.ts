@@ -5,7 +5,6 @@
 // while arriving and its check stalled the server for 56 s. The bounds here are generous (every
 // answer under 1 s, the median under 300 ms) so a loaded machine passes; `npm run bench -- --only
 // intake` measures the latency precisely.
-import http from 'node:http';
 import { afterAll, describe, expect, it } from 'vitest';
 import { count, eq } from 'drizzle-orm';
 import { stars, user } from '../../src/db/schema';
@@ -13,21 +12,12 @@ import { toActor } from '../../src/server/context';
 import { createApiToken } from '../../src/server/api-tokens';
 import { makeCampaign, makeUser } from '../../src/seed/factories';
 import { startApp, type RunningApp } from './harness';
+import { healthOnce } from '../support/probes';
 
 let run: RunningApp;
 afterAll(async () => {
   await run?.stop();
 });
-
-function healthOnce(baseUrl: string): Promise<number> {
-  return new Promise((resolve, reject) => {
-    const req = http.get(`${baseUrl}/api/health`, { agent: false }, (res) => {
-      res.resume();
-      res.on('end', () => resolve(res.statusCode ?? 0));
-    });
-    req.on('error', reject);
-  });
-}
 
 /** Invented stars (VELA-…), two bands each and a note column the mapping leaves unused. */
 function bigCsv(targetBytes: number): { csv: string; rows: number } {
