@@ -16,10 +16,6 @@ export function reportProgress(jobId: string, p: { rowsRead: number; starsWritte
   live.set(jobId, p);
 }
 
-export function forgetProgress(jobId: string): void {
-  live.delete(jobId);
-}
-
 /** Who runs jobs in this process: the web server's intake thread; absent in tests and scripts (they drain inline). */
 export interface IntakeRunner {
   wake(): void;
@@ -68,16 +64,13 @@ export function requeueInterrupted(db: DbOrTx): number {
 
 export function finishJob(db: DbOrTx, jobId: string, status: 'done' | 'failed', outcome: Record<string, unknown>, rowsRead: number): void {
   db.update(intakeJobs).set({ status, outcome, rowsRead, finishedAt: new Date() }).where(eq(intakeJobs.id, jobId)).run();
-  forgetProgress(jobId);
-}
-
-export function setRowsRead(db: DbOrTx, jobId: string, rowsRead: number): void {
-  db.update(intakeJobs).set({ rowsRead }).where(eq(intakeJobs.id, jobId)).run();
+  live.delete(jobId);
 }
 
 export function jobView(j: JobRow): IntakeJobView {
   const p = live.get(j.id);
   const o = (j.outcome ?? {}) as Record<string, unknown>;
+  const imported = o.import as IntakeJobView['import'] | undefined;
   const running = j.status === 'running';
   const view: IntakeJobView = {
     id: j.id,
@@ -86,13 +79,13 @@ export function jobView(j: JobRow): IntakeJobView {
     status: j.status,
     phase: j.status === 'pending' ? 'waiting' : running ? (p?.phase ?? 'reading') : 'finished',
     rowsRead: running && p ? Math.max(p.rowsRead, j.rowsRead) : j.rowsRead,
-    starsWritten: running && p ? p.starsWritten : ((o.import as { starsCreated?: number; starsUpdated?: number } | undefined)?.starsCreated ?? 0) + ((o.import as { starsUpdated?: number } | undefined)?.starsUpdated ?? 0),
+    starsWritten: running && p ? p.starsWritten : (imported?.starsCreated ?? 0) + (imported?.starsUpdated ?? 0),
     createdAt: j.createdAt.toISOString(),
     startedAt: j.startedAt ? j.startedAt.toISOString() : null,
     finishedAt: j.finishedAt ? j.finishedAt.toISOString() : null,
   };
   if (j.status === 'done' && o.check) view.check = o.check as IntakeJobView['check'];
-  if (j.status === 'done' && o.import) view.import = o.import as IntakeJobView['import'];
+  if (j.status === 'done' && imported) view.import = imported;
   if (j.status === 'failed' && o.refusal) view.refusal = o.refusal as IntakeJobView['refusal'];
   return view;
 }

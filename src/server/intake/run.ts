@@ -72,19 +72,9 @@ export function checkKey(mapping: Mapping, rules: MappingRules, keys: readonly s
   return createHash('sha256').update(JSON.stringify({ m, r, keys, l: [l.maxBytes, l.maxRows, l.maxColumns, l.maxCells, l.maxSeconds] })).digest('hex');
 }
 
-class Refusal extends Error {
-  constructor(readonly refusal: { status: number; error: { code: string; message: string }; report?: ReportEntry[]; summary?: unknown; uploadId?: string }) {
-    super(refusal.error.message);
-  }
-}
-
-function refusalOf(err: IntakeError): Refusal {
-  return new Refusal({ status: err.status, error: { code: err.code, message: err.message }, ...err.extra });
-}
-
 function uploadOf(db: AppDatabase, id: string): UploadRow {
   const u = db.select().from(uploads).where(eq(uploads.id, id)).get();
-  if (!u) throw new Refusal({ status: 404, error: { code: 'not_found', message: 'The upload no longer exists.' } });
+  if (!u) throw new IntakeError(404, 'not_found', 'The upload no longer exists.');
   return u;
 }
 
@@ -106,75 +96,72 @@ interface PassResult {
 async function pass(db: AppDatabase, job: JobRow, u: UploadRow, chosen: { mapping: Mapping; rules: MappingRules } | 'detect', hooks: RunHooks): Promise<PassResult> {
   const keys = bandKeys(db);
   const report = (rowsRead: number) => hooks.progress?.(job.id, { rowsRead, starsWritten: 0, phase: 'reading' });
-  const run = async (): Promise<PassResult> => {
-    const sample: PassResult['sample'] = [];
-    let head: TableHead | null = null;
-    let mapper: RowMapper | null = null;
-    let staging: StagingWriter | null = null;
-    let problems: CappedProblems | null = null;
-    let mapping: Mapping | null = null;
-    let rules: MappingRules | null = null;
-    const startMapping = () => {
-      if (mapper || !head) return;
-      if (chosen === 'detect') {
-        const d = detectMapping(head.columns, sample.map((s) => s.cells), keys);
-        mapping = { layout: d.layout, columns: d.columns };
-        rules = d.rules;
-      } else {
-        mapping = chosen.mapping;
-        rules = chosen.rules;
-      }
-      problems = new CappedProblems();
-      // The stored check no longer holds once its staging file is rebuilt (a stop half-way leaves it partial).
-      markUnstaged(db, u.id);
-      staging = new StagingWriter(stagingPathFor(u.storedPath));
-      mapper = new RowMapper(head.columns, u.originalName, mapping, rules, { bandKeys: keys }, staging, problems);
-      for (const s of sample) mapper.row(s.cells, s.line);
-    };
-    try {
-      const result = await readTableFile(
-        u.storedPath,
-        u.originalName,
-        {
-          head: (h) => {
-            head = h;
-          },
-          row: (cells, line) => {
-            if (mapper) mapper.row(cells, line);
-            else {
-              sample.push({ cells, line });
-              if (sample.length >= SAMPLE_ROWS) startMapping();
-            }
-          },
-          progress: report,
-        },
-        hooks.limits,
-      );
-      if (result.kind === 'image') return { head: null, image: result.observation, sample: [], summary: null, rowCount: 1, key: null, mapping: null, rules: null };
-      startMapping();
-      const counts = mapper!.finish();
-      const staged = staging!.close();
-      staging = null;
-      const p = problems!;
-      const summary: CheckSummary = {
-        uploadId: u.id,
-        rowCount: counts.rowCount,
-        starCount: staged.stars,
-        measurementCount: staged.measurements,
-        rejectedRows: counts.rejectedRows,
-        excludedByQuality: counts.excludedByQuality,
-        errorCount: p.errorCount,
-        warningCount: p.warningCount,
-        report: p.report(),
-      };
-      report(counts.rowCount);
-      return { head, sample, summary, rowCount: counts.rowCount, key: checkKey(mapping!, rules!, keys, hooks.limits), mapping, rules };
-    } catch (err) {
-      (staging as StagingWriter | null)?.abandon();
-      throw err;
+  const sample: PassResult['sample'] = [];
+  let head: TableHead | null = null;
+  let mapper: RowMapper | null = null;
+  let staging: StagingWriter | null = null;
+  let problems: CappedProblems | null = null;
+  let mapping: Mapping | null = null;
+  let rules: MappingRules | null = null;
+  const startMapping = () => {
+    if (mapper || !head) return;
+    if (chosen === 'detect') {
+      const d = detectMapping(head.columns, sample.map((s) => s.cells), keys);
+      mapping = { layout: d.layout, columns: d.columns };
+      rules = d.rules;
+    } else {
+      mapping = chosen.mapping;
+      rules = chosen.rules;
     }
+    problems = new CappedProblems();
+    // The stored check no longer holds once its staging file is rebuilt (a stop half-way leaves it partial).
+    markUnstaged(db, u.id);
+    staging = new StagingWriter(stagingPathFor(u.storedPath));
+    mapper = new RowMapper(head.columns, u.originalName, mapping, rules, { bandKeys: keys }, staging, problems);
+    for (const s of sample) mapper.row(s.cells, s.line);
   };
-  return run();
+  try {
+    const result = await readTableFile(
+      u.storedPath,
+      u.originalName,
+      {
+        head: (h) => {
+          head = h;
+        },
+        row: (cells, line) => {
+          if (mapper) mapper.row(cells, line);
+          else {
+            sample.push({ cells, line });
+            if (sample.length >= SAMPLE_ROWS) startMapping();
+          }
+        },
+        progress: report,
+      },
+      hooks.limits,
+    );
+    if (result.kind === 'image') return { head: null, image: result.observation, sample: [], summary: null, rowCount: 1, key: null, mapping: null, rules: null };
+    startMapping();
+    const counts = mapper!.finish();
+    const staged = staging!.close();
+    staging = null;
+    const p = problems!;
+    const summary: CheckSummary = {
+      uploadId: u.id,
+      rowCount: counts.rowCount,
+      starCount: staged.stars,
+      measurementCount: staged.measurements,
+      rejectedRows: counts.rejectedRows,
+      excludedByQuality: counts.excludedByQuality,
+      errorCount: p.errorCount,
+      warningCount: p.warningCount,
+      report: p.report(),
+    };
+    report(counts.rowCount);
+    return { head, sample, summary, rowCount: counts.rowCount, key: checkKey(mapping!, rules!, keys, hooks.limits), mapping, rules };
+  } catch (err) {
+    (staging as StagingWriter | null)?.abandon();
+    throw err;
+  }
 }
 
 function markUnstaged(db: AppDatabase, uploadId: string): void {
@@ -208,7 +195,7 @@ async function readJob(db: AppDatabase, job: JobRow, u: UploadRow, hooks: RunHoo
     rmSync(u.storedPath, { force: true });
     removeStaging(u.storedPath);
     const answer = unreadableAnswer(err);
-    throw new Refusal({ status: answer.status, error: { code: answer.code, message: err.message }, report, uploadId: u.id });
+    throw new IntakeError(answer.status, answer.code, err.message, { report, uploadId: u.id });
   }
   const keys = bandKeys(db);
   if (r.image) {
@@ -230,8 +217,8 @@ async function readJob(db: AppDatabase, job: JobRow, u: UploadRow, hooks: RunHoo
 }
 
 function assertCheckable(u: UploadRow): void {
-  if (u.status === 'rejected') throw new Refusal({ status: 409, error: { code: 'conflict', message: `${u.originalName} was rejected when it arrived and cannot be checked or imported; upload a corrected file.` } });
-  if (u.detectedFormat === 'fits-image') throw new Refusal({ status: 400, error: { code: 'bad_request', message: `${u.originalName} is a FITS image: import it with a star id, band and magnitude, not a column mapping.` } });
+  if (u.status === 'rejected') throw new IntakeError(409, 'conflict', `${u.originalName} was rejected when it arrived and cannot be checked or imported; upload a corrected file.`);
+  if (u.detectedFormat === 'fits-image') throw new IntakeError(400, 'bad_request', `${u.originalName} is a FITS image: import it with a star id, band and magnitude, not a column mapping.`);
 }
 
 /** The stored check for this mapping when it is still staged, else a new pass over the file. */
@@ -266,7 +253,7 @@ async function importJob(db: AppDatabase, job: JobRow, u: UploadRow, hooks: RunH
   let fromStaging = false;
   if (u.detectedFormat === 'fits-image' && u.status !== 'rejected') {
     const observation = (u.inspection as unknown as Inspection | null)?.observation ?? {};
-    if (!input.image) throw new Refusal({ status: 400, error: { code: 'validation_failed', message: 'A FITS image needs the star id, band and magnitude measured on it (image.starId, image.band, image.mag, image.magErr).' } });
+    if (!input.image) throw new IntakeError(400, 'validation_failed', 'A FITS image needs the star id, band and magnitude measured on it (image.starId, image.band, image.mag, image.magErr).');
     const problems: ReportEntry[] = keys.includes(input.image.band)
       ? []
       : [{ file: u.originalName, row: 0, severity: 'error', message: `unknown band "${input.image.band}" (band keys are case-sensitive; known bands: ${keys.join(' ')})` }];
@@ -276,7 +263,7 @@ async function importJob(db: AppDatabase, job: JobRow, u: UploadRow, hooks: RunH
     check = { uploadId: u.id, rowCount: 1, starCount: problems.length ? 0 : 1, measurementCount: problems.length ? 0 : 1, rejectedRows: problems.length ? 1 : 0, excludedByQuality: 0, errorCount: problems.length, warningCount: 0, report: problems };
   } else {
     assertCheckable(u);
-    if (!input.mapping) throw new Refusal({ status: 400, error: { code: 'validation_failed', message: 'mapping is required.' } });
+    if (!input.mapping) throw new IntakeError(400, 'validation_failed', 'mapping is required.');
     check = await ensureChecked(db, job, u, input.mapping as Mapping, input.rules, hooks);
     stars = readStaged(stagingPathFor(u.storedPath));
     fromStaging = true;
@@ -284,15 +271,15 @@ async function importJob(db: AppDatabase, job: JobRow, u: UploadRow, hooks: RunH
   const fresh = uploadOf(db, u.id);
   if (check.errorCount > 0 && !input.importValidRows) {
     db.update(uploads).set({ report: check.report, status: fresh.status === 'imported' ? 'imported' : 'checked' }).where(eq(uploads.id, u.id)).run();
-    throw new Refusal({
-      status: 422,
-      error: { code: 'validation_failed', message: `${u.originalName} has ${check.errorCount} problem${check.errorCount === 1 ? '' : 's'}; nothing was imported. Fix the file or mapping, or choose to import the valid rows and keep the report.` },
-      report: check.report,
-      summary: { ...check, report: undefined },
-    });
+    throw new IntakeError(
+      422,
+      'validation_failed',
+      `${u.originalName} has ${check.errorCount} problem${check.errorCount === 1 ? '' : 's'}; nothing was imported. Fix the file or mapping, or choose to import the valid rows and keep the report.`,
+      { report: check.report, summary: { ...check, report: undefined } },
+    );
   }
   if (check.starCount === 0) {
-    throw new Refusal({ status: 422, error: { code: 'nothing_to_import', message: `${u.originalName}: no valid star to import; nothing was imported.` }, report: check.report, summary: { ...check, report: undefined } });
+    throw new IntakeError(422, 'nothing_to_import', `${u.originalName}: no valid star to import; nothing was imported.`, { report: check.report, summary: { ...check, report: undefined } });
   }
 
   const sqlite = db.$client;
@@ -378,12 +365,9 @@ export async function runIntakeJob(db: AppDatabase, job: JobRow, hooks: RunHooks
     const outcome = job.kind === 'read' ? await readJob(db, job, u, track) : job.kind === 'check' ? await checkJob(db, job, u, track) : await importJob(db, job, u, track);
     finishJob(db, job.id, 'done', outcome, rowsRead);
   } catch (err) {
-    if (err instanceof Refusal) {
-      finishJob(db, job.id, 'failed', { refusal: err.refusal }, rowsRead);
-      return;
-    }
     if (err instanceof IntakeError) {
-      finishJob(db, job.id, 'failed', { refusal: refusalOf(err).refusal }, rowsRead);
+      // The answer the route would have given: its status, error and report.
+      finishJob(db, job.id, 'failed', { refusal: { status: err.status, ...err.toJSON() } }, rowsRead);
       return;
     }
     if (err instanceof UnreadableFile) {
