@@ -1,7 +1,7 @@
 // `npm run bench`: every benchmark section, one after another, each in its own process so one
 // section's memory and JIT state do not colour the next. Speeds are measured here, never in tests.
 //   npm run bench                      all sections
-//   npm run bench -- --only core,catalogue   some of them (extra flags are passed to each section)
+//   npm run bench -- --only core,catalogue,export   some of them (extra flags are passed to each section)
 import { spawnSync } from 'node:child_process';
 import { existsSync } from 'node:fs';
 import os from 'node:os';
@@ -15,6 +15,7 @@ const SECTIONS: { name: string; file: string; what: string }[] = [
   { name: 'cli', file: 'cli.ts', what: 'the whole starkiln fit command on 100 000 stars, CSV in and out' },
   { name: 'end-to-end', file: 'end-to-end.ts', what: 'CSV upload → stored results with two worker processes (SQLite queue)' },
   { name: 'catalogue', file: 'catalogue.ts', what: 'catalogue page requests on a million stored results (p50/p95)' },
+  { name: 'export', file: 'export.ts', what: 'downloads of a million-row catalogue in CSV, VOTable, FITS and JSON (time, peak RSS)' },
   { name: 'redis', file: 'redis.ts', what: 'BullMQ on Redis: 1, 2 and 4 worker processes and the result writer' },
 ];
 
