@@ -6,7 +6,7 @@ import { ensureBuilt, prepareEnv, root, runTs, startServer } from './start.mjs';
 
 prepareEnv();
 ensureBuilt({ buildIfMissing: true });
-runTs('src/db/migrate-cli.ts', 'Migration');
+runTs('src/app/migrate-cli.ts', 'Migration');
 runTs('src/seed/seed.ts', 'Seeding the demo');
 startServer();
 

@@ -54,6 +54,6 @@ export function startServer() {
 if (process.argv[1] && import.meta.url === pathToFileURL(process.argv[1]).href) {
   prepareEnv();
   ensureBuilt({ buildIfMissing: false });
-  runTs('src/db/migrate-cli.ts', 'Migration');
+  runTs('src/app/migrate-cli.ts', 'Migration');
   startServer();
 }

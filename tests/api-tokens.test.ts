@@ -165,7 +165,8 @@ describe('who may call the catalogue endpoints', () => {
     expect(mails.map((m) => m.to_address).sort()).toEqual([collaborator.email, collaborator2.email].sort());
     expect(mails[0].subject).toBe('Catalogue released: First light (Wrenmoor halo stars)');
     expect(mails[0].text_body).toContain(`${acceptedCount} stars`);
-    expect(mails[0].text_body).toMatch(new RegExp(`/campaigns/${campaignId}/catalogue\\?release=`));
+    // The e-mail links the release's own page, the address to cite.
+    expect(mails[0].text_body).toContain(`/campaigns/${campaignId}/releases/${made.body.release.id}`);
     // An admin who is not a member may release too; again one e-mail per collaborator.
     expect((await call(releaseRoute, admin, params, { body: { title: 'Second look', query: 'status=accepted,flagged' } })).status).toBe(201);
     expect(outbox().length - before).toBe(4);

@@ -1,7 +1,10 @@
 // Configuration parsing and the mail transports (outbox, and SMTP chosen by configuration alone).
+import { readFileSync } from 'node:fs';
 import net from 'node:net';
+import path from 'node:path';
 import { afterEach, describe, expect, it } from 'vitest';
-import { parseEnv } from '../src/adapters/env';
+import { DEFAULT_UPLOAD_MAX_BYTES, parseEnv, SETTING_NAMES } from '../src/adapters/env';
+import { projectRoot } from '../src/db/paths';
 import { createApp } from '../src/app/app';
 import { outboxMessages } from '../src/db/schema';
 import { createTestDatabase, type TestDatabase } from './setup/db';
@@ -30,8 +33,27 @@ describe('parseEnv', () => {
     [{ BETTER_AUTH_SECRET: 'short' }, /at least 32 characters/],
     [{ BETTER_AUTH_URL: 'not a url' }, /BETTER_AUTH_URL/],
     [{ DEMO_ANALYST_PASSWORD: 'abc' }, /DEMO_ANALYST_PASSWORD: demo passwords need at least 10/],
+    [{ UPLOAD_MAX_BYTES: '12MB' }, /UPLOAD_MAX_BYTES: UPLOAD_MAX_BYTES must be a positive whole number of bytes, found "12MB"/],
+    [{ UPLOAD_MAX_BYTES: '0' }, /UPLOAD_MAX_BYTES must be a positive whole number/],
+    [{ WORKER_PROCESSES: '0' }, /WORKER_PROCESSES: --processes \(or WORKER_PROCESSES\) must be a whole number from 1 to 64, got "0"/],
+    [{ STARKILN_QUEUE: 'kafka' }, /STARKILN_QUEUE must be sqlite or redis/],
   ])('rejects %j naming the setting', (over, message) => {
     expect(() => parseEnv({ ...base, ...over })).toThrow(message);
+  });
+
+  it('keeps uploads beside the database unless DATA_DIR says otherwise, up to 200 MB unless UPLOAD_MAX_BYTES says otherwise', () => {
+    const plain = parseEnv({ ...base, DATABASE_PATH: '/srv/kiln/db/starkiln.db' });
+    expect(plain.dataDir).toBe('/srv/kiln/db');
+    expect(plain.uploadMaxBytes).toBe(DEFAULT_UPLOAD_MAX_BYTES);
+    expect(plain.workerProcesses).toBeUndefined();
+    const set = parseEnv({ ...base, DATABASE_PATH: '/srv/kiln/db/starkiln.db', DATA_DIR: '/srv/kiln/files', UPLOAD_MAX_BYTES: ' 1024 ', WORKER_PROCESSES: '3' });
+    expect([set.dataDir, set.uploadMaxBytes, set.workerProcesses]).toEqual(['/srv/kiln/files', 1024, 3]);
+  });
+
+  it('.env.example lists every setting', () => {
+    const example = readFileSync(path.join(projectRoot(), '.env.example'), 'utf8');
+    const listed = [...example.matchAll(/^([A-Z_]+)=/gm)].map((m) => m[1]);
+    expect([...listed].sort()).toEqual([...SETTING_NAMES].sort());
   });
 });
 

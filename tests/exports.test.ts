@@ -13,7 +13,8 @@ import { XMLParser } from 'fast-xml-parser';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { GET as downloadRoute } from '../src/pages/api/campaigns/[id]/downloads/[format]';
 import { starterBandLibrary } from '../src/core/bands';
-import { CATALOGUE_COLUMNS, catalogueColumns } from '../src/core/catalogue';
+import { CATALOGUE_COLUMNS } from '../src/core/catalogue';
+import { exportColumns } from '../src/server/exports/source';
 import { FLAG_EXPLANATIONS } from '../src/core/fit';
 import { readFits, readFitsTable } from '../src/core/input/fits-file';
 import { projectRoot } from '../src/db/paths';
@@ -57,7 +58,9 @@ function dbRows(where = "f.review_status = 'accepted'"): DbRow[] {
     .prepare(
       `SELECT s.star_key AS id, s.ra_deg AS ra, s.dec_deg AS dec, f.teff_k, f.teff_err_k, f.teff_err_formal_k, f.teff_lower_k, f.theta_mas, f.theta_err_mas,
          f.radius_rsun, f.radius_err_rsun, f.lum_lsun, f.lum_err_lsun, f.fbol_cgs, f.fbol_err_cgs, f.av_mag AS av, f.av_err_mag AS av_err, f.chi2_red,
-         f.n_bands, f.bands_used, f.ir_excess_sigma, f.flags, f.review_status
+         f.n_bands, f.bands_used, f.ir_excess_sigma, f.flags, f.review_status, f.batch_id,
+         coalesce((SELECT trim(CASE WHEN d.four_eyes_off = 1 THEN 'four_eyes_off ' ELSE '' END || CASE WHEN d.carried_from_decision_id IS NOT NULL THEN 'carried_over' ELSE '' END)
+           FROM review_decisions d WHERE d.fit_result_id = f.id AND d.superseded_at IS NULL), '') AS review_mark
        FROM fit_results f JOIN stars s ON s.id = f.star_id
        WHERE f.campaign_id = ? AND f.id IN (SELECT id FROM fit_results g WHERE g.star_id = f.star_id ORDER BY g.ok DESC, (SELECT created_at FROM batches WHERE id = g.batch_id) DESC, g.id DESC LIMIT 1)
          AND ${where}
@@ -106,7 +109,7 @@ describe('CSV', () => {
     const records = parseCsv(csv, { comment: '#', columns: true, skip_empty_lines: true }) as Record<string, string>[];
     const want = dbRows();
     expect(want.length).toBeGreaterThan(30);
-    expect(Object.keys(records[0])).toEqual(catalogueColumns(true).map((c) => c.name));
+    expect(Object.keys(records[0])).toEqual(exportColumns().map((c) => c.name));
     expect(records.map((r) => r.id)).toEqual(want.map((r) => r.id));
     for (let i = 0; i < want.length; i++) {
       for (const c of CATALOGUE_COLUMNS) {
@@ -155,7 +158,7 @@ describe('VOTable', () => {
     expect(doc.VOTABLE.version).toBe('1.4');
     const table = doc.VOTABLE.RESOURCE.TABLE;
     const fields = table.FIELD as { name: string; unit?: string; ucd: string; datatype: string }[];
-    expect(fields.map((f) => f.name)).toEqual(catalogueColumns(true).map((c) => c.name));
+    expect(fields.map((f) => f.name)).toEqual(exportColumns().map((c) => c.name));
     expect(fields.find((f) => f.name === 'teff_k')).toMatchObject({ unit: 'K', ucd: 'phys.temperature.effective', datatype: 'double' });
     expect(fields.find((f) => f.name === 'radius_rsun')).toMatchObject({ unit: 'solRad', ucd: 'phys.size.radius' });
     expect(fields.find((f) => f.name === 'fbol_cgs')).toMatchObject({ unit: 'mW.m**-2', ucd: 'phot.flux.bol' });
@@ -198,7 +201,7 @@ describe('FITS', () => {
     expect(table.column('fbol_cgs')!.unit).toBe('erg s-1 cm-2');
     const rows = table.rows();
     rows.forEach((r, i) => {
-      for (const c of catalogueColumns(true)) {
+      for (const c of exportColumns()) {
         const v = want[i][c.name];
         if (c.name === 'review_status') expect(r[c.name]).toBe('accepted');
         else if (c.name === 'bands_used' || c.name === 'flags' || c.name === 'id') expect(r[c.name], `${want[i].id} ${c.name}`).toBe(v ?? '');
@@ -239,7 +242,7 @@ describe.runIf(hasAstropy)('read by astropy (Debian python3-astropy), warnings a
       expect(out.fits.units).toMatchObject({ ra: 'deg', teff_k: 'K', theta_mas: 'mas', radius_rsun: 'solRad', lum_lsun: 'solLum', av: 'mag' });
       expect(out.fits.header).toMatchObject({ SOFTVER: appVersion(), CAMPID: campaign.id, NROWS: want.length });
       for (const reader of [out.votable, out.fits]) {
-        for (const c of catalogueColumns(true)) {
+        for (const c of exportColumns()) {
           const got = reader.values[c.name];
           const expected = want.map((r) => (c.name === 'review_status' ? 'accepted' : c.name === 'n_bands' ? (r.n_bands ?? 0) : c.name === 'bands_used' ? (r.bands_used ?? '') : r[c.name]));
           // Empty strings come back from a VOTable as masked cells.

@@ -17,6 +17,7 @@ import { planckBandMean, previewPlanckAtPivot } from '../src/core/photometry';
 import { DEMO_SEASON_TWO_COUNT, seasonTwoSpecs } from '../src/seed/demo-stars';
 import { DEMO_CAMPAIGN, demoUsers, seedDemo } from '../src/seed/seed';
 import { finishBatchIfDone } from '../src/server/batches';
+import { exportChunks } from '../src/server/exports';
 import { updateZeroPoint } from '../src/server/band-library';
 import { refitPreview, refitStaleStars } from '../src/server/stale';
 import { createWorker } from '../workers/runner';
@@ -270,6 +271,11 @@ describe('decisions', () => {
     expect(accepted.body.decision).toMatchObject({ decision: 'accepted', fourEyesOff: true });
     expect((await call(historyRoute, w.t, w.reviewer, { fitId })).body.history[0]).toMatchObject({ decision: 'accepted', fourEyesOff: true });
     expect(JSON.parse(one<string>(w.t, "SELECT details FROM audit_events WHERE action = 'review.accepted' ORDER BY id DESC LIMIT 1")).fourEyesOff).toBe(true);
+    // …and in the downloads: the row's review_mark column.
+    const parts: Uint8Array[] = [];
+    for await (const c of exportChunks(w.t.db, w.campaign, { status: ['accepted'] }, 'json')) parts.push(c);
+    const exported = JSON.parse(Buffer.concat(parts).toString('utf8')) as { rows: Record<string, unknown>[] };
+    expect(exported.rows.map((r) => [r.id, r.review_status, r.review_mark, r.batch_id])).toEqual([['Velloran', 'accepted', 'four_eyes_off', w.batchId]]);
     // Switching back on needs only the role (the lead may); decisions after that carry no mark.
     expect((await call(setSettingsRoute, w.t, w.lead, { id: w.campaign.id }, { body: { fourEyes: true } })).body.settings).toMatchObject({ fourEyes: true });
     const other = String(fitIdOf(w.t.db, w.batchId, 'Cindermoor'));

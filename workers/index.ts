@@ -6,6 +6,7 @@ import os from 'node:os';
 import { parseArgs } from 'node:util';
 import { closeDb } from '../src/db/client';
 import { getApp } from '../src/app/app';
+import { getEnv } from '../src/adapters/env';
 import { DEFAULT_FIT_CHUNK_STARS } from '../src/server/fit-job';
 import { createWorker } from './runner';
 
@@ -66,7 +67,8 @@ if (values.help) {
   process.exit(0);
 }
 
-const backend = values.backend ?? process.env.STARKILN_QUEUE ?? 'sqlite';
+// Settings (and .env) are read before anything opens the database (getApp below).
+const backend = values.backend ?? getEnv().queueBackend;
 if (backend !== 'sqlite' && backend !== 'redis') {
   console.error(`--backend must be sqlite or redis, got "${backend}".\n${usage}`);
   process.exit(2);

@@ -1,6 +1,7 @@
 // `npm run worker -- --backend redis [--role fit|writer]`: the process side of the Redis backend.
 // fit (default) runs on any machine and opens no database; writer runs once, on the web host.
 import os from 'node:os';
+import { getEnv } from '../src/adapters/env';
 import { createRedisFitWorker } from './redis-worker';
 
 export interface RedisRoleArgs {
@@ -38,7 +39,7 @@ export async function runRedisRole(a: RedisRoleArgs): Promise<never> {
         process.exit(2);
       }
     }
-    const redisUrl = a.redisUrl ?? process.env.REDIS_URL ?? 'redis://127.0.0.1:6379';
+    const redisUrl = a.redisUrl ?? getEnv().redisUrl;
     const worker = createRedisFitWorker({ owner, redisUrl, lockMs: a.leaseMs, slowMs: a.slowMs, log });
     let stopped = false;
     onStopSignals(owner, () => {

@@ -6,6 +6,7 @@
 import { spawn, type ChildProcess } from 'node:child_process';
 import path from 'node:path';
 import { fileURLToPath } from 'node:url';
+import { getEnv } from '../src/adapters/env';
 
 const here = path.dirname(fileURLToPath(import.meta.url));
 const entry = path.join(here, 'index.ts');
@@ -26,8 +27,9 @@ function restartDelayMs(deathsInARow: number): number {
 
 function parse(argv: string[]): { processes: number; rest: string[] } {
   const rest: string[] = [];
-  let processes = Number(process.env.WORKER_PROCESSES?.trim() || '1');
-  let given: string | undefined = process.env.WORKER_PROCESSES;
+  const fromSettings = getEnv().workerProcesses;
+  let processes = fromSettings ?? 1;
+  let given: string | undefined = fromSettings === undefined ? undefined : String(fromSettings);
   for (let i = 0; i < argv.length; i++) {
     const a = argv[i];
     if (a === '--processes' || a.startsWith('--processes=')) {

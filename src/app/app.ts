@@ -24,7 +24,11 @@ let app: AppServices | undefined;
 
 /** The process-wide services; the first call opens and migrates the database. */
 export function getApp(): AppServices {
-  if (!app) app = createApp(getDb(), getEnv());
+  if (!app) {
+    // Settings first (they load .env), then the database they name.
+    const env = getEnv();
+    app = createApp(getDb(env.databasePath), env);
+  }
   return app;
 }
 

@@ -10,6 +10,8 @@ export interface CampaignSummary {
   name: string;
   description: string;
   createdAt: string;
+  /** Set when the campaign is archived (read-only, listed apart). */
+  archivedAt: string | null;
   myRoles: CampaignRole[];
   memberCount: number;
 }
@@ -32,7 +34,7 @@ export interface PendingInvitation {
 }
 
 export interface CampaignOverview {
-  campaign: { id: string; name: string; description: string; createdAt: string; createdBy: { name: string; email: string } | null };
+  campaign: { id: string; name: string; description: string; createdAt: string; createdBy: { name: string; email: string } | null; archivedAt: string | null };
   myRoles: CampaignRole[];
   canManageMembers: boolean;
   members: CampaignMember[];

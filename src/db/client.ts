@@ -6,7 +6,6 @@ import { mkdirSync } from 'node:fs';
 import path from 'node:path';
 import * as schema from './schema';
 import { migrateDatabase } from './migrate';
-import { resolveDatabasePath } from './paths';
 
 export type AppDatabase = BetterSQLite3Database<typeof schema> & { $client: Database.Database };
 /** What a transaction callback receives; use it exactly like the database. */
@@ -33,12 +32,12 @@ export function openDatabase(filePath: string): OpenedDatabase {
 let appDatabase: OpenedDatabase | undefined;
 
 /**
- * The process-wide database (DATABASE_PATH, default data/starkiln.db under the project root),
+ * The process-wide database at `databasePath` (the settings' DATABASE_PATH, src/adapters/env.ts),
  * opened and migrated on first use so a freshly started server is always on the latest schema.
  */
-export function getDb(): AppDatabase {
+export function getDb(databasePath: string): AppDatabase {
   if (!appDatabase) {
-    const opened = openDatabase(resolveDatabasePath());
+    const opened = openDatabase(databasePath);
     migrateDatabase(opened.db);
     appDatabase = opened;
   }

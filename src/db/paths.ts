@@ -9,6 +9,7 @@ let cachedRoot: string | undefined;
 /** The folder holding Starkiln's package.json, found by walking up from this module. */
 export function projectRoot(): string {
   if (cachedRoot) return cachedRoot;
+  // The one setting read here rather than in src/adapters/env.ts: it says where `.env` is.
   if (process.env.STARKILN_ROOT) return (cachedRoot = path.resolve(process.env.STARKILN_ROOT));
   let dir = path.dirname(fileURLToPath(import.meta.url));
   for (;;) {
@@ -29,7 +30,7 @@ export function projectRoot(): string {
 export const DEFAULT_DATABASE_PATH = 'data/starkiln.db';
 
 /** DATABASE_PATH if set (relative paths are taken from the project root), else data/starkiln.db. */
-export function resolveDatabasePath(fromEnv: string | undefined = process.env.DATABASE_PATH): string {
+export function resolveDatabasePath(fromEnv: string | undefined): string {
   const value = fromEnv && fromEnv.trim() !== '' ? fromEnv : DEFAULT_DATABASE_PATH;
   return path.isAbsolute(value) ? value : path.resolve(projectRoot(), value);
 }

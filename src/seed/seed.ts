@@ -1,5 +1,6 @@
 // `npm run db:seed`: the demo scenario, an invented survey with invented stars and people.
 // Idempotent: running it again leaves an existing demo as it is.
+import { realpathSync } from 'node:fs';
 import { pathToFileURL } from 'node:url';
 import { eq } from 'drizzle-orm';
 import { addToCampaign, makeCampaign, makeUser } from './factories';
@@ -91,7 +92,8 @@ async function seedFits(app: AppServices, analyst: Actor, reviewer: Actor, campa
 }
 
 async function main() {
-  const app = createApp(getDb(), getEnv());
+  const env = getEnv();
+  const app = createApp(getDb(env.databasePath), env);
   const result = await seedDemo(app, { fits: true });
   const people = demoUsers(app.env.demoPasswords);
   console.log(result.created ? 'db:seed: demo scenario created' : 'db:seed: demo scenario already present');
@@ -99,7 +101,8 @@ async function main() {
   closeDb();
 }
 
-if (process.argv[1] && import.meta.url === pathToFileURL(process.argv[1]).href) {
+// Run as a script (also through a symbolic link, whose real path is the module's URL).
+if (process.argv[1] && import.meta.url === pathToFileURL(realpathSync(process.argv[1])).href) {
   main().catch((err) => {
     console.error(err instanceof Error ? err.message : err);
     process.exit(1);

@@ -18,6 +18,7 @@ import { FitStarRunner, fitChunkJobs, jobStarIds } from './fit-job';
 import { appVersion } from './health';
 import { newId } from './ids';
 import { createSqliteQueue, type ClaimedJob, type JobQueue, type SqliteQueueOptions } from './queue';
+import { assertNotArchived } from './members';
 import { notifyReviewersOfBatch } from './review';
 
 /** Fit options as the analyst gives them (API and start form). Every field has a default. */
@@ -228,6 +229,7 @@ export function startBatch(app: AppServices, actor: Actor, campaignId: string, r
  */
 export function insertBatch(app: AppServices, actor: Actor, campaignId: string, options: FitOptions, starIds: number[], refitOfBatchId: string | null): BatchSummary {
   const { db } = app;
+  assertNotArchived(db, campaignId);
   const id = newId();
   const queue = batchQueue(db);
   const bandLibraryVersion = getCurrentVersion(db).label;

@@ -96,17 +96,24 @@ export function createCampaign(db: AppDatabase, actor: Actor, raw: unknown): Cam
     throw err;
   }
   const created = getCampaign(db, id)!;
-  return { id, name: created.name, description: created.description, createdAt: iso(created.createdAt), myRoles: ['analyst'], memberCount: 1 };
+  return { id, name: created.name, description: created.description, createdAt: iso(created.createdAt), archivedAt: null, myRoles: ['analyst'], memberCount: 1 };
 }
 
-export function listCampaignsForUser(db: DbOrTx, userId: string): CampaignSummary[] {
-  const mine = db
-    .select({ id: campaigns.id, name: campaigns.name, description: campaigns.description, createdAt: campaigns.createdAt })
-    .from(campaignMembers)
-    .innerJoin(campaigns, eq(campaigns.id, campaignMembers.campaignId))
-    .where(eq(campaignMembers.userId, userId))
-    .orderBy(desc(campaigns.createdAt), asc(campaigns.name))
-    .all();
+/**
+ * The campaigns a person sees: those they are a member of, and for an admin every campaign (an
+ * admin oversees them all, with no role of their own unless added). Archived ones carry archivedAt.
+ */
+export function listCampaignsForUser(db: DbOrTx, userId: string, options: { admin?: boolean } = {}): CampaignSummary[] {
+  const columns = { id: campaigns.id, name: campaigns.name, description: campaigns.description, createdAt: campaigns.createdAt, archivedAt: campaigns.archivedAt };
+  const mine = options.admin
+    ? db.select(columns).from(campaigns).orderBy(desc(campaigns.createdAt), asc(campaigns.name)).all()
+    : db
+        .select(columns)
+        .from(campaignMembers)
+        .innerJoin(campaigns, eq(campaigns.id, campaignMembers.campaignId))
+        .where(eq(campaignMembers.userId, userId))
+        .orderBy(desc(campaigns.createdAt), asc(campaigns.name))
+        .all();
   if (mine.length === 0) return [];
   const ids = mine.map((c) => c.id);
   const roles = db
@@ -125,6 +132,7 @@ export function listCampaignsForUser(db: DbOrTx, userId: string): CampaignSummar
     name: c.name,
     description: c.description,
     createdAt: iso(c.createdAt),
+    archivedAt: c.archivedAt ? iso(c.archivedAt) : null,
     myRoles: CAMPAIGN_ROLES.filter((r) => roles.some((x) => x.campaignId === c.id && x.role === r)),
     memberCount: counts.find((x) => x.campaignId === c.id)?.n ?? 0,
   }));
@@ -179,7 +187,7 @@ export function getCampaignOverview(db: DbOrTx, actor: Actor, campaignId: string
   const myRoles = getCampaignRoles(db, campaignId, actor.id);
   const manage = canManageMembers(actor, myRoles);
   return {
-    campaign: { id: c.id, name: c.name, description: c.description, createdAt: iso(c.createdAt), createdBy: creator },
+    campaign: { id: c.id, name: c.name, description: c.description, createdAt: iso(c.createdAt), createdBy: creator, archivedAt: c.archivedAt ? iso(c.archivedAt) : null },
     myRoles,
     canManageMembers: manage,
     members: listMembers(db, campaignId),

@@ -106,7 +106,7 @@ describe('campaigns in the browser', () => {
     await Promise.all([page.waitForURL(/\/campaigns\/[a-z0-9]+$/), page.getByRole('link', { name: DEMO_CAMPAIGN.name }).click()]);
     await page.waitForFunction(() => !document.querySelector('astro-island[ssr]'));
     await page.getByLabel('E-mail').fill('first.light@example.test');
-    await page.getByRole('checkbox', { name: /reviewer/ }).check();
+    await page.getByRole('form', { name: 'Add someone' }).getByRole('checkbox', { name: /reviewer/ }).check();
     await page.getByRole('button', { name: 'Add to campaign' }).click();
     await page.getByRole('status').filter({ hasText: 'Invitation sent to first.light@example.test' }).waitFor();
     await expect(page.getByTestId('invitation-list').getByText('first.light@example.test').count()).resolves.toBe(1);

@@ -126,8 +126,11 @@ describe('review in the browser', () => {
     await page.getByTestId('flag-form').waitFor();
     await page.keyboard.press('2');
     await expect(page.getByRole('radio', { name: /One or more measurements look wrong/ }).isChecked()).resolves.toBe(true);
-    await page.keyboard.press('Tab');
-    await page.keyboard.type('J is 0.45 mag brighter than the curve; check the 2MASS match.');
+    // The digit moved the focus to the comment: what is typed next, digits included, is the comment
+    // and does not choose another reason (7, 6 and 2 are reason keys).
+    await expect(page.evaluate(() => document.activeElement?.id)).resolves.toBe('flag-comment');
+    await page.keyboard.type('J is 0.45 mag brighter than the curve; check the 2MASS match (7 6 2).');
+    await expect(page.getByRole('radio', { name: /One or more measurements look wrong/ }).isChecked()).resolves.toBe(true);
     await page.keyboard.press('Enter');
     await page.getByTestId('desk-status').getByText('Flagged Orrowind: One or more measurements look wrong.').waitFor();
     // It left the queue, and the database holds the decision with the reviewer.
@@ -135,7 +138,7 @@ describe('review in the browser', () => {
     const row = run.app.db.$client
       .prepare("SELECT d.decision, d.reason, d.comment, u.email FROM review_decisions d JOIN fit_results r ON r.id = d.fit_result_id JOIN user u ON u.id = d.reviewer_id WHERE r.star_id = ? AND d.superseded_at IS NULL")
       .get(star) as Record<string, string>;
-    expect(row).toEqual({ decision: 'flagged', reason: 'bad_photometry', comment: 'J is 0.45 mag brighter than the curve; check the 2MASS match.', email: people.reviewer.email });
+    expect(row).toEqual({ decision: 'flagged', reason: 'bad_photometry', comment: 'J is 0.45 mag brighter than the curve; check the 2MASS match (7 6 2).', email: people.reviewer.email });
 
     // The star sheet's history shows it, server-rendered.
     await page.goto(`${run.baseUrl}/campaigns/${campaignId}/stars/${star}`);

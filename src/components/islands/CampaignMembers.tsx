@@ -1,6 +1,7 @@
-// Members of one campaign and, for its analysts and admins, the form to add someone by e-mail.
-// Server-rendered with the data in place; refreshed through GET /api/campaigns/:id and
-// POST /api/campaigns/:id/members once hydrated. Without JavaScript the form posts to the page.
+// Members of one campaign and, for its analysts and admins, the form to add someone by e-mail, a
+// form per member to change the roles or remove the member, revoking open invitations and
+// archiving the campaign. Server-rendered with the data in place; the add form goes through
+// POST /api/campaigns/:id/members once hydrated; the others are plain forms posting to the page.
 import { QueryClientProvider } from '@tanstack/react-query';
 import { useState, type SubmitEvent } from 'react';
 import type { AddMemberResult, CampaignOverview } from '../../contracts/api';
@@ -42,6 +43,7 @@ function Members({ campaignId, initial, serverError, serverNotice }: Props) {
               <th className="px-3 py-2 font-semibold">E-mail</th>
               <th className="px-3 py-2 font-semibold">Roles</th>
               <th className="px-5 py-2 font-semibold text-right">Since</th>
+              {data.canManageMembers && <th className="px-5 py-2 font-semibold">Change</th>}
             </tr>
           </thead>
           <tbody>
@@ -56,6 +58,20 @@ function Members({ campaignId, initial, serverError, serverNotice }: Props) {
                   <RoleChips roles={m.roles} />
                 </td>
                 <td className="px-5 py-2.5 text-right num text-ink-500">{formatDate(m.addedAt)}</td>
+                {data.canManageMembers && (
+                  <td className="px-5 py-2.5">
+                    <form method="post" className="flex flex-wrap items-center gap-2" aria-label={`Roles of ${m.name}`} data-testid={`member-form-${m.email}`}>
+                      <input type="hidden" name="userId" value={m.userId} />
+                      {CAMPAIGN_ROLES.map((r) => (
+                        <label key={r} className="flex items-center gap-1 text-xs">
+                          <input type="checkbox" name="roles" value={r} defaultChecked={m.roles.includes(r)} disabled={m.kind === 'guest' && r !== 'collaborator'} className="accent-ember-600" /> {r}
+                        </label>
+                      ))}
+                      <button type="submit" name="action" value="member-roles" className="btn btn-quiet py-0.5 text-xs">Save roles</button>
+                      <button type="submit" name="action" value="member-remove" className="btn btn-quiet py-0.5 text-xs">Remove</button>
+                    </form>
+                  </td>
+                )}
               </tr>
             ))}
           </tbody>
@@ -68,16 +84,31 @@ function Members({ campaignId, initial, serverError, serverNotice }: Props) {
                 <li key={i.id} className="flex items-center gap-3">
                   <span className="text-ink-700">{i.email}</span>
                   <RoleChips roles={i.roles} />
-                  <span className="text-ink-500 ml-auto">
+                  <span className="text-ink-600 ml-auto">
                     link valid until <span className="num">{formatDate(i.expiresAt)}</span>
                   </span>
+                  {data.canManageMembers && (
+                    <form method="post">
+                      <input type="hidden" name="invitationId" value={i.id} />
+                      <button type="submit" name="action" value="invitation-revoke" className="btn btn-quiet py-0.5 text-xs" aria-label={`Revoke the invitation of ${i.email}`}>Revoke</button>
+                    </form>
+                  )}
                 </li>
               ))}
             </ul>
           </div>
         )}
       </section>
-      {data.canManageMembers && <AddMemberForm campaignId={campaignId} serverError={serverError} serverNotice={serverNotice} />}
+      {data.canManageMembers && (
+        <div className="flex flex-col gap-4">
+          <AddMemberForm campaignId={campaignId} serverError={serverError} serverNotice={serverNotice} />
+          <form method="post" className="card p-5 flex flex-col gap-2 text-sm" aria-labelledby="archive-heading">
+            <h2 id="archive-heading" className="text-lg">{data.campaign.archivedAt ? 'Archived' : 'Archive the campaign'}</h2>
+            <p className="text-ink-600">{data.campaign.archivedAt ? 'Restore it to import photometry and start batches again.' : 'Keeps every star, fit, review and release readable, lists the campaign apart and stops new imports and batches.'}</p>
+            <button type="submit" name="action" value={data.campaign.archivedAt ? 'restore' : 'archive'} className="btn btn-quiet justify-center">{data.campaign.archivedAt ? 'Restore the campaign' : 'Archive the campaign'}</button>
+          </form>
+        </div>
+      )}
     </div>
   );
 }

@@ -47,13 +47,16 @@ function Board({ initialCampaigns, canCreate, serverError, serverValues }: Props
           </div>
         ) : (
           <ul className="flex flex-col gap-3" data-testid="campaign-list">
-            {list.map((c) => (
-              <li key={c.id} className="card p-5 hover:border-ember-400 transition-colors">
+            {[...list.filter((c) => !c.archivedAt), ...list.filter((c) => c.archivedAt)].map((c) => (
+              <li key={c.id} className={`card p-5 hover:border-ember-400 transition-colors ${c.archivedAt ? 'opacity-80' : ''}`} data-archived={c.archivedAt ? 'true' : 'false'}>
                 <div className="flex items-baseline justify-between gap-4">
                   <a href={`/campaigns/${c.id}`} className="font-display text-xl text-ink-900 no-underline hover:text-ember-700">
                     {c.name}
                   </a>
-                  <RoleChips roles={c.myRoles} />
+                  <span className="flex gap-2 items-center">
+                    {c.archivedAt && <span className="role-chip bg-paper-deep text-ink-700">archived</span>}
+                    <RoleChips roles={c.myRoles} />
+                  </span>
                 </div>
                 {c.description && <p className="text-ink-600 mt-1 line-clamp-2">{c.description}</p>}
                 <p className="text-sm text-ink-500 mt-2">

@@ -56,6 +56,7 @@ function Desk({ campaignId, actorId, canDecide, fourEyes, initialFilter = {} }: 
   const [help, setHelp] = useState(false);
   const listRef = useRef<HTMLUListElement>(null);
   const reasonRef = useRef<HTMLFieldSetElement>(null);
+  const commentRef = useRef<HTMLTextAreaElement>(null);
 
   const ownBatch = !!current && fourEyes && current.batchStartedById === actorId;
 
@@ -114,11 +115,13 @@ function Desk({ campaignId, actorId, canDecide, fourEyes, initialFilter = {} }: 
       }
       if (mode === 'flag') {
         const n = Number(e.key);
-        if (!isTyping(e.target) && Number.isInteger(n) && n >= 1 && n <= REVIEW_REASONS.length) {
+        // A digit chooses the reason only outside the comment; then the comment takes the focus, so
+        // what is typed next (digits too) goes into the comment and cannot re-choose the reason.
+        const inText = e.target instanceof HTMLTextAreaElement || (e.target instanceof HTMLInputElement && e.target.type === 'text');
+        if (!inText && !isTyping(e.target) && Number.isInteger(n) && n >= 1 && n <= REVIEW_REASONS.length) {
           e.preventDefault();
           setReason(REVIEW_REASONS[n - 1].code);
-          // Focus follows the choice, so Tab goes on to the comment.
-          reasonRef.current?.querySelectorAll('input')[n - 1]?.focus();
+          commentRef.current?.focus();
           return;
         }
         const inComment = e.target instanceof HTMLTextAreaElement;
@@ -167,8 +170,8 @@ function Desk({ campaignId, actorId, canDecide, fourEyes, initialFilter = {} }: 
   }, [mode]);
 
   return (
-    <div className="grid lg:grid-cols-[21rem_1fr] gap-6 items-start" data-testid="review-desk">
-      <div className="flex flex-col gap-4">
+    <div className="grid lg:grid-cols-[21rem_1fr] gap-6 items-start min-w-0" data-testid="review-desk">
+      <div className="flex flex-col gap-4 min-w-0 order-2 lg:order-none">
         <FilterForm filter={filter} onApply={(f) => { setFilter(f); setSelectedFitId(null); }} />
         <section className="card overflow-hidden" aria-labelledby="queue-heading">
           <h2 id="queue-heading" className="text-lg px-4 pt-4 pb-2">
@@ -213,7 +216,8 @@ function Desk({ campaignId, actorId, canDecide, fourEyes, initialFilter = {} }: 
         {canDecide && <BulkForm campaignId={campaignId} filter={filter} total={total} fourEyes={fourEyes} />}
       </div>
 
-      <section className="card p-5 min-h-[24rem]" aria-labelledby="current-heading">
+      {/* On a phone the fit under review comes first, the queue below it. */}
+      <section className="card p-5 min-h-[24rem] min-w-0 order-1 lg:order-none" aria-labelledby="current-heading" data-testid="review-card">
         <div role="status" aria-live="polite" data-testid="desk-status">
           {message && <p className={`notice ${message.kind === 'ok' ? 'notice-ok' : 'notice-error'} mb-3`}>{message.text}</p>}
         </div>
@@ -265,7 +269,7 @@ function Desk({ campaignId, actorId, canDecide, fourEyes, initialFilter = {} }: 
                   </fieldset>
                   <div>
                     <label htmlFor="flag-comment" className="field-label">Comment (Enter sends, Shift+Enter for a new line)</label>
-                    <textarea id="flag-comment" className="field-input" rows={2} maxLength={2000} value={comment} onChange={(e) => setComment(e.target.value)} />
+                    <textarea id="flag-comment" ref={commentRef} className="field-input" rows={2} maxLength={2000} value={comment} onChange={(e) => setComment(e.target.value)} data-testid="flag-comment" />
                   </div>
                   <div className="flex gap-2">
                     <button type="submit" className="btn btn-primary" disabled={decide.isPending}>Flag this fit</button>

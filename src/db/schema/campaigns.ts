@@ -22,6 +22,8 @@ export const campaigns = sqliteTable('campaigns', {
   // Lower-cased, whitespace-collapsed name: two campaigns may not differ only in case or spacing.
   nameKey: text('name_key').notNull().unique(),
   description: text('description').notNull().default(''),
+  // Archived campaigns keep everything, are listed apart and take no new imports or batches.
+  archivedAt: integer('archived_at', { mode: 'timestamp_ms' }),
   createdById: text('created_by_id')
     .notNull()
     .references(() => user.id, { onDelete: 'restrict' }),

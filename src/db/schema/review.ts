@@ -1,6 +1,6 @@
 // Review decisions on fits, personal API tokens and catalogue releases.
 import { sql } from 'drizzle-orm';
-import { index, integer, real, sqliteTable, text } from 'drizzle-orm/sqlite-core';
+import { blob, index, integer, primaryKey, real, sqliteTable, text } from 'drizzle-orm/sqlite-core';
 import { user } from './auth';
 import { campaigns } from './campaigns';
 import { fitResults } from './batches';
@@ -121,6 +121,41 @@ export const catalogueReleases = sqliteTable(
     softwareVersion: text('software_version').notNull(),
     releasedById: text('released_by_id').references(() => user.id, { onDelete: 'set null' }),
     createdAt: integer('created_at', { mode: 'timestamp_ms' }).notNull().default(now),
+    // Frozen releases (decision record 0017) keep their rows and files; older ones only their filter.
+    frozen: integer('frozen', { mode: 'boolean' }).notNull().default(false),
+    // The downloads' provenance at release time: batches with options and versions, zero-points, constants.
+    provenance: text('provenance', { mode: 'json' }).$type<Record<string, unknown>>(),
   },
   (t) => [index('catalogue_releases_campaign_idx').on(t.campaignId, t.createdAt)],
+);
+
+/** The files of a frozen release, byte for byte as they were written at release time, with their SHA-256. */
+export const releaseFiles = sqliteTable(
+  'release_files',
+  {
+    releaseId: text('release_id')
+      .notNull()
+      .references(() => catalogueReleases.id, { onDelete: 'cascade' }),
+    format: text('format').notNull(),
+    fileName: text('file_name').notNull(),
+    contentType: text('content_type').notNull(),
+    sha256: text('sha256').notNull(),
+    sizeBytes: integer('size_bytes').notNull(),
+    content: blob('content', { mode: 'buffer' }).notNull(),
+  },
+  (t) => [primaryKey({ columns: [t.releaseId, t.format] })],
+);
+
+/** The rows of a frozen release (one per star), for comparing releases: the batch that made the fit and the row's values. */
+export const releaseRows = sqliteTable(
+  'release_rows',
+  {
+    releaseId: text('release_id')
+      .notNull()
+      .references(() => catalogueReleases.id, { onDelete: 'cascade' }),
+    starKey: text('star_key').notNull(),
+    batchId: text('batch_id'),
+    values: text('values', { mode: 'json' }).$type<Record<string, string | number | null>>().notNull(),
+  },
+  (t) => [primaryKey({ columns: [t.releaseId, t.starKey] })],
 );

@@ -36,6 +36,8 @@ const META: Record<string, ColumnMeta> = {
   ir_excess_sigma: { kind: 'double', ucd: 'stat.snr;em.IR' },
   flags: { kind: 'text', ucd: 'meta.code.qual' },
   review_status: { kind: 'text', ucd: 'meta.code.status' },
+  batch_id: { kind: 'text', ucd: 'meta.id;meta.dataset' },
+  review_mark: { kind: 'text', ucd: 'meta.code' },
 };
 
 export function columnMeta(c: CatalogueColumn): ColumnMeta {

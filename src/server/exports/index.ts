@@ -7,7 +7,7 @@ import type { CatalogueFilter } from '../catalogue';
 import { csvExport } from './csv';
 import { fitsExport } from './fits';
 import { jsonExport } from './json';
-import { openExport, type ExportSource } from './source';
+import { openExport, type ExportProvenance, type ExportSource } from './source';
 import { votableExport } from './votable';
 
 export const EXPORT_FORMATS = {
@@ -31,8 +31,15 @@ export function exportFileName(campaignName: string, format: ExportFormat, date 
 }
 
 /** The bytes of a download, chunk by chunk (tests read them whole; the route streams them). */
-export function exportChunks(db: AppDatabase, campaign: { id: string; name: string }, filter: CatalogueFilter, format: ExportFormat): AsyncGenerator<Uint8Array> {
-  return EXPORT_FORMATS[format].write(openExport(db, campaign, filter));
+export function exportChunks(db: AppDatabase, campaign: { id: string; name: string }, filter: CatalogueFilter, format: ExportFormat, at?: { now: Date; release?: ExportProvenance['release'] }): AsyncGenerator<Uint8Array> {
+  return EXPORT_FORMATS[format].write(openExport(db, campaign, filter, at?.now, at?.release));
+}
+
+/** A whole download in memory (releases freeze their files this way). */
+export async function exportBytes(db: AppDatabase, campaign: { id: string; name: string }, filter: CatalogueFilter, format: ExportFormat, at?: { now: Date; release?: ExportProvenance['release'] }): Promise<Buffer> {
+  const parts: Uint8Array[] = [];
+  for await (const c of exportChunks(db, campaign, filter, format, at)) parts.push(c);
+  return Buffer.concat(parts);
 }
 
 export function exportResponse(db: AppDatabase, campaign: { id: string; name: string }, filter: CatalogueFilter, format: ExportFormat): Response {

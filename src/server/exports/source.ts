@@ -49,6 +49,8 @@ export interface ExportProvenance {
   /** Zero-points of the bands that reached at least one fit in these rows. */
   zeroPoints: ZeroPointUsed[];
   notes: string[];
+  /** Set in the files of a frozen release: what to cite. */
+  release?: { id: string; title: string; address: string };
 }
 
 export interface ExportSource {
@@ -58,16 +60,34 @@ export interface ExportSource {
   lines: string[];
   count: number;
   /** Widest value in bytes of each text column (FITS needs fixed widths up front). */
-  maxBytes: Record<'id' | 'bands_used' | 'flags' | 'review_status', number>;
+  maxBytes: Record<'id' | 'bands_used' | 'flags' | 'review_status' | 'batch_id' | 'review_mark', number>;
   rows(): IterableIterator<CatalogueRow>;
   close(): void;
 }
+
+/**
+ * Columns the downloads add after the catalogue's own: the batch that made each row's fit (its
+ * options and versions are in the provenance under that id) and marks on the live review decision.
+ */
+export const EXPORT_EXTRA_COLUMNS: CatalogueColumn[] = [
+  { name: 'batch_id', description: 'id of the batch that made this fit; its options, band library and software versions are listed in the provenance' },
+  { name: 'review_mark', description: 'marks on the review decision, space-separated: four_eyes_off (made while the four-eyes rule was switched off), carried_over (carried over from an earlier fit by a re-fit that agreed within 0.25σ)' },
+];
+
+/** The columns of every download, in order. */
+export function exportColumns(): CatalogueColumn[] {
+  return [...catalogueColumns(true), ...EXPORT_EXTRA_COLUMNS];
+}
+
+const REVIEW_MARK_SQL = `coalesce((SELECT trim(CASE WHEN d.four_eyes_off THEN 'four_eyes_off ' ELSE '' END || CASE WHEN d.carried_from_decision_id IS NOT NULL THEN 'carried_over' ELSE '' END)
+  FROM review_decisions d WHERE d.fit_result_id = f.id AND d.superseded_at IS NULL ORDER BY d.id DESC LIMIT 1), '')`;
 
 /** Output column ← SQL. The catalogue says 'unreviewed' where the database says 'pending'. */
 const SELECT = `s.star_key AS id, s.ra_deg AS ra, s.dec_deg AS dec, f.teff_k, f.teff_err_k, f.teff_err_formal_k, f.teff_lower_k,
   f.theta_mas, f.theta_err_mas, f.radius_rsun, f.radius_err_rsun, f.lum_lsun, f.lum_err_lsun, f.fbol_cgs, f.fbol_err_cgs,
   f.av_mag AS av, f.av_err_mag AS av_err, f.chi2_red, coalesce(f.n_bands, 0) AS n_bands, coalesce(f.bands_used, '') AS bands_used,
-  f.ir_excess_sigma, f.flags, CASE f.review_status WHEN 'pending' THEN 'unreviewed' ELSE f.review_status END AS review_status`;
+  f.ir_excess_sigma, f.flags, CASE f.review_status WHEN 'pending' THEN 'unreviewed' ELSE f.review_status END AS review_status,
+  f.batch_id, ${REVIEW_MARK_SQL} AS review_mark`;
 
 // Band library versions are immutable rows in the database (src/server/band-library.ts), so the
 // zero-points a fit used can always be listed with it.
@@ -76,7 +96,7 @@ function libraryFor(db: AppDatabase, version: string): BandLibrary | null {
 }
 
 /** Opens the rows of a campaign's catalogue under `filter`, ordered by star id. Call close() when done. */
-export function openExport(db: AppDatabase, campaign: { id: string; name: string }, filter: CatalogueFilter, now = new Date()): ExportSource {
+export function openExport(db: AppDatabase, campaign: { id: string; name: string }, filter: CatalogueFilter, now = new Date(), release?: ExportProvenance['release']): ExportSource {
   const file = db.$client.name;
   const conn = new Database(file, { readonly: true, fileMustExist: true });
   let open = true;
@@ -106,6 +126,8 @@ export function openExport(db: AppDatabase, campaign: { id: string; name: string
       bands_used: Math.max(1, ...groups.map((g) => g.bandsBytes)),
       flags: Math.max(1, ...groups.map((g) => g.flagBytes)),
       review_status: 'unreviewed'.length,
+      batch_id: Math.max(1, ...groups.map((g) => Buffer.byteLength(g.batchId))),
+      review_mark: 'four_eyes_off carried_over'.length,
     };
 
     const batchRows = new Map<string, number>();
@@ -163,7 +185,7 @@ export function openExport(db: AppDatabase, campaign: { id: string; name: string
       }
     }
 
-    const columns = catalogueColumns(true);
+    const columns = exportColumns();
     const provenance: ExportProvenance = {
       software: { name: 'Starkiln', version: appVersion() },
       createdAt: now.toISOString(),
@@ -176,7 +198,9 @@ export function openExport(db: AppDatabase, campaign: { id: string; name: string
       zeroPoints,
       notes,
     };
+    if (release) provenance.release = release;
     const lines = provenanceText(provenance, columns);
+    if (release) lines.splice(1, 0, `release: ${release.title} (${release.id}), ${release.address}; frozen: these bytes never change`);
     const rowStatement = conn.prepare(`SELECT ${SELECT} FROM ${from} WHERE ${where.join(' AND ')} ORDER BY s.star_key`);
     return {
       columns,

@@ -27,7 +27,7 @@ import { fileProblem, toReport } from './report';
 import type { CheckSummary, ImportSummary, ReportEntry, UploadDetail, UploadSummary } from '../../contracts/intake';
 
 export type { CheckSummary, ImportSummary, UploadDetail, UploadSummary } from '../../contracts/intake';
-import { intakeConfigFromEnv, receiveUpload, type IntakeConfig } from './storage';
+import { intakeConfigOf, receiveUpload, type IntakeConfig } from './storage';
 
 export const PREVIEW_ROWS = 8;
 
@@ -37,7 +37,7 @@ export function bandKeys(db: DbOrTx): string[] {
 }
 
 export function intakeConfig(app: AppServices): IntakeConfig {
-  return intakeConfigFromEnv(app.env.databasePath);
+  return intakeConfigOf(app.env);
 }
 
 /** Reads the stored file of an upload again (uploads are read on each step, never cached). */

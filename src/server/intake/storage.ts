@@ -6,10 +6,9 @@ import { createWriteStream, mkdirSync, renameSync, rmSync } from 'node:fs';
 import path from 'node:path';
 import { Readable } from 'node:stream';
 import type { ReadableStream as NodeWebStream } from 'node:stream/web';
+import type { AppEnv } from '../../adapters/env';
 import { newId } from '../ids';
 import { IntakeError } from './errors';
-
-export const DEFAULT_UPLOAD_MAX_BYTES = 200 * 1024 * 1024;
 
 export interface IntakeConfig {
   /** Folder holding uploads/<campaign>/<random>. */
@@ -17,16 +16,9 @@ export interface IntakeConfig {
   maxBytes: number;
 }
 
-/**
- * DATA_DIR (default: the database's folder) and UPLOAD_MAX_BYTES (default 200 MB), read here
- * because only the intake needs them.
- */
-export function intakeConfigFromEnv(databasePath: string, env: Record<string, string | undefined> = process.env): IntakeConfig {
-  const raw = env.UPLOAD_MAX_BYTES?.trim();
-  const maxBytes = raw ? Number(raw) : DEFAULT_UPLOAD_MAX_BYTES;
-  if (!Number.isSafeInteger(maxBytes) || maxBytes <= 0) throw new Error(`UPLOAD_MAX_BYTES must be a positive whole number of bytes, found "${raw}"`);
-  const dataDir = env.DATA_DIR?.trim() ? path.resolve(env.DATA_DIR.trim()) : path.dirname(databasePath);
-  return { dataDir, maxBytes };
+/** DATA_DIR and UPLOAD_MAX_BYTES from the settings (src/adapters/env.ts). */
+export function intakeConfigOf(env: Pick<AppEnv, 'dataDir' | 'uploadMaxBytes'>): IntakeConfig {
+  return { dataDir: env.dataDir, maxBytes: env.uploadMaxBytes };
 }
 
 /** Prefix of an upload still arriving; it gets its final name only once complete (see cleanupUploads). */

@@ -6,7 +6,7 @@ import { createCampaign, listCampaignsForUser } from '../../../server/campaigns'
 
 export const GET: APIRoute = handle(({ locals }) => {
   const actor = requireUser(locals);
-  return json({ campaigns: listCampaignsForUser(locals.app.db, actor.id) });
+  return json({ campaigns: listCampaignsForUser(locals.app.db, actor.id, { admin: actor.kind === 'admin' }) });
 });
 
 export const POST: APIRoute = handle(async ({ locals, request }) => {

@@ -4,6 +4,7 @@ import type { APIRoute } from 'astro';
 import { requireCampaignRole } from '#web/guards';
 import { handle, json } from '#web/http';
 import { createUpload, listUploads } from '#server/intake/intake';
+import { assertNotArchived } from '#server/members';
 
 export const GET: APIRoute = handle(({ locals, params }) => {
   const { campaign } = requireCampaignRole(locals, params.id ?? '', ['analyst'], { allowAdmin: true });
@@ -12,6 +13,7 @@ export const GET: APIRoute = handle(({ locals, params }) => {
 
 export const POST: APIRoute = handle(async ({ locals, params, request }) => {
   const { actor, campaign } = requireCampaignRole(locals, params.id ?? '', ['analyst']);
+  assertNotArchived(locals.app.db, campaign.id);
   const upload = await createUpload(locals.app, actor, campaign.id, request);
   return json({ upload }, 201, { location: `/api/campaigns/${campaign.id}/uploads/${upload.id}` });
 });

@@ -1,9 +1,10 @@
 // `npm run db:migrate`: bring the database at DATABASE_PATH (default data/starkiln.db) up to date.
-import { openDatabase } from './client';
-import { migrateDatabase, migrationStatus } from './migrate';
-import { resolveDatabasePath } from './paths';
+// The settings (and `.env`) are read first, as the server and the workers read them.
+import { getEnv } from '../adapters/env';
+import { openDatabase } from '../db/client';
+import { migrateDatabase, migrationStatus } from '../db/migrate';
 
-const file = resolveDatabasePath();
+const file = getEnv().databasePath;
 const { db, sqlite } = openDatabase(file);
 try {
   migrateDatabase(db);
