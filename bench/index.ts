@@ -16,6 +16,7 @@ const SECTIONS: { name: string; file: string; what: string }[] = [
   { name: 'end-to-end', file: 'end-to-end.ts', what: 'CSV upload → stored results with two worker processes (SQLite queue)' },
   { name: 'catalogue', file: 'catalogue.ts', what: 'catalogue page requests on a million stored results (p50/p95)' },
   { name: 'export', file: 'export.ts', what: 'downloads of a million-row catalogue in CSV, VOTable, FITS and JSON (time, peak RSS)' },
+  { name: 'readers', file: 'readers.ts', what: 'CSV, VOTable and FITS readers: time and memory held per table cell' },
   { name: 'redis', file: 'redis.ts', what: 'BullMQ on Redis: 1, 2 and 4 worker processes and the result writer' },
 ];
 

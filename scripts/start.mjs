@@ -1,4 +1,5 @@
-// `npm start`: migrate the database, then run the built server (node dist/server/entry.mjs).
+// `npm start`: migrate the database, then run the built server (scripts/server.mjs in front of
+// dist/server/entry.mjs).
 // Also the building blocks of scripts/demo.mjs.
 import { spawn, spawnSync } from 'node:child_process';
 import { existsSync } from 'node:fs';
@@ -38,7 +39,7 @@ export function ensureBuilt({ buildIfMissing }) {
 
 /** Start the web server; children stop when this process is asked to stop. */
 export function startServer() {
-  const server = spawn(process.execPath, [path.join(root, 'dist/server/entry.mjs')], { cwd: root, stdio: 'inherit', env: process.env });
+  const server = spawn(process.execPath, [path.join(root, 'scripts/server.mjs')], { cwd: root, stdio: 'inherit', env: process.env });
   const children = [server];
   // Later: the worker process starts here too (`npm run worker`), sharing the same DATABASE_PATH.
   for (const signal of ['SIGINT', 'SIGTERM']) {

@@ -8,5 +8,7 @@ declare namespace App {
     actor: import('./server/context').Actor | null;
     /** How the actor was identified: a session cookie, or a personal API token (bearer). */
     authMethod: 'session' | 'token' | null;
+    /** The client's address: the connection's peer, or X-Forwarded-For from a trusted proxy (src/adapters/client-address.ts). */
+    clientAddress: string;
   }
 }

@@ -1,7 +1,7 @@
 // Personal API tokens, catalogue releases and the OpenAPI description, on a real migrated SQLite:
 // secrets stored only as SHA-256, bearer identification with the owner's roles, revoked / expired /
 // unknown tokens refused, and who may call every endpoint added with the catalogue (anonymous 401,
-// outsider 403, collaborator reads and downloads, only analysts and admins release). The bearer
+// outsider 404, collaborator reads and downloads, only analysts and admins release). The bearer
 // path through the real middleware and server is in tests/e2e/catalogue.browser.test.ts.
 import { createHash } from 'node:crypto';
 import { readdirSync, statSync } from 'node:fs';
@@ -139,11 +139,11 @@ describe('who may call the catalogue endpoints', () => {
     ['releases', listReleasesRoute, (id) => ({ id })],
   ];
 
-  it('reads: anonymous 401, outsider 403, every member and an admin 200', async () => {
+  it('reads: anonymous 401, outsider 404 (as for a missing campaign), every member and an admin 200', async () => {
     for (const [name, route, params] of readRoutes) {
       const url = `http://127.0.0.1/api/campaigns/${campaignId}/${name}?status=accepted`;
       expect((await call(route, null, params(campaignId), { url })).status, `${name} anonymous`).toBe(401);
-      expect((await call(route, outsider, params(campaignId), { url })).status, `${name} outsider`).toBe(403);
+      expect((await call(route, outsider, params(campaignId), { url })).status, `${name} outsider`).toBe(404);
       for (const who of [collaborator, reviewer, analyst, admin]) expect((await call(route, who, params(campaignId), { url })).status, `${name} ${who.email}`).toBe(200);
       expect((await call(route, collaborator, params('nosuchcampaign'), { url })).status, `${name} unknown campaign`).toBe(404);
     }
@@ -153,7 +153,7 @@ describe('who may call the catalogue endpoints', () => {
     const params = { id: campaignId };
     const body = { title: 'First light', note: 'Accepted fits of the halo field.' };
     expect((await call(releaseRoute, null, params, { body })).status).toBe(401);
-    expect((await call(releaseRoute, outsider, params, { body })).status).toBe(403);
+    expect((await call(releaseRoute, outsider, params, { body })).status).toBe(404);
     expect((await call(releaseRoute, collaborator, params, { body })).status).toBe(403);
     expect((await call(releaseRoute, reviewer, params, { body })).status).toBe(403);
     const outbox = () => t.sqlite.prepare("SELECT to_address, subject, text_body FROM outbox_messages WHERE subject LIKE 'Catalogue released:%' ORDER BY id").all() as { to_address: string; subject: string; text_body: string }[];

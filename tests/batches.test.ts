@@ -43,14 +43,14 @@ async function call(route: (ctx: never) => Promise<Response> | Response, t: Test
 }
 
 describe('starting a batch', () => {
-  it('is for the campaign’s analysts: reviewer and collaborator 403, outsider 403, anonymous 401', async () => {
+  it('is for the campaign’s analysts: reviewer and collaborator 403, outsider 404, anonymous 401', async () => {
     const w = await world(5);
     const params = { id: w.campaign.id };
     const body = { options: { law: 'ccm89', rv: 3.1 } };
     expect((await call(startRoute, w.t, null, params, { body })).status).toBe(401);
     expect((await call(startRoute, w.t, w.reviewer, params, { body })).status).toBe(403);
     expect((await call(startRoute, w.t, w.collaborator, params, { body })).status).toBe(403);
-    expect((await call(startRoute, w.t, w.outsider, params, { body })).status).toBe(403);
+    expect((await call(startRoute, w.t, w.outsider, params, { body })).status).toBe(404);
     const ok = await call(startRoute, w.t, w.analyst, params, { body });
     expect(ok.status).toBe(201);
     expect(ok.body.batch).toMatchObject({ campaignId: w.campaign.id, status: 'queued', starCount: 5, options: { law: 'ccm89', rv: 3.1, fitAv: false, floorFraction: 0.02 } });
@@ -59,7 +59,7 @@ describe('starting a batch', () => {
     // Any member may read the list and the progress.
     expect((await call(listRoute, w.t, w.collaborator, params)).body.batches).toHaveLength(1);
     expect((await call(progressRoute, w.t, w.reviewer, { batchId: ok.body.batch.id })).status).toBe(200);
-    expect((await call(progressRoute, w.t, w.outsider, { batchId: ok.body.batch.id })).status).toBe(403);
+    expect((await call(progressRoute, w.t, w.outsider, { batchId: ok.body.batch.id })).status).toBe(404);
     expect((await call(progressRoute, w.t, w.reviewer, { batchId: 'nope' })).status).toBe(404);
   });
 
@@ -208,7 +208,7 @@ describe('cancelling a batch', () => {
     expect((await call(cancelRoute, w.t, null, params, { body: {} })).status).toBe(401);
     expect((await call(cancelRoute, w.t, w.reviewer, params, { body: {} })).status).toBe(403);
     expect((await call(cancelRoute, w.t, w.collaborator, params, { body: {} })).status).toBe(403);
-    expect((await call(cancelRoute, w.t, w.outsider, params, { body: {} })).status).toBe(403);
+    expect((await call(cancelRoute, w.t, w.outsider, params, { body: {} })).status).toBe(404);
     expect(w.t.sqlite.prepare("SELECT sum(stars_left) FROM jobs WHERE batch_id = ? AND status = 'pending'").pluck().get(batch.id)).toBe(25);
 
     const res = await call(cancelRoute, w.t, w.analyst, params, { body: {} });

@@ -451,10 +451,10 @@ describe('catalogue API', () => {
     return { status: res.status, body: (await res.json()) as Record<string, any> }; // eslint-disable-line @typescript-eslint/no-explicit-any
   }
 
-  it('serves members, refuses outsiders (403) and anonymous callers (401), and names a bad parameter (400)', async () => {
+  it('serves members, refuses outsiders (404, as for a missing campaign) and anonymous callers (401), and names a bad parameter (400)', async () => {
     for (const route of [pageRoute, countRoute, diagramsRoute]) {
       expect((await call(route, null)).status).toBe(401);
-      expect((await call(route, outsider)).status).toBe(403);
+      expect((await call(route, outsider)).status).toBe(404);
       expect((await call(route, collaborator)).status).toBe(200);
     }
     const page = await call(pageRoute, collaborator, '?status=accepted&sort=star_key&limit=5');

@@ -294,7 +294,7 @@ describe('download route', () => {
 
   it('streams every format to members with a file name, and refuses others', async () => {
     expect((await call(null, 'csv')).status).toBe(401);
-    expect((await call(outsider, 'csv')).status).toBe(403);
+    expect((await call(outsider, 'csv')).status).toBe(404);
     for (const format of EXPORT_FORMAT_NAMES) {
       const res = await call(collaborator, format);
       expect(res.status).toBe(200);
@@ -306,6 +306,38 @@ describe('download route', () => {
     expect(unknown.status).toBe(404);
     expect(((await unknown.json()) as { error: { message: string } }).error.message).toMatch(/csv, votable, fits, json/);
     expect((await call(collaborator, 'csv', '?teffMin=warm')).status).toBe(400);
+  });
+
+  it('applies the flag, flagAbsent, q and chi2Max parameters (rows compared with plain SQL)', async () => {
+    const ids = async (query: string) => {
+      const res = await call(collaborator, 'csv', query);
+      expect(res.status, query).toBe(200);
+      return (parseCsv(await res.text(), { comment: '#', columns: true }) as Record<string, string>[]).map((r) => r.id);
+    };
+    const hasFlag = (code: string) => `(' ' || f.flags || ' ') LIKE '% ${code} %'`;
+    const accepted = "f.review_status = 'accepted'";
+    const withFlag = dbRows(`${accepted} AND ${hasFlag('plx_missing')}`).map((r) => r.id);
+    const withoutFlag = dbRows(`${accepted} AND NOT ${hasFlag('plx_missing')}`).map((r) => r.id);
+    expect(withFlag.length).toBeGreaterThan(0);
+    expect(withoutFlag.length).toBeGreaterThan(0);
+    expect(await ids('?status=accepted&flag=plx_missing')).toEqual(withFlag);
+    expect(await ids('?status=accepted&flag=plx_missing&flagAbsent=1')).toEqual(withoutFlag);
+
+    const chi2 = dbRows(accepted).map((r) => Number(r.chi2_red)).filter(Number.isFinite).sort((a, b) => a - b);
+    const cut = chi2[Math.floor(chi2.length / 2)];
+    const belowCut = dbRows(`${accepted} AND f.chi2_red <= ${cut}`).map((r) => r.id);
+    expect(belowCut.length).toBeGreaterThan(0);
+    expect(belowCut.length).toBeLessThan(chi2.length);
+    expect(await ids(`?status=accepted&chi2Max=${cut}`)).toEqual(belowCut);
+
+    const prefix = String(dbRows(accepted)[0].id).slice(0, -1);
+    const byPrefix = dbRows(`${accepted} AND substr(s.star_key, 1, ${prefix.length}) = '${prefix}'`).map((r) => r.id);
+    expect(byPrefix.length).toBeGreaterThan(0);
+    expect(byPrefix.length).toBeLessThan(dbRows(accepted).length);
+    expect(await ids(`?status=accepted&q=${encodeURIComponent(prefix)}`)).toEqual(byPrefix);
+    // The selection line of the file says which filter made it.
+    const res = await call(collaborator, 'csv', `?status=accepted&flag=plx_missing&flagAbsent=1&chi2Max=${cut}&q=${encodeURIComponent(prefix)}`);
+    expect(await res.text()).toContain(`# selection: review status accepted; reduced χ² ≤ ${cut}; without flag plx_missing; star id starting with "${prefix}"`);
   });
 });
 

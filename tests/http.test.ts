@@ -70,7 +70,9 @@ describe('guards', () => {
     expect(status(() => requireAdmin(as(admin)))).toBe(200);
     expect(status(() => requireCampaignRole(as(analyst), c.id, ['analyst']))).toBe(200);
     expect(status(() => requireCampaignRole(as(analyst), c.id, ['reviewer']))).toBe(403);
-    expect(status(() => requireCampaignRole(as(outsider), c.id, 'any'))).toBe(403);
+    // A non-member hears the same 404 for an existing campaign as for a missing one (issue 10, item 7).
+    expect(status(() => requireCampaignRole(as(outsider), c.id, 'any'))).toBe(404);
+    expect(status(() => requireCampaignRole(as(outsider), 'missing', 'any'))).toBe(404);
     expect(status(() => requireCampaignRole(as(null), c.id, 'any'))).toBe(401);
     expect(status(() => requireCampaignRole(as(admin), c.id, 'any'))).toBe(403);
     expect(status(() => requireCampaignRole(as(admin), c.id, 'any', { allowAdmin: true }))).toBe(200);

@@ -11,7 +11,7 @@ import { projectRoot } from '../src/db/paths';
 import { measurements, stars, uploads } from '../src/db/schema';
 import type { Actor } from '../src/server/context';
 import { IntakeError } from '../src/server/intake/errors';
-import { checkUpload, createUpload, getUpload, importUpload, type UploadDetail } from '../src/server/intake/intake';
+import { bandForFilter, checkUpload, createUpload, getUpload, importUpload, type UploadDetail } from '../src/server/intake/intake';
 import { deletePreset, listPresets, savePreset } from '../src/server/intake/presets';
 import type { IntakeConfig } from '../src/server/intake/storage';
 import { POST as postUpload, GET as listUploadsRoute } from '../src/pages/api/campaigns/[id]/uploads/index';
@@ -161,15 +161,40 @@ describe('every reader path through upload → check → import', () => {
   });
 
   it('FITS image header: metadata on the measurement, band from FILTER', async () => {
-    const u = await upload('frame.fits', fixture('fits', 'image_header.fits'));
+    // The fixture's FILTER is 'V'; this copy says 'Ks' (the card rewritten in place, same 80
+    // columns), so a suggestion that ignored FILTER could not pass.
+    const bytes = Buffer.from(fixture('fits', 'image_header.fits'));
+    const card = bytes.indexOf("FILTER  = 'V       '");
+    expect(card).toBeGreaterThanOrEqual(0);
+    bytes.write("FILTER  = 'Ks      '", card, 'latin1');
+    const u = await upload('frame.fits', new Uint8Array(bytes));
     expect(u.format).toBe('fits-image');
-    expect(u.observation!.filter).toBeTruthy();
-    const band = u.suggestedBand ?? 'V';
+    expect(u.observation!.filter).toBe('Ks');
+    expect(u.suggestedBand).toBe('Ks');
+    const band = u.suggestedBand!;
     const r = importUpload(t.app, analyst, campaignId, u.id, { rules: { quality: [] }, image: { starId: 'ember-51', band, mag: 10.5, magErr: 0.03 } });
     expect(r.measurementsCreated).toBe(1);
     const m = t.db.select().from(measurements).get()!;
     expect(m).toMatchObject({ bandKey: band, mag: 10.5, source: 'frame.fits' });
     expect(m.observation).toMatchObject({ filter: u.observation!.filter, image: 'frame.fits' });
+  });
+});
+
+describe('bandForFilter: the band a FITS FILTER value names', () => {
+  const keys = ['U', 'B', 'V', 'R', 'I', 'J', 'H', 'Ks', 'u', 'g', 'G'];
+  it.each([
+    ['V', 'V'],
+    [' Ks ', 'Ks'],
+    ['J 2MASS', 'J'],
+    ['R_Bessell', 'R'],
+    ['ks', 'Ks'],
+    ['h', 'H'],
+  ])('%j → %s', (filter, band) => expect(bandForFilter(filter, keys)).toBe(band));
+  it.each([[undefined], [''], ['Halpha'], ['W1']])('%j names no band', (filter) => expect(bandForFilter(filter, keys)).toBeUndefined());
+  it('an exact key wins over a case-insensitive one; two case-only candidates name none', () => {
+    expect(bandForFilter('u', keys)).toBe('u');
+    expect(bandForFilter('G', keys)).toBe('G');
+    expect(bandForFilter('kp', ['Kp', 'KP'])).toBeUndefined();
   });
 });
 
@@ -255,7 +280,7 @@ describe('malformed files are rejected with a clear message and nothing imported
     const u = await upload('long.csv', csv);
     const err = await rejected(() => importUpload(t.app, analyst, campaignId, u.id, { mapping: mappingOf(u), rules: { quality: [] } }));
     const msgs = err.extra.report!.map((r) => `${r.row}/${r.column}: ${r.message}`);
-    expect(msgs[0]).toBe('1/mag_err: row 1, column mag_err: negative error -0.02');
+    expect(msgs[0]).toBe('1/mag_err: row 1 (file line 2), column mag_err: negative error -0.02');
     expect(msgs[1]).toMatch(/^2\/band: .*unknown band "Vmag"/);
     expect(counts()).toEqual({ stars: 0, measurements: 0 });
   });

@@ -243,7 +243,7 @@ describe('decisions', () => {
     expect(self.body.error.message).toMatch(/You started batch .*, whose fits wait for review, so the four-eyes rule applies to you/);
     // Nor a guest, nor anyone outside the campaign's analysts and reviewers.
     expect((await call(setSettingsRoute, w.t, w.collaborator, { id: w.campaign.id }, { body: { fourEyes: false, reason: 'please' } })).status).toBe(403);
-    expect((await call(setSettingsRoute, w.t, w.outsider, { id: w.campaign.id }, { body: { fourEyes: false, reason: 'please' } })).status).toBe(403);
+    expect((await call(setSettingsRoute, w.t, w.outsider, { id: w.campaign.id }, { body: { fourEyes: false, reason: 'please' } })).status).toBe(404); // not a member: as for a missing campaign
     // A reviewer whose account an admin later made a guest one keeps the role row, but not the switch.
     const madeGuest = await makeUser(w.t.app, { name: 'Gus Guest' });
     await addToCampaign(w.t.app, w.lead, w.campaign.id, madeGuest, ['reviewer']);
@@ -504,7 +504,7 @@ describe('notice to reviewers', () => {
 });
 
 describe('who may call each endpoint', () => {
-  it('answers 401 to anonymous callers and 403 to those without the role, for every review endpoint', async () => {
+  it('answers 401 to anonymous callers, 404 to non-members (as for a missing campaign) and 403 to members without the role, for every review endpoint', async () => {
     const w = await world();
     const fitId = String(fitIdOf(w.t.db, w.batchId, 'Quillmark'));
     const id = w.campaign.id;
@@ -513,21 +513,21 @@ describe('who may call each endpoint', () => {
     type Who = 'anonymous' | 'outsider' | 'collaborator' | 'analyst' | 'reviewer' | 'admin';
     const actors: Record<Who, Actor | null> = { anonymous: null, outsider: w.outsider, collaborator: w.collaborator, analyst: w.analyst, reviewer: w.reviewer, admin: w.admin };
     const endpoints: { name: string; route: Route; params: Record<string, string>; body?: unknown; expect: Record<Who, number> }[] = [
-      { name: 'GET star', route: starRoute, params: { id, starId: 'Quillmark' }, expect: { anonymous: 401, outsider: 403, collaborator: 200, analyst: 200, reviewer: 200, admin: 200 } },
-      { name: 'GET queue', route: queueRoute, params: { id }, expect: { anonymous: 401, outsider: 403, collaborator: 403, analyst: 200, reviewer: 200, admin: 200 } },
-      { name: 'POST decision', route: decisionRoute, params: { fitId }, body: decisionBody, expect: { anonymous: 401, outsider: 403, collaborator: 403, analyst: 403, reviewer: 201, admin: 201 } },
-      { name: 'POST bulk', route: bulkRoute, params: { id }, body: bulkBody, expect: { anonymous: 401, outsider: 403, collaborator: 403, analyst: 403, reviewer: 200, admin: 200 } },
-      { name: 'GET history', route: historyRoute, params: { fitId }, expect: { anonymous: 401, outsider: 403, collaborator: 200, analyst: 200, reviewer: 200, admin: 200 } },
-      { name: 'GET settings', route: getSettingsRoute, params: { id }, expect: { anonymous: 401, outsider: 403, collaborator: 200, analyst: 200, reviewer: 200, admin: 200 } },
-      { name: 'GET audit', route: auditRoute, params: { id }, expect: { anonymous: 401, outsider: 403, collaborator: 403, analyst: 200, reviewer: 200, admin: 200 } },
-      { name: 'POST settings', route: setSettingsRoute, params: { id }, body: { fourEyes: true }, expect: { anonymous: 401, outsider: 403, collaborator: 403, analyst: 200, reviewer: 200, admin: 200 } },
+      { name: 'GET star', route: starRoute, params: { id, starId: 'Quillmark' }, expect: { anonymous: 401, outsider: 404, collaborator: 200, analyst: 200, reviewer: 200, admin: 200 } },
+      { name: 'GET queue', route: queueRoute, params: { id }, expect: { anonymous: 401, outsider: 404, collaborator: 403, analyst: 200, reviewer: 200, admin: 200 } },
+      { name: 'POST decision', route: decisionRoute, params: { fitId }, body: decisionBody, expect: { anonymous: 401, outsider: 404, collaborator: 403, analyst: 403, reviewer: 201, admin: 201 } },
+      { name: 'POST bulk', route: bulkRoute, params: { id }, body: bulkBody, expect: { anonymous: 401, outsider: 404, collaborator: 403, analyst: 403, reviewer: 200, admin: 200 } },
+      { name: 'GET history', route: historyRoute, params: { fitId }, expect: { anonymous: 401, outsider: 404, collaborator: 200, analyst: 200, reviewer: 200, admin: 200 } },
+      { name: 'GET settings', route: getSettingsRoute, params: { id }, expect: { anonymous: 401, outsider: 404, collaborator: 200, analyst: 200, reviewer: 200, admin: 200 } },
+      { name: 'GET audit', route: auditRoute, params: { id }, expect: { anonymous: 401, outsider: 404, collaborator: 403, analyst: 200, reviewer: 200, admin: 200 } },
+      { name: 'POST settings', route: setSettingsRoute, params: { id }, body: { fourEyes: true }, expect: { anonymous: 401, outsider: 404, collaborator: 403, analyst: 200, reviewer: 200, admin: 200 } },
     ];
     for (const e of endpoints) {
       for (const who of Object.keys(actors) as Who[]) {
         const r = await call(e.route, w.t, actors[who], e.params, e.body === undefined ? {} : { body: e.body });
         expect(r.status, `${e.name} as ${who}: ${JSON.stringify(r.body)}`).toBe(e.expect[who]);
         if (r.status >= 400) {
-          expect(r.body.error.code).toBe(r.status === 401 ? 'unauthenticated' : 'forbidden');
+          expect(r.body.error.code).toBe(r.status === 401 ? 'unauthenticated' : r.status === 404 ? 'not_found' : 'forbidden');
           expect(r.body.error.message.length).toBeGreaterThan(10);
         }
       }

@@ -98,7 +98,7 @@ if (backend === 'redis') {
 }
 
 const owner = values.id ?? `${os.hostname()}:${process.pid}`;
-const app = getApp();
+const app = getApp('worker');
 const worker = createWorker(app, {
   owner,
   jobsAtOnce: intOption(values, 'jobs', 1),

@@ -74,7 +74,7 @@ export async function runRedisRole(a: RedisRoleArgs): Promise<never> {
   const { getApp } = await import('../src/app/app');
   const { closeDb } = await import('../src/db/client');
   const { createResultWriter } = await import('./result-writer');
-  const app = getApp();
+  const app = getApp('worker');
   const redisUrl = a.redisUrl ?? app.env.redisUrl;
   const writer = createResultWriter(app, {
     owner,

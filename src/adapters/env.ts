@@ -7,6 +7,8 @@ import { existsSync, mkdirSync, readFileSync, writeFileSync } from 'node:fs';
 import path from 'node:path';
 import { z } from 'zod';
 import { projectRoot, resolveDatabasePath } from '../db/paths';
+import { limitsFromEnv, type InputLimits } from '../core/input/limits';
+import { parseTrustedProxies, type TrustedProxies } from './client-address';
 
 const optionalPassword = z
   .string()
@@ -44,6 +46,8 @@ const settingsShape = z.object({
   MAIL_FROM: z.string().default('Starkiln <no-reply@starkiln.test>'),
   SIGNUP_OPEN: z.enum(['true', 'false']).default('false'),
   AUTH_RATE_LIMIT: z.enum(['on', 'off']).default('on'),
+  // Reverse proxies (addresses or CIDR ranges, comma-separated) whose X-Forwarded-For is believed.
+  TRUSTED_PROXIES: z.string().optional(),
   // Queue backend: sqlite (embedded, default) or redis (BullMQ; workers on other machines).
   STARKILN_QUEUE: z.enum(['sqlite', 'redis'], 'STARKILN_QUEUE must be sqlite or redis').default('sqlite'),
   REDIS_URL: z
@@ -61,6 +65,13 @@ const settingsShape = z.object({
   DEMO_ANALYST_PASSWORD: optionalPassword,
   DEMO_REVIEWER_PASSWORD: optionalPassword,
   DEMO_COLLABORATOR_PASSWORD: optionalPassword,
+  // What one input file may cost to read (INPUT_MAX_BYTES, _ROWS, _COLUMNS, _CELLS, _SECONDS):
+  // checked by limitsFromEnv in src/core/input/limits.ts, which the CLI shares.
+  INPUT_MAX_BYTES: z.string().optional(),
+  INPUT_MAX_ROWS: z.string().optional(),
+  INPUT_MAX_COLUMNS: z.string().optional(),
+  INPUT_MAX_CELLS: z.string().optional(),
+  INPUT_MAX_SECONDS: z.string().optional(),
 });
 
 /** Every setting Starkiln reads (.env.example lists each one). */
@@ -91,9 +102,15 @@ export interface AppEnv {
   mailFrom: string;
   signupOpen: boolean;
   authRateLimit: boolean;
+  /** Peers whose X-Forwarded-For names the client (src/adapters/client-address.ts). */
+  trustedProxies: TrustedProxies;
+  /** The public address is https: cookies get the Secure flag. */
+  secureCookies: boolean;
   demoPasswords: { admin?: string; analyst?: string; reviewer?: string; collaborator?: string };
   queueBackend: 'sqlite' | 'redis';
   redisUrl: string;
+  /** What one input file may cost to read (INPUT_MAX_*; docs/decisions/0018-input-limits.md). */
+  inputLimits: InputLimits;
   /** Stars per fit job (chunk). */
   fitChunkStars: number;
 }
@@ -121,11 +138,24 @@ export function parseEnv(source: Record<string, string | undefined>): AppEnv {
   // An empty line in .env (KEY=) means "not set", not "set to nothing".
   const present = Object.fromEntries(Object.entries(source).filter(([, v]) => v !== undefined && v.trim() !== ''));
   const result = envSchema.safeParse(present);
-  if (!result.success) {
-    const lines = result.error.issues.map((i) => `  ${i.path.join('.')}: ${i.message}`);
+  let inputLimits: InputLimits | undefined;
+  let limitProblems: string[] = [];
+  try {
+    inputLimits = limitsFromEnv(present);
+  } catch (err) {
+    limitProblems = (err as Error).message.split('; ').map((m) => `  ${m.split(' ')[0]}: ${m.slice(m.indexOf(' ') + 1)}`);
+  }
+  if (!result.success || !inputLimits) {
+    const lines = [...(result.success ? [] : result.error.issues.map((i) => `  ${i.path.join('.')}: ${i.message}`)), ...limitProblems];
     throw new Error(`Starkiln configuration is invalid:\n${lines.join('\n')}`);
   }
   const e = result.data;
+  let trustedProxies: TrustedProxies;
+  try {
+    trustedProxies = parseTrustedProxies(e.TRUSTED_PROXIES);
+  } catch (err) {
+    throw new Error(`Starkiln configuration is invalid:\n  TRUSTED_PROXIES: ${(err as Error).message}`);
+  }
   const databasePath = resolveDatabasePath(e.DATABASE_PATH);
   const baseUrl = e.BETTER_AUTH_URL.replace(/\/+$/, '');
   const origins = new Set([new URL(baseUrl).origin]);
@@ -154,8 +184,11 @@ export function parseEnv(source: Record<string, string | undefined>): AppEnv {
     mailFrom: e.MAIL_FROM,
     signupOpen: e.SIGNUP_OPEN === 'true',
     authRateLimit: e.AUTH_RATE_LIMIT === 'on',
+    trustedProxies,
+    secureCookies: new URL(baseUrl).protocol === 'https:',
     queueBackend: e.STARKILN_QUEUE,
     redisUrl: e.REDIS_URL,
+    inputLimits,
     fitChunkStars: e.FIT_CHUNK_STARS,
     demoPasswords: {
       admin: e.DEMO_ADMIN_PASSWORD,

@@ -6,6 +6,7 @@ import { toActor, type Actor, type AppServices } from '../server/context';
 import { createAuth, type SessionUser } from '../adapters/auth';
 import { getEnv, type AppEnv } from '../adapters/env';
 import { createMailer } from '../adapters/mail';
+import { PARTIAL_IDLE_MS, processStartedAt, removeLeftoverPartials } from '../server/intake/storage';
 
 export function createApp(db: AppDatabase, env: AppEnv): AppServices {
   const mailer = createMailer({ transport: env.mailTransport, smtpUrl: env.smtpUrl, from: env.mailFrom });
@@ -16,20 +17,38 @@ export function createApp(db: AppDatabase, env: AppEnv): AppServices {
     baseUrl: env.baseUrl,
     trustedOrigins: env.trustedOrigins,
     rateLimit: env.authRateLimit,
+    secureCookies: env.secureCookies,
   });
   return { db, env, mailer, auth };
 }
 
 let app: AppServices | undefined;
 
-/** The process-wide services; the first call opens and migrates the database. */
-export function getApp(): AppServices {
+/**
+ * The process-wide services; the first call opens and migrates the database and removes the partial
+ * uploads a killed upload or a crash left behind (for the server: every one older than this process;
+ * for a worker, which may start while the server receives a file: those idle for PARTIAL_IDLE_MS too).
+ */
+export function getApp(role: 'server' | 'worker' = 'server'): AppServices {
   if (!app) {
     // Settings first (they load .env), then the database they name.
     const env = getEnv();
     app = createApp(getDb(env.databasePath), env);
+    startUpCleanUp(app, role);
   }
   return app;
+}
+
+function startUpCleanUp(services: AppServices, role: 'server' | 'worker'): void {
+  const started = processStartedAt();
+  const before = role === 'server' ? started : Math.min(started, Date.now() - PARTIAL_IDLE_MS);
+  try {
+    const removed = removeLeftoverPartials(services.env.dataDir, before);
+    if (removed.length > 0) console.log(`Removed ${removed.length} partial upload file(s) left by an upload that never finished.`);
+  } catch (err) {
+    // A clean-up that cannot run must not keep the service from starting.
+    console.error('The start-up clean-up of partial uploads failed:', err);
+  }
 }
 
 /** Look up the session behind a request's cookies. */

@@ -1,5 +1,6 @@
 // Band library calls for the admin islands (the same JSON endpoints scripts use).
 import { useMutation } from '@tanstack/react-query';
+import type { ZeroPoint } from '../core/types';
 import { apiFetch } from './api';
 
 export interface CurvePreview {
@@ -22,14 +23,8 @@ export interface CurveUpload {
   convention: 'photon' | 'energy';
 }
 
-export interface ZeroPointBody {
-  fLambdaCgs?: number;
-  fnuJy?: number;
-  relErr: number;
-  catalogueOffsetMag?: number;
-  isophotalWavelengthAngstrom?: number;
-  source: string;
-}
+/** A zero-point as POST /api/admin/bands/:key/zero-point takes it: the core's shape. */
+export type ZeroPointBody = ZeroPoint;
 
 export interface NewBandBody {
   band: {

@@ -1,47 +1,10 @@
-// Queries and mutations for batches, used by the batch islands. The JSON shapes mirror
-// src/server/batches.ts (islands may not import server code, so they are restated here).
+// Queries and mutations for batches, used by the batch islands. The JSON shapes are the contract's
+// (src/contracts/batches.ts), which the server builds.
 import { useMutation, useQuery } from '@tanstack/react-query';
+import type { BatchFailuresPage, BatchProgress } from '../contracts/batches';
 import { apiFetch } from './api';
 
-export interface BatchOptionsView {
-  law: 'f99' | 'ccm89' | 'od94';
-  rv: number;
-  avMag: number;
-  fitAv: boolean;
-  avBoundsMag: [number, number];
-  floorFraction: number;
-  excludeBands: string[];
-  includeLongBands: boolean;
-  clip: boolean;
-}
-
-export interface BatchProgressView {
-  id: string;
-  campaignId: string;
-  status: 'queued' | 'running' | 'finished' | 'cancelled';
-  starCount: number;
-  createdAt: string;
-  finishedAt: string | null;
-  startedBy: { id: string; name: string } | null;
-  options: BatchOptionsView;
-  bandLibraryVersion: string;
-  softwareVersion: string;
-  fitted: number;
-  failed: number;
-  waiting: number;
-  retrying: number;
-  running: number;
-  ratePerSecond: number;
-  secondsLeft: number | null;
-}
-
-export interface BatchFailuresView {
-  total: number;
-  failures: { starId: number; starKey: string; reason: string; kind: 'fit' | 'job' }[];
-  retrying: { starKey: string; stars: number; attempts: number; maxAttempts: number; lastError: string | null; nextTryAt: string }[];
-  limit: number;
-  offset: number;
-}
+export type { BatchFailuresPage, BatchProgress } from '../contracts/batches';
 
 /** What the start form sends (POST /api/campaigns/:id/batches). */
 export interface StartBatchBody {
@@ -78,10 +41,10 @@ export const batchKeys = {
 const live = (status: string | undefined) => status !== 'finished' && status !== 'cancelled';
 
 /** Polls the progress every 1.5 s until the batch has finished. */
-export function useBatchProgress(batchId: string, initialData?: BatchProgressView) {
+export function useBatchProgress(batchId: string, initialData?: BatchProgress) {
   return useQuery({
     queryKey: batchKeys.progress(batchId),
-    queryFn: async () => (await apiFetch<{ progress: BatchProgressView }>(`/api/batches/${encodeURIComponent(batchId)}/progress`)).progress,
+    queryFn: async () => (await apiFetch<{ progress: BatchProgress }>(`/api/batches/${encodeURIComponent(batchId)}/progress`)).progress,
     initialData,
     staleTime: 0,
     refetchInterval: (q) => (live(q.state.data?.status) ? 1500 : false),
@@ -89,10 +52,10 @@ export function useBatchProgress(batchId: string, initialData?: BatchProgressVie
 }
 
 /** The failures list, refreshed every 5 s while the batch runs (failures only ever grow). */
-export function useBatchFailures(batchId: string, running: boolean, offset = 0, initialData?: BatchFailuresView) {
+export function useBatchFailures(batchId: string, running: boolean, offset = 0, initialData?: BatchFailuresPage) {
   return useQuery({
     queryKey: batchKeys.failures(batchId, offset),
-    queryFn: () => apiFetch<BatchFailuresView>(`/api/batches/${encodeURIComponent(batchId)}/failures?limit=50&offset=${offset}`),
+    queryFn: () => apiFetch<BatchFailuresPage>(`/api/batches/${encodeURIComponent(batchId)}/failures?limit=50&offset=${offset}`),
     initialData: offset === 0 ? initialData : undefined,
     staleTime: 0,
     refetchInterval: running ? 5000 : false,

@@ -3,17 +3,11 @@
 import { keepPreviousData, useQuery } from '@tanstack/react-query';
 import { apiFetch } from './api';
 
-export type { CatalogueDiagrams, CataloguePage, CatalogueRowView, DensityGrid, DiagramPoint } from '../contracts/catalogue';
-import type { CatalogueDiagrams, CataloguePage } from '../contracts/catalogue';
+export type { CatalogueDiagrams, CataloguePage, CatalogueRowView, CatalogueSort, DensityGrid, DiagramPoint } from '../contracts/catalogue';
+import { EXPORT_FORMAT_LABELS, type CatalogueDiagrams, type CataloguePage, type ExportFormat } from '../contracts/catalogue';
 
-export const SORTABLE = ['star_key', 'teff_k', 'lum_lsun', 'radius_rsun', 'chi2_red', 'review_status'] as const;
-export type SortKey = (typeof SORTABLE)[number];
-export const DOWNLOAD_FORMATS = [
-  { key: 'csv', label: 'CSV' },
-  { key: 'votable', label: 'VOTable' },
-  { key: 'fits', label: 'FITS table' },
-  { key: 'json', label: 'JSON' },
-] as const;
+/** The download links, in the order the contract lists the formats. */
+export const DOWNLOAD_FORMATS = (Object.keys(EXPORT_FORMAT_LABELS) as ExportFormat[]).map((key) => ({ key, label: EXPORT_FORMAT_LABELS[key] }));
 /** The filter's parameters (everything but sort, direction, page size and position). */
 export const FILTER_KEYS = ['status', 'teffMin', 'teffMax', 'chi2Max', 'flag', 'flagAbsent', 'q'] as const;
 /** Event the table sends when its filter changes, so the diagrams follow. */

@@ -187,6 +187,36 @@ describe('starkiln fit, end to end', () => {
     expect(second.bands_used.split(' ')).toContain('J');
   });
 
+  it('--include-long fits W3 (12 µm) instead of keeping it as an excess diagnostic', () => {
+    // W3 of the first star 1 mag too bright: a 12 µm excess (dust, a companion) on a noise-free star.
+    const stars = mockStars(2, 17);
+    const lines = mockCsv(stars).trimEnd().split('\n');
+    const w3At = lines[0].split(',').indexOf('W3');
+    const cells = lines[1].split(',');
+    cells[w3At] = String(Number(cells[w3At]) - 1);
+    lines[1] = cells.join(',');
+    writeFileSync(path.join(dir, 'long.csv'), lines.join('\n') + '\n');
+
+    expect(run('fit', 'long.csv', '-o', 'long-default.json').code).toBe(0);
+    const plain = JSON.parse(readFileSync(path.join(dir, 'long-default.json'), 'utf8'));
+    expect(plain.provenance.options.include_long).toBe(false);
+    for (const [i, row] of plain.rows.entries()) {
+      expect(row.bands_used.split(' ')).not.toContain('W3');
+      expect(Math.abs(row.teff_k / stars[i].teffK - 1)).toBeLessThan(1e-4);
+    }
+    expect(plain.rows[0].flags.split(' ')).toContain('ir_excess');
+    expect(plain.rows[1].flags.split(' ')).not.toContain('ir_excess');
+
+    expect(run('fit', 'long.csv', '-o', 'long-fitted.json', '--include-long').code).toBe(0);
+    const fitted = JSON.parse(readFileSync(path.join(dir, 'long-fitted.json'), 'utf8'));
+    expect(fitted.provenance.options.include_long).toBe(true);
+    for (const row of fitted.rows) expect(row.bands_used.split(' ')).toContain('W3');
+    // The clean star still comes back to 1e-4; the bright W3 now pulls the first star's fit.
+    expect(Math.abs(fitted.rows[1].teff_k / stars[1].teffK - 1)).toBeLessThan(1e-4);
+    expect(fitted.rows[0].flags.split(' ')).not.toContain('ir_excess');
+    expect(Math.abs(fitted.rows[0].teff_k / stars[0].teffK - 1)).toBeGreaterThan(1e-3);
+  });
+
   it('reports bad rows as file:line:column, fits the good ones, exits with 2', () => {
     const stars = mockStars(3, 5);
     const lines = mockCsv(stars).trimEnd().split('\n');
@@ -197,8 +227,8 @@ describe('starkiln fit, end to end', () => {
     writeFileSync(path.join(dir, 'bad.csv'), lines.join('\n') + '\n');
     const r = run('fit', 'bad.csv', '-o', 'bad-out.csv');
     expect(r.code).toBe(2);
-    expect(r.stderr).toContain('bad.csv:3:9: row 2, column V: V magnitude "bright" is not a number');
-    expect(r.stderr).toContain('bad.csv:5:1: row 4, column id: duplicate star id "cinder-000001" (first in row 1); the row was left out');
+    expect(r.stderr).toContain('bad.csv:3:9: row 2 (file line 3), column V: V magnitude "bright" is not a number');
+    expect(r.stderr).toContain('bad.csv:5:1: row 4 (file line 5), column id: duplicate star id "cinder-000001" (first in row 1); the row was left out');
     expect(r.stderr).toMatch(/2 stars fitted, 2 input rows left out, 2 errors/);
     const cat = readCatalogue(path.join(dir, 'bad-out.csv'));
     expect(cat.rows.map((x) => x.id)).toEqual([stars[0].id, stars[2].id]);
@@ -214,7 +244,7 @@ describe('starkiln fit, end to end', () => {
     );
     const r = run('fit', 'neg.csv', '-o', 'neg-out.csv');
     expect(r.code).toBe(2);
-    expect(r.stderr).toContain('neg.csv:3:3: row 2, column V_err: negative error -0.02');
+    expect(r.stderr).toContain('neg.csv:3:3: row 2 (file line 3), column V_err: negative error -0.02');
     expect(r.stderr).toContain('neg.csv:W5_jy: warning: unknown band column "W5_jy" (with W5_jy_err): "W5" is not a band key (band keys are case-sensitive: ');
     expect(r.stderr).toMatch(/2 stars fitted, 1 input row left out, 1 error and 1 warning/);
     const cat = readCatalogue(path.join(dir, 'neg-out.csv'));

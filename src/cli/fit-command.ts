@@ -3,7 +3,7 @@
 // core the worker uses, and write the catalogue atomically (temporary file, then rename) with its
 // provenance.
 import { createHash } from 'node:crypto';
-import { closeSync, fsyncSync, openSync, readFileSync, renameSync, rmSync, writeSync } from 'node:fs';
+import { closeSync, fsyncSync, openSync, readFileSync, renameSync, rmSync, statSync, writeSync } from 'node:fs';
 import path from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { STARTER_BAND_KEYS, getBand, starterBandLibrary } from '../core/bands';
@@ -22,6 +22,7 @@ import { measurementToBandFlux } from '../core/photometry';
 import { fitStar, prepareFitModel, type FitFailure, type FitResult } from '../core/fit';
 import { applyMapping, closestBandKey, type ColumnTable, type MappedStar, type MappingProblem } from '../core/input/mapping';
 import { FORMAT_LABELS, readUpload, UnreadableFile, type ReadUpload } from '../core/input/table-file';
+import { limitsFromEnv, ReadBudget, type InputLimits } from '../core/input/limits';
 import type { BandFlux } from '../core/types';
 import { UsageError, type FitCommandArgs } from './args';
 import { describeMapping, mappingFileJson, resolveMapping } from './column-mapping';
@@ -134,17 +135,28 @@ export async function runFit(args: FitCommandArgs, io: Io): Promise<number> {
       throw new UsageError(`--exclude: unknown band "${key}"${guess ? `; did you mean '${guess}'?` : ''} (band keys: ${bandKeys.join(' ')})`);
     }
   }
+  // The same limits as the web intake, from the same settings (INPUT_MAX_*).
+  let limits: InputLimits;
+  try {
+    limits = limitsFromEnv(process.env);
+  } catch (e) {
+    io.stderr.write(`starkiln: ${(e as Error).message}\n`);
+    return 2;
+  }
   let bytes: Uint8Array;
   try {
+    // Refused by its size before it is read into memory.
+    new ReadBudget(args.input, limits).bytes(statSync(args.input).size);
     bytes = new Uint8Array(readFileSync(args.input));
   } catch (e) {
-    io.stderr.write(`starkiln: cannot read ${args.input}: ${(e as NodeJS.ErrnoException).code === 'ENOENT' ? 'no such file' : (e as Error).message}\n`);
+    if (e instanceof UnreadableFile) io.stderr.write(`starkiln: ${e.message}\n`);
+    else io.stderr.write(`starkiln: cannot read ${args.input}: ${(e as NodeJS.ErrnoException).code === 'ENOENT' ? 'no such file' : (e as Error).message}\n`);
     return 1;
   }
   const sha256 = createHash('sha256').update(bytes).digest('hex');
   let read: ReadUpload;
   try {
-    read = readUpload(bytes, args.input, undefined, { hdu: args.hdu });
+    read = readUpload(bytes, args.input, undefined, { hdu: args.hdu, limits });
   } catch (e) {
     if (!(e instanceof UnreadableFile)) throw e;
     io.stderr.write(`starkiln: ${e.message}\n`);

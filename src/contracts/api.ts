@@ -50,3 +50,16 @@ export interface HealthReport {
   version: string;
   database: { reachable: boolean; migrated: boolean; appliedMigrations: number; expectedMigrations: number; error?: string };
 }
+
+/** A personal API token as GET/POST /api/tokens and DELETE /api/tokens/:id show it (never its secret). */
+export interface ApiTokenView {
+  id: string;
+  name: string;
+  /** The first characters of the secret, to tell tokens apart. */
+  prefix: string;
+  createdAt: string;
+  lastUsedAt: string | null;
+  expiresAt: string | null;
+  revokedAt: string | null;
+  status: 'active' | 'revoked' | 'expired';
+}

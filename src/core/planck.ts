@@ -57,8 +57,3 @@ export function surfaceFluxWm2(teffK: number): number {
 export function luminosityW(radiusM: number, teffK: number): number {
   return 4 * Math.PI * radiusM * radiusM * surfaceFluxWm2(teffK);
 }
-
-/** Bolometric flux at Earth s·σT⁴, W m⁻², for the dilution s = (R/d)² = (θ/2)². */
-export function bolometricFluxWm2(dilution: number, teffK: number): number {
-  return dilution * surfaceFluxWm2(teffK);
-}

@@ -32,18 +32,6 @@ export const DEMO_CAMPAIGN = {
     'Pellucid Nine and Quillmark; season two adds three hundred fainter stars from 3500 to 9000 K.',
 };
 
-/** Invented star names for the demo (later issues load photometry for them). */
-export const DEMO_STARS = [
-  'Cindermoor',
-  'Ashbright',
-  'Velloran',
-  'Tamsel Minor',
-  'Orrowind',
-  'Harthglow',
-  'Pellucid Nine',
-  'Quillmark',
-] as const;
-
 export const DEMO_INVITEE = `visitor@${DEMO_DOMAIN}`;
 
 export function demoUsers(passwords: Partial<Record<keyof typeof DEMO_DEFAULT_PASSWORDS, string>> = {}) {

@@ -7,6 +7,8 @@ import { and, count, eq, gt, isNull } from 'drizzle-orm';
 import { z } from 'zod';
 import { campaignMemberRoles, campaignMembers, campaigns, invitations, user } from '../db/schema';
 import { accountGrant, PASSWORD_MAX_LENGTH, PASSWORD_MIN_LENGTH } from '../adapters/auth';
+import { passwordWeakness } from '../adapters/password-strength';
+import { countActiveApiTokens, revokeAllApiTokens } from './api-tokens';
 import type { AccountKind } from '../contracts/vocabulary';
 import { recordAudit } from './audit';
 import type { AppServices } from './context';
@@ -62,6 +64,12 @@ export function findInvitation(db: DbOrTx, token: string) {
   return row ?? null;
 }
 
+/** Refuses a password that is easy to guess or leans on the person's name or e-mail (field: password). */
+export function requireStrongPassword(password: string, person: { name?: string | null; email?: string | null }): void {
+  const weak = passwordWeakness(password, person);
+  if (weak) throw new HttpError('validation_failed', weak, 'password');
+}
+
 function userByEmail(db: DbOrTx, email: string) {
   return db.select().from(user).where(eq(user.email, email)).get() ?? null;
 }
@@ -75,6 +83,7 @@ export async function createAccount(
   raw: { name: string; email: string; password: string; kind: AccountKind },
 ): Promise<string> {
   const input = parseInput(signUpInput.omit({ invitation: true }), raw);
+  requireStrongPassword(input.password, input);
   if (userByEmail(app.db, input.email)) {
     throw new HttpError('conflict', `An account with the e-mail ${input.email} already exists.`, 'email');
   }
@@ -97,6 +106,7 @@ export function isFreshInstallation(db: DbOrTx): boolean {
 export async function registerAccount(app: AppServices, raw: unknown, headers?: Headers): Promise<{ userId: string; response: Response }> {
   const { db } = app;
   const input = parseInput(signUpInput, raw);
+  requireStrongPassword(input.password, input);
 
   let kind: AccountKind;
   if (input.invitation) {
@@ -169,13 +179,34 @@ export async function requestPasswordReset(app: AppServices, raw: unknown): Prom
 export const resetPasswordInput = z.object({
   token: z.string({ error: 'The reset link is incomplete.' }).min(1, 'The reset link is incomplete.'),
   password: passwordField,
+  /** Also revoke every API token of the account (a reset often follows a leak). */
+  revokeTokens: z.boolean().optional(),
 });
 
-export async function resetPassword(app: AppServices, raw: unknown): Promise<void> {
+const RESET_LINK_GONE = 'This reset link has been used or has expired. Ask for a new one.';
+
+/** The account behind an unused, unexpired reset link, with its number of active API tokens; else null. */
+export async function resetLinkAccount(app: AppServices, token: string): Promise<{ userId: string; name: string; email: string; activeTokens: number } | null> {
+  if (!token) return null;
+  const ctx = await app.auth.$context;
+  const found = await ctx.internalAdapter.findVerificationValue(`reset-password:${token}`);
+  if (!found || found.expiresAt < new Date()) return null;
+  const person = app.db.select().from(user).where(eq(user.id, found.value)).get();
+  if (!person) return null;
+  return { userId: person.id, name: person.name, email: person.email, activeTokens: countActiveApiTokens(app.db, person.id) };
+}
+
+/** Sets the new password (sessions end); with revokeTokens, the account's API tokens are revoked too. */
+export async function resetPassword(app: AppServices, raw: unknown): Promise<{ revokedTokens: number }> {
   const input = parseInput(resetPasswordInput, raw);
+  const owner = await resetLinkAccount(app, input.token);
+  if (!owner) throw new HttpError('validation_failed', RESET_LINK_GONE, 'token');
+  requireStrongPassword(input.password, owner);
   try {
     await app.auth.api.resetPassword({ body: { token: input.token, newPassword: input.password } });
   } catch {
-    throw new HttpError('validation_failed', 'This reset link has been used or has expired. Ask for a new one.', 'token');
+    throw new HttpError('validation_failed', RESET_LINK_GONE, 'token');
   }
+  const revokedTokens = input.revokeTokens ? revokeAllApiTokens(app.db, owner.userId, 'password reset') : 0;
+  return { revokedTokens };
 }

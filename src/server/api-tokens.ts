@@ -14,23 +14,14 @@ import type { Actor } from './context';
 import { HttpError } from './errors';
 import { hashToken, newId } from './ids';
 import { parseInput } from './validation';
+import type { ApiTokenView } from '../contracts/api';
 
 export const TOKEN_PREFIX = 'sk_';
 export const MAX_TOKENS_PER_USER = 50;
 /** lastUsedAt is written at most this often per token, so scripts do not turn reads into writes. */
 const LAST_USED_RESOLUTION_MS = 60_000;
 
-export interface ApiTokenView {
-  id: string;
-  name: string;
-  /** The first characters of the secret, to tell tokens apart. */
-  prefix: string;
-  createdAt: string;
-  lastUsedAt: string | null;
-  expiresAt: string | null;
-  revokedAt: string | null;
-  status: 'active' | 'revoked' | 'expired';
-}
+export type { ApiTokenView };
 
 export const createTokenInput = z.object({
   name: z
@@ -63,8 +54,8 @@ function view(r: TokenRow, now = Date.now()): ApiTokenView {
   };
 }
 
-export function listApiTokens(db: AppDatabase, userId: string): ApiTokenView[] {
-  return db.select().from(apiTokens).where(eq(apiTokens.userId, userId)).orderBy(desc(apiTokens.createdAt)).all().map((r) => view(r));
+export function listApiTokens(db: AppDatabase, userId: string, now = Date.now()): ApiTokenView[] {
+  return db.select().from(apiTokens).where(eq(apiTokens.userId, userId)).orderBy(desc(apiTokens.createdAt)).all().map((r) => view(r, now));
 }
 
 /** Makes a token; the secret is in the answer and nowhere else. */
@@ -96,6 +87,24 @@ export function revokeApiToken(db: AppDatabase, actor: Actor, tokenId: string, n
     }, { behavior: 'immediate' });
   }
   return view(db.select().from(apiTokens).where(eq(apiTokens.id, tokenId)).get()!);
+}
+
+/** How many of the person's tokens work today (neither revoked nor expired). */
+export function countActiveApiTokens(db: AppDatabase, userId: string): number {
+  return listApiTokens(db, userId).filter((t) => t.status === 'active').length;
+}
+
+/** Revokes every active token of the person (after a password reset, when they ask); returns how many. */
+export function revokeAllApiTokens(db: AppDatabase, userId: string, reason: string, now = new Date()): number {
+  const active = listApiTokens(db, userId, now.getTime()).filter((t) => t.status === 'active');
+  if (active.length === 0) return 0;
+  db.transaction((tx) => {
+    for (const t of active) {
+      tx.update(apiTokens).set({ revokedAt: now }).where(eq(apiTokens.id, t.id)).run();
+      recordAudit(tx, { actorId: userId, action: 'token.revoked', details: { tokenId: t.id, name: t.name, reason } });
+    }
+  }, { behavior: 'immediate' });
+  return active.length;
 }
 
 /** The secret of an `Authorization: Bearer …` header, or null when there is none. */

@@ -12,7 +12,7 @@ import { CurveFileError, parseCurveFile, WAVELENGTH_UNITS, type ParsedCurve } fr
 import { zeroMagnitudeFlambdaCgs } from '../core/magnitude';
 import { validateCurve } from '../core/passband';
 import type { Band, ZeroPoint } from '../core/types';
-import { recordAudit } from './audit';
+import { bandLibraryAction, recordAudit } from './audit';
 import type { Actor } from './context';
 import { HttpError } from './errors';
 import { parseInput } from './validation';
@@ -111,12 +111,6 @@ function versionInfo(r: VersionRow): BandLibraryVersionInfo {
 export function getCurrentVersion(db: AppDatabase): BandLibraryVersionInfo {
   ensureBandLibrary(db);
   return versionInfo(sqliteOf(db).prepare(`${VERSION_SELECT} ORDER BY v.id DESC LIMIT 1`).get() as VersionRow);
-}
-
-export function getVersion(db: AppDatabase, label: string): BandLibraryVersionInfo | null {
-  ensureBandLibrary(db);
-  const r = sqliteOf(db).prepare(`${VERSION_SELECT} WHERE v.label = ?`).get(label) as VersionRow | undefined;
-  return r ? versionInfo(r) : null;
 }
 
 /** Versions, newest first, a page at a time. */
@@ -226,6 +220,9 @@ export const zeroPointInput = z
   })
   .refine((zp) => (zp.fLambdaCgs === undefined) !== (zp.fnuJy === undefined), { error: 'Give the zero-point either as fLambdaCgs (F_λ,0) or as fnuJy (F_ν,0), exactly one of them.', path: ['fLambdaCgs'] });
 export type ZeroPointInput = z.input<typeof zeroPointInput>;
+// The schema validates the core's ZeroPoint shape (src/core/types.ts); this fails to compile if the two part.
+const _zeroPointShape: (parsed: z.output<typeof zeroPointInput>) => ZeroPoint = (parsed) => parsed;
+void _zeroPointShape;
 
 export const newBandInput = z.object({
   key: bandKeyInput,
@@ -298,7 +295,7 @@ interface NewVersion {
    * definitions (added, or replacing the one with the same key) and what to record as the change.
    * Throws to refuse the change; nothing is then written.
    */
-  build: (current: BandLibrary) => { bands: Band[]; change: Record<string, unknown> };
+  build: (current: BandLibrary) => { bands: Band[]; change: Record<string, unknown> & { action: 'band_added' | 'zero_point_changed' } };
 }
 
 /**
@@ -337,7 +334,7 @@ function writeVersion(db: AppDatabase, v: NewVersion): { version: BandLibraryVer
       for (const e of byKey.values()) insertEntry.run(versionId, e.key, e.definition_id, e.position);
       recordAudit(tx, {
         actorId: v.actor.id,
-        action: `band_library.${String(change.action)}`,
+        action: bandLibraryAction(change.action),
         details: { ...change, version: label, parentVersion: parent.label, reason: v.reason },
       });
       return { versionId, bands };

@@ -7,7 +7,8 @@
 import { and, desc, eq, sql } from 'drizzle-orm';
 import { z } from 'zod';
 import type { AppDatabase, DbOrTx } from '../db/client';
-import { batches, user, type BatchStatus } from '../db/schema';
+import { batches, user } from '../db/schema';
+import type { BatchFailure, BatchProgress, BatchSummary, RetryingJob } from '../contracts/batches';
 import { resolveFitOptions, type FitOptions } from '../core/fit';
 import type { MailMessage } from '../adapters/mail';
 import { recordAudit } from './audit';
@@ -20,6 +21,8 @@ import { newId } from './ids';
 import { createSqliteQueue, type ClaimedJob, type JobQueue, type SqliteQueueOptions } from './queue';
 import { assertNotArchived } from './members';
 import { notifyReviewersOfBatch } from './review';
+
+export type { BatchFailure, BatchFailuresPage, BatchProgress, BatchSummary, RetryingJob } from '../contracts/batches';
 
 /** Fit options as the analyst gives them (API and start form). Every field has a default. */
 export const batchOptionsInput = z.strictObject(
@@ -116,37 +119,6 @@ export function batchQueue(db: AppDatabase, options?: Omit<SqliteQueueOptions, '
   });
   if (!options) queues.set(db, q);
   return q;
-}
-
-export interface BatchSummary {
-  id: string;
-  campaignId: string;
-  status: BatchStatus;
-  starCount: number;
-  createdAt: string;
-  finishedAt: string | null;
-  startedBy: { id: string; name: string } | null;
-  options: FitOptions;
-  bandLibraryVersion: string;
-  softwareVersion: string;
-  refitOfBatchId: string | null;
-}
-
-export interface BatchProgress extends BatchSummary {
-  /** Stars with a fit. */
-  fitted: number;
-  /** Stars whose fit could not be made (data) or whose job gave up (error); each has a reason. */
-  failed: number;
-  /** Stars waiting for a worker (retrying ones included). */
-  waiting: number;
-  /** Waiting stars whose chunk failed before and waits for its backoff. */
-  retrying: number;
-  /** Stars a worker holds right now. */
-  running: number;
-  /** Results per second over the last minute (or since the start, when shorter). */
-  ratePerSecond: number;
-  /** Remaining stars / rate; null while nothing has finished yet. */
-  secondsLeft: number | null;
 }
 
 type BatchRow = typeof batches.$inferSelect;
@@ -283,25 +255,7 @@ function progressOf(db: AppDatabase, row: BatchRow, now = Date.now()): BatchProg
   };
 }
 
-export interface BatchFailure {
-  starId: number;
-  starKey: string;
-  reason: string;
-  /** fit: the data did not allow a fit; job: the job gave up after its attempts. */
-  kind: 'fit' | 'job';
-}
-
 /** A chunk waiting to be tried again: its first star still without a result names it. */
-export interface RetryingJob {
-  starKey: string;
-  /** Stars of the chunk still without a result. */
-  stars: number;
-  attempts: number;
-  maxAttempts: number;
-  lastError: string | null;
-  nextTryAt: string;
-}
-
 export function batchFailures(db: AppDatabase, batchId: string, page: { limit?: number; offset?: number } = {}): { total: number; failures: BatchFailure[]; retrying: RetryingJob[] } {
   requireBatch(db, batchId);
   const limit = Math.min(500, Math.max(1, page.limit ?? 100));

@@ -92,10 +92,6 @@ export function chunkIdOf(batchId: string, job: { id: number; starCount: number 
   return `${batchId}.${job.id}.${job.starCount}`;
 }
 
-export function chunkIdOfOwner(owner: string | null): string | null {
-  return owner && owner.startsWith(REDIS_OWNER_PREFIX) ? owner.slice(REDIS_OWNER_PREFIX.length) : null;
-}
-
 /**
  * The SQLite side of the Redis backend: everything the web host's writer process does to the
  * record. One instance per process.

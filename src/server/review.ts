@@ -11,7 +11,7 @@ import { campaignReviewSettings, user } from '../db/schema';
 import { FLAG_EXPLANATIONS } from '../core/fit/flags';
 import { REVIEW_REASON_CODES, reviewReasonLabel, type ReviewFilter } from '../contracts/review-reasons';
 import { describeCarryover, type BulkOutcome, type CarryoverView, type DecisionView, type QueueItem, type QueuePage, type ReviewSettings } from '../contracts/review';
-import { recordAudit } from './audit';
+import { recordAudit, reviewDecisionAction, reviewNoticeSent } from './audit';
 import type { Actor, AppServices } from './context';
 import { forbidden, HttpError } from './errors';
 import { reviewNoticeMail } from '../adapters/mail-templates';
@@ -394,7 +394,7 @@ export function decide(db: AppDatabase, actor: Actor, fitResultId: number, raw: 
       sqlite.prepare('UPDATE fit_results SET review_status = ? WHERE id = ?').run(input.decision, fit.id);
       recordAudit(tx, {
         actorId: actor.id,
-        action: `review.${input.decision}`,
+        action: reviewDecisionAction(input.decision),
         campaignId: fit.campaignId,
         details: { decisionId, fitResultId: fit.id, starId: fit.starId, starKey: fit.starKey, batchId: fit.batchId, reason: input.reason ?? null, comment: input.comment, supersedes: previous, ...(fourEyesOn ? {} : { fourEyesOff: true }) },
       });
@@ -436,7 +436,7 @@ export function bulkDecide(db: AppDatabase, actor: Actor, campaignId: string, ra
         setStatus.run(input.decision, r.id);
         recordAudit(tx, {
           actorId: actor.id,
-          action: `review.${input.decision}`,
+          action: reviewDecisionAction(input.decision),
           campaignId,
           details: { decisionId, fitResultId: r.id, starId: r.star_id, starKey: r.star_key, batchId: r.batch_id, reason: input.reason ?? null, comment: input.comment, bulkFilter: filterRecord, ...(fourEyesOn ? {} : { fourEyesOff: true }) },
         });
@@ -454,13 +454,7 @@ export function bulkDecide(db: AppDatabase, actor: Actor, campaignId: string, ra
   );
 }
 
-/** Audit events of the review (decisions, supersessions, bulk actions, rule changes), newest first. */
-export function reviewAudit(db: AppDatabase, campaignId: string, limit = 100): { id: number; actorId: string | null; action: string; details: Record<string, unknown>; createdAt: string }[] {
-  const rows = db.$client
-    .prepare("SELECT id, actor_id, action, details, created_at FROM audit_events WHERE campaign_id = ? AND action LIKE 'review.%' ORDER BY id DESC LIMIT ?")
-    .all(campaignId, limit) as { id: number; actor_id: string | null; action: string; details: string; created_at: number }[];
-  return rows.map((r) => ({ id: r.id, actorId: r.actor_id, action: r.action, details: JSON.parse(r.details) as Record<string, unknown>, createdAt: new Date(r.created_at).toISOString() }));
-}
+export { reviewAudit } from './audit';
 
 // ---------------------------------------------------------------------------------------------
 // Notice to reviewers
@@ -478,8 +472,7 @@ export async function notifyReviewersOfBatch(app: AppServices, batchId: string):
     | { id: string; campaign_id: string; campaign_name: string }
     | undefined;
   if (!batch) return 0;
-  const alreadySent = () =>
-    !!sqlite.prepare("SELECT 1 FROM audit_events WHERE campaign_id = ? AND action = 'review.notice_sent' AND json_extract(details, '$.batchId') = ?").get(batch.campaign_id, batchId);
+  const alreadySent = () => reviewNoticeSent(db, batch.campaign_id, batchId);
   if (alreadySent()) return 0;
   const waiting = sqlite.prepare("SELECT count(*) FROM fit_results WHERE batch_id = ? AND ok = 1 AND review_status = 'pending'").pluck().get(batchId) as number;
   if (waiting === 0) return 0;

@@ -17,9 +17,8 @@ describe('createRateLimiter', () => {
 describe('refuseTooManyPosts', () => {
   const page = (method: string, address: string, limitOn = true): FormPage => ({
     request: new Request('http://127.0.0.1:4321/sign-in', { method }),
-    clientAddress: address,
     response: {},
-    locals: { app: { env: { authRateLimit: limitOn } } },
+    locals: { clientAddress: address, app: { env: { authRateLimit: limitOn } } },
   });
 
   it('lets ten posts a minute through per form and address, then answers 429 with a wait time', () => {

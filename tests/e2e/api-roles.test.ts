@@ -1,4 +1,4 @@
-// Every role against the real built server over HTTP: who gets 200/201, who gets 401 or 403 as JSON.
+// Every role against the real built server over HTTP: who gets 200/201, who gets 401, 403 or 404 as JSON.
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { eq } from 'drizzle-orm';
 import { campaigns, outboxMessages } from '../../src/db/schema';
@@ -146,7 +146,9 @@ describe('collaborator (guest)', () => {
     });
     expectJsonError(add, 403, 'forbidden');
     const other = run.app.db.select().from(campaigns).where(eq(campaigns.nameKey, nameKey('Reviewer side project'))).get()!;
-    expectJsonError(await callApi(run.baseUrl, `/api/campaigns/${other.id}`, { cookie: cookies.collaborator }), 403, 'forbidden');
+    // Not a member: the same 404 as for a campaign that does not exist.
+    expectJsonError(await callApi(run.baseUrl, `/api/campaigns/${other.id}`, { cookie: cookies.collaborator }), 404, 'not_found');
+    expectJsonError(await callApi(run.baseUrl, '/api/campaigns/doesnotexist', { cookie: cookies.collaborator }), 404, 'not_found');
   });
 
   it('is 403 in the admin area', async () => {

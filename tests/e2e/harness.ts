@@ -1,6 +1,7 @@
-// Reusable harness for browser and HTTP tests: the built server (node dist/server/entry.mjs) on a
-// free 127.0.0.1 port with a fresh, migrated and seeded SQLite file, and Debian's Chromium driven
-// by playwright-core. Nothing is downloaded; everything started here is stopped by stop()/close().
+// Reusable harness for browser and HTTP tests: the built server (node scripts/server.mjs in front of
+// dist/server/entry.mjs, as `npm start` runs it) on a free 127.0.0.1 port with a fresh, migrated
+// and seeded SQLite file, and Debian's Chromium driven by playwright-core. Nothing is downloaded;
+// everything started here is stopped by stop()/close().
 import { spawn, type ChildProcess } from 'node:child_process';
 import { existsSync, mkdtempSync, rmSync } from 'node:fs';
 import net from 'node:net';
@@ -84,7 +85,7 @@ export async function startApp(options: { seed?: boolean; env?: Record<string, s
   if (options.seed ?? true) await seedDemo(app);
 
   let output = '';
-  const child = spawn(process.execPath, [entry], {
+  const child = spawn(process.execPath, [path.join(root, 'scripts/server.mjs')], {
     cwd: root,
     env: { ...process.env, ...env, HOST: '127.0.0.1', PORT: String(port), NODE_ENV: 'production' },
     stdio: ['ignore', 'pipe', 'pipe'],

@@ -220,11 +220,14 @@ describe('sign-in form with the rate limit on', () => {
   it('refuses the eleventh attempt within a minute with 429 and a clear message', async () => {
     const limited = await startApp({ env: { AUTH_RATE_LIMIT: 'on' } });
     try {
+      // A different account each time: one account is already made to wait after its third failure
+      // (tests/e2e/security.test.ts); this is the per-address limit on the form.
+      let n = 0;
       const attempt = async () => {
         const res = await fetch(`${limited.baseUrl}/sign-in`, {
           method: 'POST',
           headers: { 'content-type': 'application/x-www-form-urlencoded', origin: limited.baseUrl },
-          body: new URLSearchParams({ email: people.analyst.email, password: 'guessing-again' }),
+          body: new URLSearchParams({ email: `guess-${n++}@lanternfield.test`, password: 'guessing-again' }),
           redirect: 'manual',
         });
         return { status: res.status, html: await res.text() };

@@ -10,14 +10,7 @@ import { getQueryClient } from '../../browser/query-client';
 
 export type ZeroPointKind = 'none' | 'flambda' | 'fnu';
 
-interface ZeroPointValue {
-  fLambdaCgs?: number;
-  fnuJy?: number;
-  relErr: number;
-  catalogueOffsetMag?: number;
-  isophotalWavelengthAngstrom?: number;
-  source: string;
-}
+type ZeroPointValue = ZeroPointBody;
 
 /** The zero-point inputs (names zp*), prefilled from a current value. */
 export function ZeroPointFields({ current, magnitudeSystem, allowNone, error }: { current: ZeroPointValue | null; magnitudeSystem: 'vega' | 'ab'; allowNone: boolean; error?: { field?: string; message: string } | null }) {

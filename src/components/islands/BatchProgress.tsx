@@ -4,12 +4,12 @@
 import { QueryClientProvider } from '@tanstack/react-query';
 import { useState } from 'react';
 import { getQueryClient } from '../../browser/query-client';
-import { useBatchFailures, useBatchProgress, type BatchFailuresView, type BatchProgressView } from '../../browser/batches';
+import { useBatchFailures, useBatchProgress, type BatchFailuresPage, type BatchProgress as BatchProgressView } from '../../browser/batches';
 
 interface Props {
   batchId: string;
   initial: BatchProgressView;
-  initialFailures: BatchFailuresView;
+  initialFailures: BatchFailuresPage;
 }
 
 export default function BatchProgress(props: Props) {

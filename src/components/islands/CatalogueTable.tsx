@@ -17,7 +17,7 @@ import {
   useCataloguePage,
   type CataloguePage,
   type CatalogueRowView,
-  type SortKey,
+  type CatalogueSort,
 } from '../../browser/catalogue';
 import { getQueryClient } from '../../browser/query-client';
 
@@ -72,7 +72,7 @@ function Table({ campaignId, initialQuery, initialPage, initialCount }: Props) {
   const page = useCataloguePage(campaignId, query, { query: initialQuery, page: initialPage });
   const count = useCatalogueCount(campaignId, query, { query: initialQuery, ...initialCount });
   const params = new URLSearchParams(query);
-  const sort = (params.get('sort') ?? 'teff_k') as SortKey;
+  const sort = (params.get('sort') ?? 'teff_k') as CatalogueSort;
   const dir = params.get('dir') === 'desc' ? 'desc' : 'asc';
   const data = page.data ?? initialPage;
 
@@ -90,7 +90,7 @@ function Table({ campaignId, initialQuery, initialPage, initialCount }: Props) {
     setQuery(next);
   };
 
-  const sortLink = (key: SortKey) => withParams(query, { sort: key, dir: sort === key && dir === 'asc' ? 'desc' : 'asc', after: null, before: null });
+  const sortLink = (key: CatalogueSort) => withParams(query, { sort: key, dir: sort === key && dir === 'asc' ? 'desc' : 'asc', after: null, before: null });
 
   const columns = useMemo(
     () => [
@@ -256,7 +256,7 @@ function Table({ campaignId, initialQuery, initialPage, initialCount }: Props) {
             {table.getHeaderGroups().map((g) => (
               <tr key={g.id}>
                 {g.headers.map((h) => {
-                  const key = h.column.id as SortKey;
+                  const key = h.column.id as CatalogueSort;
                   const sortable = (['star_key', 'teff_k', 'lum_lsun', 'radius_rsun', 'chi2_red', 'review_status'] as string[]).includes(key);
                   const active = sortable && key === sort;
                   return (

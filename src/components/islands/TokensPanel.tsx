@@ -3,20 +3,12 @@
 // JavaScript the forms post to the page.
 import { QueryClientProvider, useMutation, useQuery, useQueryClient } from '@tanstack/react-query';
 import { useState, type SubmitEvent } from 'react';
+import type { ApiTokenView } from '../../contracts/api';
 import { ApiError, apiFetch } from '../../browser/api';
 import { getQueryClient } from '../../browser/query-client';
 import { formatDate } from '../ui/formatDate';
 
-export interface TokenRow {
-  id: string;
-  name: string;
-  prefix: string;
-  createdAt: string;
-  lastUsedAt: string | null;
-  expiresAt: string | null;
-  revokedAt: string | null;
-  status: 'active' | 'revoked' | 'expired';
-}
+type TokenRow = ApiTokenView;
 
 interface Props {
   initial: TokenRow[];

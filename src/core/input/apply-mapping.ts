@@ -5,6 +5,8 @@ import { FALSE_FLAGS, readCellNumber, textOf, TRUE_FLAGS } from './cells';
 import { checkMapping } from './check-mapping';
 import { closestBandKey } from './column-names';
 import { GAIA_VEGA_ZERO_POINT_MAG, MAG_PER_LN } from './gaia-zero-points';
+import { shownText } from './limits';
+import { starIdProblem } from './star-id';
 
 export interface ApplyOptions {
   bandKeys: readonly string[];
@@ -26,6 +28,12 @@ interface BandCols {
 const STAR_PROPS = { ra: 'raDeg', dec: 'decDeg', parallax: 'parallaxMas', parallax_err: 'parallaxErrMas', av: 'avMag' } as const;
 type StarRole = keyof typeof STAR_PROPS;
 const STAR_WORDS: Record<StarRole, string> = { ra: 'right ascension', dec: 'declination', parallax: 'parallax', parallax_err: 'parallax error', av: 'A_V' };
+
+/**
+ * Magnitudes outside this range are not a star's (the Sun is −26.7 in V; the faintest sources any
+ * survey catalogues are near 30): a value beyond is a unit or column mistake, or a hostile file.
+ */
+export const MAG_RANGE = { min: -30, max: 50 } as const;
 
 /**
  * Every row through the mapping → stars with measurements, and every problem with file, row and
@@ -99,7 +107,7 @@ export function applyMapping(table: ColumnTable, mapping: Mapping, rules: Mappin
       line: cur.line,
       column: col === undefined ? undefined : { name: table.columns[col], number: col + 1 },
       severity,
-      message: `row ${cur.row}${col === undefined ? '' : `, column ${table.columns[col]}`}: ${message}`,
+      message: `row ${cur.row}${cur.line === undefined ? '' : ` (file line ${cur.line})`}${col === undefined ? '' : `, column ${table.columns[col]}`}: ${message}`,
     });
     if (severity === 'error') cur.bad = true;
   };
@@ -107,11 +115,18 @@ export function applyMapping(table: ColumnTable, mapping: Mapping, rules: Mappin
   const num = (col: number | undefined, what: string, key?: string): number | undefined => {
     if (col === undefined) return undefined;
     const x = readCellNumber(cur.cells[col]);
-    if (x !== undefined && Number.isNaN(x)) {
-      problem(col, `${key === undefined ? what : `${key} ${what}`} "${textOf(cur.cells[col])}" is not a number`);
+    if (x !== undefined && !Number.isFinite(x)) {
+      const text = shownText(textOf(cur.cells[col]));
+      problem(col, `${key === undefined ? what : `${key} ${what}`} "${text}" is ${Number.isNaN(x) ? 'not a number' : 'not a finite number (too large for a double)'}`);
       return undefined;
     }
     return x;
+  };
+  /** A magnitude (value or upper limit) inside MAG_RANGE. */
+  const magnitude = (col: number | undefined, value: number | undefined, what: string): number | undefined => {
+    if (value === undefined || (value >= MAG_RANGE.min && value <= MAG_RANGE.max)) return value;
+    problem(col, `${what} ${value} is outside ${MAG_RANGE.min}…${MAG_RANGE.max} mag`);
+    return undefined;
   };
   const nonNegative = (col: number | undefined, value: number | undefined, what: string) => {
     if (value !== undefined && value < 0) problem(col, `negative ${what} ${value}`);
@@ -159,6 +174,11 @@ export function applyMapping(table: ColumnTable, mapping: Mapping, rules: Mappin
       problem(idCol, 'missing star id; the row was left out');
       return null;
     }
+    const bad = starIdProblem(id);
+    if (bad) {
+      problem(idCol, `${bad}; the row was left out`);
+      return null;
+    }
     return id;
   };
 
@@ -186,11 +206,11 @@ export function applyMapping(table: ColumnTable, mapping: Mapping, rules: Mappin
       for (let j = 0; j < bandList.length; j++) {
         const key = bandList[j].key;
         const b = bandList[j].cols;
-        const mag = num(b.mag, 'magnitude', key);
+        const mag = magnitude(b.mag, num(b.mag, 'magnitude', key), `${key} magnitude`);
         const magErr = num(b.mag_err, 'magnitude error', key);
         const jy = num(b.jy, 'flux', key);
         const jyErr = num(b.jy_err, 'flux error', key);
-        const magUl = num(b.mag_ul, 'upper limit', key);
+        const magUl = magnitude(b.mag_ul, num(b.mag_ul, 'upper limit', key), `${key} upper limit`);
         const jyUl = num(b.jy_ul, 'upper limit', key);
         const gFlux = num(b.gaia_flux, 'Gaia flux', key);
         const gFluxErr = num(b.gaia_flux_err, 'Gaia flux error', key);
@@ -220,8 +240,8 @@ export function applyMapping(table: ColumnTable, mapping: Mapping, rules: Mappin
           if (gFlux <= 0) problem(b.gaia_flux, `Gaia flux ${gFlux} e⁻/s must be positive`);
           else if (gFluxErr === undefined) problem(b.gaia_flux_err ?? b.gaia_flux, `band ${key} has a Gaia flux but no error; the value was not used`, 'warning');
           else {
-            const m = -2.5 * Math.log10(gFlux) + GAIA_VEGA_ZERO_POINT_MAG[key];
-            star.measurements.push({ bandKey: key, mag: m, magErr: MAG_PER_LN * (gFluxErr / gFlux), ...quality });
+            const m = magnitude(b.gaia_flux, -2.5 * Math.log10(gFlux) + GAIA_VEGA_ZERO_POINT_MAG[key], `${key} from the Gaia flux ${gFlux} e⁻/s,`);
+            if (m !== undefined) star.measurements.push({ bandKey: key, mag: m, magErr: MAG_PER_LN * (gFluxErr / gFlux), ...quality });
           }
         } else if (magUl !== undefined) {
           star.measurements.push({ bandKey: key, mag: magUl, upperLimit: true, ...quality });
@@ -266,20 +286,20 @@ export function applyMapping(table: ColumnTable, mapping: Mapping, rules: Mappin
     const key = textOf(cells[c.band]);
     if (!bandKeys.includes(key)) {
       const guess = key === '' ? undefined : closestBandKey(key, bandKeys);
-      problem(c.band, key === '' ? 'missing band' : `unknown band "${key}" (band keys are case-sensitive${guess ? `; did you mean '${guess}'?` : `; known bands: ${bandKeys.join(' ')}`})`);
+      problem(c.band, key === '' ? 'missing band' : `unknown band "${shownText(key)}" (band keys are case-sensitive${guess ? `; did you mean '${guess}'?` : `; known bands: ${bandKeys.join(' ')}`})`);
     } else {
       const prior = s.bandRow.get(key);
       if (prior !== undefined) problem(c.band, `duplicate: star "${id}" already has band ${key} in row ${prior}`);
       else s.bandRow.set(key, cur.row);
     }
-    const mag = num(c.mag, 'magnitude');
+    const mag = magnitude(c.mag, num(c.mag, 'magnitude'), 'magnitude');
     const magErr = num(c.mag_err, 'magnitude error');
     const jy = num(c.jy, 'flux');
     const jyErr = num(c.jy_err, 'flux error');
     nonNegative(c.mag_err, magErr, 'error');
     nonNegative(c.jy_err, jyErr, 'error');
     const flagText = c.ul === undefined ? '' : textOf(cells[c.ul]).toLowerCase();
-    if (!TRUE_FLAGS.has(flagText) && !FALSE_FLAGS.has(flagText)) problem(c.ul, `upper-limit flag must be 1 or 0/empty, found "${flagText}"`);
+    if (!TRUE_FLAGS.has(flagText) && !FALSE_FLAGS.has(flagText)) problem(c.ul, `upper-limit flag must be 1 or 0/empty, found "${shownText(flagText)}"`);
     const ul = TRUE_FLAGS.has(flagText);
     if (mag !== undefined && jy !== undefined) problem(c.mag, 'both a magnitude and a flux are given; one row holds one of them');
     else if (mag === undefined && jy === undefined) problem(c.mag ?? c.jy, 'neither a magnitude nor a flux is given');

@@ -27,10 +27,11 @@ export function looksNumeric(values: TableCell[]): boolean {
 /** Cells that mean "no value" besides the empty cell: common spellings in exported tables. */
 const MISSING = new Set(['', 'nan', 'NaN', 'NAN', 'NA', 'N/A', 'null', 'NULL', 'None', '--', '-']);
 
-/** undefined = no value; NaN = not a number (the caller reports it). */
+/** undefined = no value; NaN = not a number, ±Infinity = too large (the caller reports both). */
 export function readCellNumber(cell: TableCell): number | undefined {
   if (cell === null || cell === undefined) return undefined;
-  if (typeof cell === 'number') return Number.isNaN(cell) ? undefined : Number.isFinite(cell) ? cell : NaN;
+  // ±Infinity is returned as such (and 1e400 reads as Infinity): the mapping reports it as not finite.
+  if (typeof cell === 'number') return Number.isNaN(cell) ? undefined : cell;
   if (typeof cell === 'bigint') return Number(cell);
   if (typeof cell === 'boolean') return NaN;
   // Every number cell of every upload passes here (a 100 000-star file has millions): one character

@@ -32,8 +32,18 @@ describe('RFC 4180 splitting', () => {
     expect(() => decodeText(new Uint8Array([0x69, 0x64, 0x00, 0x01]), 'x.csv')).toThrow(/x\.csv: binary content \(byte 0x00 at byte offset 2\)/);
     expect(() => decodeText(new Uint8Array([0x50, 0x4b, 3, 4, 0, 0]), 'x.csv')).toThrow(/ZIP archive/);
     expect(() => decodeText(new TextEncoder().encode('SIMPLE  =                    T'), 'x.csv')).toThrow(/this is a FITS file/);
-    // Latin-1 bytes that are not UTF-8 are still read.
-    expect(decodeText(new Uint8Array([0x69, 0x64, 0x0a, 0xe9]), 'x.csv')).toBe('id\n\u00e9');
+    expect(() => decodeText(new Uint8Array([0xff, 0xfe, 0x69, 0]), 'x.csv')).toThrow(/UTF-16 text .* save it as UTF-8/);
+  });
+
+  it('refuses invalid UTF-8 naming its byte offset and line (Latin-1 is not guessed)', () => {
+    // 'id\n' then é in Latin-1 (0xE9), which UTF-8 reads as the start of a three-byte character.
+    expect(() => decodeText(new Uint8Array([0x69, 0x64, 0x0a, 0xe9]), 'x.csv')).toThrow('x.csv: invalid UTF-8 at byte offset 3 (line 2; bytes 0xE9); Starkiln reads text files as UTF-8');
+    // Overlong forms and UTF-16 surrogates are not UTF-8 either (RFC 3629, section 3).
+    const enc = (s: string) => Array.from(new TextEncoder().encode(s));
+    expect(() => decodeText(new Uint8Array([...enc('id,V\nember-1,'), 0xc0, 0xaf, ...enc(',9\n')]), 'x.csv')).toThrow(/byte offset 13 \(line 2; bytes 0xC0 0xAF/);
+    expect(() => decodeText(new Uint8Array([...enc('id\r\nx\r\ny'), 0xed, 0xa0, 0x80]), 'x.csv')).toThrow(/byte offset 8 \(line 3; bytes 0xED 0xA0 0x80/);
+    // Valid UTF-8 of every length is read.
+    expect(decodeText(new TextEncoder().encode('é€𝛼'), 'x.csv')).toBe('é€𝛼');
   });
 });
 

@@ -1,6 +1,7 @@
 // FITS binary tables (FITS Standard 4.0, section 7.3): column descriptions and the decoder, column
 // by column. Section numbers refer to the standard.
 import { ascii, FitsError, FitsHeader, type FitsComplex } from './fits-header';
+import type { ReadBudget } from './limits';
 
 // Binary tables (section 7.3)
 
@@ -89,8 +90,10 @@ export class FitsTable {
   private readonly cache = new Map<string, FitsCell[]>();
   private readonly workLimit: number;
   private work = 0;
+  private readonly budget?: ReadBudget;
 
-  constructor(bytes: Uint8Array, header: FitsHeader, dataOffset: number, dataBytes: number, hduIndex: number, source: string) {
+  constructor(bytes: Uint8Array, header: FitsHeader, dataOffset: number, dataBytes: number, hduIndex: number, source: string, budget?: ReadBudget) {
+    this.budget = budget;
     this.bytes = bytes;
     this.view = new DataView(bytes.buffer, bytes.byteOffset, bytes.byteLength);
     this.dataOffset = dataOffset;
@@ -192,7 +195,11 @@ export class FitsTable {
     const cached = this.cache.get(col.name);
     if (cached) return cached;
     const out: FitsCell[] = new Array(this.rowCount);
-    for (let r = 0; r < this.rowCount; r++) out[r] = this.cell(col, r);
+    const budget = this.budget;
+    for (let r = 0; r < this.rowCount; r++) {
+      out[r] = this.cell(col, r);
+      budget?.tick(() => `HDU ${this.hduIndex} column "${col.name}" row ${r + 1}`);
+    }
     this.cache.set(col.name, out);
     return out;
   }
@@ -259,6 +266,20 @@ export class FitsTable {
       out[r] = scale === 1 && zero === 0 ? x : zero + scale * x;
     }
     return out;
+  }
+
+  /** Whether a column's cells are arrays (a repeat count above 1, bits, or variable-length arrays). */
+  isArrayColumn(name: string): boolean {
+    const col = this.requireColumn(name);
+    return col.variableLength !== undefined || (col.type !== 'A' && col.repeat !== 1);
+  }
+
+  /** How many elements a cell of an array column holds, read from TFORM or the descriptor (nothing decoded). */
+  elementCount(name: string, row: number): number {
+    const col = this.requireColumn(name);
+    if (!col.variableLength) return col.repeat;
+    const pos = this.dataOffset + row * this.rowBytes + col.offsetInRow;
+    return col.variableLength === 'P' ? this.view.getInt32(pos) : Number(this.view.getBigInt64(pos));
   }
 
   /** Rows as plain objects keyed by column name (convenient, slower than getColumn). */

@@ -109,6 +109,7 @@ export function readFits(bytes: Uint8Array, options: ReadFitsOptions = {}): Fits
       warnings.push(`${source}: ${bytes.length - offset} bytes after the last HDU (from byte ${offset}) are not a FITS extension and were ignored`);
       break;
     }
+    options.budget?.checkTime(() => `HDU ${index} (byte ${offset})`);
     const { header, end } = readHeader(bytes, offset, index, source);
     const { kind, dataBytes } = layoutOf(header, index, source, offset);
     const dataOffset = end;
@@ -128,7 +129,7 @@ export function readFits(bytes: Uint8Array, options: ReadFitsOptions = {}): Fits
     }
     const name = index === 0 ? 'PRIMARY' : (header.getString('EXTNAME') ?? '').trim();
     const hdu: FitsHdu = { index, kind, name, header, headerOffset: offset, dataOffset, dataBytes, truncated };
-    if (kind === 'bintable' && !truncated) hdu.table = new FitsTable(bytes, header, dataOffset, dataBytes, index, source);
+    if (kind === 'bintable' && !truncated) hdu.table = new FitsTable(bytes, header, dataOffset, dataBytes, index, source, options.budget);
     hdus.push(hdu);
     if (truncated) break;
     offset = dataOffset + padded;

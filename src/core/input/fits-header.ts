@@ -1,6 +1,7 @@
 // FITS header cards (FITS Standard 4.0, section 4): the card parser, the header of one HDU, and
 // the shapes every part of the reader shares. Section numbers refer to the standard.
 import type { FitsTable } from './fits-bintable';
+import type { ReadBudget } from './limits';
 
 /** FITS logical records are 2880 bytes (section 3.1). */
 export const FITS_BLOCK = 2880;
@@ -111,6 +112,8 @@ export interface ReadFitsOptions {
   source?: string;
   /** Keep going when the last HDU's data is cut short (header-only uploads); tables there are not decoded. */
   allowTruncatedData?: boolean;
+  /** Time (and, in table-file.ts, rows and cells) a read may take; decoding ticks it. */
+  budget?: ReadBudget;
 }
 
 // ---------------------------------------------------------------------------------------------

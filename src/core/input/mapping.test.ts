@@ -138,7 +138,7 @@ describe('applyMapping', () => {
       ['stars.csv', 5, 6, 'id', 'error'],
       ['stars.csv', 6, 7, null, 'error'],
     ]);
-    expect(r.problems[0].message).toBe('row 2, column V: V magnitude "bright" is not a number');
+    expect(r.problems[0].message).toBe('row 2 (file line 3), column V: V magnitude "bright" is not a number');
     expect(r.problems[1].message).toMatch(/negative error -0.02/);
     expect(r.problems[2].message).toMatch(/missing star id/);
     expect(r.problems[3].message).toMatch(/duplicate star id "a" \(first in row 1\)/);
@@ -162,7 +162,7 @@ describe('applyMapping', () => {
     expect(r.stars.map((s) => s.id)).toEqual(['a']);
     expect(r.stars[0]).toMatchObject({ parallaxMas: 21, measurements: [{ bandKey: 'V', mag: 8.9, magErr: 0.02 }, { bandKey: 'W1', fnuJy: 1.2, fnuErrJy: 0.03 }, { bandKey: 'W4', mag: 8.1, upperLimit: true }] });
     const msgs = r.problems.map((p) => `${p.row}:${p.column?.name ?? ''}:${p.message}`);
-    expect(msgs).toContain(`4:band:row 4, column band: unknown band "v" (band keys are case-sensitive; did you mean 'V'?)`);
+    expect(msgs).toContain(`4:band:row 4 (file line 5), column band: unknown band "v" (band keys are case-sensitive; did you mean 'V'?)`);
     expect(msgs.some((x) => x.startsWith('7:band:') && x.includes('already has band G in row 6'))).toBe(true);
     expect(msgs.some((x) => x.startsWith('9:parallax_mas:') && x.includes('parallax 5 differs from 4'))).toBe(true);
     expect(r.rejectedRows).toBe(6);

@@ -94,12 +94,12 @@ describe('wide tables', () => {
     expect(t.stars.map((s) => s.id)).toEqual(['good-1', 'good-2']);
     expect(t.rejectedRows).toBe(6);
     expect(errors(t.problems).map((p) => [p.file, p.line, p.column?.number ?? null, p.message])).toEqual([
-      ['stars.csv', 4, 2, 'row 2, column V: V magnitude "nine" is not a number'],
-      ['stars.csv', 5, 3, 'row 3, column V_err: negative error -0.02'],
-      ['stars.csv', 6, 1, 'row 4, column id: duplicate star id "good-1" (first in row 1); the row was left out'],
-      ['stars.csv', 7, 1, 'row 5, column id: missing star id; the row was left out'],
-      ['stars.csv', 8, null, 'row 6: has 3 values but the header has 5 columns; the row was left out'],
-      ['stars.csv', 9, 2, 'row 7, column V: V magnitude "0x10" is not a number'],
+      ['stars.csv', 4, 2, 'row 2 (file line 4), column V: V magnitude "nine" is not a number'],
+      ['stars.csv', 5, 3, 'row 3 (file line 5), column V_err: negative error -0.02'],
+      ['stars.csv', 6, 1, 'row 4 (file line 6), column id: duplicate star id "good-1" (first in row 1); the row was left out'],
+      ['stars.csv', 7, 1, 'row 5 (file line 7), column id: missing star id; the row was left out'],
+      ['stars.csv', 8, null, 'row 6 (file line 8): has 3 values but the header has 5 columns; the row was left out'],
+      ['stars.csv', 9, 2, 'row 7 (file line 9), column V: V magnitude "0x10" is not a number'],
     ]);
     expect(t.problems).toHaveLength(6);
     expect(t.problems[0]).toMatchObject({ file: 'stars.csv', row: 2, line: 4, column: { name: 'V', number: 2 }, severity: 'error' });
@@ -115,7 +115,7 @@ describe('wide tables', () => {
       // One edit away may be a coincidence, but the data would be lost without a word.
       ['warning', 'RPP', 7, `unknown band column "RPP" (band keys are case-sensitive); did you mean 'RP'? The column was not read`],
       // Vmag is a catalogue name for V, read as such; without an e_Vmag its value is not used.
-      ['warning', 'Vmag', 5, 'row 1, column Vmag: band V has a magnitude but no error; the value was not used'],
+      ['warning', 'Vmag', 5, 'row 1 (file line 2), column Vmag: band V has a magnitude but no error; the value was not used'],
     ]);
     // The detection proposes the same on the mapping screen, where the analyst can map the column.
     expect(t.detected.notes.KS).toBe(`unknown band column "KS" (band keys are case-sensitive); did you mean 'Ks'?`);
@@ -132,8 +132,8 @@ describe('wide tables', () => {
   it('a magnitude without an error is not used, with a warning; a value and an upper limit in one band is an error', () => {
     const t = read('id,V,V_err,B,B_err,B_ul\nx,9.8,,10.1,0.02,11\ny,9.9,0.02,10.2,0.02,');
     expect(t.problems.map((p) => [p.severity, p.row, p.column?.name, p.message])).toEqual([
-      ['warning', 1, 'V_err', 'row 1, column V_err: band V has a magnitude but no error; the value was not used'],
-      ['error', 1, 'B', 'row 1, column B: band B has both a value and an upper limit; keep one'],
+      ['warning', 1, 'V_err', 'row 1 (file line 2), column V_err: band V has a magnitude but no error; the value was not used'],
+      ['error', 1, 'B', 'row 1 (file line 2), column B: band B has both a value and an upper limit; keep one'],
     ]);
     expect(t.stars.map((s) => s.id)).toEqual(['y']);
     // Two kinds of value column for one band (magnitude and flux) is a mistake in the mapping: nothing is read.
@@ -145,9 +145,9 @@ describe('wide tables', () => {
   it('checks positions and parallax errors', () => {
     const t = read('id,ra,dec,parallax_err_mas\nx,361,0,0.1\ny,1,-91,0.1\nz,1,1,-0.1');
     expect(errors(t.problems).map((p) => [p.row, p.column!.name, p.message])).toEqual([
-      [1, 'ra', 'row 1, column ra: right ascension 361 is outside 0 ≤ ra < 360 degrees'],
-      [2, 'dec', 'row 2, column dec: declination -91 is outside −90…90 degrees'],
-      [3, 'parallax_err_mas', 'row 3, column parallax_err_mas: negative parallax error -0.1'],
+      [1, 'ra', 'row 1 (file line 2), column ra: right ascension 361 is outside 0 ≤ ra < 360 degrees'],
+      [2, 'dec', 'row 2 (file line 3), column dec: declination -91 is outside −90…90 degrees'],
+      [3, 'parallax_err_mas', 'row 3 (file line 4), column parallax_err_mas: negative parallax error -0.1'],
     ]);
     expect(t.stars).toEqual([]);
   });
@@ -188,7 +188,7 @@ describe('catalogue column names', () => {
     expect(detected.columns).toEqual(byHand.columns);
     const t = applyMapping(table, byHand, { quality: [] }, { bandKeys: KEYS });
     expect(t.stars).toEqual([{ id: 'HIP1', parallaxMas: 10, row: 1, measurements: [{ bandKey: 'J', mag: 5.1, magErr: 0.02 }] }]);
-    expect(t.problems).toEqual([{ file: 'cat.csv', row: 2, line: 3, column: { name: 'j_m', number: 2 }, severity: 'error', message: 'row 2, column j_m: J magnitude "5.x" is not a number' }]);
+    expect(t.problems).toEqual([{ file: 'cat.csv', row: 2, line: 3, column: { name: 'j_m', number: 2 }, severity: 'error', message: 'row 2 (file line 3), column j_m: J magnitude "5.x" is not a number' }]);
   });
 });
 
@@ -225,9 +225,9 @@ describe('long tables', () => {
     expect(t.detected.layout).toBe('long');
     expect(t.stars).toEqual([]);
     expect(errors(t.problems).map((p) => [p.file, p.line, p.column?.number ?? null, p.message])).toEqual([
-      ['stars.csv', 3, 2, `row 2, column band: unknown band "KS" (band keys are case-sensitive; did you mean 'Ks'?)`],
-      ['stars.csv', 5, 2, 'row 4, column band: duplicate: star "b" already has band V in row 3'],
-      ['stars.csv', 7, 5, 'row 6, column parallax_mas: parallax 2 differs from 1 given for star "c" in an earlier row'],
+      ['stars.csv', 3, 2, `row 2 (file line 3), column band: unknown band "KS" (band keys are case-sensitive; did you mean 'Ks'?)`],
+      ['stars.csv', 5, 2, 'row 4 (file line 5), column band: duplicate: star "b" already has band V in row 3'],
+      ['stars.csv', 7, 5, 'row 6 (file line 7), column parallax_mas: parallax 2 differs from 1 given for star "c" in an earlier row'],
       ['stars.csv', 2, null, 'star "a" was left out because of the errors in its rows'],
       ['stars.csv', 4, null, 'star "b" was left out because of the errors in its rows'],
       ['stars.csv', 6, null, 'star "c" was left out because of the errors in its rows'],

@@ -6,6 +6,9 @@ import type { ColumnTable, TableCell } from './mapping';
 import { DelimitedError, decodeText, parseDelimited } from './delimited';
 import { FitsError, readFits, readFitsImageHeader, readFitsTable, type FitsCell } from './fits-file';
 import { readVoTable, VoTableError } from './votable';
+import { ReadBudget, shownText, UnreadableFile, type Clock, type InputLimits } from './limits';
+
+export { InputLimitError, UnreadableFile } from './limits';
 
 export const DETECTED_FORMATS = ['csv', 'tsv', 'votable', 'fits-table', 'fits-image'] as const;
 export type DetectedFormat = (typeof DETECTED_FORMATS)[number];
@@ -39,14 +42,6 @@ export interface ImageObservation {
 export type ReadUpload =
   | { format: Exclude<DetectedFormat, 'fits-image'>; table: ColumnTable }
   | { format: 'fits-image'; observation: ImageObservation; warnings: string[] };
-
-/** The file cannot be read at all; `message` says why in plain words. */
-export class UnreadableFile extends Error {
-  constructor(message: string) {
-    super(message);
-    this.name = 'UnreadableFile';
-  }
-}
 
 function startsWith(bytes: Uint8Array, text: string, at = 0): boolean {
   if (bytes.length < at + text.length) return false;
@@ -85,10 +80,10 @@ const MAG_KEYWORDS: [string, string[]][] = [
   ['MAGNITUD', ['MAGERR']],
 ];
 
-function readFitsUpload(bytes: Uint8Array, file: string, hdu?: number | string): ReadUpload {
+function readFitsUpload(bytes: Uint8Array, file: string, hdu: number | string | undefined, budget: ReadBudget): ReadUpload {
   let hdus;
   try {
-    hdus = readFits(bytes, { source: file }).hdus;
+    hdus = readFits(bytes, { source: file, budget }).hdus;
   } catch (err) {
     if (!(err instanceof FitsError)) throw err;
     // A header-only image (data cut off) still gives its observation metadata; a cut binary table
@@ -104,11 +99,22 @@ function readFitsUpload(bytes: Uint8Array, file: string, hdu?: number | string):
   }
   if (hdus.some((h) => h.kind === 'bintable')) {
     try {
-      const t = readFitsTable(bytes, { source: file, hdu });
+      const t = readFitsTable(bytes, { source: file, hdu, budget });
       const columns = t.columns.map((c) => c.name);
-      const data = columns.map((name) => t.getColumn(name));
+      const where = () => `HDU ${t.hdu.index}`;
+      budget.columns(columns.length, where);
+      budget.rows(t.rowCount, () => `HDU ${t.hdu.index} (NAXIS2 = ${t.rowCount})`);
+      budget.cells(t.rowCount * columns.length, where);
+      // Array cells are not photometry: they become "[n values]" without decoding their elements,
+      // so a column of large arrays costs no memory.
+      const data = columns.map((name) =>
+        t.isArrayColumn(name) ? Array.from({ length: t.rowCount }, (_, r) => `[${t.elementCount(name, r)} values]`) : t.getColumn(name),
+      );
       const rows: TableCell[][] = [];
-      for (let r = 0; r < t.rowCount; r++) rows.push(data.map((col) => fitsCell(col[r])));
+      for (let r = 0; r < t.rowCount; r++) {
+        rows.push(data.map((col) => fitsCell(col[r])));
+        budget.tick(() => `HDU ${t.hdu.index} row ${r + 1}`);
+      }
       return { format: 'fits-table', table: { file, columns, units: t.columns.map((c) => c.unit), rows } };
     } catch (err) {
       if (err instanceof FitsError) throw new UnreadableFile(`${file}: the FITS table cannot be read: ${stripSource(err.message, file)}`);
@@ -162,7 +168,57 @@ function stripSource(message: string, file: string): string {
   return message.startsWith(`${file}: `) ? message.slice(file.length + 2) : message;
 }
 
-function readTextUpload(bytes: Uint8Array, file: string): ReadUpload {
+/** Where a cell of a delimited file is, in words: its data row, file line and column. */
+function cellPlace(parsed: { header: string[]; lines: number[] }, r: number, c: number): string {
+  return `row ${r + 1} (file line ${parsed.lines[r]}), column ${parsed.header[c] || c + 1}`;
+}
+
+/**
+ * A NUL byte in a cell (text is never expected to hold one; a C string would end there): refused,
+ * naming the first cell that has one.
+ */
+function refuseNul(parsed: { header: string[]; rows: string[][]; lines: number[] }, file: string): void {
+  for (let r = 0; r < parsed.rows.length; r++) {
+    const row = parsed.rows[r];
+    for (let c = 0; c < row.length; c++) {
+      if (row[c].includes('\u0000')) throw new UnreadableFile(`${file}, ${cellPlace(parsed, r, c)}: the cell "${shownText(row[c], 40)}" holds a NUL byte (U+0000), which text never holds; nothing was read`);
+    }
+  }
+  const h = parsed.header.findIndex((x) => x.includes('\u0000'));
+  if (h >= 0) throw new UnreadableFile(`${file}: column ${h + 1} of the header holds a NUL byte (U+0000)`);
+}
+
+const DECIMAL_COMMA = /^\s*[+-]?(\d+,\d*|,\d+)([eE][+-]?\d+)?\s*$/;
+const DECIMAL_POINT = /^\s*[+-]?(\d+\.\d*|\.\d+)([eEdD][+-]?\d+)?\s*$/;
+
+/**
+ * A semicolon-separated file (the export of a spreadsheet set to a language that writes decimal
+ * commas) with numbers like 9,52: read as 9.52 when no cell uses a decimal point; refused, naming
+ * one cell of each kind, when both kinds appear (which one a cell like 1,234 means cannot be told).
+ */
+function readDecimalCommas(parsed: { header: string[]; rows: string[][]; lines: number[] }, file: string): void {
+  let comma: [number, number] | undefined;
+  let point: [number, number] | undefined;
+  for (let r = 0; r < parsed.rows.length && !(comma && point); r++) {
+    const row = parsed.rows[r];
+    for (let c = 0; c < row.length; c++) {
+      const v = row[c];
+      if (!comma && v.includes(',') && DECIMAL_COMMA.test(v)) comma = [r, c];
+      else if (!point && v.includes('.') && DECIMAL_POINT.test(v)) point = [r, c];
+    }
+  }
+  if (!comma) return;
+  if (point) {
+    throw new UnreadableFile(
+      `${file}: semicolon-separated with both decimal commas (${cellPlace(parsed, ...comma)}: "${shownText(parsed.rows[comma[0]][comma[1]])}") and decimal points (${cellPlace(parsed, ...point)}: "${shownText(parsed.rows[point[0]][point[1]])}"); which a number means cannot be told: save the file with one decimal separator (or as comma-separated CSV with decimal points)`,
+    );
+  }
+  for (const row of parsed.rows) {
+    for (let c = 0; c < row.length; c++) if (row[c].includes(',') && DECIMAL_COMMA.test(row[c])) row[c] = row[c].replace(',', '.');
+  }
+}
+
+function readTextUpload(bytes: Uint8Array, file: string, budget: ReadBudget): ReadUpload {
   let text: string;
   try {
     text = decodeText(bytes, file);
@@ -174,7 +230,7 @@ function readTextUpload(bytes: Uint8Array, file: string): ReadUpload {
   }
   let parsed;
   try {
-    parsed = parseDelimited(text, { source: file });
+    parsed = parseDelimited(text, { source: file, budget });
   } catch (err) {
     if (err instanceof DelimitedError) throw new UnreadableFile(`${file}: ${stripSource(err.message, file)}`);
     throw err;
@@ -187,21 +243,23 @@ function readTextUpload(bytes: Uint8Array, file: string): ReadUpload {
     seen.set(h, i);
   });
   if (parsed.rows.length === 0) throw new UnreadableFile(`${file}: the file has a header but no data rows`);
+  if (text.includes('\u0000')) refuseNul(parsed, file);
+  if (parsed.delimiter === ';') readDecimalCommas(parsed, file);
   return {
     format: parsed.delimiter === '\t' ? 'tsv' : 'csv',
     table: { file, columns: parsed.header, rows: parsed.rows, lines: parsed.lines, ...(parsed.units ? { units: parsed.units } : {}) },
   };
 }
 
-export type XmlTableReader = (bytes: Uint8Array, file: string) => ColumnTable;
+export type XmlTableReader = (bytes: Uint8Array, file: string, budget?: ReadBudget) => ColumnTable;
 
 /** A VOTable (TABLEDATA) as a ColumnTable; anything else in XML is an UnreadableFile. */
-export function voTableAsColumns(bytes: Uint8Array, file: string): ColumnTable {
+export function voTableAsColumns(bytes: Uint8Array, file: string, budget?: ReadBudget): ColumnTable {
   try {
-    const t = readVoTable(bytes, { source: file });
+    const t = readVoTable(bytes, { source: file, budget });
     return { file, columns: t.fields.map((f) => f.name), units: t.fields.map((f) => f.unit), rows: t.rows };
   } catch (err) {
-    if (err instanceof VoTableError) throw new UnreadableFile(err.message);
+    if (err instanceof VoTableError) throw new UnreadableFile(err.message, err.unsafe ? 'unsafe' : 'unreadable');
     throw err;
   }
 }
@@ -209,18 +267,27 @@ export function voTableAsColumns(bytes: Uint8Array, file: string): ColumnTable {
 export interface ReadUploadOptions {
   /** FITS: HDU index or EXTNAME of the table (default: the first binary table). */
   hdu?: number | string;
+  /** Size, rows, columns, cells and time the file may take (default: DEFAULT_INPUT_LIMITS). */
+  limits?: Partial<InputLimits>;
+  /** The clock of the time limit (tests pass their own). */
+  clock?: Clock;
 }
 
-/** Bytes → format and table. Throws UnreadableFile with a message naming the file. */
+/**
+ * Bytes → format and table. Throws UnreadableFile with a message naming the file (InputLimitError,
+ * one kind of it, when the file passes a limit).
+ */
 export function readUpload(bytes: Uint8Array, file: string, readXmlTable: XmlTableReader = voTableAsColumns, options: ReadUploadOptions = {}): ReadUpload {
+  const budget = new ReadBudget(file, options.limits, options.clock);
+  budget.bytes(bytes.length);
   switch (sniffFormat(bytes)) {
     case 'empty':
       throw new UnreadableFile(`${file}: the file is empty`);
     case 'fits':
-      return readFitsUpload(bytes, file, options.hdu);
+      return readFitsUpload(bytes, file, options.hdu, budget);
     case 'xml':
-      return { format: 'votable', table: readXmlTable(bytes, file) };
+      return { format: 'votable', table: readXmlTable(bytes, file, budget) };
     default:
-      return readTextUpload(bytes, file);
+      return readTextUpload(bytes, file, budget);
   }
 }

@@ -2,13 +2,19 @@
 // text cells. Reference: IVOA VOTable Format Definition 1.4 (2019), sections 4 (FIELD), 5 (DATA).
 // BINARY, BINARY2 and FITS serialisations are refused with a message saying how to re-save.
 import { XMLParser, XMLValidator } from 'fast-xml-parser';
+import { firstInvalidUtf8, invalidUtf8Message, lineOfByte } from './delimited';
+import { ReadBudget } from './limits';
+import { guardXml } from './xml-guard';
 
 export class VoTableError extends Error {
   readonly line?: number;
-  constructor(message: string, line?: number) {
+  /** Refused for safety (a DTD, entities, nesting or attribute sizes), not merely malformed. */
+  readonly unsafe: boolean;
+  constructor(message: string, line?: number, unsafe = false) {
     super(message);
     this.name = 'VoTableError';
     this.line = line;
+    this.unsafe = unsafe;
   }
 }
 
@@ -51,24 +57,76 @@ function findTables(resource: Node, out: Node[]): void {
   for (const r of asArray(resource.RESOURCE)) findTables(r as Node, out);
 }
 
-/** The first TABLE of a VOTable document (or the `index`-th). */
-export function readVoTable(input: Uint8Array | string, options: { source?: string; index?: number } = {}): VoTable {
-  const source = options.source ?? 'VOTable';
-  const text = typeof input === 'string' ? input : new TextDecoder('utf-8').decode(input);
-  const valid = XMLValidator.validate(text);
-  if (valid !== true) {
-    throw new VoTableError(`${source}: not well-formed XML at line ${valid.err.line}, column ${valid.err.col}: ${valid.err.msg}`, valid.err.line);
+/** Encodings a VOTable may declare that we read; anything else is refused by name. */
+const ENCODINGS: Record<string, string> = { 'utf-8': 'utf-8', utf8: 'utf-8', 'us-ascii': 'utf-8', ascii: 'utf-8', 'iso-8859-1': 'iso-8859-1', latin1: 'iso-8859-1', 'windows-1252': 'windows-1252' };
+
+/**
+ * Bytes → text in the encoding the XML declaration names (UTF-8 when it names none, as XML 1.0
+ * section 4.3.3 says); invalid UTF-8 is refused with its byte offset and line.
+ */
+function decodeXml(bytes: Uint8Array, source: string): string {
+  const decl = /^(?:\xef\xbb\xbf)?\s*<\?xml[^>]*?encoding\s*=\s*["']([A-Za-z0-9._-]+)["']/.exec(String.fromCharCode(...bytes.subarray(0, 200)));
+  const declared = decl?.[1].toLowerCase();
+  const encoding = declared === undefined ? 'utf-8' : ENCODINGS[declared];
+  if (!encoding) throw new VoTableError(`${source}: the XML declares encoding "${decl![1]}"; Starkiln reads VOTables in UTF-8 (or ISO-8859-1): save it as UTF-8`, 1);
+  if (encoding !== 'utf-8') return new TextDecoder(encoding).decode(bytes);
+  try {
+    return new TextDecoder('utf-8', { fatal: true }).decode(bytes);
+  } catch {
+    const at = Math.max(0, firstInvalidUtf8(bytes));
+    throw new VoTableError(`${source}: ${invalidUtf8Message(bytes, at)}; a VOTable without an encoding declaration must be UTF-8: save it as UTF-8`, lineOfByte(bytes, at));
   }
-  const parser = new XMLParser({
+}
+
+export interface ReadVoTableOptions {
+  source?: string;
+  index?: number;
+  /** Rows, columns, cells and time the file may take (limits.ts); default limits when absent. */
+  budget?: ReadBudget;
+}
+
+/** The first TABLE of a VOTable document (or the `index`-th). */
+export function readVoTable(input: Uint8Array | string, options: ReadVoTableOptions = {}): VoTable {
+  const source = options.source ?? 'VOTable';
+  const budget = options.budget ?? new ReadBudget(source);
+  const text = typeof input === 'string' ? input : decodeXml(input, source);
+  guardXml(text, budget, (p) => {
+    throw new VoTableError(`${source}: line ${p.line}, column ${p.column}: ${p.message}`, p.line, true);
+  });
+  budget.checkTime(() => 'after the first pass');
+  let valid: ReturnType<typeof XMLValidator.validate>;
+  let doc: Node;
+  try {
+    valid = XMLValidator.validate(text);
+    if (valid !== true) {
+      throw new VoTableError(`${source}: not well-formed XML at line ${valid.err.line}, column ${valid.err.col}: ${valid.err.msg}`, valid.err.line);
+    }
+    budget.checkTime(() => 'after checking the XML');
+    doc = parser().parse(text) as Node;
+  } catch (err) {
+    if (err instanceof VoTableError) throw err;
+    // The parser's own refusals (its entity and nesting limits) are input errors too, never a crash.
+    throw new VoTableError(`${source}: the XML cannot be read: ${(err as Error).message}`, undefined, true);
+  }
+  budget.checkTime(() => 'after parsing the XML');
+  return tableOf(doc, source, options.index ?? 0, budget);
+}
+
+function parser(): XMLParser {
+  return new XMLParser({
     ignoreAttributes: false,
     attributeNamePrefix: '@',
     removeNSPrefix: true,
     parseTagValue: false,
     parseAttributeValue: false,
     trimValues: true,
+    // No DTD gets here (guardXml refuses them); entities stay the five of XML and character references.
+    processEntities: true,
     isArray: (name) => ['RESOURCE', 'TABLE', 'FIELD', 'TR', 'TD', 'INFO', 'PARAM'].includes(name),
   });
-  const doc = parser.parse(text) as Node;
+}
+
+function tableOf(doc: Node, source: string, index: number, budget: ReadBudget): VoTable {
   const root = doc.VOTABLE as Node | undefined;
   if (!root) {
     const rootName = Object.keys(doc).find((k) => !k.startsWith('?') && !k.startsWith('#')) ?? 'none';
@@ -76,7 +134,6 @@ export function readVoTable(input: Uint8Array | string, options: { source?: stri
   }
   const tables: Node[] = [];
   findTables(root, tables);
-  const index = options.index ?? 0;
   const table = tables[index];
   if (!table) throw new VoTableError(`${source}: the VOTable holds ${tables.length === 0 ? 'no TABLE' : `only ${tables.length} TABLE elements`}`);
   const fields: VoTableField[] = asArray(table.FIELD).map((f, i) => {
@@ -102,7 +159,8 @@ export function readVoTable(input: Uint8Array | string, options: { source?: stri
   }
   const tabledata = data.TABLEDATA as Node | string | undefined;
   const trs = tabledata && typeof tabledata === 'object' ? asArray(tabledata.TR) : [];
-  const rows = trs.map((tr) => {
+  const rows = trs.map((tr, r) => {
+    budget.tick(() => `row ${r + 1}`);
     const tds = asArray((tr as Node)?.TD);
     return tds.map((td, c) => {
       const t = textOf(td);

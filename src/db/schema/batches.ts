@@ -4,11 +4,11 @@ import { index, integer, real, sqliteTable, text, uniqueIndex } from 'drizzle-or
 import { user } from './auth';
 import { campaigns } from './campaigns';
 import { LUM_CLASSES, stars } from './photometry';
+import { BATCH_STATUSES, type BatchStatus } from '../../contracts/batches';
 
 const now = sql`(cast(unixepoch('subsecond') * 1000 as integer))`;
 
-export const BATCH_STATUSES = ['queued', 'running', 'finished', 'cancelled'] as const;
-export type BatchStatus = (typeof BATCH_STATUSES)[number];
+export { BATCH_STATUSES, type BatchStatus };
 
 export const batches = sqliteTable(
   'batches',

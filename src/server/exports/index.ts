@@ -3,6 +3,7 @@
 // so a million-row download never sits in memory; the stream pulls the next chunk only when the
 // client has taken the previous one.
 import type { AppDatabase } from '../../db/client';
+import type { ExportFormat } from '../../contracts/catalogue';
 import type { CatalogueFilter } from '../catalogue';
 import { csvExport } from './csv';
 import { fitsExport } from './fits';
@@ -15,9 +16,9 @@ export const EXPORT_FORMATS = {
   votable: { write: votableExport, contentType: 'application/x-votable+xml; charset=utf-8', extension: 'vot' },
   fits: { write: fitsExport, contentType: 'application/fits', extension: 'fits' },
   json: { write: jsonExport, contentType: 'application/json; charset=utf-8', extension: 'json' },
-} as const satisfies Record<string, { write: (src: ExportSource) => AsyncGenerator<Uint8Array>; contentType: string; extension: string }>;
+} as const satisfies Record<ExportFormat, { write: (src: ExportSource) => AsyncGenerator<Uint8Array>; contentType: string; extension: string }>;
 
-export type ExportFormat = keyof typeof EXPORT_FORMATS;
+export type { ExportFormat };
 export const EXPORT_FORMAT_NAMES = Object.keys(EXPORT_FORMATS) as ExportFormat[];
 
 export function isExportFormat(s: string): s is ExportFormat {

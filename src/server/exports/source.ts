@@ -8,7 +8,7 @@ import { requireBand, type BandLibrary } from '../../core/bands';
 import { findLibrary } from '../band-library';
 import { catalogueColumns, PROVENANCE_CONSTANTS, provenanceLines, type CatalogueColumn, type CatalogueRow, type Provenance } from '../../core/catalogue';
 import { extrapolatedBandKeys } from '../../core/extinction';
-import type { ExtinctionLawKey } from '../../core/types';
+import type { ExtinctionLawKey, ZeroPoint } from '../../core/types';
 import type { AppDatabase } from '../../db/client';
 import { describeFilter, filterSql, STARS_THEN_RESULTS, type CatalogueFilter } from '../catalogue';
 import { appVersion } from '../health';
@@ -25,16 +25,11 @@ export interface BatchProvenance {
   extrapolatedBands: string[];
 }
 
-export interface ZeroPointUsed {
+/** A band's zero-point (the core's shape) with the band it belongs to. */
+export interface ZeroPointUsed extends ZeroPoint {
   band: string;
   system: string;
   magnitudeSystem: string;
-  fLambdaCgs?: number;
-  fnuJy?: number;
-  relErr: number;
-  catalogueOffsetMag?: number;
-  isophotalWavelengthAngstrom?: number;
-  source: string;
 }
 
 export interface ExportProvenance {

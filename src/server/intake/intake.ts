@@ -19,10 +19,13 @@ import { measurements, stars, uploads } from '../../db/schema';
 import type { Actor, AppServices } from '../context';
 import { newId } from '../ids';
 import { parseInput } from '../validation';
-import { recordAudit } from '../audit';
+import { recordAudit, recordAuditSql } from '../audit';
 import { getCurrentLibrary } from '../band-library';
 import { IntakeError } from './errors';
 import { FORMAT_LABELS, readUpload, UnreadableFile, type DetectedFormat, type ReadUpload } from '../../core/input/table-file';
+import type { InputLimits } from '../../core/input/limits';
+import { starIdProblem } from '../../core/input/star-id';
+import { MAG_RANGE } from '../../core/input/apply-mapping';
 import { fileProblem, toReport } from './report';
 import type { CheckSummary, ImportSummary, ReportEntry, UploadDetail, UploadSummary } from '../../contracts/intake';
 
@@ -41,9 +44,19 @@ export function intakeConfig(app: AppServices): IntakeConfig {
 }
 
 /** Reads the stored file of an upload again (uploads are read on each step, never cached). */
-export function readStoredUpload(storedPath: string, file: string): ReadUpload {
+export function readStoredUpload(storedPath: string, file: string, limits?: Partial<InputLimits>): ReadUpload {
   const bytes = new Uint8Array(readFileSync(storedPath));
-  return readUpload(bytes, file);
+  return readUpload(bytes, file, undefined, { limits });
+}
+
+/**
+ * How the intake answers a file it will not read: 400 for what is refused for safety (hostile XML),
+ * 422 for a file it cannot read or one past a limit (docs/decisions/0018-input-limits.md).
+ */
+function unreadableAnswer(err: UnreadableFile): { status: number; code: string } {
+  if (err.kind === 'unsafe') return { status: 400, code: 'unsafe_file' };
+  if (err.kind === 'limit') return { status: 422, code: 'input_limit' };
+  return { status: 422, code: 'unreadable_file' };
 }
 
 // ---------------------------------------------------------------------------------------------
@@ -77,9 +90,16 @@ export const importInput = z.object({
   /** FITS image uploads: the value measured on the image. */
   image: z
     .object({
-      starId: z.string().trim().min(1, 'Give the star id the image measures.').max(200),
+      starId: z
+        .string()
+        .trim()
+        .min(1, 'Give the star id the image measures.')
+        .superRefine((id, ctx) => {
+          const problem = starIdProblem(id);
+          if (problem) ctx.addIssue({ code: 'custom', message: `${problem[0].toUpperCase()}${problem.slice(1)}.` });
+        }),
       band: z.string().min(1, 'Choose the band.').max(40),
-      mag: z.number({ error: 'mag must be a number.' }).finite(),
+      mag: z.number({ error: 'mag must be a number.' }).finite().min(MAG_RANGE.min, `mag must be within ${MAG_RANGE.min}…${MAG_RANGE.max}.`).max(MAG_RANGE.max, `mag must be within ${MAG_RANGE.min}…${MAG_RANGE.max}.`),
       magErr: z.number({ error: 'magErr must be a number.' }).finite().nonnegative('The magnitude error cannot be negative.'),
     })
     .optional(),
@@ -155,14 +175,16 @@ export async function createUpload(app: AppServices, actor: Actor, campaignId: s
   const id = newId();
   let read: ReadUpload | null = null;
   let problem: string | null = null;
+  let answer = { status: 422, code: 'unreadable_file' };
   try {
-    read = readStoredUpload(stored.storedPath, stored.originalName);
+    read = readStoredUpload(stored.storedPath, stored.originalName, app.env.inputLimits);
   } catch (err) {
     if (!(err instanceof UnreadableFile)) {
       rmSync(stored.storedPath, { force: true });
       throw err;
     }
     problem = err.message;
+    answer = unreadableAnswer(err);
   }
   const row = {
     id,
@@ -184,7 +206,7 @@ export async function createUpload(app: AppServices, actor: Actor, campaignId: s
   if (problem) {
     // The content is useless; keep the record and report, not the bytes.
     rmSync(stored.storedPath, { force: true });
-    throw new IntakeError(422, 'unreadable_file', problem, { uploadId: id, report: row.report });
+    throw new IntakeError(answer.status, answer.code, problem, { uploadId: id, report: row.report });
   }
   return detail(app.db, getUploadRow(app.db, campaignId, id), read);
 }
@@ -218,22 +240,29 @@ function checkSummary(uploadId: string, r: MappingResult): CheckSummary {
   };
 }
 
-function readTableOf(u: UploadRow): ColumnTable {
+function readTableOf(u: UploadRow, limits?: Partial<InputLimits>): ColumnTable {
   if (u.status === 'rejected') throw new IntakeError(409, 'conflict', `${u.originalName} was rejected when it arrived and cannot be checked or imported; upload a corrected file.`);
-  const read = readStoredUpload(u.storedPath, u.originalName);
+  let read: ReadUpload;
+  try {
+    read = readStoredUpload(u.storedPath, u.originalName, limits);
+  } catch (err) {
+    // Read at upload, so this is a limit lowered since (or the time limit on a busy machine).
+    if (err instanceof UnreadableFile) throw new IntakeError(unreadableAnswer(err).status, unreadableAnswer(err).code, err.message);
+    throw err;
+  }
   if (read.format === 'fits-image') throw new IntakeError(400, 'bad_request', `${u.originalName} is a FITS image: import it with a star id, band and magnitude, not a column mapping.`);
   return read.table;
 }
 
-function mapUpload(db: DbOrTx, u: UploadRow, mapping: Mapping, rules: MappingRules): MappingResult {
-  return applyMapping(readTableOf(u), mapping, rules, { bandKeys: bandKeys(db) });
+function mapUpload(db: DbOrTx, u: UploadRow, mapping: Mapping, rules: MappingRules, limits?: Partial<InputLimits>): MappingResult {
+  return applyMapping(readTableOf(u, limits), mapping, rules, { bandKeys: bandKeys(db) });
 }
 
 /** Applies the mapping to every row and keeps the report with the upload. Writes no stars. */
 export function checkUpload(app: AppServices, actor: Actor, campaignId: string, uploadId: string, raw: unknown): CheckSummary {
   const input = parseInput(checkInput, raw);
   const u = getUploadRow(app.db, campaignId, uploadId);
-  const result = checkSummary(uploadId, mapUpload(app.db, u, input.mapping as Mapping, input.rules));
+  const result = checkSummary(uploadId, mapUpload(app.db, u, input.mapping as Mapping, input.rules, app.env.inputLimits));
   app.db
     .update(uploads)
     .set({ report: result.report, ...(u.status === 'imported' ? {} : { status: 'checked' as const }) })
@@ -259,7 +288,7 @@ export function importUpload(app: AppServices, actor: Actor, campaignId: string,
   let result: MappingResult;
   let observation: Record<string, unknown> | undefined;
   if (u.detectedFormat === 'fits-image' && u.status !== 'rejected') {
-    const read = readStoredUpload(u.storedPath, u.originalName);
+    const read = readStoredUpload(u.storedPath, u.originalName, app.env.inputLimits);
     if (read.format !== 'fits-image') throw new Error('stored image changed format');
     if (!input.image) throw new IntakeError(400, 'validation_failed', 'A FITS image needs the star id, band and magnitude measured on it (image.starId, image.band, image.mag, image.magErr).');
     const keys = bandKeys(app.db);
@@ -278,7 +307,7 @@ export function importUpload(app: AppServices, actor: Actor, campaignId: string,
     };
   } else {
     if (!input.mapping) throw new IntakeError(400, 'validation_failed', 'mapping is required.');
-    result = mapUpload(app.db, u, input.mapping as Mapping, input.rules);
+    result = mapUpload(app.db, u, input.mapping as Mapping, input.rules, app.env.inputLimits);
   }
   const check = checkSummary(uploadId, result);
   if (result.errorCount > 0 && !input.importValidRows) {
@@ -338,9 +367,7 @@ export function importUpload(app: AppServices, actor: Actor, campaignId: string,
     sqlite
       .prepare('UPDATE uploads SET status = ?, report = ?, imported_row_count = ?, imported_at = ? WHERE id = ?')
       .run('imported', JSON.stringify(check.report), result.rowCount - result.rejectedRows, nowMs, uploadId);
-    sqlite
-      .prepare('INSERT INTO audit_events (actor_id, action, campaign_id, details) VALUES (?, ?, ?, ?)')
-      .run(actor.id, 'upload.imported', campaignId, JSON.stringify({ uploadId, source, ...counts, problems: result.errorCount }));
+    recordAuditSql(sqlite, { actorId: actor.id, action: 'upload.imported', campaignId, details: { uploadId, source, ...counts, problems: result.errorCount } });
   }).immediate();
 
   const totals = campaignCounts(app.db, campaignId);

@@ -2,7 +2,7 @@
 // chooses; the browser's file name is kept for display only and its content type is ignored.
 import Busboy from 'busboy';
 import { createHash } from 'node:crypto';
-import { createWriteStream, mkdirSync, renameSync, rmSync } from 'node:fs';
+import { createWriteStream, mkdirSync, readdirSync, renameSync, rmSync, statSync } from 'node:fs';
 import path from 'node:path';
 import { Readable } from 'node:stream';
 import type { ReadableStream as NodeWebStream } from 'node:stream/web';
@@ -21,8 +21,58 @@ export function intakeConfigOf(env: Pick<AppEnv, 'dataDir' | 'uploadMaxBytes'>):
   return { dataDir: env.dataDir, maxBytes: env.uploadMaxBytes };
 }
 
-/** Prefix of an upload still arriving; it gets its final name only once complete (see cleanupUploads). */
+/** Prefix of an upload still arriving; it gets its final name only once complete (see removeLeftoverPartials). */
 export const PARTIAL_PREFIX = '.partial-';
+
+/** When this process started, in milliseconds since the epoch. */
+export function processStartedAt(): number {
+  return Date.now() - process.uptime() * 1000;
+}
+
+/**
+ * A worker may start while the web server receives an upload; a file still arriving is written to
+ * at least every few minutes (Node ends a request that sends nothing for 5 minutes), so a partial
+ * file untouched for this long is a leftover.
+ */
+export const PARTIAL_IDLE_MS = 15 * 60 * 1000;
+
+/**
+ * Removes partial uploads (files named PARTIAL_PREFIX…) last written before `before` (ms since the
+ * epoch) from every campaign folder under `dataDir/uploads`: what a killed upload or a crash left
+ * behind. The server calls it at start-up with its own start time (it is the only process writing
+ * uploads); a worker with the earlier of its start and PARTIAL_IDLE_MS ago. Returns the files removed.
+ */
+export function removeLeftoverPartials(dataDir: string, before: number): string[] {
+  const root = path.join(dataDir, 'uploads');
+  const removed: string[] = [];
+  let campaigns: string[];
+  try {
+    campaigns = readdirSync(root);
+  } catch {
+    return removed; // no uploads yet
+  }
+  for (const campaign of campaigns) {
+    const dir = path.join(root, campaign);
+    let names: string[];
+    try {
+      names = readdirSync(dir);
+    } catch {
+      continue; // not a folder
+    }
+    for (const name of names) {
+      if (!name.startsWith(PARTIAL_PREFIX)) continue;
+      const file = path.join(dir, name);
+      try {
+        if (statSync(file).mtimeMs >= before) continue;
+        rmSync(file, { force: true });
+        removed.push(file);
+      } catch {
+        // gone meanwhile (renamed into place or removed by another process)
+      }
+    }
+  }
+  return removed;
+}
 
 export interface StoredFile {
   originalName: string;
@@ -86,6 +136,9 @@ export async function receiveUpload(request: Request, campaignId: string, config
     const fail = (err: unknown) => {
       if (settled) return;
       settled = true;
+      // The write stream opens its file asynchronously: destroyed before that, it still creates the
+      // file, then closes it. Remove it once closed too, or a cut upload could leave its partial file.
+      if (out && !out.closed) out.once('close', () => rmSync(partialPath, { force: true }));
       out?.destroy();
       rmSync(partialPath, { force: true });
       rmSync(storedPath, { force: true });
