@@ -236,10 +236,17 @@ async function main(): Promise<void> {
 
   // 2. Object API.
   const objStars = cat.stars.slice(0, N_OBJECT_API);
+  const calibrated = prepareFitModel(lib, { planckOnly: false });
   const obj = timeBest(2, () => {
-    for (const s of objStars) fitStar(model, s);
+    for (const s of objStars) fitStar(calibrated, s);
   });
-  rows.push({ what: 'Starkiln core, 1 thread (fitStar objects)', stars: N_OBJECT_API, seconds: obj.seconds, fitsPerSec: N_OBJECT_API / obj.seconds, fitsPerCpuSec: N_OBJECT_API / obj.cpuSeconds, note: 'FitResult objects with residual maps' });
+  rows.push({ what: 'Starkiln core, 1 thread (fitStar objects, Kiln photosphere + Planck)', stars: N_OBJECT_API, seconds: obj.seconds, fitsPerSec: N_OBJECT_API / obj.seconds, fitsPerCpuSec: N_OBJECT_API / obj.cpuSeconds, note: 'the default: calibrated fit with the Planck fit beside it' });
+  const planckOnly = prepareFitModel(lib, { planckOnly: true });
+  for (const s of objStars.slice(0, 200)) fitStar(planckOnly, s); // warm-up (tables)
+  const objPlanck = timeBest(2, () => {
+    for (const s of objStars) fitStar(planckOnly, s);
+  });
+  rows.push({ what: 'Starkiln core, 1 thread (fitStar objects, --planck-only)', stars: N_OBJECT_API, seconds: objPlanck.seconds, fitsPerSec: N_OBJECT_API / objPlanck.seconds, fitsPerCpuSec: N_OBJECT_API / objPlanck.cpuSeconds, note: `calibrated costs ${(obj.cpuSeconds / objPlanck.cpuSeconds).toFixed(2)}× Planck only per star` });
 
   // 3. All cores, and the same worker set-up with one thread (so the two differ only in thread count).
   const compare = (r: AllCoresRun): number => {

@@ -13,6 +13,7 @@ const here = path.dirname(fileURLToPath(import.meta.url));
 const SECTIONS: { name: string; file: string; what: string }[] = [
   { name: 'core', file: 'core.ts', what: 'fits per second of the science core, one thread and all cores, against two Python peers' },
   { name: 'cli', file: 'cli.ts', what: 'the whole starkiln fit command on 100 000 stars, CSV in and out' },
+  { name: 'intake', file: 'intake.ts', what: 'upload + check + import through the built web server: a million stars and a 190 MB file, peak RSS, health latency' },
   { name: 'end-to-end', file: 'end-to-end.ts', what: 'CSV upload → stored results with two worker processes (SQLite queue)' },
   { name: 'catalogue', file: 'catalogue.ts', what: 'catalogue page requests on a million stored results (p50/p95)' },
   { name: 'export', file: 'export.ts', what: 'downloads of a million-row catalogue in CSV, VOTable, FITS and JSON (time, peak RSS)' },

@@ -4,6 +4,7 @@
 // (docs/decisions/0019-rate-limits-and-client-address.md, 0020-same-origin-writes-and-headers.md).
 import { defineMiddleware } from 'astro:middleware';
 import { getApp, resolveActor } from './app/app';
+import { startIntakeThread } from './app/intake-runner';
 import { json } from './web/http';
 import { clientAddressOf, refuseCrossOriginWrite, securityHeaders, withScriptHashes } from './web/request-security';
 import { actorFromBearer, bearerSecret } from './server/api-tokens';
@@ -11,6 +12,8 @@ import { activeActor, DEACTIVATED_MESSAGE } from './server/people';
 
 export const onRequest = defineMiddleware(async (context, next) => {
   const app = getApp();
+  // Uploads are read, checked and imported off this event loop, in the intake thread (started once).
+  startIntakeThread(app.db, app.env.databasePath, app.env.inputLimits);
   context.locals.app = app;
   context.locals.actor = null;
   context.locals.authMethod = null;

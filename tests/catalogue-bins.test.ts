@@ -1,4 +1,4 @@
-// The catalogue's summary bins (drizzle/0013, triggers on fit_results) against a full recomputation
+// The catalogue's summary bins (drizzle/0014, triggers on fit_results) against a full recomputation
 // from the stored results, done here in plain code: after a batch is written, after reviews (one by
 // one and in bulk), after a re-fit that supersedes earlier fits, after a result's flags and values
 // change, and after a batch is deleted. Real migrated SQLite, real worker loop.

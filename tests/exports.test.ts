@@ -99,6 +99,8 @@ describe('CSV', () => {
     expect(header).toMatch(/# extinction law: f99, R_V = 3\.1/);
     expect(header).toMatch(/# options: .*fitAv = true/);
     expect(header).toMatch(/# fit batch \w+: .* extinction law ccm89, R_V = 3\.1/);
+    // Every batch line carries all of its options, clip included, and points to the batch_id column.
+    for (const l of comments.filter((c) => c.startsWith('# fit batch '))) expect(l).toMatch(/; options: .*clip = (true|false).*\(the batch_id column names each row's batch\)$/);
     expect(header).toMatch(/# selection: review status accepted; \d+ rows/);
     expect(header).toMatch(/# created: \d{4}-\d\d-\d\dT/);
     // The zero-points used, with their sources (Bessell V: Bessell, Castelli & Plez 1998, docs/science.md).
@@ -161,7 +163,7 @@ describe('VOTable', () => {
     expect(fields.map((f) => f.name)).toEqual(exportColumns().map((c) => c.name));
     expect(fields.find((f) => f.name === 'teff_k')).toMatchObject({ unit: 'K', ucd: 'phys.temperature.effective', datatype: 'double' });
     expect(fields.find((f) => f.name === 'radius_rsun')).toMatchObject({ unit: 'solRad', ucd: 'phys.size.radius' });
-    expect(fields.find((f) => f.name === 'fbol_cgs')).toMatchObject({ unit: 'mW.m**-2', ucd: 'phot.flux.bol' });
+    expect(fields.find((f) => f.name === 'fbol_cgs')).toMatchObject({ unit: 'mW.m-2', ucd: 'phot.flux.bol' });
     const infos = doc.VOTABLE.RESOURCE.INFO as { name: string; value: string }[];
     expect(infos.find((i) => i.name === 'software')!.value).toBe(`Starkiln ${appVersion()}`);
     expect(infos.filter((i) => i.name === 'provenance').map((i) => i.value)).toEqual(expect.arrayContaining([expect.stringMatching(/^zero-point V /)]));
@@ -198,7 +200,7 @@ describe('FITS', () => {
     expect(table.rowCount).toBe(want.length);
     expect(table.column('teff_k')!.unit).toBe('K');
     expect(table.column('lum_lsun')!.unit).toBe('solLum');
-    expect(table.column('fbol_cgs')!.unit).toBe('erg s-1 cm-2');
+    expect(table.column('fbol_cgs')!.unit).toBe('mW.m-2');
     const rows = table.rows();
     rows.forEach((r, i) => {
       for (const c of exportColumns()) {
@@ -214,20 +216,31 @@ describe('FITS', () => {
 const hasAstropy = spawnSync('/usr/bin/python3', ['-c', 'import astropy'], { encoding: 'utf8' }).status === 0;
 
 describe.runIf(hasAstropy)('read by astropy (Debian python3-astropy), warnings as errors', () => {
-  it('reads the VOTable and the FITS table with the right units and values', async () => {
+  it('reads the VOTable, the FITS table and the ECSV (Table.read with no options) with the right units and values', async () => {
     const dir = mkdtempSync(path.join(os.tmpdir(), 'starkiln-exports-'));
     try {
       const vot = path.join(dir, 'catalogue.vot');
       const fitsPath = path.join(dir, 'catalogue.fits');
-      writeFileSync(vot, (await download('votable')).bytes);
-      writeFileSync(fitsPath, (await download('fits')).bytes);
+      const ecsvPath = path.join(dir, 'catalogue.ecsv');
+      const votBytes = (await download('votable')).bytes;
+      const fitsBytes = (await download('fits')).bytes;
+      const ecsvBytes = (await download('ecsv')).bytes;
+      writeFileSync(vot, votBytes);
+      writeFileSync(fitsPath, fitsBytes);
+      writeFileSync(ecsvPath, ecsvBytes);
+      // F_bol's unit is spelled the same in every file: mW.m-2 (= erg s-1 cm-2, the same numbers).
+      expect(text(votBytes)).toMatch(/<FIELD name="fbol_cgs"[^>]* unit="mW\.m-2"/);
+      expect(text(ecsvBytes)).toMatch(/# - \{name: "fbol_cgs", unit: "mW\.m-2",/);
+      expect(text(fitsBytes)).toMatch(/TUNIT\d+ *= 'mW\.m-2 *'/);
+      expect(text((await download('csv')).bytes)).toContain('#   fbol_cgs [mW.m-2]:');
       const script = path.join(projectRoot(), 'scripts/references/read_exports.py');
-      const run = spawnSync('/usr/bin/python3', [script, vot, fitsPath], { encoding: 'utf8', maxBuffer: 64 * 1024 * 1024 });
+      const run = spawnSync('/usr/bin/python3', [script, vot, fitsPath, ecsvPath], { encoding: 'utf8', maxBuffer: 64 * 1024 * 1024 });
       expect(run.stderr, 'astropy printed warnings or errors').toBe('');
       expect(run.status).toBe(0);
       const out = JSON.parse(run.stdout) as {
         votable: { fbol_to_cgs: number; units: Record<string, string | null>; fields: Record<string, { ucd: string }>; values: Record<string, unknown[]>; nrows: number };
         fits: { fbol_to_cgs: number; units: Record<string, string | null>; tunits: Record<string, string | null>; header: Record<string, unknown>; values: Record<string, unknown[]>; nrows: number };
+        ecsv: { fbol_to_cgs: number; units: Record<string, string | null>; descriptions: Record<string, string>; values: Record<string, unknown[]>; meta: string[]; provenance_rows: number; batches: { id: string; options: Record<string, unknown> }[]; nrows: number };
       };
       const want = dbRows();
       expect(out.votable.nrows).toBe(want.length);
@@ -241,7 +254,16 @@ describe.runIf(hasAstropy)('read by astropy (Debian python3-astropy), warnings a
       expect(out.votable.fields.chi2_red.ucd).toBe('stat.fit.chi2');
       expect(out.fits.units).toMatchObject({ ra: 'deg', teff_k: 'K', theta_mas: 'mas', radius_rsun: 'solRad', lum_lsun: 'solLum', av: 'mag' });
       expect(out.fits.header).toMatchObject({ SOFTVER: appVersion(), CAMPID: campaign.id, NROWS: want.length });
-      for (const reader of [out.votable, out.fits]) {
+      // The ECSV: units, descriptions and the provenance (every batch with all its options, clip included) as metadata.
+      expect(out.ecsv.nrows).toBe(want.length);
+      expect(out.ecsv.fbol_to_cgs).toBeCloseTo(1, 12);
+      expect(out.ecsv.units).toMatchObject({ ra: 'deg', teff_k: 'K', theta_mas: 'mas', radius_rsun: 'solRad', lum_lsun: 'solLum', av: 'mag' });
+      expect(out.ecsv.descriptions.teff_k).toBe(exportColumns().find((c) => c.name === 'teff_k')!.description);
+      expect(out.ecsv.meta).toEqual(['comments', 'provenance']);
+      expect(out.ecsv.provenance_rows).toBe(want.length);
+      expect(out.ecsv.batches.length).toBeGreaterThan(0);
+      for (const b of out.ecsv.batches) expect(Object.keys(b.options)).toEqual(expect.arrayContaining(['clip', 'law', 'rv', 'floorFraction', 'excludeBands']));
+      for (const reader of [out.votable, out.fits, out.ecsv]) {
         for (const c of exportColumns()) {
           const got = reader.values[c.name];
           const expected = want.map((r) => (c.name === 'review_status' ? 'accepted' : c.name === 'n_bands' ? (r.n_bands ?? 0) : c.name === 'bands_used' ? (r.bands_used ?? '') : r[c.name]));
@@ -298,7 +320,7 @@ describe('download route', () => {
     for (const format of EXPORT_FORMAT_NAMES) {
       const res = await call(collaborator, format);
       expect(res.status).toBe(200);
-      expect(res.headers.get('content-disposition')).toMatch(new RegExp(`^attachment; filename="brackenfell-open-cluster-catalogue-\\d{4}-\\d\\d-\\d\\d\\.(csv|vot|fits|json)"$`));
+      expect(res.headers.get('content-disposition')).toMatch(new RegExp(`^attachment; filename="brackenfell-open-cluster-catalogue-\\d{4}-\\d\\d-\\d\\d\\.(csv|ecsv|vot|fits|json)"$`));
       expect(res.body).toBeInstanceOf(ReadableStream);
       expect((await res.arrayBuffer()).byteLength).toBeGreaterThan(1000);
     }

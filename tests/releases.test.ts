@@ -1,4 +1,4 @@
-// Frozen releases (decision record 0017) on a real migrated SQLite with fits made by the worker
+// Frozen releases (decision record 0021) on a real migrated SQLite with fits made by the worker
 // path: a release keeps its rows and every download format byte for byte with its SHA-256; a re-fit
 // and new decisions afterwards change the live catalogue but not the release; the database refuses
 // to edit a frozen release; a later release compared with it lists the stars added, removed and

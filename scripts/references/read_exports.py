@@ -4,7 +4,10 @@ found as JSON: per column the unit and UCD (VOTable) or TUNIT (FITS) and the val
 (tests/exports.test.ts) can compare them with the database rows. An outside reader: astropy from
 Debian's python3-astropy, run with /usr/bin/python3.
 
-usage: read_exports.py <file.vot> <file.fits>
+The ECSV download (third argument) is read with Table.read(path) and no options at all, the way
+a reader would: the .ecsv extension names the format.
+
+usage: read_exports.py <file.vot> <file.fits> [<file.ecsv>]
 """
 import json
 import math
@@ -82,5 +85,22 @@ def read_fits(path):
     }
 
 
+def read_ecsv(path):
+    t = Table.read(path)
+    return {
+        "fbol_to_cgs": (1 * t["fbol_cgs"].unit).to(CGS_FLUX).value,
+        "units": {c: (t[c].unit.to_string("fits") if t[c].unit is not None else None) for c in t.colnames},
+        "descriptions": {c: t[c].description for c in t.colnames},
+        "values": {c: column_values(t[c]) for c in t.colnames},
+        "meta": sorted(t.meta.keys()),
+        "provenance_rows": t.meta["provenance"]["rows"],
+        "batches": [{"id": b["id"], "options": b["options"]} for b in t.meta["provenance"]["batches"]],
+        "nrows": len(t),
+    }
+
+
 if __name__ == "__main__":
-    print(json.dumps({"votable": read_votable(sys.argv[1]), "fits": read_fits(sys.argv[2])}))
+    out = {"votable": read_votable(sys.argv[1]), "fits": read_fits(sys.argv[2])}
+    if len(sys.argv) > 3:
+        out["ecsv"] = read_ecsv(sys.argv[3])
+    print(json.dumps(out))

@@ -27,7 +27,7 @@ Quality letters (2MASS and WISE ph_qual): by default a band's value is used only
 its letter is A or B.
 
 Options:
-  -o, --output <file>     catalogue to write (.csv or .json); "-" writes CSV to stdout
+  -o, --output <file>     catalogue to write (.csv, .ecsv or .json); "-" writes CSV to stdout
   --law <f99|ccm89|od94>  extinction law (default f99)
   --rv <R_V>              total-to-selective extinction ratio (default 3.1)
   --av <mag>              A_V for stars without an "av" value (default 0)
@@ -37,7 +37,8 @@ Options:
   --exclude <keys>        bands to leave out of the fit, comma or space separated
   --clip                  refit without the worst band (at most two) when it lies > 3σ off
   --include-long          use bands beyond ~5 µm in the fit (default: excess diagnostics only)
-  --format <csv|json>     output format (default: from the output file's extension, else csv)
+  --format <csv|ecsv|json> output format (default: from the output file's extension, else csv);
+                          ECSV is read by astropy's Table.read(file) as it is, with units
   --columns <map>         say what a column holds, overriding the detection, with a name
                           Starkiln knows: "hd=id,Jmag2=J,e_Jmag2=J_err,junk=-" ("-": not used)
   --quality <col>=<letters>
@@ -61,7 +62,7 @@ left out, 1 on a fatal error, 64 on a usage error, 0 otherwise.
 export interface FitCommandArgs {
   input: string;
   output: string;
-  format: 'csv' | 'json';
+  format: 'csv' | 'json' | 'ecsv';
   law: ExtinctionLawKey;
   rv: number;
   avMag: number;
@@ -134,11 +135,11 @@ export function parseCommandLine(argv: string[]): ParsedCommand {
   if (!v.output) throw new UsageError('give the output file with -o <output> ("-" for stdout)');
   const law = (v.law ?? 'f99').toLowerCase();
   if (law !== 'f99' && law !== 'ccm89' && law !== 'od94') throw new UsageError(`--law must be f99, ccm89 or od94, got "${v.law}"`);
-  let format: 'csv' | 'json';
+  let format: 'csv' | 'json' | 'ecsv';
   if (v.format !== undefined) {
-    if (v.format !== 'csv' && v.format !== 'json') throw new UsageError(`--format must be csv or json, got "${v.format}"`);
+    if (v.format !== 'csv' && v.format !== 'json' && v.format !== 'ecsv') throw new UsageError(`--format must be csv, ecsv or json, got "${v.format}"`);
     format = v.format;
-  } else format = /\.json$/i.test(v.output) ? 'json' : 'csv';
+  } else format = /\.json$/i.test(v.output) ? 'json' : /\.ecsv$/i.test(v.output) ? 'ecsv' : 'csv';
   const excludeBands = (v.exclude ?? []).flatMap((s) => s.split(/[\s,]+/)).filter((s) => s !== '');
   let columnMap: Record<string, string> | undefined;
   for (const spec of v.columns ?? []) {

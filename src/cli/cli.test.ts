@@ -320,6 +320,42 @@ describe('starkiln fit, end to end', () => {
   });
 });
 
+// An outside reader: astropy from Debian's python3-astropy (/usr/bin/python3), warnings as errors.
+const hasAstropy = spawnSync('/usr/bin/python3', ['-c', 'import astropy'], { encoding: 'utf8' }).status === 0;
+
+describe.runIf(hasAstropy)('starkiln fit -o out.ecsv', () => {
+  it('writes an ECSV that astropy reads with Table.read(f) and no options, units and provenance included', () => {
+    const stars = mockStars(12, 5);
+    writeFileSync(path.join(dir, 'mock-ecsv.csv'), mockCsv(stars));
+    const r = run('fit', 'mock-ecsv.csv', '-o', 'out.ecsv', '--clip');
+    expect(r.code).toBe(0);
+    const script = [
+      'import json, sys, warnings',
+      'warnings.simplefilter("error")',
+      'from astropy.table import Table',
+      'import astropy.units as u',
+      't = Table.read(sys.argv[1])',
+      'print(json.dumps({"n": len(t), "ids": [str(x) for x in t["id"]], "teff": [float(x) for x in t["teff_k"]], "theta": [float(x) for x in t["theta_mas"]],',
+      '  "units": {c: (t[c].unit.to_string("fits") if t[c].unit is not None else None) for c in t.colnames},',
+      '  "fbol_to_cgs": (1 * t["fbol_cgs"].unit).to(u.erg / u.s / u.cm**2).value, "clip": t.meta["provenance"]["options"]["clip"], "comments": len(t.meta["comments"])}))',
+    ].join('\n');
+    const py = spawnSync('/usr/bin/python3', ['-c', script, path.join(dir, 'out.ecsv')], { encoding: 'utf8' });
+    expect(py.stderr).toBe('');
+    expect(py.status).toBe(0);
+    const out = JSON.parse(py.stdout) as { n: number; ids: string[]; teff: number[]; theta: number[]; units: Record<string, string | null>; fbol_to_cgs: number; clip: boolean; comments: number };
+    expect(out.n).toBe(12);
+    expect(out.ids).toEqual(stars.map((s) => s.id));
+    for (const [i, s] of stars.entries()) {
+      expect(Math.abs(out.teff[i] / s.teffK - 1)).toBeLessThan(1e-4);
+      expect(Math.abs(out.theta[i] / s.thetaMas - 1)).toBeLessThan(1e-4);
+    }
+    expect(out.units).toMatchObject({ teff_k: 'K', theta_mas: 'mas', ra: 'deg', av: 'mag' });
+    expect(out.fbol_to_cgs).toBeCloseTo(1, 12);
+    expect(out.clip).toBe(true);
+    expect(out.comments).toBeGreaterThan(10);
+  });
+});
+
 describe('progress bar', () => {
   const sink = (columns = 80) => {
     const chunks: string[] = [];

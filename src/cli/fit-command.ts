@@ -17,6 +17,7 @@ import {
   type CatalogueRow,
   type Provenance,
 } from '../core/catalogue';
+import { ecsvColumns, ecsvHeader, ecsvLine } from '../core/ecsv';
 import { extrapolatedBandKeys } from '../core/extinction';
 import { measurementToBandFlux } from '../core/photometry';
 import { fitStar, prepareFitModel, type FitFailure, type FitResult } from '../core/fit';
@@ -74,6 +75,20 @@ function* csvChunks(provenance: Provenance, rows: CatalogueRow[]): Generator<str
   let block = '';
   for (let i = 0; i < rows.length; i++) {
     block += catalogueCsvLine(rows[i]) + '\n';
+    if ((i & 1023) === 1023) {
+      yield block;
+      block = '';
+    }
+  }
+  if (block) yield block;
+}
+
+function* ecsvChunks(provenance: Provenance, rows: CatalogueRow[]): Generator<string> {
+  const columns = ecsvColumns(CATALOGUE_COLUMNS);
+  yield ecsvHeader(columns, { provenance, comments: provenanceLines(provenance) });
+  let block = '';
+  for (let i = 0; i < rows.length; i++) {
+    block += ecsvLine(rows[i], columns);
     if ((i & 1023) === 1023) {
       yield block;
       block = '';
@@ -263,7 +278,7 @@ export async function runFit(args: FitCommandArgs, io: Io): Promise<number> {
       args.law,
     ),
   };
-  const chunks = args.format === 'json' ? jsonChunks(provenance, rows) : csvChunks(provenance, rows);
+  const chunks = args.format === 'json' ? jsonChunks(provenance, rows) : args.format === 'ecsv' ? ecsvChunks(provenance, rows) : csvChunks(provenance, rows);
   if (args.output === '-') {
     for (const c of chunks) io.stdout.write(c);
   } else {

@@ -7,7 +7,7 @@ export type CatalogueSort = (typeof CATALOGUE_SORTS)[number];
 export const CATALOGUE_STATUSES = ['pending', 'accepted', 'flagged'] as const;
 export type CatalogueStatus = (typeof CATALOGUE_STATUSES)[number];
 /** Download formats (GET /api/campaigns/:id/downloads/:format) and the name each is offered under. */
-export const EXPORT_FORMAT_LABELS = { csv: 'CSV', votable: 'VOTable', fits: 'FITS table', json: 'JSON' } as const;
+export const EXPORT_FORMAT_LABELS = { csv: 'CSV', ecsv: 'ECSV', votable: 'VOTable', fits: 'FITS table', json: 'JSON' } as const;
 export type ExportFormat = keyof typeof EXPORT_FORMAT_LABELS;
 
 export interface CatalogueRowView {

@@ -11,6 +11,13 @@ export interface CatalogueColumn {
   digits?: number;
 }
 
+/**
+ * F_bol's unit, spelled the same in every download and the CLI output: 1 mW m⁻² = 1 erg s⁻¹ cm⁻²,
+ * so the numbers are the cgs ones. "mW.m-2" reads as the same unit in VOUnit (IVOA VOUnits 1.0),
+ * the FITS standard (4.0, sect. 4.3) and astropy's unit parser; erg is deprecated in VOUnit.
+ */
+export const FBOL_UNIT = 'mW.m-2';
+
 /** Catalogue columns in output order. `review_status` is added only where reviews exist. */
 export const CATALOGUE_COLUMNS: readonly CatalogueColumn[] = [
   { name: 'id', description: 'star identifier as given in the input' },
@@ -26,8 +33,8 @@ export const CATALOGUE_COLUMNS: readonly CatalogueColumn[] = [
   { name: 'radius_err_rsun', unit: 'R_sun', description: '1σ error of R, parallax error included', digits: 3 },
   { name: 'lum_lsun', unit: 'L_sun', description: 'luminosity (R/R☉)² (T/5772 K)⁴', digits: 5 },
   { name: 'lum_err_lsun', unit: 'L_sun', description: '1σ error of L, T–s covariance and parallax error included', digits: 3 },
-  { name: 'fbol_cgs', unit: 'erg s-1 cm-2', description: 'bolometric flux at Earth s σT⁴', digits: 6 },
-  { name: 'fbol_err_cgs', unit: 'erg s-1 cm-2', description: '1σ error of F_bol, T–s covariance included', digits: 3 },
+  { name: 'fbol_cgs', unit: FBOL_UNIT, description: 'bolometric flux at Earth s σT⁴, in mW m⁻² (the same numbers as erg s⁻¹ cm⁻²)', digits: 6 },
+  { name: 'fbol_err_cgs', unit: FBOL_UNIT, description: '1σ error of F_bol, T–s covariance included', digits: 3 },
   { name: 'av', unit: 'mag', description: 'A_V used (given, default or fitted)', digits: 4 },
   { name: 'av_err', unit: 'mag', description: '1σ error of A_V when fitted', digits: 3 },
   { name: 'chi2_red', description: 'reduced χ² of the fit', digits: 4 },
@@ -185,7 +192,7 @@ export const PROVENANCE_CONSTANTS =
 const BLACKBODY_NOTE =
   'A single blackbody gives a colour temperature: typically within a few per cent of the true Teff for FGK stars, worse for M stars (molecular bands) and hot stars (little leverage on the Rayleigh–Jeans tail, degeneracy with A_V).';
 
-function optionText(v: unknown): string {
+export function optionText(v: unknown): string {
   if (Array.isArray(v)) return v.length ? v.join(' ') : '(none)';
   if (v === undefined || v === null) return '(none)';
   if (typeof v === 'object') return JSON.stringify(v);

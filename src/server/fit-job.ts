@@ -88,6 +88,8 @@ export interface StarRow {
   parallax_mas: number | null;
   parallax_err_mas: number | null;
   av_mag: number | null;
+  lum_class?: string | null;
+  feh_dex?: number | null;
 }
 
 export interface MeasurementRow {
@@ -130,6 +132,18 @@ export interface FitResultRow {
   detail: string;
   band_library_version: string;
   software_version: string;
+  // The pure Planck fit beside the calibrated one, the class and [Fe/H] used, and the model (null = Planck only).
+  tbb_k: number | null;
+  tbb_err_k: number | null;
+  tbb_err_formal_k: number | null;
+  tbb_lower_k: number | null;
+  tbb_chi2_red: number | null;
+  tbb_model_fluxes: string | null;
+  lum_class: string | null;
+  lum_class_source: string | null;
+  feh_dex: number | null;
+  photosphere_name: string | null;
+  photosphere_version: string | null;
 }
 
 /** Result rows per INSERT statement when a chunk is written (27 columns × 50 stays under SQLite's 32 766 parameters). */
@@ -139,7 +153,8 @@ const RESULT_COLUMNS: (keyof FitResultRow)[] = [
   'batch_id', 'campaign_id', 'star_id', 'ok', 'failure_reason', 'teff_k', 'teff_err_k', 'teff_err_formal_k', 'teff_lower_k',
   'theta_mas', 'theta_err_mas', 'radius_rsun', 'radius_err_rsun', 'lum_lsun', 'lum_err_lsun', 'fbol_cgs', 'fbol_err_cgs',
   'av_mag', 'av_err_mag', 'chi2_red', 'n_bands', 'bands_used', 'ir_excess_sigma', 'flags', 'detail',
-  'band_library_version', 'software_version',
+  'band_library_version', 'software_version', 'tbb_k', 'tbb_err_k', 'tbb_err_formal_k', 'tbb_lower_k', 'tbb_chi2_red',
+  'tbb_model_fluxes', 'lum_class', 'lum_class_source', 'feh_dex', 'photosphere_name', 'photosphere_version',
 ];
 
 /** Why a measurement did not reach the fit although the star has it. */
@@ -230,6 +245,8 @@ export function resultRow(batch: BatchInfo, starId: number, fit: FitResult | Fit
       av_mag: null, av_err_mag: null, chi2_red: null, n_bands: null, bands_used: null, ir_excess_sigma: null,
       flags: fit.reason,
       detail: withProvenance({ reason: fit.reason, excluded: fit.excluded, skipped, observed }),
+      tbb_k: null, tbb_err_k: null, tbb_err_formal_k: null, tbb_lower_k: null, tbb_chi2_red: null, tbb_model_fluxes: null,
+      lum_class: null, lum_class_source: null, feh_dex: null, photosphere_name: null, photosphere_version: null,
     };
   }
   return {
@@ -265,7 +282,19 @@ export function resultRow(batch: BatchInfo, starId: number, fit: FitResult | Fit
       skipped,
       covariance: fit.covariance,
       ...(fit.monteCarlo ? { monteCarlo: fit.monteCarlo } : {}),
+      ...(fit.modelScatter ? { modelScatter: fit.modelScatter, teffModelTermLn: fit.teffModelTermLn } : {}),
     }),
+    tbb_k: finiteOrNull(fit.planck.teffK),
+    tbb_err_k: finiteOrNull(fit.planck.teffErrK),
+    tbb_err_formal_k: finiteOrNull(fit.planck.teffErrFormalK),
+    tbb_lower_k: finiteOrNull(fit.planck.teffLowerK),
+    tbb_chi2_red: finiteOrNull(fit.planck.chi2Red),
+    tbb_model_fluxes: JSON.stringify(fit.planck.modelFluxes),
+    lum_class: fit.lumClass,
+    lum_class_source: fit.lumClassSource,
+    feh_dex: finiteOrNull(fit.fehDex),
+    photosphere_name: fit.photosphere?.name ?? null,
+    photosphere_version: fit.photosphere?.version ?? null,
   };
 }
 
@@ -290,7 +319,7 @@ export class FitStarRunner {
     this.sqlite = db.$client;
     this.selectBatch = this.sqlite.prepare('SELECT id, campaign_id, options, band_library_version, software_version FROM batches WHERE id = ?');
     this.selectStars = this.sqlite.prepare(
-      'SELECT id, star_key, parallax_mas, parallax_err_mas, av_mag FROM stars WHERE id IN (SELECT value FROM json_each(?))',
+      'SELECT id, star_key, parallax_mas, parallax_err_mas, av_mag, lum_class, feh_dex FROM stars WHERE id IN (SELECT value FROM json_each(?))',
     );
     this.selectMeasurements = this.sqlite.prepare(
       `SELECT star_id, band_key, source, mag, mag_err, fnu_jy, fnu_err_jy, upper_limit FROM measurements
@@ -380,6 +409,8 @@ export class FitStarRunner {
             parallaxMas: star.parallax_mas,
             parallaxErrMas: star.parallax_err_mas,
             avMag: star.av_mag,
+            lumClass: star.lum_class === 'dwarf' || star.lum_class === 'giant' ? star.lum_class : null,
+            fehDex: star.feh_dex,
           });
           out.rows.push(resultRow(batch, starId, fit, bandFluxes, skipped, prepared.extrapolated));
         } catch (err) {
@@ -435,6 +466,8 @@ export class FitStarRunner {
           av_mag: null, av_err_mag: null, chi2_red: null, n_bands: null, bands_used: null, ir_excess_sigma: null,
           flags: '', detail: JSON.stringify({ reason: 'job_failed', error: errorOf(j.id), attempts: j.attempts, options: batch.options }),
           band_library_version: batch.bandLibraryVersion, software_version: batch.softwareVersion,
+          tbb_k: null, tbb_err_k: null, tbb_err_formal_k: null, tbb_lower_k: null, tbb_chi2_red: null, tbb_model_fluxes: null,
+          lum_class: null, lum_class_source: null, feh_dex: null, photosphere_name: null, photosphere_version: null,
         });
       }
     }

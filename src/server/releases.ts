@@ -1,5 +1,5 @@
 // Catalogue releases: an analyst (or an admin) declares the catalogue ready. A release is frozen
-// (decision record 0017): its rows (one per star, with the batch that made the fit), the files of
+// (decision record 0021): its rows (one per star, with the batch that made the fit), the files of
 // every download format byte for byte with their SHA-256, and the provenance (batches with their
 // options, band library and software versions, zero-points) are written once, with a stable id and
 // address, and never change — a later re-fit or review does not touch them. Releases made before

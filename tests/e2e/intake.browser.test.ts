@@ -89,8 +89,11 @@ describe('intake in the browser', () => {
     await page.waitForFunction(() => /3 \/ 3 stars · 100\.0 %/.test(document.querySelector('[data-testid="batch-done"]')?.textContent ?? ''), undefined, { timeout: 60_000 }).catch(async (err) => {
       throw new Error(`${(err as Error).message}\nshown: ${await done.textContent()}\n${run.logs().slice(-3000)}`);
     });
-    const batch = run.app.db.select().from(batches).where(eq(batches.campaignId, id)).get()!;
-    expect(batch.status).toBe('finished');
+    // The worker marks the batch finished just after its last chunk's results commit (and the e-mail is
+    // prepared), so the page can show 100 % a moment before: wait for the status, up to 30 s.
+    const statusOf = () => run.app.db.select().from(batches).where(eq(batches.campaignId, id)).get()!.status;
+    for (let waited = 0; statusOf() !== 'finished' && waited < 30_000; waited += 100) await new Promise((r) => setTimeout(r, 100));
+    expect(statusOf()).toBe('finished');
     await page.close();
   });
 

@@ -243,6 +243,10 @@ function Table({ campaignId, initialQuery, initialPage, initialCount }: Props) {
             {f.label}
           </a>
         ))}
+        <p className="basis-full text-xs text-ink-600" data-testid="download-readers">
+          Which file for which reader: ECSV for astropy (<code>Table.read(f)</code> as it is, units and provenance included); VOTable or FITS for astronomy table tools and
+          other astronomy software; JSON for scripts; CSV for spreadsheets and pandas (<code>comment=&apos;#&apos;</code>) — its <code>#</code> provenance lines are not skipped by astropy&apos;s plain CSV reader.
+        </p>
       </div>
 
       {error && (

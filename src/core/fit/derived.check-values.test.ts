@@ -50,7 +50,7 @@ describe('derived quantities', () => {
     const d = blank();
     const cov = new Float64Array([1e-4, -1.8e-4, 0, -1.8e-4, 4e-4, 0, 0, 0, 0]); // ρ = −0.9
     const s = dilutionFromThetaMas(1);
-    deriveInto(d, Math.log(6000), s, cov, false, 1, 0, 20, 0.5);
+    deriveInto(d, Math.log(6000), s, cov, false, 1, 0, 0, 20, 0.5);
     expect(d.teffErrK).toBeCloseTo(6000 * 0.01, 9);
     expect(d.thetaErrMas).toBeCloseTo(0.5 * 0.02, 12);
     const varLnF = 4e-4 + 16e-4 + 8 * -1.8e-4;
@@ -58,23 +58,45 @@ describe('derived quantities', () => {
     expect(d.radiusErrRsun / d.radiusRsun).toBeCloseTo(Math.sqrt(4e-4 / 4 + (0.5 / 20) ** 2), 12);
     expect(d.lumErrLsun / d.lumLsun).toBeCloseTo(Math.sqrt(varLnF + 4 * (0.5 / 20) ** 2), 12);
     expect(d.plxFlags).toBe(0);
-    // Scaling by √χ²_ν = 2 doubles every error; the model-error term adds to σ(ln T) in quadrature.
-    deriveInto(d, Math.log(6000), s, cov, false, 2, 0.03, 20, 0.5);
+    // Scaling by √χ²_ν = 2 doubles every error; the model term adds to σ(ln T) in quadrature.
+    deriveInto(d, Math.log(6000), s, cov, false, 2, 0.03 ** 2, 0, 20, 0.5);
     expect(d.teffErrFormalK).toBeCloseTo(60, 9);
     expect(d.teffErrK).toBeCloseTo(6000 * Math.sqrt(4e-4 + 0.03 ** 2), 9);
+  });
+
+  it('moves a model term in ln T along the T–θ degeneracy: σ(θ), σ(R) widen, σ(F_bol), σ(L) stay near their measurement values (docs/decisions/0022; Stefan–Boltzmann: F_bol = sσT⁴)', () => {
+    const d = blank();
+    const cov = new Float64Array([1e-4, -3.6e-4, 0, -3.6e-4, 16e-4, 0, 0, 0, 0]);
+    const s = dilutionFromThetaMas(1);
+    deriveInto(d, Math.log(6000), s, cov, false, 1, 0, 0, 20, 0.5);
+    const base = { t: d.teffErrK / d.teffK, th: d.thetaErrMas / d.thetaMas, f: d.fbolErrCgs / d.fbolCgs, r: d.radiusErrRsun / d.radiusRsun, l: d.lumErrLsun / d.lumLsun };
+    const m = 0.03 ** 2;
+    const beta = -3.8; // bands around the peak: at fixed photometry s ∝ T^−3.8
+    deriveInto(d, Math.log(6000), s, cov, false, 1, m, beta, 20, 0.5);
+    expect((d.teffErrK / d.teffK) ** 2).toBeCloseTo(base.t ** 2 + m, 12);
+    // σ²(ln θ) = σ²(ln s)/4 gains β²σ_m²/4.
+    expect((d.thetaErrMas / d.thetaMas) ** 2).toBeCloseTo(base.th ** 2 + (beta * beta * m) / 4, 12);
+    expect((d.radiusErrRsun / d.radiusRsun) ** 2).toBeCloseTo(base.r ** 2 + (beta * beta * m) / 4, 12);
+    // σ²(ln F_bol) gains (β² + 16 + 8β)σ_m² = (β + 4)²σ_m², here 0.04 σ_m².
+    expect((d.fbolErrCgs / d.fbolCgs) ** 2).toBeCloseTo(base.f ** 2 + (beta + 4) ** 2 * m, 12);
+    expect((d.lumErrLsun / d.lumLsun) ** 2).toBeCloseTo(base.l ** 2 + (beta + 4) ** 2 * m, 12);
+    // The old propagation (16σ_m² on var(ln F_bol), θ untouched) would give √(σ_f² + 16σ_m²) ≈ 12 %.
+    expect(d.fbolErrCgs / d.fbolCgs).toBeLessThan(1.1 * base.f);
+    expect(d.fbolErrCgs / d.fbolCgs).toBeLessThan(0.2 * Math.sqrt(base.f ** 2 + 16 * m));
+    expect(d.thetaErrMas / d.thetaMas).toBeGreaterThan(1.5 * base.th);
   });
 
   it('flags parallaxes: ϖ ≤ 0 → no R, L; ϖ/σ < 5 → values with a flag; none → no R, L', () => {
     const d = blank();
     const cov = new Float64Array([1e-4, 0, 0, 0, 1e-4, 0, 0, 0, 0]);
-    deriveInto(d, Math.log(5000), 1e-17, cov, false, 1, 0, -0.3, 0.2);
+    deriveInto(d, Math.log(5000), 1e-17, cov, false, 1, 0, 0, -0.3, 0.2);
     expect(d.plxFlags).toBe(FLAG_BITS.plx_nonpositive);
     expect(d.radiusRsun).toBeNaN();
     expect(d.lumLsun).toBeNaN();
-    deriveInto(d, Math.log(5000), 1e-17, cov, false, 1, 0, 1.0, 0.3);
+    deriveInto(d, Math.log(5000), 1e-17, cov, false, 1, 0, 0, 1.0, 0.3);
     expect(d.plxFlags).toBe(FLAG_BITS.plx_weak);
     expect(d.radiusRsun).toBeGreaterThan(0);
-    deriveInto(d, Math.log(5000), 1e-17, cov, false, 1, 0, NaN, NaN);
+    deriveInto(d, Math.log(5000), 1e-17, cov, false, 1, 0, 0, NaN, NaN);
     expect(d.plxFlags).toBe(FLAG_BITS.plx_missing);
     expect(d.radiusRsun).toBeNaN();
   });

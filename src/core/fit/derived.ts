@@ -5,6 +5,11 @@
 //   σ²(ln R) = σ²(ln s)/4 + (σ_ϖ/ϖ)²
 //   σ²(ln F_bol) = σ²(ln s) + 16 σ²(ln T) + 8 cov(ln s, ln T)   (T and s are anti-correlated, ρ ≈ −0.9)
 //   σ²(ln L) = σ²(ln F_bol) + 4 (σ_ϖ/ϖ)²
+// A model term σ_m² in ln T (the photosphere's calibration term, or the blackbody model-error term) is
+// a temperature error at fixed photometry, so it moves along the T–θ degeneracy of the fit: with
+// β = d(ln s*)/d(ln T) of the closed-form scale, it adds σ_m² to var(ln T), β σ_m² to cov(ln T, ln s) and
+// β² σ_m² to var(ln s) (docs/decisions/0022). It widens σ(θ) and σ(R); σ(F_bol) grows only by
+// (β + 4)² σ_m², small when the bands straddle the peak (β ≈ −4).
 // Uncertainties are linear (first-order) propagations of the reported covariance; the Monte Carlo
 // option in fit-star.ts gives asymmetric intervals when they matter.
 
@@ -62,7 +67,8 @@ export function bolometricFluxCgs(s: number, teffK: number): number {
 
 /**
  * Fills d from the solution (u = ln T, s) and the formal covariance of (ln T, ln s, A_V) (row-major 3×3).
- * scale multiplies the formal standard errors; modelErrorFraction adds in quadrature to σ(ln T).
+ * scale multiplies the formal standard errors; modelVarLnT (σ_m²) is propagated along the T–θ
+ * degeneracy with beta = d(ln s*)/d(ln T) (see the header).
  */
 export function deriveInto(
   d: Derived,
@@ -71,16 +77,18 @@ export function deriveInto(
   cov: Float64Array,
   avFree: boolean,
   scale: number,
-  modelErrorFraction: number,
+  modelVarLnT: number,
+  beta: number,
   parallaxMas: number,
   parallaxErrMas: number,
 ): void {
   const teffK = Math.exp(u);
   const sc2 = scale * scale;
   const varUFormal = cov[0];
-  const varU = varUFormal * sc2 + modelErrorFraction * modelErrorFraction;
-  const varLnS = cov[4] * sc2;
-  const covUS = cov[1] * sc2;
+  const m = modelVarLnT > 0 ? modelVarLnT : 0;
+  const varU = varUFormal * sc2 + m;
+  const varLnS = cov[4] * sc2 + beta * beta * m;
+  const covUS = cov[1] * sc2 + beta * m;
   d.errScale = scale;
   d.teffK = teffK;
   d.teffErrFormalK = teffK * Math.sqrt(varUFormal);

@@ -50,6 +50,8 @@ export const LOWER_BOUND_DCHI2 = 2.705543;
 export const CHI2_HIGH = 5;
 export const OUTLIER_SIGMA = 3;
 export const MAX_CLIPPED = 2;
+/** A solution this close to ln T_min (a quarter of a table node) is at the grid's cool edge. */
+export const COOL_EDGE_LN_T = 0.25 * LN_T_STEP;
 /** Newton stops once the next step in ln T is below this (T to 1e-6 relative, far below any error). */
 const NEWTON_TOL = 1e-6;
 
@@ -114,6 +116,9 @@ export class FitEngine {
   nClipped = 0;
   iterations = 0;
   readonly derived: Derived;
+
+  /** Evaluate every coarse node (≈ 20 % steps) instead of every other one; the photosphere engines do. */
+  denseCoarse = false;
 
   constructor(
     readonly tables: FitTables,
@@ -609,6 +614,14 @@ export class FitEngine {
       if (c2 >= 0) this.coarsePair(pc, c, c2);
       else chi[c] = this.coarseNode(pc, c);
     }
+    if (this.denseCoarse) {
+      // The photosphere's corrections bend the profile on shorter scales than a blackbody's: odd nodes too.
+      for (let c = 1; c <= last; c += 4) {
+        const c2 = c + 2 <= last ? c + 2 : -1;
+        if (c2 >= 0) this.coarsePair(pc, c, c2);
+        else chi[c] = this.coarseNode(pc, c);
+      }
+    }
     if (chi[last] !== chi[last]) chi[last] = this.coarseNode(pc, last);
     for (let c = 0; c <= last; c++) {
       const v = chi[c];
@@ -895,13 +908,53 @@ export class FitEngine {
     const scale = this.chi2Red > 1 ? Math.sqrt(this.chi2Red) : 1;
     // Temperature edges.
     const sigmaU = Math.sqrt(this.cov[0]) * scale;
-    if (this.u <= LN_T_MIN + 1e-9) this.flags |= FLAG_BITS.temp_cool_edge;
+    // Cool edge: Newton stops within its bracket, not on the edge itself, so a star cooler than the grid
+    // ends a fraction of a node above ln T_min (a test at 1e-9 missed it, and the hot-edge test then
+    // called it a lower bound). Within a quarter node (0.6 % in T) of the edge the value is the edge's.
+    if (this.u <= LN_T_MIN + COOL_EDGE_LN_T) this.flags |= FLAG_BITS.temp_cool_edge;
     else this.checkHotEdge(settings, scale, sigmaU);
-    deriveInto(this.derived, this.u, this.s, this.cov, this.avFree, scale, settings.modelErrorFraction, parallaxMas, parallaxErrMas);
+    this.lastScale = scale;
+    this.lastPlx = parallaxMas;
+    this.lastPlxErr = parallaxErrMas;
+    const mef = settings.modelErrorFraction;
+    this.modelVarLnT = mef > 0 ? mef * mef : 0;
+    this.beta = mef > 0 ? this.scaleSlope() : 0;
+    deriveInto(this.derived, this.u, this.s, this.cov, this.avFree, scale, this.modelVarLnT, this.beta, parallaxMas, parallaxErrMas);
     this.flags |= this.derived.plxFlags;
     if (settings.modelErrorFraction > 0) this.flags |= FLAG_BITS.model_error_added;
     this.status = STATUS_OK;
     return this.status;
+  }
+
+  private lastScale = 1;
+  private lastPlx = NaN;
+  private lastPlxErr = NaN;
+  /** The model term σ_m² in ln T in the derived values, and β = d(ln s*)/d(ln T) used to propagate it. */
+  modelVarLnT = 0;
+  beta = 0;
+
+  /**
+   * β = d(ln s*)/d(ln T) of the closed-form scale s* = Σwyφ/Σwφ² at the solution (fitted detections):
+   * Σwyφ'/Σwyφ − 2Σwφφ'/Σwφ². φ and φ' of the fitted slots are those of the solution after run().
+   */
+  scaleSlope(): number {
+    const y = this.y, w = this.w, phi = this.phi, dphi = this.dphi;
+    let a = 0, a1 = 0, b = 0, b1 = 0;
+    for (let k = 0; k < this.nDet; k++) {
+      const wp = w[k] * phi[k];
+      a += wp * y[k];
+      a1 += w[k] * y[k] * dphi[k];
+      b += wp * phi[k];
+      b1 += wp * dphi[k];
+    }
+    return a1 / a - (2 * b1) / b;
+  }
+
+  /** Recomputes the derived values of the last run with a model term σ_m² in ln T (replacing any before). */
+  deriveWithModelTerm(modelVarLnT: number): void {
+    this.modelVarLnT = modelVarLnT;
+    this.beta = modelVarLnT > 0 ? this.scaleSlope() : 0;
+    deriveInto(this.derived, this.u, this.s, this.cov, this.avFree, this.lastScale, this.modelVarLnT, this.beta, this.lastPlx, this.lastPlxErr);
   }
 
   /** χ² of the solution from the residuals (detections, and limits the model exceeds). */

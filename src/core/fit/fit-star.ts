@@ -28,6 +28,21 @@ import {
 } from './engine';
 import { FLAG_BITS, flagCodes, type FlagCode } from './flags';
 import { mulberry32, normalDeviate } from './random';
+import { defaultPhotosphere } from '../photosphere';
+import {
+  bandCalibrated,
+  bandScatter,
+  inClassRange,
+  lnCorrection,
+  teffTermSigma,
+  type LumClass,
+  type PhotosphereData,
+} from '../photosphere/model';
+import { radiusRsunFromTheta, PLX_SNR_MIN } from './derived';
+
+export type { LumClass } from '../photosphere/model';
+/** Where a fit's luminosity class came from. */
+export type LumClassSource = 'parallax' | 'input' | 'batch' | 'assumed';
 
 /** Bands whose pivot lies beyond this are excess diagnostics, not fit inputs, by default (docs/science.md §8). */
 export const LONG_BAND_PIVOT_ANGSTROM = 50000;
@@ -46,8 +61,12 @@ export interface FitOptions {
   includeLongBands: boolean;
   clip: boolean;
   monteCarlo?: { samples: number; seed: number };
-  /** Extra fractional Teff error for the blackbody approximation (see README: BLACKBODY_MODEL_ERROR_FRACTION). */
+  /** Extra fractional Teff error for the blackbody approximation of a Planck-only fit (BLACKBODY_MODEL_ERROR_FRACTION). */
   modelErrorFraction?: number;
+  /** Fit a blackbody only: teff_* = tbb_*, no photosphere model. */
+  planckOnly: boolean;
+  /** Luminosity class for stars without their own: 'auto' (from the parallax radius; dwarf without one) or a fixed class. */
+  lumClass: 'auto' | LumClass;
 }
 
 export const DEFAULT_FIT_OPTIONS: Readonly<FitOptions> = Object.freeze({
@@ -60,6 +79,10 @@ export const DEFAULT_FIT_OPTIONS: Readonly<FitOptions> = Object.freeze({
   excludeBands: [] as string[],
   includeLongBands: false,
   clip: false,
+  // Opt-in for now: the CLI, the app and the exports do not yet carry the tbb_* columns beside teff_*
+  // (decision 0022), so every caller keeps the Planck fit unless it asks for the photosphere.
+  planckOnly: true,
+  lumClass: 'auto' as const,
 });
 
 export function resolveFitOptions(partial: Partial<FitOptions> = {}): FitOptions {
@@ -71,10 +94,21 @@ export function resolveFitOptions(partial: Partial<FitOptions> = {}): FitOptions
   if (!(Number.isFinite(lo) && Number.isFinite(hi) && lo < hi)) throw new Error(`A_V bounds must be two numbers, lower < upper; got ${lo}, ${hi}`);
   if (!(Number.isFinite(o.floorFraction) && o.floorFraction >= 0)) throw new Error(`systematic floor must be a fraction ≥ 0, got ${o.floorFraction}`);
   if (o.modelErrorFraction !== undefined && !(o.modelErrorFraction >= 0)) throw new Error(`model error fraction must be ≥ 0, got ${o.modelErrorFraction}`);
+  if (!['auto', 'dwarf', 'giant'].includes(o.lumClass)) throw new Error(`luminosity class must be auto, dwarf or giant, got "${o.lumClass}"`);
+  if (typeof o.planckOnly !== 'boolean') throw new Error('planckOnly must be true or false');
   if (o.monteCarlo && !(Number.isInteger(o.monteCarlo.samples) && o.monteCarlo.samples >= 10)) {
     throw new Error(`Monte Carlo needs an integer number of samples ≥ 10, got ${o.monteCarlo.samples}`);
   }
   return o;
+}
+
+/** The photosphere model's tables and engines for one band library, law and R_V (one per thread). */
+export interface PhotosphereRuntime {
+  data: PhotosphereData;
+  tables: Record<LumClass, FitTables>;
+  engines: Record<LumClass, FitEngine>;
+  /** Whether a band's definition is the one the model was calibrated with (else it is uncalibrated). */
+  usable(key: string): boolean;
 }
 
 export interface FitModel {
@@ -83,17 +117,56 @@ export interface FitModel {
   tables: FitTables;
   engine: FitEngine;
   options: FitOptions;
+  /** null: Planck only (no model data given). */
+  photosphere: PhotosphereRuntime | null;
 }
 
-export function prepareFitModel(library: BandLibrary, options: Partial<FitOptions> = {}): FitModel {
+/**
+ * photosphere: the model data (default: the committed photosphere-v1.json; null = none, Planck only).
+ * The model's correction multiplies the (reddened) Planck band mean of every band whose definition
+ * (band version) is the one it was calibrated with; other bands keep the Planck value (band_uncalibrated).
+ */
+export function prepareFitModel(library: BandLibrary, options: Partial<FitOptions> = {}, photosphere?: PhotosphereData | null): FitModel {
   const resolved = resolveFitOptions(options);
   const ext: ExtinctionSpec = { law: resolved.law, rv: resolved.rv };
-  const tables = new FitTables((key, teffK, avMag) => {
+  const bandOf = (key: string) => {
     const band = getBand(library, key);
     if (!band) throw new Error(`band ${key} is not in band library ${library.version}`);
-    return planckBandMean(band, teffK, avMag, ext);
-  });
-  return { library, ext, tables, engine: new FitEngine(tables), options: resolved };
+    return band;
+  };
+  const tables = new FitTables((key, teffK, avMag) => planckBandMean(bandOf(key), teffK, avMag, ext));
+  const data = photosphere === undefined ? defaultPhotosphere() : photosphere;
+  let runtime: PhotosphereRuntime | null = null;
+  if (data) {
+    const usable = (key: string): boolean => {
+      const band = getBand(library, key);
+      return band !== undefined && band !== null && data.bandVersions[key] === band.version;
+    };
+    const classTables = (cls: LumClass) =>
+      new FitTables((key, teffK, avMag) => {
+        const base = planckBandMean(bandOf(key), teffK, avMag, ext);
+        return usable(key) ? base * Math.exp(lnCorrection(data, cls, key, Math.log(teffK))) : base;
+      });
+    const t = { dwarf: classTables('dwarf'), giant: classTables('giant') };
+    const engines = { dwarf: new FitEngine(t.dwarf), giant: new FitEngine(t.giant) };
+    engines.dwarf.denseCoarse = engines.giant.denseCoarse = true;
+    runtime = { data, tables: t, engines, usable };
+  }
+  return { library, ext, tables, engine: new FitEngine(tables), options: resolved, photosphere: runtime };
+}
+
+/** A band's index, the same in the Planck tables and every photosphere table (bands are added in step). */
+export function bandIndexAll(model: FitModel, key: string): number {
+  const i = model.tables.bandIndex(key);
+  if (model.photosphere) {
+    // Bring every photosphere table up to the Planck table's bands, in its order (callers may have
+    // added bands to model.tables directly).
+    for (const t of Object.values(model.photosphere.tables)) {
+      while (t.bandCount < model.tables.bandCount) t.bandIndex(model.tables.bandKeys[t.bandCount]);
+      if (t.getBandIndex(key) !== i) throw new Error(`band ${key}: table indices diverged`);
+    }
+  }
+  return i;
 }
 
 export interface StarInput {
@@ -103,6 +176,24 @@ export interface StarInput {
   parallaxErrMas?: number | null;
   /** The star's own A_V (mag); else options.avMag. Ignored when A_V is fitted. */
   avMag?: number | null;
+  /** The star's own luminosity class (input column lum_class); else options.lumClass. */
+  lumClass?: LumClass | null;
+  /** [Fe/H] in dex (input column feh): recorded; far from solar it raises feh_far. */
+  fehDex?: number | null;
+}
+
+/** The pure Planck fit kept beside the calibrated one (never widened by any model term). */
+export interface PlanckFit {
+  teffK: number | null;
+  teffErrK: number | null;
+  teffErrFormalK: number | null;
+  teffLowerK: number | null;
+  chi2Red: number | null;
+  /** Planck model band means s·φ (erg s⁻¹ cm⁻² Å⁻¹) for every band of the star. */
+  modelFluxes: Record<string, number>;
+  flags: FlagCode[];
+  thetaMas: number | null;
+  radiusRsun: number | null;
 }
 
 export type ExclusionReason = 'excluded_by_option' | 'long_wavelength' | 'clipped' | 'no_valid_error';
@@ -147,6 +238,17 @@ export interface FitResult {
   excluded: { band: string; reason: ExclusionReason }[];
   /** Formal covariance (not scaled) of (teffK, s[, avMag]). */
   covariance: { params: string[]; matrix: number[][] };
+  /** The pure Planck fit (tbb_* columns); with planckOnly its numbers equal the ones above. */
+  planck: PlanckFit;
+  /** The photosphere model used (name, version); null for a Planck-only fit. */
+  photosphere: { name: string; version: string } | null;
+  lumClass: LumClass | null;
+  lumClassSource: LumClassSource | null;
+  fehDex: number | null;
+  /** Fractional model scatter added in quadrature to each fitted band's error (calibrated fit). */
+  modelScatter?: Record<string, number>;
+  /** The calibration term σ(ln T) added along the T–θ degeneracy (calibrated fit), 0 for Planck only. */
+  teffModelTermLn: number;
   monteCarlo?: {
     samples: number;
     seed: number;
@@ -232,7 +334,7 @@ export function starEntries(model: FitModel, star: StarInput, opts: FitOptions):
     else if (!opts.includeLongBands && band.pivotAngstrom > LONG_BAND_PIVOT_ANGSTROM) exclude = EXCLUDE_LONG;
     entries.push({
       bandKey: bf.bandKey,
-      bandIndex: model.tables.bandIndex(bf.bandKey),
+      bandIndex: bandIndexAll(model, bf.bandKey),
       flux: floored.fluxCgs,
       sigma: floored.errCgs,
       upper: bf.upperLimit,
@@ -242,34 +344,22 @@ export function starEntries(model: FitModel, star: StarInput, opts: FitOptions):
   return { entries, excluded };
 }
 
-export function fitStar(model: FitModel, star: StarInput, options?: Partial<FitOptions>): FitResult | FitFailure {
-  const opts = options ? resolveFitOptions({ ...model.options, ...options }) : model.options;
-  if (opts.law !== model.ext.law || opts.rv !== model.ext.rv) {
-    throw new Error(`fit model was prepared for ${model.ext.law} with R_V = ${model.ext.rv}; prepare another model for ${opts.law}, R_V = ${opts.rv}`);
+function failureOf(engine: FitEngine, status: number, star: StarInput, opts: FitOptions, excluded: FitFailure['excluded']): FitFailure {
+  const minDet = opts.fitAv ? 3 : 2;
+  if (status === STATUS_FEW_BANDS) {
+    return {
+      ok: false,
+      id: star.id,
+      reason: 'few_bands',
+      message: `star ${star.id}: ${engine.nDet} usable detection(s) in the fit; at least ${minDet} are needed${opts.fitAv ? ' when A_V is fitted' : ''}`,
+      excluded,
+    };
   }
-  const { entries, excluded } = starEntries(model, star, opts);
-  const settings = engineSettings(opts);
-  const avMag = finiteOrNaN(star.avMag);
-  const av = Number.isFinite(avMag) ? avMag : opts.avMag;
-  const plx = finiteOrNaN(star.parallaxMas);
-  const plxErr = finiteOrNaN(star.parallaxErrMas);
-  const engine = model.engine;
-  loadEngine(engine, entries);
-  const status = engine.run(settings, av, plx, plxErr);
-  for (let k = engine.nFit; k < engine.n; k++) excluded.push({ band: entries[engine.order[k]].bandKey, reason: reasonOf(engine.exclude[k]) });
-  if (status !== STATUS_OK) {
-    const minDet = opts.fitAv ? 3 : 2;
-    if (status === STATUS_FEW_BANDS) {
-      return {
-        ok: false,
-        id: star.id,
-        reason: 'few_bands',
-        message: `star ${star.id}: ${engine.nDet} usable detection(s) in the fit; at least ${minDet} are needed${opts.fitAv ? ' when A_V is fitted' : ''}`,
-        excluded,
-      };
-    }
-    return { ok: false, id: star.id, reason: 'no_convergence', message: `star ${star.id}: the fit did not converge to a finite result`, excluded };
-  }
+  return { ok: false, id: star.id, reason: 'no_convergence', message: `star ${star.id}: the fit did not converge to a finite result`, excluded };
+}
+
+/** The result fields an engine's last run gives (Planck or photosphere engine alike). */
+function resultOf(engine: FitEngine, entries: Entry[], excluded: FitResult['excluded'], star: StarInput, opts: FitOptions): Omit<FitResult, 'planck' | 'photosphere' | 'lumClass' | 'lumClassSource' | 'fehDex' | 'teffModelTermLn'> {
   const d = engine.derived;
   const lowerBound = (engine.flags & FLAG_BITS.temp_lower_bound) !== 0;
   const residualsSigma: Record<string, number> = {};
@@ -292,7 +382,7 @@ export function fitStar(model: FitModel, star: StarInput, options?: Partial<FitO
     for (let j = 0; j < params.length; j++) row.push(c[i * 3 + j] * scaleOf[i] * scaleOf[j]);
     matrix.push(row);
   }
-  const result: FitResult = {
+  return {
     ok: true,
     id: star.id,
     teffK: lowerBound ? null : T,
@@ -318,10 +408,148 @@ export function fitStar(model: FitModel, star: StarInput, options?: Partial<FitO
     modelFluxes,
     irExcessSigma: nullable(engine.irExcessSigma),
     flags: flagCodes(engine.flags),
-    excluded,
+    excluded: [...excluded, ...excludedOf(engine, entries)],
     covariance: { params, matrix },
   };
-  if (opts.monteCarlo && !lowerBound) result.monteCarlo = monteCarlo(model, entries, engine, settings, av, plx, plxErr, opts.monteCarlo);
+}
+
+function excludedOf(engine: FitEngine, entries: Entry[]): FitResult['excluded'] {
+  const out: FitResult['excluded'] = [];
+  for (let k = engine.nFit; k < engine.n; k++) out.push({ band: entries[engine.order[k]].bandKey, reason: reasonOf(engine.exclude[k]) });
+  return out;
+}
+
+/** Luminosity class: the star's own, a fixed batch class, the parallax radius of the Planck fit, or dwarf. */
+export function chooseLumClass(
+  data: PhotosphereData,
+  star: StarInput,
+  opts: FitOptions,
+  planckThetaMas: number,
+  plx: number,
+  plxErr: number,
+): { cls: LumClass; source: LumClassSource } {
+  if (star.lumClass === 'dwarf' || star.lumClass === 'giant') return { cls: star.lumClass, source: 'input' };
+  if (opts.lumClass !== 'auto') return { cls: opts.lumClass, source: 'batch' };
+  const goodPlx = Number.isFinite(plx) && plx > 0 && (!(plxErr > 0) || plx / plxErr >= PLX_SNR_MIN);
+  if (goodPlx && Number.isFinite(planckThetaMas)) {
+    const r = radiusRsunFromTheta(planckThetaMas, plx);
+    return { cls: r > data.giantRadiusRsun ? 'giant' : 'dwarf', source: 'parallax' };
+  }
+  return { cls: 'dwarf', source: 'assumed' };
+}
+
+function scatterOf(rt: PhotosphereRuntime, cls: LumClass, entries: Entry[], teffK: number, out: Float64Array): void {
+  for (let i = 0; i < entries.length; i++) {
+    const key = entries[i].bandKey;
+    out[i] = rt.usable(key) ? bandScatter(rt.data, cls, key, teffK) : rt.data.uncalibratedScatter;
+  }
+}
+
+function withScatter(entries: Entry[], scatter: Float64Array): Entry[] {
+  return entries.map((e, i) => {
+    const m = scatter[i] * Math.abs(e.flux);
+    return { ...e, sigma: Math.sqrt(e.sigma * e.sigma + m * m) };
+  });
+}
+
+export function fitStar(model: FitModel, star: StarInput, options?: Partial<FitOptions>): FitResult | FitFailure {
+  const opts = options ? resolveFitOptions({ ...model.options, ...options }) : model.options;
+  if (opts.law !== model.ext.law || opts.rv !== model.ext.rv) {
+    throw new Error(`fit model was prepared for ${model.ext.law} with R_V = ${model.ext.rv}; prepare another model for ${opts.law}, R_V = ${opts.rv}`);
+  }
+  const { entries, excluded } = starEntries(model, star, opts);
+  const settings = engineSettings(opts);
+  const avMag = finiteOrNaN(star.avMag);
+  const av = Number.isFinite(avMag) ? avMag : opts.avMag;
+  const plx = finiteOrNaN(star.parallaxMas);
+  const plxErr = finiteOrNaN(star.parallaxErrMas);
+  const feh = finiteOrNaN(star.fehDex);
+  const rt = opts.planckOnly ? null : model.photosphere;
+  // 1. The pure Planck fit, always, never widened by a model term.
+  const engine = model.engine;
+  loadEngine(engine, entries);
+  const status = engine.run({ ...settings, modelErrorFraction: 0 }, av, plx, plxErr);
+  if (status !== STATUS_OK) return failureOf(engine, status, star, opts, [...excluded, ...excludedOf(engine, entries)]);
+  const planckRes = resultOf(engine, entries, excluded, star, opts);
+  const planck: PlanckFit = {
+    teffK: planckRes.teffK,
+    teffErrK: planckRes.teffErrK,
+    teffErrFormalK: planckRes.teffErrFormalK,
+    teffLowerK: planckRes.teffLowerK,
+    chi2Red: planckRes.chi2Red,
+    modelFluxes: planckRes.modelFluxes,
+    flags: planckRes.flags,
+    thetaMas: planckRes.thetaMas,
+    radiusRsun: planckRes.radiusRsun,
+  };
+  if (!rt) {
+    // Planck only: teff_* = tbb_*; the optional blackbody model-error term widens teff_* alone.
+    const mef = opts.modelErrorFraction ?? 0;
+    let res = planckRes;
+    if (mef > 0) {
+      engine.deriveWithModelTerm(mef * mef);
+      engine.flags |= FLAG_BITS.model_error_added;
+      res = resultOf(engine, entries, excluded, star, opts);
+    }
+    const result: FitResult = { ...res, planck, photosphere: null, lumClass: null, lumClassSource: null, fehDex: nullable(feh), teffModelTermLn: mef };
+    if (opts.monteCarlo && result.teffK !== null) result.monteCarlo = monteCarlo(engine, entries, settings, av, plx, plxErr, opts.monteCarlo, mef, engine.beta);
+    return result;
+  }
+  // 2. The photosphere fit, with the class's per-band model scatter in quadrature.
+  const data = rt.data;
+  const { cls, source } = chooseLumClass(data, star, opts, finiteOrNaN(planck.thetaMas), plx, plxErr);
+  const pe = rt.engines[cls];
+  const tbb = planck.teffK ?? planck.teffLowerK ?? 5772;
+  const scatter = new Float64Array(entries.length);
+  const scatter2 = new Float64Array(entries.length);
+  scatterOf(rt, cls, entries, tbb, scatter);
+  let calEntries = withScatter(entries, scatter);
+  loadEngine(pe, calEntries);
+  let st = pe.run({ ...settings, modelErrorFraction: 0 }, av, plx, plxErr);
+  if (st === STATUS_OK) {
+    // The scatter belongs to the fitted temperature: refit once if it sits in another scatter bin.
+    scatterOf(rt, cls, entries, Math.exp(pe.u), scatter2);
+    if (scatter2.some((v, i) => v !== scatter[i])) {
+      scatter.set(scatter2);
+      calEntries = withScatter(entries, scatter);
+      loadEngine(pe, calEntries);
+      st = pe.run({ ...settings, modelErrorFraction: 0 }, av, plx, plxErr);
+    }
+  }
+  if (st !== STATUS_OK) return failureOf(pe, st, star, opts, [...excluded, ...excludedOf(pe, calEntries)]);
+  const tCal = Math.exp(pe.u);
+  // 3. The calibration term in σ(ln T), along the T–θ degeneracy; grown outside the calibrated range.
+  const sigmaM = teffTermSigma(data, cls, tCal);
+  let varM = sigmaM * sigmaM;
+  if (!inClassRange(data, cls, tCal)) {
+    pe.flags |= FLAG_BITS.outside_calibration;
+    const diff = planck.teffK !== null ? Math.log(tCal / planck.teffK) : 0;
+    varM += diff * diff;
+  }
+  pe.deriveWithModelTerm(varM);
+  if (source === 'batch' || source === 'assumed') pe.flags |= FLAG_BITS.class_assumed;
+  if (Number.isFinite(feh) && Math.abs(feh) > data.fehLimitDex) pe.flags |= FLAG_BITS.feh_far;
+  for (let k = 0; k < pe.nDet; k++) {
+    const key = calEntries[pe.order[k]].bandKey;
+    if (!rt.usable(key) || !bandCalibrated(data, cls, key, tCal)) {
+      pe.flags |= FLAG_BITS.band_uncalibrated;
+      break;
+    }
+  }
+  const res = resultOf(pe, calEntries, excluded, star, opts);
+  const modelScatter: Record<string, number> = {};
+  entries.forEach((e, i) => (modelScatter[e.bandKey] = scatter[i]));
+  const result: FitResult = {
+    ...res,
+    planck,
+    photosphere: { name: data.name, version: data.version },
+    lumClass: cls,
+    lumClassSource: source,
+    fehDex: nullable(feh),
+    modelScatter,
+    teffModelTermLn: Math.sqrt(varM),
+  };
+  if (opts.monteCarlo && result.teffK !== null) result.monteCarlo = monteCarlo(pe, calEntries, settings, av, plx, plxErr, opts.monteCarlo, Math.sqrt(varM), pe.beta);
   return result;
 }
 
@@ -337,23 +565,26 @@ function percentiles(values: number[]): Interval {
 }
 
 /**
- * Resamples the photometry (Gaussian, σ with the floor; limits kept) and the parallax with a fixed-seed
- * generator, refitting the band set of the main fit each time (clipped bands stay out, no further clipping).
+ * Resamples the photometry (Gaussian, σ with the floor and any model scatter; limits kept) and the
+ * parallax with a fixed-seed generator, refitting the band set of the main fit each time (clipped bands
+ * stay out, no further clipping). A model term σ_m in ln T is drawn too and moved along the T–θ
+ * degeneracy (ln s shifts by β times the draw), as in the linear errors.
  */
 function monteCarlo(
-  model: FitModel,
-  entriesIn: Entry[],
   engine: FitEngine,
+  entriesIn: Entry[],
   settingsIn: EngineSettings,
   av: number,
   plx: number,
   plxErr: number,
   mc: { samples: number; seed: number },
+  modelSigmaLnT: number,
+  beta: number,
 ): NonNullable<FitResult['monteCarlo']> {
   // Freeze the main fit's band roles (clipped bands become excluded) before the engine is reused.
   const entries: Entry[] = entriesIn.map((e) => ({ ...e }));
   for (let k = 0; k < engine.n; k++) if (engine.exclude[k] === EXCLUDE_CLIPPED) entries[engine.order[k]].exclude = EXCLUDE_USER;
-  const settings: EngineSettings = { ...settingsIn, clip: false };
+  const settings: EngineSettings = { ...settingsIn, clip: false, modelErrorFraction: 0 };
   const rand = mulberry32(mc.seed);
   const fluxes = new Float64Array(entries.length);
   const teff: number[] = [];
@@ -368,16 +599,20 @@ function monteCarlo(
       fluxes[k] = e.upper ? e.flux : e.flux + e.sigma * normalDeviate(rand);
     }
     const p = hasPlx && plxErr > 0 ? plx + plxErr * normalDeviate(rand) : plx;
-    loadEngine(model.engine, entries, fluxes);
+    const eps = modelSigmaLnT > 0 ? modelSigmaLnT * normalDeviate(rand) : 0;
+    loadEngine(engine, entries, fluxes);
     if (engine.run(settings, av, p, 0) !== STATUS_OK || (engine.flags & FLAG_BITS.temp_lower_bound) !== 0) {
       failures++;
       continue;
     }
-    teff.push(engine.derived.teffK);
-    theta.push(engine.derived.thetaMas);
+    const shiftT = Math.exp(eps);
+    const shiftTheta = Math.exp(0.5 * beta * eps);
+    teff.push(engine.derived.teffK * shiftT);
+    theta.push(engine.derived.thetaMas * shiftTheta);
     if (Number.isFinite(engine.derived.radiusRsun)) {
-      radius.push(engine.derived.radiusRsun);
-      lum.push(engine.derived.lumLsun);
+      const r = engine.derived.radiusRsun * shiftTheta;
+      radius.push(r);
+      lum.push(engine.derived.lumLsun * shiftTheta * shiftTheta * shiftT ** 4);
     }
   }
   const enough = (a: number[]): boolean => a.length >= Math.max(10, 0.5 * mc.samples);

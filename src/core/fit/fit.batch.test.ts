@@ -1,3 +1,5 @@
+// Blackbody mock stars and the blackbody model error: these test the pure Planck fit (planckOnly; the
+// photosphere fit on real stars is tested in scripts/photosphere/photosphere.test.ts).
 // fitPacked (catalogue path over typed arrays) must give exactly what fitStar gives, star by star.
 import { describe, expect, it } from 'vitest';
 import { starterBandLibrary, requireBand } from '../bands';
@@ -31,7 +33,7 @@ describe('fitPacked', () => {
     const rand = mulberry32(3);
     const stars = Array.from({ length: 300 }, (_, i) => star(rand, i));
     for (const options of [{}, { clip: true }, { fitAv: true }]) {
-      const model = prepareFitModel(lib, options);
+      const model = prepareFitModel(lib, { ...options, planckOnly: true });
       const packed = packStars(model, stars);
       const out = createPackedResults(stars.length);
       fitPacked(model, packed, out);

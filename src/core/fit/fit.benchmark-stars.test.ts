@@ -1,3 +1,5 @@
+// Blackbody mock stars and the blackbody model error: these test the pure Planck fit (planckOnly; the
+// photosphere fit on real stars is tested in scripts/photosphere/photosphere.test.ts).
 // The fit on real stars: Gaia FGK benchmark stars v3 (Soubiran et al. 2024; ../shared/data/benchmark,
 // licence beside the file), fundamental Teff from interferometric angular diameters and bolometric flux.
 // docs/science.md check table: median T_fit/Teff − 1 within ±3 % in each 1000 K bin from 4000 to 7000 K
@@ -76,7 +78,7 @@ function median(a: number[]): number {
 
 describe('Gaia FGK benchmark stars v3 (Soubiran et al. 2024)', () => {
   const stars = loadStars();
-  const model = prepareFitModel(lib); // F99, R_V 3.1, A_V 0 (stars within ~100 pc), floor 0.02
+  const model = prepareFitModel(lib, { planckOnly: true }); // F99, R_V 3.1, A_V 0 (stars within ~100 pc), floor 0.02
   const fits = stars.map((s) => ({ star: s, r: fitStar(model, { id: s.id, bandFluxes: s.bands, parallaxMas: s.parallaxMas, parallaxErrMas: s.parallaxErrMas }) }));
   const good = fits.flatMap(({ star, r }) => (r.ok && r.teffK !== null ? [{ star, teffK: r.teffK, errK: r.teffErrK as number }] : []));
 

@@ -1,3 +1,5 @@
+// Blackbody mock stars and the blackbody model error: these test the pure Planck fit (planckOnly; the
+// photosphere fit on real stars is tested in scripts/photosphere/photosphere.test.ts).
 // Each flag code a fit can carry, produced on purpose: chi2_high (its threshold, and the error scaling
 // its explanation announces), temp_cool_edge and no_convergence. The other codes are produced in
 // fit.quality.test.ts. Mock photometry is π B_λ(T) through the starter passbands (self-consistency).
@@ -28,7 +30,7 @@ const ok = (r: FitResult | FitFailure): FitResult => {
 };
 
 describe('chi2_high', () => {
-  const model = prepareFitModel(lib, { floorFraction: 0 });
+  const model = prepareFitModel(lib, { planckOnly: true, floorFraction: 0 });
 
   it('is raised above a reduced χ² of 5 and not below, and the reported errors are scaled by √χ²_ν', () => {
     expect(CHI2_HIGH).toBe(5);
@@ -53,7 +55,7 @@ describe('chi2_high', () => {
 
 describe('temp_cool_edge', () => {
   it('is raised for a star just cooler than the grid (1400 K against 1500 K), seen in the near- and mid-infrared', () => {
-    const model = prepareFitModel(lib);
+    const model = prepareFitModel(lib, { planckOnly: true });
     const r = ok(fitStar(model, { id: 'brown', bandFluxes: mock(['J', 'H', 'Ks', 'W1', 'W2'], 1400, 0.5, 0.02) }));
     expect(r.flags).toContain('temp_cool_edge');
     expect(r.teffK).toBeCloseTo(1500, 6);
@@ -64,7 +66,7 @@ describe('temp_cool_edge', () => {
 
 describe('no_convergence', () => {
   it('is the failure of photometry no positive curve can follow (every flux negative)', () => {
-    const model = prepareFitModel(lib);
+    const model = prepareFitModel(lib, { planckOnly: true });
     const bands = mock(KEYS, 5500, 1, 0.05).map((b) => ({ ...b, fluxCgs: -b.fluxCgs }));
     const r = fitStar(model, { id: 'negative', bandFluxes: bands });
     expect(r.ok).toBe(false);

@@ -1,3 +1,5 @@
+// Blackbody mock stars and the blackbody model error: these test the pure Planck fit (planckOnly; the
+// photosphere fit on real stars is tested in scripts/photosphere/photosphere.test.ts).
 // Recovery of mock stars built by DIRECT integration (planckBandMean, not the fit's tables):
 // docs/science.md check table, "noise-free mock stars, 8 bands … T and θ recovered to 1e-4" (self-consistency),
 // and noisy mock stars for the honesty of the errors (pulls ≈ N(0, 1), 68 % coverage of 1σ; common practice).
@@ -37,7 +39,7 @@ describe('noise-free mock stars (self-consistency, 1e-4)', () => {
     [30000, 0.02, 2.3],
   ];
   it.each(cases)('A_V fixed: T = %d K, θ = %f mas, A_V = %f', (teffK, thetaMas, avMag) => {
-    const model = prepareFitModel(lib, { floorFraction: 0 });
+    const model = prepareFitModel(lib, { planckOnly: true, floorFraction: 0 });
     const r = ok(fitStar(model, { id: 'mock', bandFluxes: mockFluxes(EIGHT, teffK, thetaMas, avMag, 0.01), avMag }));
     expect(Math.abs((r.teffK as number) / teffK - 1)).toBeLessThan(1e-4);
     expect(Math.abs((r.thetaMas as number) / thetaMas - 1)).toBeLessThan(1e-4);
@@ -52,7 +54,7 @@ describe('noise-free mock stars (self-consistency, 1e-4)', () => {
     [20000, 0.04, 0.9],
   ];
   it.each(free)('A_V fitted: T = %d K, θ = %f mas, A_V = %f', (teffK, thetaMas, avMag) => {
-    const model = prepareFitModel(lib, { floorFraction: 0, fitAv: true });
+    const model = prepareFitModel(lib, { planckOnly: true, floorFraction: 0, fitAv: true });
     // Nine bands from the far UV to 2 µm so that T and A_V separate.
     const keys = ['NUV', 'U', 'B', 'V', 'G', 'RP', 'J', 'H', 'Ks'];
     const r = ok(fitStar(model, { id: 'mock', bandFluxes: mockFluxes(keys, teffK, thetaMas, avMag, 0.01) }));
@@ -66,7 +68,7 @@ describe('noise-free mock stars (self-consistency, 1e-4)', () => {
   it('recovers the same star under CCM89 and OD94 with R_V = 4', () => {
     for (const law of ['ccm89', 'od94'] as const) {
       const ext: ExtinctionSpec = { law, rv: 4 };
-      const model = prepareFitModel(lib, { floorFraction: 0, law, rv: 4 });
+      const model = prepareFitModel(lib, { planckOnly: true, floorFraction: 0, law, rv: 4 });
       const r = ok(fitStar(model, { id: 'mock', bandFluxes: mockFluxes(EIGHT, 6400, 0.5, 1.2, 0.01, ext), avMag: 1.2 }));
       expect(Math.abs((r.teffK as number) / 6400 - 1)).toBeLessThan(1e-4);
     }
@@ -75,7 +77,7 @@ describe('noise-free mock stars (self-consistency, 1e-4)', () => {
 
 describe('noisy mock stars (fixed seed): errors are honest', () => {
   it('pulls (T_fit − T_true)/σ_T have spread ≈ 1 and 1σ covers ≈ 68 %', () => {
-    const model = prepareFitModel(lib, { floorFraction: 0 });
+    const model = prepareFitModel(lib, { planckOnly: true, floorFraction: 0 });
     const rand = mulberry32(20240607);
     const pulls: number[] = [];
     const thetaPulls: number[] = [];
@@ -109,7 +111,7 @@ describe('noisy mock stars (fixed seed): errors are honest', () => {
   });
 
   it('reported errors (scaled by √χ²_ν when above 1) cover at least as often as claimed', () => {
-    const model = prepareFitModel(lib, { floorFraction: 0 });
+    const model = prepareFitModel(lib, { planckOnly: true, floorFraction: 0 });
     const rand = mulberry32(99);
     let inside = 0;
     let n = 0;

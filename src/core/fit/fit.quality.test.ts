@@ -1,3 +1,5 @@
+// Blackbody mock stars and the blackbody model error: these test the pure Planck fit (planckOnly; the
+// photosphere fit on real stars is tested in scripts/photosphere/photosphere.test.ts).
 // Quality handling of the fit (docs/science.md §8): censored upper limits, Rayleigh–Jeans lower bounds,
 // clipping, infrared excess, parallax flags, too few bands, Monte Carlo, and the A_V-fitting LM
 // against the general-purpose ml-levenberg-marquardt library.
@@ -50,7 +52,7 @@ describe('upper limits are censored', () => {
   det[1].fluxCgs *= 1.03;
 
   it('a limit far above the model changes nothing', () => {
-    const model = prepareFitModel(lib, { floorFraction: 0 });
+    const model = prepareFitModel(lib, { planckOnly: true, floorFraction: 0 });
     const base = ok(fitStar(model, { id: 'a', bandFluxes: det }));
     const ul: BandFlux = { bandKey: 'U', fluxCgs: 10 * flux('U', 5200, 1), errCgs: flux('U', 5200, 1), upperLimit: true };
     const withUl = ok(fitStar(model, { id: 'a', bandFluxes: [...det, ul] }));
@@ -62,7 +64,7 @@ describe('upper limits are censored', () => {
   });
 
   it('a limit below the model pulls the fit and is penalised only on the violating side', () => {
-    const model = prepareFitModel(lib, { floorFraction: 0 });
+    const model = prepareFitModel(lib, { planckOnly: true, floorFraction: 0 });
     const base = ok(fitStar(model, { id: 'b', bandFluxes: det }));
     const uModel = base.modelFluxes.B; // scale reference only
     expect(uModel).toBeGreaterThan(0);
@@ -83,7 +85,7 @@ describe('upper limits are censored', () => {
   });
 
   it('an upper limit does not count as a detection', () => {
-    const model = prepareFitModel(lib);
+    const model = prepareFitModel(lib, { planckOnly: true });
     const bands = [...mock(['V'], 5000, 1), { bandKey: 'Ks', fluxCgs: 1e-12, errCgs: 0, upperLimit: true }];
     const r = fitStar(model, { id: 'c', bandFluxes: bands });
     expect(r.ok).toBe(false);
@@ -93,7 +95,7 @@ describe('upper limits are censored', () => {
 
 describe('Rayleigh–Jeans tail', () => {
   it('a 45 000 K star seen only from V to Ks with 5 % errors gets a lower bound, not a value', () => {
-    const model = prepareFitModel(lib);
+    const model = prepareFitModel(lib, { planckOnly: true });
     const r = ok(fitStar(model, { id: 'hot', bandFluxes: mock(['V', 'G', 'RP', 'J', 'H', 'Ks'], 45000, 0.01, 0.05) }));
     expect(r.flags).toContain('temp_lower_bound');
     expect(r.teffK).toBeNull();
@@ -116,14 +118,14 @@ describe('Rayleigh–Jeans tail', () => {
   });
 
   it('a 30 000 K star seen only in the near-IR (2 % errors) gets a lower bound', () => {
-    const model = prepareFitModel(lib);
+    const model = prepareFitModel(lib, { planckOnly: true });
     const r = ok(fitStar(model, { id: 'hot', bandFluxes: mock(['J', 'H', 'Ks', 'W1', 'W2'], 30000, 0.01, 0.05) }));
     expect(r.flags).toContain('temp_lower_bound');
     expect(r.teffLowerK as number).toBeLessThan(30000);
   });
 
   it('the same 45 000 K star with 2 % errors keeps a value with a wide error', () => {
-    const model = prepareFitModel(lib);
+    const model = prepareFitModel(lib, { planckOnly: true });
     const r = ok(fitStar(model, { id: 'hot', bandFluxes: mock(['V', 'G', 'RP', 'J', 'H', 'Ks'], 45000, 0.01, 0.02) }));
     expect(r.flags).not.toContain('temp_lower_bound');
     expect(Math.abs((r.teffK as number) / 45000 - 1)).toBeLessThan(1e-4);
@@ -131,7 +133,7 @@ describe('Rayleigh–Jeans tail', () => {
   });
 
   it('the same star with far-UV bands gets a value', () => {
-    const model = prepareFitModel(lib);
+    const model = prepareFitModel(lib, { planckOnly: true });
     const r = ok(fitStar(model, { id: 'hot', bandFluxes: mock(['FUV', 'NUV', 'U', 'B', 'V', 'J'], 45000, 0.01) }));
     expect(r.flags).not.toContain('temp_lower_bound');
     expect(Math.abs((r.teffK as number) / 45000 - 1)).toBeLessThan(1e-3);
@@ -144,7 +146,7 @@ describe('outliers and clipping', () => {
   bad[5].fluxCgs *= 1.3; // J off by 30 %
 
   it('flags the outlier without clipping', () => {
-    const model = prepareFitModel(lib, { floorFraction: 0 });
+    const model = prepareFitModel(lib, { planckOnly: true, floorFraction: 0 });
     const r = ok(fitStar(model, { id: 'o', bandFluxes: bad }));
     expect(r.flags).toContain('outlier');
     expect(Math.abs(r.residualsSigma.J)).toBeGreaterThan(3);
@@ -152,7 +154,7 @@ describe('outliers and clipping', () => {
   });
 
   it('clips the worst band, lists it and recovers T', () => {
-    const model = prepareFitModel(lib, { floorFraction: 0 });
+    const model = prepareFitModel(lib, { planckOnly: true, floorFraction: 0 });
     const r = ok(fitStar(model, { id: 'o', bandFluxes: bad }, { clip: true }));
     expect(r.flags).toContain('clipped');
     expect(r.flags).not.toContain('outlier');
@@ -167,14 +169,14 @@ describe('outliers and clipping', () => {
     worse[1].fluxCgs *= 0.6;
     worse[5].fluxCgs *= 1.4;
     worse[7].fluxCgs *= 1.25;
-    const model = prepareFitModel(lib, { floorFraction: 0 });
+    const model = prepareFitModel(lib, { planckOnly: true, floorFraction: 0 });
     const r = ok(fitStar(model, { id: 'o', bandFluxes: worse }, { clip: true }));
     expect(r.excluded.filter((e) => e.reason === 'clipped')).toHaveLength(2);
     expect(r.flags).toContain('outlier');
   });
 
   it('honours excludeBands', () => {
-    const model = prepareFitModel(lib, { floorFraction: 0 });
+    const model = prepareFitModel(lib, { planckOnly: true, floorFraction: 0 });
     const r = ok(fitStar(model, { id: 'o', bandFluxes: bad }, { excludeBands: ['J'] }));
     expect(r.excluded).toEqual([{ band: 'J', reason: 'excluded_by_option' }]);
     expect(Math.abs((r.teffK as number) / 6000 - 1)).toBeLessThan(1e-4);
@@ -185,7 +187,7 @@ describe('infrared excess', () => {
   it('bands beyond 5 µm are diagnostics by default and report their excess', () => {
     const bands = mock(['B', 'V', 'G', 'J', 'H', 'Ks', 'W1', 'W3', 'W4'], 5500, 1);
     bands[7].fluxCgs *= 3; // W3 excess (dust)
-    const model = prepareFitModel(lib);
+    const model = prepareFitModel(lib, { planckOnly: true });
     const r = ok(fitStar(model, { id: 'ir', bandFluxes: bands }));
     expect(r.bandsUsed).toContain('W1');
     expect(r.bandsUsed).not.toContain('W3');
@@ -205,14 +207,14 @@ describe('infrared excess', () => {
 describe('parallax and failures', () => {
   const bands = mock(['B', 'V', 'G', 'RP', 'J', 'Ks'], 5772, 0.93009345);
   it('R☉-sized 5772 K star at 10 pc: R = 1 R☉, L = 1 L☉ (IAU 2015 B3 nominal values)', () => {
-    const model = prepareFitModel(lib);
+    const model = prepareFitModel(lib, { planckOnly: true });
     const r = ok(fitStar(model, { id: 'sun', bandFluxes: bands, parallaxMas: 100, parallaxErrMas: 0.1 }));
     expect(r.radiusRsun as number).toBeCloseTo(1, 4);
     expect(r.lumLsun as number).toBeCloseTo(1, 3);
     expect(r.flags).toEqual([]);
   });
   it('flags weak, non-positive and missing parallaxes', () => {
-    const model = prepareFitModel(lib);
+    const model = prepareFitModel(lib, { planckOnly: true });
     const weak = ok(fitStar(model, { id: 's', bandFluxes: bands, parallaxMas: 1, parallaxErrMas: 0.5 }));
     expect(weak.flags).toContain('plx_weak');
     expect(weak.radiusRsun).not.toBeNull();
@@ -224,7 +226,7 @@ describe('parallax and failures', () => {
     expect(none.flags).toContain('plx_missing');
   });
   it('fails clearly with too few bands', () => {
-    const model = prepareFitModel(lib);
+    const model = prepareFitModel(lib, { planckOnly: true });
     const one = fitStar(model, { id: 'lonely', bandFluxes: bands.slice(0, 1) });
     expect(one.ok).toBe(false);
     expect((one as FitFailure).reason).toBe('few_bands');
@@ -240,7 +242,7 @@ describe('parallax and failures', () => {
 
 describe('Monte Carlo intervals', () => {
   it('are reproducible with a fixed seed and about ±1σ wide', () => {
-    const model = prepareFitModel(lib);
+    const model = prepareFitModel(lib, { planckOnly: true });
     const bands = mock(['B', 'V', 'G', 'RP', 'J', 'H', 'Ks'], 4800, 1.2, 0.02);
     const opts = { monteCarlo: { samples: 400, seed: 5 } };
     const a = ok(fitStar(model, { id: 'mc', bandFluxes: bands, parallaxMas: 20, parallaxErrMas: 1 }, opts));
@@ -256,7 +258,7 @@ describe('Monte Carlo intervals', () => {
 
 describe('A_V fitted within bounds', () => {
   it('an unreddened star stops at the lower bound with a flag and no A_V error', () => {
-    const model = prepareFitModel(lib, { fitAv: true });
+    const model = prepareFitModel(lib, { planckOnly: true, fitAv: true });
     // Built with A_V = −0.3 (bluer than any reddened blackbody): the unconstrained optimum lies below 0.
     const bands = mock(['NUV', 'U', 'B', 'V', 'G', 'RP', 'J', 'H', 'Ks'], 6500, 0.5, 0.02, -0.3);
     const r = ok(fitStar(model, { id: 'b', bandFluxes: bands }));
@@ -266,7 +268,7 @@ describe('A_V fitted within bounds', () => {
     expect(r.covariance.params).toEqual(['teffK', 's']);
   });
   it('honours custom bounds', () => {
-    const model = prepareFitModel(lib, { fitAv: true, avBoundsMag: [0.5, 1.0] });
+    const model = prepareFitModel(lib, { planckOnly: true, fitAv: true, avBoundsMag: [0.5, 1.0] });
     const r = ok(fitStar(model, { id: 'b', bandFluxes: mock(['NUV', 'U', 'B', 'V', 'G', 'RP', 'J', 'H', 'Ks'], 6500, 0.5, 0.02, 2.0) }));
     expect(r.avMag).toBe(1.0);
     expect(r.flags).toContain('av_at_bound');
@@ -276,7 +278,7 @@ describe('A_V fitted within bounds', () => {
 describe('A_V fitting agrees with ml-levenberg-marquardt', () => {
   it('finds the same minimum on noisy stars (ours reaches an equal or lower χ²), with either engine solver', () => {
     const keys = ['NUV', 'U', 'B', 'V', 'G', 'RP', 'J', 'H', 'Ks'];
-    const model = prepareFitModel(lib, { fitAv: true, floorFraction: 0 });
+    const model = prepareFitModel(lib, { planckOnly: true, fitAv: true, floorFraction: 0 });
     const rand = mulberry32(42);
     for (let n = 0; n < 5; n++) {
       const teffK = 4500 + 6000 * rand();

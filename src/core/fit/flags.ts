@@ -15,6 +15,10 @@ export const FLAG_BITS = {
   av_at_bound: 1 << 9,
   upper_limit_active: 1 << 10,
   model_error_added: 1 << 11,
+  class_assumed: 1 << 12,
+  feh_far: 1 << 13,
+  outside_calibration: 1 << 14,
+  band_uncalibrated: 1 << 15,
 } as const;
 
 export type FlagCode = keyof typeof FLAG_BITS;
@@ -29,10 +33,14 @@ export const FLAG_EXPLANATIONS: Record<FlagCode | 'few_bands' | 'no_convergence'
   plx_weak: 'Parallax is less than 5 times its error: radius and luminosity are shown but 1/parallax is biased.',
   plx_nonpositive: 'Parallax is zero or negative: no radius or luminosity.',
   plx_missing: 'No parallax given: no radius or luminosity.',
-  chi2_high: 'Reduced χ² above 5: the blackbody describes this photometry poorly; errors were scaled up by the square root of the reduced χ².',
+  chi2_high: 'Reduced χ² above 5: the model (the calibrated photosphere, or the blackbody of a Planck-only fit) describes this photometry poorly; errors were scaled up by the square root of the reduced χ².',
   av_at_bound: 'The fitted A_V reached a bound of its allowed range; its error is not given.',
   upper_limit_active: 'An upper limit constrained the fit (the curve would otherwise exceed it).',
-  model_error_added: 'The blackbody model-error term was added to the Teff error (see the fit README).',
+  model_error_added: 'The blackbody model-error term was added to the Teff error of a Planck-only fit (see the fit README).',
+  class_assumed: 'The luminosity class (dwarf or giant) was not found from a parallax or given for the star: the batch setting (default dwarf) was assumed.',
+  feh_far: 'The star\'s [Fe/H] lies more than 0.5 dex from solar: the photosphere is calibrated on near-solar stars.',
+  outside_calibration: 'The temperature lies outside the range the photosphere is calibrated on for this class: the Teff error was widened to the Planck-vs-model difference.',
+  band_uncalibrated: 'At least one fitted band has no calibration for this class and temperature: the Planck value was used there with an assumed 10 % scatter.',
   few_bands: 'Too few usable detections for the fit (at least 2, or 3 when A_V is fitted).',
   no_convergence: 'The fit did not converge to a finite result.',
 };
@@ -51,6 +59,10 @@ export const FLAG_ORDER: FlagCode[] = [
   'plx_weak',
   'plx_missing',
   'model_error_added',
+  'class_assumed',
+  'feh_far',
+  'outside_calibration',
+  'band_uncalibrated',
 ];
 
 export function flagCodes(bits: number): FlagCode[] {

@@ -181,15 +181,25 @@ function refuseNul(parsed: { header: string[]; rows: string[][]; lines: number[]
   for (let r = 0; r < parsed.rows.length; r++) {
     const row = parsed.rows[r];
     for (let c = 0; c < row.length; c++) {
-      if (row[c].includes('\u0000')) throw new UnreadableFile(`${file}, ${cellPlace(parsed, r, c)}: the cell "${shownText(row[c], 40)}" holds a NUL byte (U+0000), which text never holds; nothing was read`);
+      if (row[c].includes('\u0000')) throw new UnreadableFile(nulCellMessage(file, cellPlace(parsed, r, c), row[c]));
     }
   }
   const h = parsed.header.findIndex((x) => x.includes('\u0000'));
   if (h >= 0) throw new UnreadableFile(`${file}: column ${h + 1} of the header holds a NUL byte (U+0000)`);
 }
 
-const DECIMAL_COMMA = /^\s*[+-]?(\d+,\d*|,\d+)([eE][+-]?\d+)?\s*$/;
-const DECIMAL_POINT = /^\s*[+-]?(\d+\.\d*|\.\d+)([eEdD][+-]?\d+)?\s*$/;
+/** A NUL in a cell, in words (also used by the streaming intake). `place`: row, file line and column. */
+export function nulCellMessage(file: string, place: string, cell: string): string {
+  return `${file}, ${place}: the cell "${shownText(cell, 40)}" holds a NUL byte (U+0000), which text never holds; nothing was read`;
+}
+
+export const DECIMAL_COMMA = /^\s*[+-]?(\d+,\d*|,\d+)([eE][+-]?\d+)?\s*$/;
+export const DECIMAL_POINT = /^\s*[+-]?(\d+\.\d*|\.\d+)([eEdD][+-]?\d+)?\s*$/;
+
+/** Decimal commas and decimal points in one semicolon-separated file, in words (also the streaming intake's). */
+export function mixedDecimalsMessage(file: string, comma: { place: string; cell: string }, point: { place: string; cell: string }): string {
+  return `${file}: semicolon-separated with both decimal commas (${comma.place}: "${shownText(comma.cell)}") and decimal points (${point.place}: "${shownText(point.cell)}"); which a number means cannot be told: save the file with one decimal separator (or as comma-separated CSV with decimal points)`;
+}
 
 /**
  * A semicolon-separated file (the export of a spreadsheet set to a language that writes decimal
@@ -210,7 +220,7 @@ function readDecimalCommas(parsed: { header: string[]; rows: string[][]; lines: 
   if (!comma) return;
   if (point) {
     throw new UnreadableFile(
-      `${file}: semicolon-separated with both decimal commas (${cellPlace(parsed, ...comma)}: "${shownText(parsed.rows[comma[0]][comma[1]])}") and decimal points (${cellPlace(parsed, ...point)}: "${shownText(parsed.rows[point[0]][point[1]])}"); which a number means cannot be told: save the file with one decimal separator (or as comma-separated CSV with decimal points)`,
+      mixedDecimalsMessage(file, { place: cellPlace(parsed, ...comma), cell: parsed.rows[comma[0]][comma[1]] }, { place: cellPlace(parsed, ...point), cell: parsed.rows[point[0]][point[1]] }),
     );
   }
   for (const row of parsed.rows) {
@@ -235,13 +245,7 @@ function readTextUpload(bytes: Uint8Array, file: string, budget: ReadBudget): Re
     if (err instanceof DelimitedError) throw new UnreadableFile(`${file}: ${stripSource(err.message, file)}`);
     throw err;
   }
-  if (parsed.header.length === 0 || parsed.header.every((h) => h === '')) throw new UnreadableFile(`${file}: the file has no header line with column names`);
-  const seen = new Map<string, number>();
-  parsed.header.forEach((h, i) => {
-    if (h === '') throw new UnreadableFile(`${file}, line ${parsed.headerLine}, column ${i + 1}: the header has an empty column name`);
-    if (seen.has(h)) throw new UnreadableFile(`${file}, line ${parsed.headerLine}: the column name "${h}" appears twice (columns ${seen.get(h)! + 1} and ${i + 1})`);
-    seen.set(h, i);
-  });
+  checkTextHeader(file, parsed.header, parsed.headerLine);
   if (parsed.rows.length === 0) throw new UnreadableFile(`${file}: the file has a header but no data rows`);
   if (text.includes('\u0000')) refuseNul(parsed, file);
   if (parsed.delimiter === ';') readDecimalCommas(parsed, file);
@@ -249,6 +253,17 @@ function readTextUpload(bytes: Uint8Array, file: string, budget: ReadBudget): Re
     format: parsed.delimiter === '\t' ? 'tsv' : 'csv',
     table: { file, columns: parsed.header, rows: parsed.rows, lines: parsed.lines, ...(parsed.units ? { units: parsed.units } : {}) },
   };
+}
+
+/** A text table's header must name every column once (also checked by the streaming intake). */
+export function checkTextHeader(file: string, header: readonly string[], headerLine: number): void {
+  if (header.length === 0 || header.every((h) => h === '')) throw new UnreadableFile(`${file}: the file has no header line with column names`);
+  const seen = new Map<string, number>();
+  header.forEach((h, i) => {
+    if (h === '') throw new UnreadableFile(`${file}, line ${headerLine}, column ${i + 1}: the header has an empty column name`);
+    if (seen.has(h)) throw new UnreadableFile(`${file}, line ${headerLine}: the column name "${h}" appears twice (columns ${seen.get(h)! + 1} and ${i + 1})`);
+    seen.set(h, i);
+  });
 }
 
 export type XmlTableReader = (bytes: Uint8Array, file: string, budget?: ReadBudget) => ColumnTable;

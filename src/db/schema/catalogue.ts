@@ -47,7 +47,7 @@ export const catalogueVersions = sqliteTable('catalogue_versions', {
 /**
  * The catalogue's summary bins: how many current results of a campaign fall in each cell of review
  * status × χ²_ν class × Teff bin (100 K) × log L bin (0.1 dex), once for all results (flag '') and
- * once more per flag they carry. Kept by triggers (drizzle/0013) in the transaction that writes,
+ * once more per flag they carry. Kept by triggers (drizzle/0014) in the transaction that writes,
  * reviews or supersedes a result, whoever does it; never written by code. Totals and diagrams add
  * cells instead of reading every result (src/server/catalogue/bins.ts). Sentinels: chi2_class -1
  * and teff_bin -1 for no value, lum_bin -100000 for no (or no positive) luminosity.

@@ -121,7 +121,7 @@ export const catalogueReleases = sqliteTable(
     softwareVersion: text('software_version').notNull(),
     releasedById: text('released_by_id').references(() => user.id, { onDelete: 'set null' }),
     createdAt: integer('created_at', { mode: 'timestamp_ms' }).notNull().default(now),
-    // Frozen releases (decision record 0017) keep their rows and files; older ones only their filter.
+    // Frozen releases (decision record 0021) keep their rows and files; older ones only their filter.
     frozen: integer('frozen', { mode: 'boolean' }).notNull().default(false),
     // The downloads' provenance at release time: batches with options and versions, zero-points, constants.
     provenance: text('provenance', { mode: 'json' }).$type<Record<string, unknown>>(),

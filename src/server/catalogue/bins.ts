@@ -1,4 +1,4 @@
-// The catalogue's summary bins (drizzle/0013, src/db/schema/catalogue.ts): totals and diagrams of a
+// The catalogue's summary bins (drizzle/0014, src/db/schema/catalogue.ts): totals and diagrams of a
 // campaign added up from cells instead of read from every result. The cells are kept by triggers in
 // the transaction that writes, reviews or supersedes a result, so a first request at a million
 // results reads a few thousand cells, and one new result changes one cell (plus one per flag).
@@ -14,7 +14,7 @@ import type Database from 'better-sqlite3';
 import type { CatalogueFilter } from './filter';
 import { filterSql, prepared, type Params } from './page';
 
-/** Width of a Teff bin (K) and of a log L bin (dex); edges of the χ²_ν classes. Also in drizzle/0013. */
+/** Width of a Teff bin (K) and of a log L bin (dex); edges of the χ²_ν classes. Also in drizzle/0014. */
 export const TEFF_BIN_K = 100;
 export const LOG_LUM_BIN = 0.1;
 export const CHI2_CLASS_EDGES = [1, 2, 3, 5, 10] as const;

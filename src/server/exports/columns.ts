@@ -1,8 +1,8 @@
 // Units and UCDs of the catalogue columns for the VOTable and FITS writers. The names, order and
 // descriptions come from src/core/catalogue.ts; this adds what the IVOA and FITS standards need.
-// VOUnit (IVOA VOUnits 1.0) has no erg: 1 erg s⁻¹ cm⁻² = 1 mW m⁻², so F_bol keeps its numbers.
+// F_bol is in mW m⁻² everywhere (FBOL_UNIT, the same numbers as erg s⁻¹ cm⁻²): VOUnit deprecates erg.
 // FITS units follow the FITS Standard 4.0, section 4.3 (solRad, solLum and erg are listed there).
-import type { CatalogueColumn } from '../../core/catalogue';
+import { FBOL_UNIT, type CatalogueColumn } from '../../core/catalogue';
 
 export interface ColumnMeta {
   /** 'text' columns are written as strings; 'int' as 32-bit integers; the rest as doubles. */
@@ -26,8 +26,8 @@ const META: Record<string, ColumnMeta> = {
   radius_err_rsun: { kind: 'double', voUnit: 'solRad', fitsUnit: 'solRad', ucd: 'stat.error;phys.size.radius' },
   lum_lsun: { kind: 'double', voUnit: 'solLum', fitsUnit: 'solLum', ucd: 'phys.luminosity' },
   lum_err_lsun: { kind: 'double', voUnit: 'solLum', fitsUnit: 'solLum', ucd: 'stat.error;phys.luminosity' },
-  fbol_cgs: { kind: 'double', voUnit: 'mW.m**-2', fitsUnit: 'erg s-1 cm-2', ucd: 'phot.flux.bol' },
-  fbol_err_cgs: { kind: 'double', voUnit: 'mW.m**-2', fitsUnit: 'erg s-1 cm-2', ucd: 'stat.error;phot.flux.bol' },
+  fbol_cgs: { kind: 'double', voUnit: FBOL_UNIT, fitsUnit: FBOL_UNIT, ucd: 'phot.flux.bol' },
+  fbol_err_cgs: { kind: 'double', voUnit: FBOL_UNIT, fitsUnit: FBOL_UNIT, ucd: 'stat.error;phot.flux.bol' },
   av: { kind: 'double', voUnit: 'mag', fitsUnit: 'mag', ucd: 'phys.absorption;em.opt.V' },
   av_err: { kind: 'double', voUnit: 'mag', fitsUnit: 'mag', ucd: 'stat.error;phys.absorption;em.opt.V' },
   chi2_red: { kind: 'double', ucd: 'stat.fit.chi2' },

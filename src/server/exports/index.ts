@@ -6,6 +6,7 @@ import type { AppDatabase } from '../../db/client';
 import type { ExportFormat } from '../../contracts/catalogue';
 import type { CatalogueFilter } from '../catalogue';
 import { csvExport } from './csv';
+import { ecsvExport } from './ecsv';
 import { fitsExport } from './fits';
 import { jsonExport } from './json';
 import { openExport, type ExportProvenance, type ExportSource } from './source';
@@ -13,6 +14,7 @@ import { votableExport } from './votable';
 
 export const EXPORT_FORMATS = {
   csv: { write: csvExport, contentType: 'text/csv; charset=utf-8', extension: 'csv' },
+  ecsv: { write: ecsvExport, contentType: 'text/x-ecsv; charset=utf-8', extension: 'ecsv' },
   votable: { write: votableExport, contentType: 'application/x-votable+xml; charset=utf-8', extension: 'vot' },
   fits: { write: fitsExport, contentType: 'application/fits', extension: 'fits' },
   json: { write: jsonExport, contentType: 'application/json; charset=utf-8', extension: 'json' },

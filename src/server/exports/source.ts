@@ -6,7 +6,7 @@
 import Database from 'better-sqlite3';
 import { requireBand, type BandLibrary } from '../../core/bands';
 import { findLibrary } from '../band-library';
-import { catalogueColumns, PROVENANCE_CONSTANTS, provenanceLines, type CatalogueColumn, type CatalogueRow, type Provenance } from '../../core/catalogue';
+import { catalogueColumns, optionText, PROVENANCE_CONSTANTS, provenanceLines, type CatalogueColumn, type CatalogueRow, type Provenance } from '../../core/catalogue';
 import { extrapolatedBandKeys } from '../../core/extinction';
 import type { ExtinctionLawKey, ZeroPoint } from '../../core/types';
 import type { AppDatabase } from '../../db/client';
@@ -242,7 +242,9 @@ export function provenanceText(p: ExportProvenance, columns: readonly CatalogueC
     `selection: ${p.selection}; ${p.rows} rows, one per star (its current fit), ordered by id`,
     ...p.batches.map(
       (b) =>
-        `fit batch ${b.id}: started ${b.startedAt}, ${b.rows} rows, software ${b.softwareVersion}, band library ${b.bandLibraryVersion}, extinction law ${b.law}, R_V = ${b.rv}${b.extrapolatedBands.length ? ` (extrapolated in ${b.extrapolatedBands.join(' ')})` : ''}`,
+        `fit batch ${b.id}: started ${b.startedAt}, ${b.rows} rows, software ${b.softwareVersion}, band library ${b.bandLibraryVersion}, extinction law ${b.law}, R_V = ${b.rv}${b.extrapolatedBands.length ? ` (extrapolated in ${b.extrapolatedBands.join(' ')})` : ''}; options: ${Object.entries(b.options)
+          .map(([k, v]) => `${k} = ${optionText(v)}`)
+          .join('; ')} (the batch_id column names each row's batch)`,
     ),
     ...p.zeroPoints.map(zeroPointText),
   ];
