@@ -83,6 +83,7 @@ async function main() {
 
     const batch = startBatch(app, analyst, campaign.id, {});
     const tStart = performance.now();
+    const jobCount = opened.sqlite.prepare('SELECT count(*) FROM jobs WHERE batch_id = ?').pluck().get(batch.id) as number;
 
     const workers = Array.from({ length: WORKERS }, (_, i) =>
       spawn(process.execPath, ['--import', 'tsx', path.join(root, 'workers/index.ts'), '--id', `bench-${i + 1}`, '--drain', '--quiet', '--idle-ms', '50'], {
@@ -102,7 +103,7 @@ async function main() {
     opened.sqlite.close();
     const rate = (n: number, ms: number) => `${Math.round(n / (ms / 1000)).toLocaleString('en')} stars/s`;
     console.log(`  upload + check + import (intake)   ${((tImport - t0) / 1000).toFixed(2)} s   ${rate(N, tImport - t0)}   (${imported.starsCreated.toLocaleString('en')} stars, ${imported.measurementsCreated.toLocaleString('en')} measurements; bench process RSS ${importRssMb.toFixed(0)} MB)`);
-    console.log(`  start batch (batch row + ${N.toLocaleString('en')} jobs)  ${((tStart - tImport) / 1000).toFixed(2)} s`);
+    console.log(`  start batch (batch row + ${jobCount.toLocaleString('en')} chunk jobs)  ${((tStart - tImport) / 1000).toFixed(2)} s`);
     console.log(`  ${WORKERS} workers drain the queue        ${((tEnd - tStart) / 1000).toFixed(2)} s   ${rate(N, tEnd - tStart)}   (exit codes ${codes.join(', ')})`);
     console.log(`  CSV upload → stored results        ${((tEnd - t0) / 1000).toFixed(2)} s   ${rate(N, tEnd - t0)}`);
     console.log(`  worker peak RSS (VmHWM)            ${peaks.map((p) => `${p.toFixed(0)} MB`).join(', ')}`);
