@@ -267,6 +267,8 @@ function readTextUpload(bytes: Uint8Array, file: string, budget: ReadBudget): Re
     if (err instanceof DelimitedError) throw new UnreadableFile(`${file}: ${stripSource(err.message, file)}`);
     throw err;
   }
+  const prose = notATableReason(parsed.header, parsed.rows, parsed.headerLine);
+  if (prose) throw new UnreadableFile(`${file}: ${prose}`);
   checkTextHeader(file, parsed.header, parsed.headerLine);
   if (parsed.rows.length === 0) throw new UnreadableFile(`${file}: the file has a header but no data rows`);
   if (text.includes('\u0000')) refuseNul(parsed, file);
@@ -275,6 +277,31 @@ function readTextUpload(bytes: Uint8Array, file: string, budget: ReadBudget): Re
     format: parsed.delimiter === '\t' ? 'tsv' : 'csv',
     table: { file, columns: parsed.header, rows: parsed.rows, lines: parsed.lines, ...(parsed.units ? { units: parsed.units } : {}) },
   };
+}
+
+/** Lines under the header looked at to tell a table from prose. */
+export const PROSE_SAMPLE_ROWS = 20;
+
+/**
+ * Why delimited text is not a table (a letter, notes, a log), or undefined. A table has at least
+ * two columns (a star id and a value) and the same number of fields on (nearly) every line; prose
+ * has one field per line, or as many as its sentences happen to have commas. `rows`: the first
+ * PROSE_SAMPLE_ROWS lines under the header at most.
+ */
+export function notATableReason(header: readonly string[], rows: readonly (readonly string[])[], headerLine: number): string | undefined {
+  if (header.every((h) => h.trim() === '')) return undefined; // no header at all: checkTextHeader says so
+  const sample = rows.slice(0, PROSE_SAMPLE_ROWS);
+  const prose = 'this looks like a text document, not a table. Upload a CSV or TSV table (a header line naming the columns, then one line per star or measurement), a VOTable or a FITS table';
+  if (header.length < 2) {
+    return `the first line (line ${headerLine}) has no comma, tab or semicolon, so the file would be a single column of text; a photometry table needs at least a star id and a value column: ${prose}`;
+  }
+  if (sample.length >= 2) {
+    const fit = sample.filter((r) => r.length === header.length).length;
+    if (fit * 2 < sample.length) {
+      return `only ${fit} of the first ${sample.length} lines under the first line (line ${headerLine}) have its ${header.length} fields: ${prose}`;
+    }
+  }
+  return undefined;
 }
 
 /** A text table's header must name every column once (also checked by the streaming intake). */

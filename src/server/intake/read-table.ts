@@ -4,9 +4,9 @@
 import { createReadStream, openSync, readFileSync, readSync, closeSync, statSync } from 'node:fs';
 import { DelimitedError, decodeText, firstInvalidUtf8, invalidUtf8Message } from '../../core/input/delimited';
 import { ReadBudget, type InputLimits } from '../../core/input/limits';
-import { DelimitedStream } from '../../core/input/delimited-stream';
+import { DelimitedStream, type DelimitedHeader } from '../../core/input/delimited-stream';
 import type { TableCell } from '../../core/input/column-table';
-import { checkTextHeader, DECIMAL_COMMA, DECIMAL_POINT, mixedDecimalsMessage, nulCellMessage, readUpload, sniffFormat, UnreadableFile, type DetectedFormat, type ImageObservation } from '../../core/input/table-file';
+import { checkTextHeader, DECIMAL_COMMA, DECIMAL_POINT, mixedDecimalsMessage, notATableReason, nulCellMessage, PROSE_SAMPLE_ROWS, readUpload, sniffFormat, UnreadableFile, type DetectedFormat, type ImageObservation } from '../../core/input/table-file';
 
 export interface TableHead {
   format: Exclude<DetectedFormat, 'fits-image'>;
@@ -106,38 +106,56 @@ export async function readTableFile(storedPath: string, file: string, handlers: 
   let comma: { place: string; cell: string } | undefined;
   let point: { place: string; cell: string } | undefined;
   const place = (c: number, line: number) => `row ${rows} (file line ${line}), column ${header[c] || c + 1}`;
+  // The header waits for the first lines under it: together they tell a table from prose.
+  let pendingHead: DelimitedHeader | null = null;
+  let waiting: { fields: string[]; line: number }[] = [];
+  const rowOf = (fields: string[], line: number) => {
+    budget.rows(rows + 1, () => `line ${line}`);
+    budget.tick(() => `line ${line}`);
+    rows++;
+    if (hasNul) {
+      for (let c = 0; c < fields.length; c++) if (fields[c].includes('\u0000')) throw new UnreadableFile(nulCellMessage(file, place(c, line), fields[c]));
+    }
+    if (semicolon) {
+      for (let c = 0; c < fields.length; c++) {
+        const v = fields[c];
+        if (v.includes(',') && DECIMAL_COMMA.test(v)) {
+          comma ??= { place: place(c, line), cell: v };
+          fields[c] = v.replace(',', '.');
+        } else if (!point && v.includes('.') && DECIMAL_POINT.test(v)) point = { place: place(c, line), cell: v };
+        if (comma && point) throw new UnreadableFile(mixedDecimalsMessage(file, comma, point));
+      }
+    }
+    handlers.row(fields, line);
+    if (rows % 5000 === 0) handlers.progress?.(rows);
+  };
+  const begin = () => {
+    const h = pendingHead!;
+    pendingHead = null;
+    const prose = notATableReason(h.header, waiting.map((w) => w.fields), h.headerLine);
+    if (prose) throw new UnreadableFile(`${file}: ${prose}`);
+    checkTextHeader(file, h.header, h.headerLine);
+    budget.columns(h.header.length, () => `line ${h.headerLine}`);
+    const nul = h.header.findIndex((x) => x.includes('\u0000'));
+    if (nul >= 0) throw new UnreadableFile(`${file}: column ${nul + 1} of the header holds a NUL byte (U+0000)`);
+    headerSeen = true;
+    header = h.header;
+    semicolon = h.delimiter === ';';
+    format = h.delimiter === '\t' ? 'tsv' : 'csv';
+    handlers.head({ format, columns: h.header, units: h.units ?? h.header.map(() => undefined) });
+    const held = waiting;
+    waiting = [];
+    for (const w of held) rowOf(w.fields, w.line);
+  };
   const stream = new DelimitedStream(
     {
       header: (h) => {
-        checkTextHeader(file, h.header, h.headerLine);
-        budget.columns(h.header.length, () => `line ${h.headerLine}`);
-        const nul = h.header.findIndex((x) => x.includes('\u0000'));
-        if (nul >= 0) throw new UnreadableFile(`${file}: column ${nul + 1} of the header holds a NUL byte (U+0000)`);
-        headerSeen = true;
-        header = h.header;
-        semicolon = h.delimiter === ';';
-        format = h.delimiter === '\t' ? 'tsv' : 'csv';
-        handlers.head({ format, columns: h.header, units: h.units ?? h.header.map(() => undefined) });
+        pendingHead = h;
       },
       row: (fields, line) => {
-        budget.rows(rows + 1, () => `line ${line}`);
-        budget.tick(() => `line ${line}`);
-        rows++;
-        if (hasNul) {
-          for (let c = 0; c < fields.length; c++) if (fields[c].includes('\u0000')) throw new UnreadableFile(nulCellMessage(file, place(c, line), fields[c]));
-        }
-        if (semicolon) {
-          for (let c = 0; c < fields.length; c++) {
-            const v = fields[c];
-            if (v.includes(',') && DECIMAL_COMMA.test(v)) {
-              comma ??= { place: place(c, line), cell: v };
-              fields[c] = v.replace(',', '.');
-            } else if (!point && v.includes('.') && DECIMAL_POINT.test(v)) point = { place: place(c, line), cell: v };
-            if (comma && point) throw new UnreadableFile(mixedDecimalsMessage(file, comma, point));
-          }
-        }
-        handlers.row(fields, line);
-        if (rows % 5000 === 0) handlers.progress?.(rows);
+        if (!pendingHead) return rowOf(fields, line);
+        waiting.push({ fields, line });
+        if (waiting.length >= PROSE_SAMPLE_ROWS) begin();
       },
     },
     // A record may be as long as the file may be (a 52 MB id is read, then refused by the mapping).
@@ -159,6 +177,7 @@ export async function readTableFile(storedPath: string, file: string, handlers: 
     }
     stream.push(decode(undefined));
     const h = stream.end();
+    if (pendingHead) begin();
     if (!headerSeen) {
       checkTextHeader(file, h.header, h.headerLine);
       throw new UnreadableFile(`${file}: the file has a header but no data rows`);
