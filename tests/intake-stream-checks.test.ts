@@ -8,7 +8,8 @@ import path from 'node:path';
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { intakeJobs, measurements } from '../src/db/schema';
 import type { Actor } from '../src/server/context';
-import { createUpload, getUpload, importUpload } from '../src/server/intake/intake';
+import { checkUpload, createUpload, getUpload, importUpload, type CheckSummary } from '../src/server/intake/intake';
+import { outcomeOf } from '../src/server/intake/jobs';
 import { drainIntakeJobs } from '../src/server/intake/run';
 import { readUpload, UnreadableFile } from '../src/core/input/table-file';
 import { createTestApp, type TestApp } from './setup/db';
@@ -96,5 +97,28 @@ describe('checks of a streamed text file, far from its start', () => {
     const r = await readOutcome('rows.csv', bytes, { maxRows: 3000 });
     expect(r.refusal).toMatchObject({ status: 422, error: { code: 'input_limit', message: 'rows.csv, line 3002: more than 3000 data rows; split the file; the limit is INPUT_MAX_ROWS = 3000' } });
     expect(r.refusal!.error.message).toBe(wholeMessage('rows.csv', bytes, { maxRows: 3000 }));
+  });
+
+  it.each([
+    ['letter.txt', 'Dear team,\nplease find attached the photometry we discussed last week.\nThe numbers follow in a separate file.\nBest wishes\n', /^letter\.txt: only 0 of the first 3 lines under the first line \(line 1\) have its 2 fields: this looks like a text document, not a table/],
+    ['log.txt', 'Observing log\n\nThe night was clear, seeing 1.2 arcsec, humidity 40%, 12 fields observed.\nNo problems with the dome.\n', /^log\.txt: the first line \(line 1\) has no comma, tab or semicolon, so the file would be a single column of text/],
+  ])('a prose text file (%s) is refused with the reason, not read as a table of one row', async (name, text, reason) => {
+    const bytes = new TextEncoder().encode(text);
+    const r = await readOutcome(name, bytes);
+    expect(r.refusal).toMatchObject({ status: 422, error: { code: 'unreadable_file' } });
+    expect(r.refusal!.error.message).toMatch(reason);
+    expect(r.refusal!.error.message).toBe(wholeMessage(name, bytes));
+  });
+
+  it('a table with a few ragged rows is still a table: they are reported by row (control)', async () => {
+    const bytes = new TextEncoder().encode('id,V,V_err\nember-1,9.5,0.02\nember-2,9.6\nember-3,9.7,0.02\n');
+    const r = await readOutcome('ragged.csv', bytes);
+    expect(r.refusal).toBeNull();
+    const u = getUpload(t.db, campaignId, r.id);
+    const job = checkUpload(t.app, analyst, campaignId, r.id, { mapping: { layout: u.detected!.layout, columns: u.detected!.columns }, rules: u.detected!.rules });
+    await drainIntakeJobs(t.db);
+    const check = outcomeOf(t.db, job.id).check as CheckSummary;
+    expect(check.report.map((p) => [p.row, p.line])).toEqual([[2, 3]]);
+    expect(check.starCount).toBe(2);
   });
 });

@@ -386,8 +386,14 @@ function ImageImport({ campaignId, upload, onChanged }: { campaignId: string; up
   const [message, setMessage] = useState<{ kind: 'ok' | 'error'; text: string } | null>(null);
   const submit = async () => {
     setMessage(null);
+    // An empty field is no value (Number('') would be 0): say so instead of sending one.
+    const given = (text: string) => (text.trim() === '' ? Number.NaN : Number(text));
+    if (!Number.isFinite(given(mag)) || !Number.isFinite(given(magErr))) {
+      setMessage({ kind: 'error', text: `Give the ${band} magnitude and its error measured on the image as numbers; nothing was stored.` });
+      return;
+    }
     try {
-      const r = await intakeApi.import(campaignId, upload.id, { rules: { quality: [] }, importValidRows: false, image: { starId, band, mag: Number(mag), magErr: Number(magErr) } });
+      const r = await intakeApi.import(campaignId, upload.id, { rules: { quality: [] }, importValidRows: false, image: { starId, band, mag: given(mag), magErr: given(magErr) } });
       setMessage({ kind: 'ok', text: `Stored ${band} = ${mag} for ${starId} with the image's metadata (${r.measurementsCreated ? 'new value' : 'replaced the earlier value'}).` });
       onChanged();
     } catch (e) {

@@ -6,9 +6,10 @@ import type { ColumnTable, TableCell } from './mapping';
 import { DelimitedError, decodeText } from './delimited';
 import type { DelimitedHeader } from './delimited-stream';
 import { TextTableReader } from './text-table';
-import { FitsError, readFits, readFitsImageHeader, readFitsTable, type FitsCell } from './fits-file';
+import { FitsError, readFits, readFitsImageHeader, readFitsTable, type FitsCell, type FitsValue } from './fits-file';
+import { MAG_RANGE } from './apply-mapping';
 import { readVoTable, VoTableError } from './votable';
-import { ReadBudget, stripSource, UnreadableFile, type Clock, type InputLimits } from './limits';
+import { ReadBudget, shownText, stripSource, UnreadableFile, type Clock, type InputLimits } from './limits';
 
 export { InputLimitError, UnreadableFile } from './limits';
 
@@ -93,7 +94,7 @@ function readFitsUpload(bytes: Uint8Array, file: string, hdu: number | string | 
     try {
       const partial = readFits(bytes, { source: file, allowTruncatedData: true });
       const meta = readFitsImageHeader(bytes, { source: file });
-      if (!partial.hdus.some((h) => h.kind === 'bintable') && (meta.filter || meta.object)) return imageUpload(meta);
+      if (!partial.hdus.some((h) => h.kind === 'bintable') && (meta.filter || meta.object)) return imageUpload(meta, file);
     } catch {
       // fall through to the table error, which says what is wrong
     }
@@ -128,14 +129,14 @@ function readFitsUpload(bytes: Uint8Array, file: string, hdu: number | string | 
     throw new UnreadableFile(`${file}: the FITS file holds no binary table and no image (${hdus.map((h) => h.kind).join(', ')})`);
   }
   try {
-    return imageUpload(readFitsImageHeader(bytes, { source: file }));
+    return imageUpload(readFitsImageHeader(bytes, { source: file }), file);
   } catch (err) {
     if (err instanceof FitsError) throw new UnreadableFile(`${file}: the FITS image header cannot be read: ${stripSource(err.message, file)}`);
     throw err;
   }
 }
 
-function imageUpload(meta: ReturnType<typeof readFitsImageHeader>): ReadUpload {
+function imageUpload(meta: ReturnType<typeof readFitsImageHeader>, file: string): ReadUpload {
   const observation: ImageObservation = {
     object: meta.object,
     filter: meta.filter,
@@ -148,17 +149,38 @@ function imageUpload(meta: ReturnType<typeof readFitsImageHeader>): ReadUpload {
     zeroPointErrMag: meta.zeroPointErrMag,
     zeroPointKeyword: meta.zeroPointKeyword,
   };
+  // A magnitude keyword that is present must hold a number: an empty or undefined value, or text,
+  // is refused naming the keyword rather than skipped (it would be offered or stored as no value).
+  const keyword = (k: string) => {
+    const v = meta.header.get(k);
+    return v === undefined ? meta.primaryHeader.get(k) : v;
+  };
+  const refuse = (k: string, v: FitsValue, what: string): never => {
+    const said = v === null ? `${k} has no value` : typeof v === 'string' ? (v.trim() === '' ? `${k} = '' is empty` : `${k} = '${shownText(v.trim())}' is not a number`) : `${k} = ${String(v)} is not a number`;
+    throw new UnreadableFile(`${file}: the header's ${said}, so it cannot be ${what}; correct or remove the keyword and upload the file again`);
+  };
+  const numberOf = (v: FitsValue): number | undefined => {
+    if (typeof v === 'number' && Number.isFinite(v)) return v;
+    if (typeof v === 'string' && /^\s*[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?\s*$/.test(v)) return Number(v);
+    return undefined;
+  };
   for (const [k, errKeys] of MAG_KEYWORDS) {
-    const v = meta.header.get(k) ?? meta.primaryHeader.get(k);
-    if (typeof v !== 'number' || !Number.isFinite(v)) continue;
-    observation.mag = v;
+    const v = keyword(k);
+    if (v === undefined) continue;
+    const mag = numberOf(v);
+    if (mag === undefined) refuse(k, v, 'the magnitude measured on the image');
+    if (mag! < MAG_RANGE.min || mag! > MAG_RANGE.max) {
+      throw new UnreadableFile(`${file}: the header's ${k} = ${mag} is outside ${MAG_RANGE.min}…${MAG_RANGE.max} mag, so it cannot be the magnitude measured on the image; correct or remove the keyword and upload the file again`);
+    }
+    observation.mag = mag;
     observation.magKeyword = k;
     for (const ek of errKeys) {
-      const e = meta.header.get(ek) ?? meta.primaryHeader.get(ek);
-      if (typeof e === 'number' && Number.isFinite(e)) {
-        observation.magErr = e;
-        break;
-      }
+      const e = keyword(ek);
+      if (e === undefined) continue;
+      const err = numberOf(e);
+      if (err === undefined || err < 0) refuse(ek, e, 'the error of the magnitude measured on the image');
+      observation.magErr = err;
+      break;
     }
     break;
   }

@@ -19,6 +19,31 @@ export function checkTextHeader(file: string, header: readonly string[], headerL
   });
 }
 
+/** Lines under the header looked at to tell a table from prose. */
+export const PROSE_SAMPLE_ROWS = 20;
+
+/**
+ * Why delimited text is not a table (a letter, notes, a log), or undefined. A table has at least
+ * two columns (a star id and a value) and the same number of fields on (nearly) every line; prose
+ * has one field per line, or as many as its sentences happen to have commas. `rows`: the first
+ * PROSE_SAMPLE_ROWS lines under the header at most.
+ */
+export function notATableReason(header: readonly string[], rows: readonly (readonly string[])[], headerLine: number): string | undefined {
+  if (header.every((h) => h.trim() === '')) return undefined; // no header at all: checkTextHeader says so
+  const sample = rows.slice(0, PROSE_SAMPLE_ROWS);
+  const prose = 'this looks like a text document, not a table. Upload a CSV or TSV table (a header line naming the columns, then one line per star or measurement), a VOTable or a FITS table';
+  if (header.length < 2) {
+    return `the first line (line ${headerLine}) has no comma, tab or semicolon, so the file would be a single column of text; a photometry table needs at least a star id and a value column: ${prose}`;
+  }
+  if (sample.length >= 2) {
+    const fit = sample.filter((r) => r.length === header.length).length;
+    if (fit * 2 < sample.length) {
+      return `only ${fit} of the first ${sample.length} lines under the first line (line ${headerLine}) have its ${header.length} fields: ${prose}`;
+    }
+  }
+  return undefined;
+}
+
 const DECIMAL_COMMA = /^\s*[+-]?(\d+,\d*|,\d+)([eE][+-]?\d+)?\s*$/;
 const DECIMAL_POINT = /^\s*[+-]?(\d+\.\d*|\.\d+)([eEdD][+-]?\d+)?\s*$/;
 
@@ -40,6 +65,8 @@ export class TextTableReader {
   /** Semicolon files: the first cell with a decimal comma and the first with a decimal point (both: refused). */
   private comma: { place: string; cell: string } | undefined;
   private point: { place: string; cell: string } | undefined;
+  /** The header and the first lines under it, held until they tell a table from prose. */
+  private pending: { head: DelimitedHeader; rows: { fields: string[]; line: number }[] } | null = null;
 
   /**
    * `holdsRows`: the caller keeps every row in memory, so the cells limit (a memory budget) applies;
@@ -52,7 +79,7 @@ export class TextTableReader {
     private readonly holdsRows: boolean,
   ) {
     this.stream = new DelimitedStream(
-      { header: (h) => this.onHeader(h), row: (fields, line) => this.onRow(fields, line) },
+      { header: (h) => this.hold(h), row: (fields, line) => this.take(fields, line) },
       // A record may be as long as the file may be (a 52 MB id is read, then refused by the mapping).
       { source: file, maxRecordChars: budget.limits.maxBytes },
     );
@@ -66,6 +93,7 @@ export class TextTableReader {
   /** Ends the text; the table's format and row count. */
   end(): { format: 'csv' | 'tsv'; rows: number } {
     const h = this.guard(() => this.stream.end());
+    if (this.pending) this.release();
     if (!this.headerSeen) checkTextHeader(this.file, h.header, h.headerLine);
     if (this.rows === 0) throw new UnreadableFile(`${this.file}: the file has a header but no data rows`);
     return { format: h.delimiter === '\t' ? 'tsv' : 'csv', rows: this.rows };
@@ -82,6 +110,26 @@ export class TextTableReader {
 
   private place(c: number, line: number): string {
     return `row ${this.rows} (file line ${line}), column ${this.header[c] || c + 1}`;
+  }
+
+  private hold(head: DelimitedHeader): void {
+    this.pending = { head, rows: [] };
+  }
+
+  private take(fields: string[], line: number): void {
+    if (!this.pending) return this.onRow(fields, line);
+    this.pending.rows.push({ fields, line });
+    if (this.pending.rows.length >= PROSE_SAMPLE_ROWS) this.release();
+  }
+
+  /** The held header and lines, checked as a table first, then read. */
+  private release(): void {
+    const { head, rows } = this.pending!;
+    this.pending = null;
+    const prose = notATableReason(head.header, rows.map((r) => r.fields), head.headerLine);
+    if (prose) throw new UnreadableFile(`${this.file}: ${prose}`);
+    this.onHeader(head);
+    for (const r of rows) this.onRow(r.fields, r.line);
   }
 
   private onHeader(h: DelimitedHeader): void {

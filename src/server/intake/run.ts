@@ -258,7 +258,9 @@ async function importJob(db: AppDatabase, job: JobRow, u: UploadRow, hooks: RunH
       ? []
       : [{ file: u.originalName, row: 0, severity: 'error', message: `unknown band "${input.image.band}" (band keys are case-sensitive; known bands: ${keys.join(' ')})` }];
     observationJson = JSON.stringify({ ...observation, image: u.originalName });
-    const star = { id: input.image.starId, raDeg: observation.raDeg, decDeg: observation.decDeg, measurements: [{ bandKey: input.image.band, mag: input.image.mag, magErr: input.image.magErr }] };
+    // The image's pointing is observation metadata (kept with the measurement), never the star's
+    // catalogue position: a frame is centred on the field, not on the star.
+    const star = { id: input.image.starId, measurements: [{ bandKey: input.image.band, mag: input.image.mag, magErr: input.image.magErr }] };
     stars = problems.length ? [] : [star];
     check = { uploadId: u.id, rowCount: 1, starCount: problems.length ? 0 : 1, measurementCount: problems.length ? 0 : 1, rejectedRows: problems.length ? 1 : 0, excludedByQuality: 0, errorCount: problems.length, warningCount: 0, report: problems };
   } else {
