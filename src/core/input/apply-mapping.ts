@@ -181,6 +181,22 @@ export class RowMapper {
       }
     }
 
+    // A band whose value column has no error column beside it cannot be used in any row: said once,
+    // at the top of the report, naming the bands, instead of once per row.
+    const noErrorColumn = [...bandCols]
+      .filter(([, b]) => (b.mag !== undefined && b.mag_err === undefined) || (b.jy !== undefined && b.jy_err === undefined) || (b.gaia_flux !== undefined && b.gaia_flux_err === undefined))
+      .map(([key, b]) => ({ key, col: (b.mag ?? b.jy ?? b.gaia_flux)! }));
+    if (noErrorColumn.length > 0) {
+      const first = noErrorColumn[0];
+      push({
+        file,
+        row: 0,
+        column: { name: columns[first.col], number: first.col + 1 },
+        severity: 'warning',
+        message: `${noErrorColumn.map((b) => b.key).join(', ')}: no error column is mapped, so ${noErrorColumn.length === 1 ? 'this band is' : 'these bands are'} not used in any row; map each band's error column (such as ${first.key}_err or e_${first.key})`,
+      });
+    }
+
     const ncol = columns.length;
     const cur = { row: 0, line: undefined as number | undefined, cells: [] as TableCell[], bad: false };
     const problem = (col: number | undefined, message: string, severity: 'error' | 'warning' = 'error') => {
@@ -308,16 +324,19 @@ export class RowMapper {
           }
           const quality = q.letter ? { quality: q.letter } : {};
           if (mag !== undefined) {
-            if (magErr === undefined) problem(b.mag_err ?? b.mag, `band ${key} has a magnitude but no error; the value was not used`, 'warning');
-            else star.measurements.push({ bandKey: key, mag, magErr, ...quality });
+            if (magErr === undefined) {
+              if (b.mag_err !== undefined) problem(b.mag_err, `band ${key} has a magnitude but no error; the value was not used`, 'warning');
+            } else star.measurements.push({ bandKey: key, mag, magErr, ...quality });
           } else if (jy !== undefined) {
-            if (jyErr === undefined) problem(b.jy_err ?? b.jy, `band ${key} has a flux but no error; the value was not used`, 'warning');
-            else if (jy <= 0) problem(b.jy, `flux ${jy} Jy must be positive (give a negative detection as an upper limit)`);
+            if (jyErr === undefined) {
+              if (b.jy_err !== undefined) problem(b.jy_err, `band ${key} has a flux but no error; the value was not used`, 'warning');
+            } else if (jy <= 0) problem(b.jy, `flux ${jy} Jy must be positive (give a negative detection as an upper limit)`);
             else star.measurements.push({ bandKey: key, fnuJy: jy, fnuErrJy: jyErr, ...quality });
           } else if (gFlux !== undefined) {
             if (gFlux <= 0) problem(b.gaia_flux, `Gaia flux ${gFlux} e⁻/s must be positive`);
-            else if (gFluxErr === undefined) problem(b.gaia_flux_err ?? b.gaia_flux, `band ${key} has a Gaia flux but no error; the value was not used`, 'warning');
-            else {
+            else if (gFluxErr === undefined) {
+              if (b.gaia_flux_err !== undefined) problem(b.gaia_flux_err, `band ${key} has a Gaia flux but no error; the value was not used`, 'warning');
+            } else {
               const m = magnitude(b.gaia_flux, -2.5 * Math.log10(gFlux) + GAIA_VEGA_ZERO_POINT_MAG[key], `${key} from the Gaia flux ${gFlux} e⁻/s,`);
               if (m !== undefined) star.measurements.push({ bandKey: key, mag: m, magErr: MAG_PER_LN * (gFluxErr / gFlux), ...quality });
             }
