@@ -296,6 +296,22 @@ describe('malformed files are rejected with a clear message and nothing imported
     expect(t.db.select().from(uploads).where(eq(uploads.id, u.id)).get()!.report).toHaveLength(4);
   });
 
+  it('the upload, reopened, shows the mapping last checked (the one an import uses), not the detected one', async () => {
+    const u = await upload('reopen.csv', 'id,V,V_err,B,B_err\nember-01,9.1,0.02,9.6,0.03\nember-02,9.5,0.02,10.0,0.03\n');
+    // On arrival the detected mapping is the one checked.
+    expect(u.checked).toEqual({ mapping: mappingOf(u), rules: u.detected!.rules });
+    const edited = { layout: 'wide', columns: { ...u.detected!.columns, B: { role: 'ignore' }, B_err: { role: 'ignore' } } };
+    const summary = await check(u.id, { mapping: edited, rules: { quality: [] } });
+    expect(summary.measurementCount).toBe(2);
+    const reopened = getUpload(t.db, campaignId, u.id);
+    expect(reopened.checked).toEqual({ mapping: edited, rules: { quality: [] } });
+    expect(reopened.detected!.columns.B).toMatchObject({ role: 'mag', band: 'B' });
+    // Importing with what is shown imports what was checked: V only.
+    const r = await importNow(u.id, { mapping: reopened.checked!.mapping, rules: reopened.checked!.rules });
+    expect(r).toMatchObject({ starsCreated: 2 });
+    expect(counts()).toEqual({ stars: 2, measurements: 2 });
+  });
+
   it('negative error and unknown band in a long file', async () => {
     const csv = 'id,band,mag,mag_err\nember-01,V,9.1,-0.02\nember-02,Vmag,9.5,0.02\n';
     const u = await upload('long.csv', csv);

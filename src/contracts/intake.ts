@@ -35,6 +35,8 @@ export interface UploadDetail extends UploadSummary {
   units: (string | null)[];
   preview: string[][];
   detected: DetectedMapping | null;
+  /** The mapping and rules of the upload's latest check (the one an import of it uses), when one was made. */
+  checked: { mapping: Mapping; rules: MappingRules } | null;
   bandKeys: string[];
   observation?: ImageObservation;
   /** For an image: the band whose key matches FILTER, when one does. */

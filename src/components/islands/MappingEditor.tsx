@@ -49,8 +49,11 @@ export default function MappingEditor({ campaignId, uploadId, onChanged }: Props
 }
 
 function TableMapping({ campaignId, upload, onChanged }: { campaignId: string; upload: UploadDetail; onChanged: () => void }) {
-  const [mapping, setMapping] = useState<Mapping>(() => ({ layout: upload.detected?.layout ?? 'wide', columns: { ...(upload.detected?.columns ?? {}) } }));
-  const [rules, setRules] = useState<MappingRules>(() => upload.detected?.rules ?? { quality: [] });
+  // Reopened after a check: the mapping that was checked (the one an import uses), else the detected one.
+  const [mapping, setMapping] = useState<Mapping>(() =>
+    upload.checked ? { layout: upload.checked.mapping.layout, columns: { ...upload.checked.mapping.columns } } : { layout: upload.detected?.layout ?? 'wide', columns: { ...(upload.detected?.columns ?? {}) } },
+  );
+  const [rules, setRules] = useState<MappingRules>(() => upload.checked?.rules ?? upload.detected?.rules ?? { quality: [] });
   const [presets, setPresets] = useState<MappingPresetView[]>([]);
   const [presetName, setPresetName] = useState('');
   const [message, setMessage] = useState<{ kind: 'ok' | 'error'; text: string } | null>(null);

@@ -130,7 +130,9 @@ export function bandForFilter(filter: string | undefined, keys: readonly string[
 
 function detail(db: DbOrTx, u: UploadRow): UploadDetail {
   const keys = bandKeys(db);
-  const base = { ...summary(u), bandKeys: keys, report: (u.report ?? []) as ReportEntry[], job: latestJob(db, u.id) };
+  const stored = u.lastCheck as unknown as StoredCheck | null;
+  const checked = stored?.mapping && stored.rules ? { mapping: stored.mapping, rules: stored.rules } : null;
+  const base = { ...summary(u), bandKeys: keys, checked, report: (u.report ?? []) as ReportEntry[], job: latestJob(db, u.id) };
   const ins = u.status === 'rejected' ? null : (u.inspection as unknown as Inspection | null);
   if (!ins) return { ...base, columns: [], units: [], preview: [], detected: null };
   if (u.detectedFormat === 'fits-image') {

@@ -57,6 +57,9 @@ export interface StoredCheck {
   summary: CheckSummary;
   /** Whether the staging file beside the upload holds this check's good stars. */
   staged: boolean;
+  /** The mapping and rules checked (absent from checks stored before they were kept). */
+  mapping?: Mapping;
+  rules?: MappingRules;
 }
 
 /**
@@ -169,8 +172,8 @@ function markUnstaged(db: AppDatabase, uploadId: string): void {
   if (stored?.staged) db.update(uploads).set({ lastCheck: { ...stored, staged: false } as unknown as Record<string, unknown> }).where(eq(uploads.id, uploadId)).run();
 }
 
-function storeCheck(db: AppDatabase, u: UploadRow, key: string, summary: CheckSummary, extra: Partial<typeof uploads.$inferInsert> = {}): void {
-  const lastCheck: StoredCheck = { key, summary, staged: true };
+function storeCheck(db: AppDatabase, u: UploadRow, key: string, summary: CheckSummary, checked: { mapping: Mapping; rules: MappingRules }, extra: Partial<typeof uploads.$inferInsert> = {}): void {
+  const lastCheck: StoredCheck = { key, summary, staged: true, mapping: checked.mapping, rules: checked.rules };
   db.update(uploads)
     .set({ lastCheck: lastCheck as unknown as Record<string, unknown>, ...extra })
     .where(eq(uploads.id, u.id))
@@ -212,7 +215,7 @@ async function readJob(db: AppDatabase, job: JobRow, u: UploadRow, hooks: RunHoo
     preview: previewRows(sampleTable, PREVIEW_ROWS),
     detected,
   };
-  storeCheck(db, u, r.key!, r.summary!, { detectedFormat: head.format, rowCount: r.rowCount, inspection: inspection as unknown as Record<string, unknown> });
+  storeCheck(db, u, r.key!, r.summary!, { mapping: r.mapping!, rules: r.rules! }, { detectedFormat: head.format, rowCount: r.rowCount, inspection: inspection as unknown as Record<string, unknown> });
   return { rowsRead: r.rowCount };
 }
 
@@ -227,7 +230,7 @@ async function ensureChecked(db: AppDatabase, job: JobRow, u: UploadRow, mapping
   const stored = u.lastCheck as unknown as StoredCheck | null;
   if (stored && stored.key === key && stored.staged && existsSync(stagingPathFor(u.storedPath))) return stored.summary;
   const r = await pass(db, job, u, { mapping, rules }, hooks);
-  storeCheck(db, u, key, r.summary!);
+  storeCheck(db, u, key, r.summary!, { mapping, rules });
   return r.summary!;
 }
 
