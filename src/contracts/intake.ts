@@ -97,3 +97,10 @@ export interface IntakeJobView {
   /** When failed: the answer the request would have had (status 422 with the report, 409, …). */
   refusal?: { status: number; error: { code: string; message: string }; report?: ReportEntry[]; summary?: unknown };
 }
+
+/** The window event an import's page sends with the campaign's new totals, so counts outside the form follow. */
+export const CAMPAIGN_COUNTS_EVENT = 'starkiln:campaign-counts';
+export interface CampaignCounts {
+  stars: number;
+  measurements: number;
+}

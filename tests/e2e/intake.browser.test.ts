@@ -82,6 +82,9 @@ describe('intake in the browser', () => {
     expect(run.app.db.select({ n: count() }).from(measurements).where(eq(measurements.bandKey, 'W1')).get()!.n).toBe(0);
     const u = run.app.db.select().from(uploads).where(eq(uploads.originalName, 'catalogue_wide.csv')).get()!;
     expect(u).toMatchObject({ status: 'imported', campaignId: id, detectedFormat: 'csv' });
+    // The page header's counts follow the import without a reload (they said 0 and 0 before it).
+    await expect(page.getByTestId('campaign-star-count').textContent()).resolves.toBe('3');
+    await expect(page.getByTestId('campaign-value-count').textContent()).resolves.toBe('14');
 
     // On to a batch: the worker started with the server fits the three stars.
     await Promise.all([page.waitForURL(`${run.baseUrl}/campaigns/${id}/batches`), editor.getByRole('link', { name: 'Start a batch fit' }).click()]);

@@ -3,6 +3,7 @@
 import { useEffect, useMemo, useState } from 'react';
 import { BAND_ROLES, ROLE_LABELS, type ColumnAssignment, type ColumnRole, type Mapping, type MappingRules } from '../../core/input/mapping';
 import { intakeApi, IntakeApiError, type CheckSummary, type ImportSummary, type IntakeJobView, type MappingPresetView, type ReportEntry, type UploadDetail } from '../../browser/intake';
+import { CAMPAIGN_COUNTS_EVENT, type CampaignCounts } from '../../contracts/intake';
 
 /** What a job is doing, in words: waiting, rows read so far, stars written. */
 export function jobProgressText(j: IntakeJobView): string {
@@ -103,6 +104,8 @@ function TableMapping({ campaignId, upload, onChanged }: { campaignId: string; u
       const r = await intakeApi.import(campaignId, upload.id, { mapping, rules, source: source.trim() || undefined, importValidRows: importValid }, setProgress);
       setResult(r);
       setReport(r.report);
+      // The page header's campaign counts (outside this island) follow the import.
+      window.dispatchEvent(new CustomEvent<CampaignCounts>(CAMPAIGN_COUNTS_EVENT, { detail: { stars: r.campaignStars, measurements: r.campaignMeasurements } }));
       onChanged();
     });
   const doSavePreset = () =>
