@@ -4,7 +4,7 @@
 // --drain`) fitting every star into fit_results. Reports stars per second per stage and end to end,
 // and the peak resident memory (VmHWM) of each worker. Speeds are measured here, never in tests.
 import { spawn } from 'node:child_process';
-import { mkdtempSync, readFileSync, rmSync } from 'node:fs';
+import { mkdtempSync, rmSync } from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
 import { fileURLToPath } from 'node:url';
@@ -17,8 +17,11 @@ import { migrateDatabase } from '../src/db/migrate';
 import { createApp } from '../src/app/app';
 import { parseEnv } from '../src/adapters/env';
 import { startBatch } from '../src/server/batches';
-import { createUpload, importUpload } from '../src/server/intake/intake';
+import { createUpload, getUpload, importUpload, type ImportSummary } from '../src/server/intake/intake';
+import { outcomeOf } from '../src/server/intake/jobs';
+import { drainIntakeJobs } from '../src/server/intake/run';
 import { makeCampaign, makeUser } from '../src/seed/factories';
+import { peakRssMb } from '../tests/support/probes';
 
 const root = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '..');
 const args = process.argv.slice(2);
@@ -50,15 +53,6 @@ function mockCsv(count: number): string {
   return lines.join('\n') + '\n';
 }
 
-function peakRssMb(pid: number): number | null {
-  try {
-    const m = /VmHWM:\s+(\d+) kB/.exec(readFileSync(`/proc/${pid}/status`, 'utf8'));
-    return m ? Number(m[1]) / 1024 : null;
-  } catch {
-    return null;
-  }
-}
-
 async function main() {
   const dir = mkdtempSync(path.join(os.tmpdir(), 'starkiln-bench-e2e-'));
   const databasePath = path.join(dir, 'bench.db');
@@ -77,13 +71,19 @@ async function main() {
     const t0 = performance.now();
     const form = new FormData();
     form.append('file', new Blob([csv], { type: 'text/csv' }), 'kestrel-wide.csv');
-    const upload = await createUpload(app, analyst, campaign.id, new Request('http://127.0.0.1/upload', { method: 'POST', body: form }), { dataDir: dir, maxBytes: 1024 * 1024 * 1024 });
-    const imported = importUpload(app, analyst, campaign.id, upload.id, { mapping: { layout: upload.detected!.layout, columns: upload.detected!.columns }, rules: upload.detected!.rules });
+    const received = await createUpload(app, analyst, campaign.id, new Request('http://127.0.0.1/upload', { method: 'POST', body: form }), { dataDir: dir, maxBytes: 1024 * 1024 * 1024 });
+    // The intake jobs (read, then import) run inline here; `--only intake` measures them in the web server.
+    await drainIntakeJobs(opened.db);
+    const upload = getUpload(opened.db, campaign.id, received.id);
+    const importJob = importUpload(app, analyst, campaign.id, upload.id, { mapping: { layout: upload.detected!.layout, columns: upload.detected!.columns }, rules: upload.detected!.rules });
+    await drainIntakeJobs(opened.db);
+    const imported = outcomeOf(opened.db, importJob.id).import as ImportSummary;
     const tImport = performance.now();
     const importRssMb = process.memoryUsage().rss / 2 ** 20;
 
     const batch = startBatch(app, analyst, campaign.id, {});
     const tStart = performance.now();
+    const jobCount = opened.sqlite.prepare('SELECT count(*) FROM jobs WHERE batch_id = ?').pluck().get(batch.id) as number;
 
     const workers = Array.from({ length: WORKERS }, (_, i) =>
       spawn(process.execPath, ['--import', 'tsx', path.join(root, 'workers/index.ts'), '--id', `bench-${i + 1}`, '--drain', '--quiet', '--idle-ms', '50'], {
@@ -103,7 +103,7 @@ async function main() {
     opened.sqlite.close();
     const rate = (n: number, ms: number) => `${Math.round(n / (ms / 1000)).toLocaleString('en')} stars/s`;
     console.log(`  upload + check + import (intake)   ${((tImport - t0) / 1000).toFixed(2)} s   ${rate(N, tImport - t0)}   (${imported.starsCreated.toLocaleString('en')} stars, ${imported.measurementsCreated.toLocaleString('en')} measurements; bench process RSS ${importRssMb.toFixed(0)} MB)`);
-    console.log(`  start batch (batch row + ${N.toLocaleString('en')} jobs)  ${((tStart - tImport) / 1000).toFixed(2)} s`);
+    console.log(`  start batch (batch row + ${jobCount.toLocaleString('en')} chunk jobs)  ${((tStart - tImport) / 1000).toFixed(2)} s`);
     console.log(`  ${WORKERS} workers drain the queue        ${((tEnd - tStart) / 1000).toFixed(2)} s   ${rate(N, tEnd - tStart)}   (exit codes ${codes.join(', ')})`);
     console.log(`  CSV upload → stored results        ${((tEnd - t0) / 1000).toFixed(2)} s   ${rate(N, tEnd - t0)}`);
     console.log(`  worker peak RSS (VmHWM)            ${peaks.map((p) => `${p.toFixed(0)} MB`).join(', ')}`);

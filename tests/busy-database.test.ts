@@ -8,7 +8,9 @@ import path from 'node:path';
 import { afterEach, describe, expect, it } from 'vitest';
 import { projectRoot } from '../src/db/paths';
 import { startBatch } from '../src/server/batches';
-import { createUpload, importUpload } from '../src/server/intake/intake';
+import { createUpload, getUpload, importUpload, type ImportSummary } from '../src/server/intake/intake';
+import { outcomeOf } from '../src/server/intake/jobs';
+import { drainIntakeJobs } from '../src/server/intake/run';
 import { makeCampaign, makeUser } from '../src/seed/factories';
 import { insertMockStars } from './factories-photometry';
 import { createTestApp, type TestApp } from './setup/db';
@@ -73,14 +75,22 @@ describe('an import while two workers fit on the same database file', () => {
     const config = { dataDir: path.dirname(t.filePath), maxBytes: 50 * 1024 * 1024 };
     const form = new FormData();
     form.append('file', new Blob([csvOf(ROWS)], { type: 'text/csv' }), 'cinder.csv');
-    const upload = await createUpload(t.app, analyst, importing.id, new Request('http://127.0.0.1/upload', { method: 'POST', body: form }), config);
+    const received = await createUpload(t.app, analyst, importing.id, new Request('http://127.0.0.1/upload', { method: 'POST', body: form }), config);
+    // Reading and importing are intake jobs (decision record 0023), run here inline.
+    await drainIntakeJobs(t.db);
+    const upload = getUpload(t.db, importing.id, received.id);
+    const importNow = async () => {
+      const job = importUpload(t.app, analyst, importing.id, upload.id, body);
+      await drainIntakeJobs(t.db);
+      return outcomeOf(t.db, job.id).import as ImportSummary;
+    };
     const body = { mapping: { layout: upload.detected!.layout, columns: upload.detected!.columns }, rules: upload.detected!.rules };
 
     const resultsBefore = results();
-    const first = importUpload(t.app, analyst, importing.id, upload.id, body);
+    const first = await importNow();
     expect(first.starsCreated).toBe(ROWS);
     expect(first.measurementsCreated).toBe(2 * ROWS);
-    const again = importUpload(t.app, analyst, importing.id, upload.id, body);
+    const again = await importNow();
     expect(again.starsUpdated).toBe(ROWS);
     expect(again.measurementsUpdated).toBe(2 * ROWS);
     // The imports ran while the batch was being fitted, not after it.

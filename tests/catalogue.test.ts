@@ -304,6 +304,18 @@ describe('catalogue pages', () => {
   });
 });
 
+/** Edges on whole hundreds of kelvin, the first at the coolest value's hundred, the last above the hottest. */
+function expectOnTeffGrid(edgesK: number[], teffs: number[]) {
+  for (const e of edgesK) expect(e % 100).toBe(0);
+  expect(edgesK[0]).toBe(Math.floor(Math.min(...teffs) / 100) * 100);
+  expect(edgesK[edgesK.length - 1]).toBeGreaterThan(Math.max(...teffs));
+}
+
+/** Counts of values in [edge_i, edge_i+1), counted here. */
+function histogramOf(values: number[], edges: number[]): number[] {
+  return edges.slice(0, -1).map((lo, i) => values.filter((v) => v >= lo && v < edges[i + 1]).length);
+}
+
 describe('diagrams', () => {
   it('sends points when there are few, each with its star, and a Teff histogram of every row with a Teff', () => {
     const d = catalogueDiagrams(t.db, campaignId, {});
@@ -315,8 +327,10 @@ describe('diagrams', () => {
     expect(d.withoutLum).toBe(ref.filter((r) => r.teff_k !== null).length - placed.length);
     expect(d.histogram.counts.reduce((a, b) => a + b, 0)).toBe(ref.filter((r) => r.teff_k !== null).length);
     const teffs = ref.filter((r) => r.teff_k !== null).map((r) => r.teff_k!);
-    expect(d.histogram.edgesK[0]).toBe(Math.min(...teffs));
-    expect(d.histogram.edgesK[d.histogram.edgesK.length - 1]).toBeCloseTo(Math.max(...teffs), 6);
+    // Bars on whole hundreds of kelvin (the summary bins' grid), from the coolest star's hundred on.
+    expectOnTeffGrid(d.histogram.edgesK, teffs);
+    expect(d.histogram.edgesK.length - 1).toBeLessThanOrEqual(40);
+    expect(d.histogram.counts).toEqual(histogramOf(teffs, d.histogram.edgesK));
   });
 
   it('bins into a 2-D histogram on Teff × log L above the point limit, every star in its own cell', () => {
@@ -324,9 +338,14 @@ describe('diagrams', () => {
     const d = catalogueDiagrams(t.db, campaignId, { status: ['accepted', 'pending'] }, { pointLimit: 50, densityBins: [12, 9] });
     expect(d.points).toBeNull();
     const g = d.density!;
-    expect(g.teffEdgesK).toHaveLength(13);
-    expect(g.logLumEdges).toHaveLength(10);
-    const want = Array.from({ length: 9 }, () => new Array<number>(12).fill(0));
+    // At most the asked-for 12 × 9 bins, on the bins' grid: whole hundreds of kelvin, tenths of a dex.
+    expect(g.teffEdgesK.length).toBeLessThanOrEqual(13);
+    expect(g.logLumEdges.length).toBeLessThanOrEqual(10);
+    expectOnTeffGrid(g.teffEdgesK, points.map((p) => p.teffK));
+    for (const e of g.logLumEdges) expect(Math.abs(e * 10 - Math.round(e * 10))).toBeLessThan(1e-9);
+    expect(g.logLumEdges[0]).toBeLessThanOrEqual(Math.min(...points.map((p) => Math.log10(p.lumLsun))));
+    expect(g.logLumEdges[g.logLumEdges.length - 1]).toBeGreaterThan(Math.max(...points.map((p) => Math.log10(p.lumLsun))));
+    const want = Array.from({ length: g.logLumEdges.length - 1 }, () => new Array<number>(g.teffEdgesK.length - 1).fill(0));
     const cell = (edges: number[], x: number) => {
       let i = edges.findIndex((e, k) => k > 0 && x < e) - 1;
       if (i < 0) i = edges.length - 2; // the top edge belongs to the last bin
@@ -361,7 +380,8 @@ describe('diagrams with a flag filter', () => {
         expect(d.withoutLum).toBe(want.length - placedWant.length);
         expect(d.histogram.counts.reduce((a, b) => a + b, 0)).toBe(want.length);
         expect(d.density!.counts.flat().reduce((a, b) => a + b, 0)).toBe(placedWant.length);
-        expect(d.histogram.edgesK[0]).toBe(Math.min(...want.map((r) => r.teff_k)));
+        expectOnTeffGrid(d.histogram.edgesK, want.map((r) => r.teff_k));
+        expect(d.histogram.counts).toEqual(histogramOf(want.map((r) => r.teff_k), d.histogram.edgesK));
         expect(catalogueCount(t.db, cid, { flag: code, flagAbsent }).total).toBe(allFlags.filter((f) => f.split(' ').includes(code) !== flagAbsent).length);
       }
     }
@@ -402,7 +422,8 @@ describe('cached totals and diagrams', () => {
       .pluck()
       .all(cid) as number[];
     expect(d2.histogram.counts.reduce((a, b) => a + b, 0)).toBe(refitTeffs.length);
-    expect(d2.histogram.edgesK[0]).toBe(Math.min(...refitTeffs));
+    expectOnTeffGrid(d2.histogram.edgesK, refitTeffs);
+    expect(d2.histogram.counts).toEqual(histogramOf(refitTeffs, d2.histogram.edgesK));
 
     // A review decision written by another process (its own connection to the same file).
     const before = catalogueCount(t.db, cid, accepted).total;

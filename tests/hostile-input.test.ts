@@ -3,7 +3,7 @@
 // and zero-width characters in ids, 1e400, a semicolon file with decimal commas, invalid UTF-8 in a
 // VOTable, hostile XML) and the reader limits set by INPUT_MAX_*. Nothing is ever half-written:
 // a refused import leaves the campaign as it was. Star names are invented.
-import { count } from 'drizzle-orm';
+import { count, eq } from 'drizzle-orm';
 import type { APIContext } from 'astro';
 import { spawnSync } from 'node:child_process';
 import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
@@ -11,9 +11,10 @@ import { tmpdir } from 'node:os';
 import path from 'node:path';
 import { afterAll, afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { projectRoot } from '../src/db/paths';
-import { measurements, stars, uploads } from '../src/db/schema';
+import { intakeJobs, measurements, stars, uploads } from '../src/db/schema';
 import type { Actor } from '../src/server/context';
-import type { UploadDetail } from '../src/server/intake/intake';
+import { getUpload, type UploadDetail } from '../src/server/intake/intake';
+import { drainIntakeJobs } from '../src/server/intake/run';
 import { POST as postUpload } from '../src/pages/api/campaigns/[id]/uploads/index';
 import { POST as postCheck } from '../src/pages/api/campaigns/[id]/uploads/[uploadId]/check';
 import { POST as postImport } from '../src/pages/api/campaigns/[id]/uploads/[uploadId]/import';
@@ -35,17 +36,44 @@ afterEach(() => t.cleanup());
 
 const ctx = (request: Request, params: Record<string, string> = {}) => ({ locals: { app: t.app, actor: analyst }, params: { id: campaignId, ...params }, request }) as unknown as APIContext;
 
+// Reading, checking and importing are intake jobs (decision record 0023): each helper posts to the
+// route, runs the queued job here with the app's reader limits, and answers as the finished job
+// does: its refusal's status and body, or 201/200 with what it produced.
+async function drain() {
+  await drainIntakeJobs(t.db, { limits: t.app.env.inputLimits });
+}
+
+// eslint-disable-next-line @typescript-eslint/no-explicit-any -- the answers' shapes differ per route
+type Answer = { status: number; body: Record<string, any> };
+
+function finished(jobId: string, ok: number): Answer {
+  const j = t.db.select().from(intakeJobs).where(eq(intakeJobs.id, jobId)).get()!;
+  const o = (j.outcome ?? {}) as Record<string, unknown>;
+  if (j.status === 'failed') {
+    const r = o.refusal as { status: number; error: unknown; report?: unknown; summary?: unknown };
+    return { status: r.status, body: { error: r.error, report: r.report, summary: r.summary } };
+  }
+  return { status: ok, body: o };
+}
+
 async function upload(name: string, bytes: Uint8Array | string): Promise<{ status: number; body: { upload?: UploadDetail; error?: { code: string; message: string } } }> {
   const form = new FormData();
   form.append('file', new Blob([bytes as BlobPart]), name);
   const res = await postUpload(ctx(new Request('http://127.0.0.1/upload', { method: 'POST', body: form })));
-  return { status: res.status, body: await res.json() };
+  const body = (await res.json()) as { upload?: UploadDetail; error?: { code: string; message: string } };
+  if (res.status !== 201) return { status: res.status, body };
+  await drain();
+  const read = finished(body.upload!.job!.id, 201);
+  if (read.status !== 201) return { status: read.status, body: { error: read.body.error } };
+  return { status: 201, body: { upload: getUpload(t.db, campaignId, body.upload!.id) } };
 }
 
-async function post(route: typeof postCheck, uploadId: string, body: unknown) {
+async function post(route: typeof postCheck, uploadId: string, body: unknown): Promise<Answer> {
   const res = await route(ctx(new Request('http://x/', { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify(body) }), { uploadId }));
-  // eslint-disable-next-line @typescript-eslint/no-explicit-any -- the answers' shapes differ per route
-  return { status: res.status, body: (await res.json()) as Record<string, any> };
+  const answer = (await res.json()) as Answer['body'];
+  if (res.status !== 202) return { status: res.status, body: answer };
+  await drain();
+  return finished(answer.job.id, 200);
 }
 
 const mappingOf = (u: UploadDetail) => ({ mapping: { layout: u.detected!.layout, columns: u.detected!.columns }, rules: u.detected!.rules });

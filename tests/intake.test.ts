@@ -11,11 +11,14 @@ import { projectRoot } from '../src/db/paths';
 import { measurements, stars, uploads } from '../src/db/schema';
 import type { Actor } from '../src/server/context';
 import { IntakeError } from '../src/server/intake/errors';
-import { bandForFilter, checkUpload, createUpload, getUpload, importUpload, type UploadDetail } from '../src/server/intake/intake';
+import { bandForFilter, checkUpload, createUpload, getUpload, importUpload, type CheckSummary, type ImportSummary, type UploadDetail } from '../src/server/intake/intake';
+import { outcomeOf } from '../src/server/intake/jobs';
+import { drainIntakeJobs, type RunHooks } from '../src/server/intake/run';
 import { deletePreset, listPresets, savePreset } from '../src/server/intake/presets';
 import type { IntakeConfig } from '../src/server/intake/storage';
 import { POST as postUpload, GET as listUploadsRoute } from '../src/pages/api/campaigns/[id]/uploads/index';
 import { POST as postImport } from '../src/pages/api/campaigns/[id]/uploads/[uploadId]/import';
+import { GET as getJobRoute } from '../src/pages/api/campaigns/[id]/uploads/[uploadId]/jobs/[jobId]';
 import { createTestApp, type TestApp } from './setup/db';
 import { addToCampaign, makeCampaign, makeUser } from '../src/seed/factories';
 
@@ -42,8 +45,26 @@ function multipart(name: string, bytes: Uint8Array | string, type = 'text/csv'):
   return new Request('http://127.0.0.1/upload', { method: 'POST', body: form });
 }
 
+// Reading, checking and importing are jobs (decision record 0018): here they run inline, one after
+// the other, and the finished job's answer (or refusal) is what the test sees.
 async function upload(name: string, bytes: Uint8Array | string, type?: string): Promise<UploadDetail> {
-  return createUpload(t.app, analyst, campaignId, multipart(name, bytes, type), config);
+  const u = await createUpload(t.app, analyst, campaignId, multipart(name, bytes, type), config);
+  expect(u.job).toMatchObject({ kind: 'read', status: 'pending' });
+  await drainIntakeJobs(t.db);
+  outcomeOf(t.db, u.job!.id);
+  return getUpload(t.db, campaignId, u.id);
+}
+
+async function check(uploadId: string, body: unknown): Promise<CheckSummary> {
+  const job = checkUpload(t.app, analyst, campaignId, uploadId, body);
+  await drainIntakeJobs(t.db);
+  return outcomeOf(t.db, job.id).check as CheckSummary;
+}
+
+async function importNow(uploadId: string, body: unknown, hooks: RunHooks = {}): Promise<ImportSummary> {
+  const job = importUpload(t.app, analyst, campaignId, uploadId, body);
+  await drainIntakeJobs(t.db, hooks);
+  return outcomeOf(t.db, job.id).import as ImportSummary;
 }
 
 function counts() {
@@ -69,7 +90,7 @@ function mappingOf(u: UploadDetail) {
 
 async function uploadAndImport(name: string, bytes: Uint8Array | string, extra: Record<string, unknown> = {}) {
   const u = await upload(name, bytes);
-  return { u, result: importUpload(t.app, analyst, campaignId, u.id, { mapping: mappingOf(u), rules: u.detected!.rules, ...extra }) };
+  return { u, result: await importNow(u.id, { mapping: mappingOf(u), rules: u.detected!.rules, ...extra }) };
 }
 
 describe('every reader path through upload → check → import', () => {
@@ -80,11 +101,11 @@ describe('every reader path through upload → check → import', () => {
     expect(u.sha256).toMatch(/^[0-9a-f]{64}$/);
     expect(u.preview[0][0]).toBe('ember-21');
     expect(u.detected!.rules.quality).toEqual([{ column: 'ph_qual', keep: ['A', 'B'] }]);
-    const check = checkUpload(t.app, analyst, campaignId, u.id, { mapping: mappingOf(u), rules: u.detected!.rules });
-    expect(check).toMatchObject({ rowCount: 3, starCount: 3, errorCount: 0, excludedByQuality: 1 });
+    const checked = await check(u.id, { mapping: mappingOf(u), rules: u.detected!.rules });
+    expect(checked).toMatchObject({ rowCount: 3, starCount: 3, errorCount: 0, excludedByQuality: 1 });
     expect(counts()).toEqual({ stars: 0, measurements: 0 });
 
-    const r = importUpload(t.app, analyst, campaignId, u.id, { mapping: mappingOf(u), rules: u.detected!.rules });
+    const r = await importNow(u.id, { mapping: mappingOf(u), rules: u.detected!.rules });
     expect(r).toMatchObject({ starsCreated: 3, measurementsCreated: 3 * 6 - 1, source: 'catalogue_wide.csv' });
     const s = t.db.select().from(stars).where(eq(stars.starKey, 'ember-22')).get()!;
     expect(s).toMatchObject({ campaignId, raDeg: 11.5, decDeg: -21, parallaxMas: 8.4, parallaxErrMas: 0.05 });
@@ -146,9 +167,9 @@ describe('every reader path through upload → check → import', () => {
     const mapping = mappingOf(u);
     mapping.columns.hip = { role: 'ignore' };
     mapping.columns.hd = { role: 'id' };
-    const check = checkUpload(t.app, analyst, campaignId, u.id, { mapping, rules: u.detected!.rules });
-    const r = importUpload(t.app, analyst, campaignId, u.id, { mapping, rules: u.detected!.rules, importValidRows: true });
-    expect(r.starsCreated).toBe(check.starCount);
+    const checked = await check(u.id, { mapping, rules: u.detected!.rules });
+    const r = await importNow(u.id, { mapping, rules: u.detected!.rules, importValidRows: true });
+    expect(r.starsCreated).toBe(checked.starCount);
     expect(r.starsCreated + r.rejectedRows).toBe(96);
     // HIP 101345 = HD 195564: Gaia G from the flux reproduces the archive's phot_g_mean_mag 5.4923334.
     const s = t.db.select().from(stars).where(eq(stars.starKey, 'HD195564')).get()!;
@@ -172,7 +193,7 @@ describe('every reader path through upload → check → import', () => {
     expect(u.observation!.filter).toBe('Ks');
     expect(u.suggestedBand).toBe('Ks');
     const band = u.suggestedBand!;
-    const r = importUpload(t.app, analyst, campaignId, u.id, { rules: { quality: [] }, image: { starId: 'ember-51', band, mag: 10.5, magErr: 0.03 } });
+    const r = await importNow(u.id, { rules: { quality: [] }, image: { starId: 'ember-51', band, mag: 10.5, magErr: 0.03 } });
     expect(r.measurementsCreated).toBe(1);
     const m = t.db.select().from(measurements).get()!;
     expect(m).toMatchObject({ bandKey: band, mag: 10.5, source: 'frame.fits' });
@@ -253,7 +274,7 @@ describe('malformed files are rejected with a clear message and nothing imported
     const csv = 'id,V,V_err\nember-01,9.1,0.02\nember-02,9.5\nember-03,x,0.02\nember-03,9.9,-0.1\n,9.0,0.01\nember-04,9.2,0.02\n';
     const u = await upload('ragged.csv', csv);
     const mapping = mappingOf(u);
-    const err = await rejected(() => importUpload(t.app, analyst, campaignId, u.id, { mapping, rules: { quality: [] } }));
+    const err = await rejected(importNow(u.id, { mapping, rules: { quality: [] } }));
     expect(err.status).toBe(422);
     expect(counts()).toEqual({ stars: 0, measurements: 0 });
     const report = err.extra.report!;
@@ -270,15 +291,31 @@ describe('malformed files are rejected with a clear message and nothing imported
     // the report is kept with the upload
     expect(getUpload(t.db, campaignId, u.id).report).toHaveLength(4);
 
-    const r = importUpload(t.app, analyst, campaignId, u.id, { mapping, rules: { quality: [] }, importValidRows: true });
+    const r = await importNow(u.id, { mapping, rules: { quality: [] }, importValidRows: true });
     expect(r).toMatchObject({ starsCreated: 2, errorCount: 4 });
     expect(t.db.select().from(uploads).where(eq(uploads.id, u.id)).get()!.report).toHaveLength(4);
+  });
+
+  it('the upload, reopened, shows the mapping last checked (the one an import uses), not the detected one', async () => {
+    const u = await upload('reopen.csv', 'id,V,V_err,B,B_err\nember-01,9.1,0.02,9.6,0.03\nember-02,9.5,0.02,10.0,0.03\n');
+    // On arrival the detected mapping is the one checked.
+    expect(u.checked).toEqual({ mapping: mappingOf(u), rules: u.detected!.rules });
+    const edited = { layout: 'wide', columns: { ...u.detected!.columns, B: { role: 'ignore' }, B_err: { role: 'ignore' } } };
+    const summary = await check(u.id, { mapping: edited, rules: { quality: [] } });
+    expect(summary.measurementCount).toBe(2);
+    const reopened = getUpload(t.db, campaignId, u.id);
+    expect(reopened.checked).toEqual({ mapping: edited, rules: { quality: [] } });
+    expect(reopened.detected!.columns.B).toMatchObject({ role: 'mag', band: 'B' });
+    // Importing with what is shown imports what was checked: V only.
+    const r = await importNow(u.id, { mapping: reopened.checked!.mapping, rules: reopened.checked!.rules });
+    expect(r).toMatchObject({ starsCreated: 2 });
+    expect(counts()).toEqual({ stars: 2, measurements: 2 });
   });
 
   it('negative error and unknown band in a long file', async () => {
     const csv = 'id,band,mag,mag_err\nember-01,V,9.1,-0.02\nember-02,Vmag,9.5,0.02\n';
     const u = await upload('long.csv', csv);
-    const err = await rejected(() => importUpload(t.app, analyst, campaignId, u.id, { mapping: mappingOf(u), rules: { quality: [] } }));
+    const err = await rejected(importNow(u.id, { mapping: mappingOf(u), rules: { quality: [] } }));
     const msgs = err.extra.report!.map((r) => `${r.row}/${r.column}: ${r.message}`);
     expect(msgs[0]).toBe('1/mag_err: row 1 (file line 2), column mag_err: negative error -0.02');
     expect(msgs[1]).toMatch(/^2\/band: .*unknown band "Vmag"/);
@@ -306,13 +343,13 @@ describe('merge and atomicity', () => {
     await uploadAndImport('first.csv', 'id,V,V_err\nember-01,9.1,0.02\n');
     const before = counts();
     const u = await upload('second.csv', 'id,V,V_err\nember-01,9.3,0.02\nember-02,9.4,0.02\nember-03,9.5,0.02\n');
-    expect(() =>
-      importUpload(t.app, analyst, campaignId, u.id, { mapping: mappingOf(u), rules: { quality: [] } }, {
+    await expect(
+      importNow(u.id, { mapping: mappingOf(u), rules: { quality: [] } }, {
         afterStar: (id) => {
           if (id === 'ember-02') throw new Error('disk full (simulated)');
         },
       }),
-    ).toThrow('disk full');
+    ).rejects.toThrow('disk full');
     expect(counts()).toEqual(before);
     expect(t.db.select().from(measurements).get()!.mag).toBe(9.1);
     expect(t.db.select().from(uploads).where(eq(uploads.id, u.id)).get()!.status).toBe('received');
@@ -322,7 +359,7 @@ describe('merge and atomicity', () => {
     // A real SQLite trigger refuses the third star, as a full disk or a constraint would.
     t.sqlite.exec("CREATE TRIGGER refuse_third BEFORE INSERT ON stars WHEN NEW.star_key = 'ember-03' BEGIN SELECT RAISE(ABORT, 'refused by test trigger'); END");
     const u = await upload('three.csv', 'id,V,V_err\nember-01,9.3,0.02\nember-02,9.4,0.02\nember-03,9.5,0.02\n');
-    expect(() => importUpload(t.app, analyst, campaignId, u.id, { mapping: mappingOf(u), rules: { quality: [] } })).toThrow('refused by test trigger');
+    await expect(importNow(u.id, { mapping: mappingOf(u), rules: { quality: [] } })).rejects.toThrow('refused by test trigger');
     expect(counts()).toEqual({ stars: 0, measurements: 0 });
   });
 });
@@ -373,13 +410,23 @@ describe('authorisation per role (the real API handlers)', () => {
     const u = await upload('r.csv', 'id,V,V_err\nember-01,9.1,0.02\nember-02,oops,0.02\n');
     const body = (importValidRows: boolean) =>
       new Request('http://x/', { method: 'POST', headers: { 'content-type': 'application/json' }, body: JSON.stringify({ mapping: mappingOf(u), rules: { quality: [] }, importValidRows }) });
-    const refused = await postImport(ctx(analyst, body(false), { id: campaignId, uploadId: u.id }));
-    expect(refused.status).toBe(422);
-    const j = (await refused.json()) as { error: { code: string }; report: { row: number; column: string }[] };
-    expect(j.error.code).toBe('validation_failed');
-    expect(j.report[0]).toMatchObject({ file: 'r.csv', row: 2, column: 'V' });
-    const done = await postImport(ctx(analyst, body(true), { id: campaignId, uploadId: u.id }));
-    expect(done.status).toBe(200);
-    expect(((await done.json()) as { import: { starsCreated: number } }).import.starsCreated).toBe(1);
+    // The route queues the import (202 with the job); the finished job carries the refusal or the counts.
+    const answerOf = async (res: Response) => {
+      expect(res.status).toBe(202);
+      const { job } = (await res.json()) as { job: { id: string; status: string } };
+      expect(job.status).toBe('pending');
+      await drainIntakeJobs(t.db);
+      const got = await getJobRoute(ctx(analyst, new Request('http://x/'), { id: campaignId, uploadId: u.id, jobId: job.id }));
+      expect(got.status).toBe(200);
+      return ((await got.json()) as { job: { status: string; refusal?: { status: number; error: { code: string }; report: { row: number; column: string }[] }; import?: { starsCreated: number } } }).job;
+    };
+    const refused = await answerOf(await postImport(ctx(analyst, body(false), { id: campaignId, uploadId: u.id })));
+    expect(refused.status).toBe('failed');
+    expect(refused.refusal!.status).toBe(422);
+    expect(refused.refusal!.error.code).toBe('validation_failed');
+    expect(refused.refusal!.report[0]).toMatchObject({ file: 'r.csv', row: 2, column: 'V' });
+    const done = await answerOf(await postImport(ctx(analyst, body(true), { id: campaignId, uploadId: u.id })));
+    expect(done.status).toBe('done');
+    expect(done.import!.starsCreated).toBe(1);
   });
 });

@@ -122,7 +122,7 @@ describe('worker processes', () => {
     // worker-a fits its first chunk, inserts the 100 rows and then holds the transaction open
     // (a stalled disk) until it is killed; worker-b, started afterwards, drains the queue.
     const a = startWorker(t.filePath, ['--id', 'worker-a', '--lease-ms', '1500', '--idle-ms', '50', '--pause-in-write-ms', '60000']);
-    await waitFor('worker-a to be inside the write of its chunk', () => /pausing 60000 ms inside the write of 100 result/.test(a.output()), 60_000, a.output);
+    await waitFor('worker-a to be inside the write of its chunk', () => /pausing 60000 ms inside the write of 100 result/.test(a.output()), 150_000, a.output);
     const inHand = t.sqlite.prepare("SELECT id FROM jobs WHERE status = 'leased' AND lease_owner = 'worker-a'").pluck().all() as number[];
     expect(inHand).toHaveLength(1);
     // Nothing of it is visible before the commit.
@@ -134,7 +134,7 @@ describe('worker processes', () => {
     expect(one<string>('SELECT lease_owner FROM jobs WHERE id = ?', inHand[0])).toBe('worker-a');
 
     const b = startWorker(t.filePath, ['--id', 'worker-b', '--drain', '--lease-ms', '1500', '--idle-ms', '50']);
-    const bExit = await Promise.race([b.exited, new Promise<never>((_, reject) => setTimeout(() => reject(new Error(`worker-b did not drain the queue:\n${b.output()}`)), 90_000))]);
+    const bExit = await Promise.race([b.exited, new Promise<never>((_, reject) => setTimeout(() => reject(new Error(`worker-b did not drain the queue:\n${b.output()}`)), 150_000))]);
     expect(bExit.code, b.output()).toBe(0);
 
     // The killed chunk came back after its lease and was fitted once, by worker-b.
@@ -147,13 +147,13 @@ describe('worker processes', () => {
     expect(one<string>('SELECT status FROM batches WHERE id = ?', batch.id)).toBe('finished');
     const mails = t.sqlite.prepare("SELECT to_address AS toAddress FROM outbox_messages WHERE kind = 'notice'").all() as { toAddress: string }[];
     expect(mails).toEqual([{ toAddress: analyst.email }]);
-  }, 180_000);
+  }, 360_000);
 
   it('stops on SIGTERM: hands back the chunk it holds and exits 0', async () => {
     const { t, batch } = await setUp(100, 30);
     const w = startWorker(t.filePath, ['--id', 'worker-c', '--slow-ms', '20000', '--idle-ms', '50']);
     const held = () => t.sqlite.prepare("SELECT coalesce(sum(stars_left), 0) FROM jobs WHERE status = 'leased' AND lease_owner = 'worker-c'").pluck().get() as number;
-    await waitFor('worker-c to claim a chunk', () => held() === 30, 30_000, w.output);
+    await waitFor('worker-c to claim a chunk', () => held() === 30, 120_000, w.output);
     w.child.kill('SIGTERM');
     const exit = await w.exited;
     expect(exit.code, w.output()).toBe(0);
@@ -162,5 +162,5 @@ describe('worker processes', () => {
     expect(t.sqlite.prepare("SELECT sum(star_count) FROM jobs WHERE batch_id = ? AND status = 'pending' AND attempts = 0").pluck().get(batch.id)).toBe(100);
     expect(t.sqlite.prepare('SELECT count(*) FROM fit_results').pluck().get()).toBe(0);
     expect(w.output()).toMatch(/SIGTERM/);
-  }, 60_000);
+  }, 180_000);
 });

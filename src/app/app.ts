@@ -7,6 +7,8 @@ import { createAuth, type SessionUser } from '../adapters/auth';
 import { getEnv, type AppEnv } from '../adapters/env';
 import { createMailer } from '../adapters/mail';
 import { PARTIAL_IDLE_MS, processStartedAt, removeLeftoverPartials } from '../server/intake/storage';
+import { removeOrphanStaging } from '../server/intake/staging';
+import { startIntakeThread } from './intake-runner';
 
 export function createApp(db: AppDatabase, env: AppEnv): AppServices {
   const mailer = createMailer({ transport: env.mailTransport, smtpUrl: env.smtpUrl, from: env.mailFrom });
@@ -27,7 +29,9 @@ let app: AppServices | undefined;
 /**
  * The process-wide services; the first call opens and migrates the database and removes the partial
  * uploads a killed upload or a crash left behind (for the server: every one older than this process;
- * for a worker, which may start while the server receives a file: those idle for PARTIAL_IDLE_MS too).
+ * for a worker, which may start while the server receives a file: those idle for PARTIAL_IDLE_MS too),
+ * and, for the server, the staging files of checks no upload can use (removeOrphanStaging). The server
+ * then starts its intake thread (uploads are read, checked and imported off the web event loop).
  */
 export function getApp(role: 'server' | 'worker' = 'server'): AppServices {
   if (!app) {
@@ -35,6 +39,8 @@ export function getApp(role: 'server' | 'worker' = 'server'): AppServices {
     const env = getEnv();
     app = createApp(getDb(env.databasePath), env);
     startUpCleanUp(app, role);
+    // After the clean-up: the thread is what writes staging files.
+    if (role === 'server') startIntakeThread(app.db, env.databasePath, env.inputLimits);
   }
   return app;
 }
@@ -48,6 +54,14 @@ function startUpCleanUp(services: AppServices, role: 'server' | 'worker'): void 
   } catch (err) {
     // A clean-up that cannot run must not keep the service from starting.
     console.error('The start-up clean-up of partial uploads failed:', err);
+  }
+  if (role !== 'server') return;
+  // Staging files of checks: only the server's intake thread writes them, and it has not started yet.
+  try {
+    const removed = removeOrphanStaging(services.db, services.env.dataDir);
+    if (removed.length > 0) console.log(`Removed ${removed.length} staging file(s) of checks no upload can use.`);
+  } catch (err) {
+    console.error('The start-up clean-up of staging files failed:', err);
   }
 }
 

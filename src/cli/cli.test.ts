@@ -11,7 +11,7 @@ import path from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { afterAll, describe, expect, it } from 'vitest';
 import { mockCsv, mockStars } from '../../scripts/references/make_mock_catalogue';
-import { parseDelimited } from '../core/input/delimited';
+import { parseDelimited } from '../core/input/delimited-stream';
 import { readUpload } from '../core/input/table-file';
 import { FLAG_EXPLANATIONS } from '../core/fit';
 import { parseCommandLine, UsageError } from './args';

@@ -10,7 +10,7 @@ import { tmpdir } from 'node:os';
 import path from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { afterAll, describe, expect, it } from 'vitest';
-import { parseDelimited } from '../core/input/delimited';
+import { parseDelimited } from '../core/input/delimited-stream';
 import { crossmatchStars, vizierTsv, type CrossmatchStar } from './crossmatch-mock';
 
 const root = fileURLToPath(new URL('../..', import.meta.url));

@@ -35,11 +35,15 @@ export interface UploadDetail extends UploadSummary {
   units: (string | null)[];
   preview: string[][];
   detected: DetectedMapping | null;
+  /** The mapping and rules of the upload's latest check (the one an import of it uses), when one was made. */
+  checked: { mapping: Mapping; rules: MappingRules } | null;
   bandKeys: string[];
   observation?: ImageObservation;
   /** For an image: the band whose key matches FILTER, when one does. */
   suggestedBand?: string;
   report: ReportEntry[];
+  /** The upload's latest job (its reading right after arrival, or a check or import). */
+  job: IntakeJobView | null;
 }
 
 export interface CheckSummary {
@@ -71,4 +75,32 @@ export interface MappingPresetView {
   mapping: Mapping;
   rules: MappingRules;
   createdAt: string;
+}
+
+/** An intake job (reading, checking or importing an upload) as the intake page and API show it. */
+export interface IntakeJobView {
+  id: string;
+  uploadId: string;
+  kind: 'read' | 'check' | 'import';
+  status: 'pending' | 'running' | 'done' | 'failed';
+  /** What the job is doing now: reading the file (rows so far) or writing the stars. */
+  phase: 'waiting' | 'reading' | 'importing' | 'finished';
+  rowsRead: number;
+  /** Stars written so far while importing. */
+  starsWritten: number;
+  createdAt: string;
+  startedAt: string | null;
+  finishedAt: string | null;
+  /** When done: the check (kind check) or import (kind import) summary. */
+  check?: CheckSummary;
+  import?: ImportSummary;
+  /** When failed: the answer the request would have had (status 422 with the report, 409, …). */
+  refusal?: { status: number; error: { code: string; message: string }; report?: ReportEntry[]; summary?: unknown };
+}
+
+/** The window event an import's page sends with the campaign's new totals, so counts outside the form follow. */
+export const CAMPAIGN_COUNTS_EVENT = 'starkiln:campaign-counts';
+export interface CampaignCounts {
+  stars: number;
+  measurements: number;
 }

@@ -14,6 +14,7 @@ import type { Actor } from './context';
 import { HttpError } from './errors';
 import { hashToken, newId } from './ids';
 import { parseInput } from './validation';
+import { writeIfFree } from './sqlite-errors';
 import type { ApiTokenView } from '../contracts/api';
 
 export const TOKEN_PREFIX = 'sk_';
@@ -130,7 +131,8 @@ export function actorFromBearer(db: AppDatabase, secret: string, now = new Date(
   if (row.token.revokedAt) return { ok: false, message: 'This API token was revoked. Make a new one on your account page.' };
   if (row.token.expiresAt && row.token.expiresAt.getTime() <= now.getTime()) return { ok: false, message: 'This API token has expired. Make a new one on your account page.' };
   if (!row.token.lastUsedAt || now.getTime() - row.token.lastUsedAt.getTime() >= LAST_USED_RESOLUTION_MS) {
-    db.update(apiTokens).set({ lastUsedAt: now }).where(eq(apiTokens.id, row.token.id)).run();
+    // Best effort: while an import holds the write lock, a script polling its job must not wait for it.
+    writeIfFree(db.$client, () => db.update(apiTokens).set({ lastUsedAt: now }).where(eq(apiTokens.id, row.token.id)).run());
   }
   return { ok: true, actor: toActor(row.user), tokenId: row.token.id };
 }

@@ -146,6 +146,9 @@ export interface FitResultRow {
   photosphere_version: string | null;
 }
 
+/** Result rows per INSERT statement when a chunk is written (27 columns × 50 stays under SQLite's 32 766 parameters). */
+const WRITE_ROWS_PER_STATEMENT = 50;
+
 const RESULT_COLUMNS: (keyof FitResultRow)[] = [
   'batch_id', 'campaign_id', 'star_id', 'ok', 'failure_reason', 'teff_k', 'teff_err_k', 'teff_err_formal_k', 'teff_lower_k',
   'theta_mas', 'theta_err_mas', 'radius_rsun', 'radius_err_rsun', 'lum_lsun', 'lum_err_lsun', 'fbol_cgs', 'fbol_err_cgs',
@@ -310,6 +313,7 @@ export class FitStarRunner {
   private readonly selectStars;
   private readonly selectMeasurements;
   private readonly insertResult;
+  private readonly insertMany;
   private readonly selectDone;
 
   constructor(db: AppDatabase) {
@@ -324,10 +328,13 @@ export class FitStarRunner {
        WHERE star_id IN (SELECT value FROM json_each(?)) ORDER BY star_id, band_key, source`,
     );
     this.selectDone = this.sqlite.prepare('SELECT star_id FROM fit_results WHERE batch_id = ? AND star_id IN (SELECT value FROM json_each(?))').pluck();
-    this.insertResult = this.sqlite.prepare(
-      `INSERT INTO fit_results (${RESULT_COLUMNS.join(', ')}) VALUES (${RESULT_COLUMNS.map((c) => '@' + c).join(', ')})
-       ON CONFLICT (batch_id, star_id) DO NOTHING`,
-    );
+    // Positional parameters, WRITE_ROWS_PER_STATEMENT rows per INSERT: binding by name and one
+    // statement per row cost about twice as much CPU per result (measured for decision 0017).
+    const one = `(${RESULT_COLUMNS.map(() => '?').join(', ')})`;
+    const insert = (n: number) =>
+      this.sqlite.prepare(`INSERT INTO fit_results (${RESULT_COLUMNS.join(', ')}) VALUES ${Array.from({ length: n }, () => one).join(', ')} ON CONFLICT (batch_id, star_id) DO NOTHING`);
+    this.insertResult = insert(1);
+    this.insertMany = insert(WRITE_ROWS_PER_STATEMENT);
   }
 
   batch(batchId: string): BatchInfo {
@@ -419,8 +426,16 @@ export class FitStarRunner {
 
   /** Inserts result rows (inside the caller's transaction); a second row for the same star and batch is ignored. */
   write(rows: Iterable<FitResultRow>): number {
+    const list = Array.isArray(rows) ? (rows as FitResultRow[]) : [...rows];
     let n = 0;
-    for (const r of rows) n += this.insertResult.run(r).changes;
+    let i = 0;
+    const values: unknown[] = [];
+    for (; i + WRITE_ROWS_PER_STATEMENT <= list.length; i += WRITE_ROWS_PER_STATEMENT) {
+      values.length = 0;
+      for (let k = i; k < i + WRITE_ROWS_PER_STATEMENT; k++) for (const c of RESULT_COLUMNS) values.push(list[k][c]);
+      n += this.insertMany.run(values).changes;
+    }
+    for (; i < list.length; i++) n += this.insertResult.run(RESULT_COLUMNS.map((c) => list[i][c])).changes;
     return n;
   }
 

@@ -21,3 +21,22 @@ export function databaseBackoffMs(attempt: number, baseMs = 200, random: () => n
   const raw = Math.min(30_000, baseMs * 2 ** Math.max(0, attempt - 1));
   return Math.round(raw * (0.75 + 0.5 * random()));
 }
+
+/**
+ * Runs a best-effort write without waiting for the lock: when another connection holds it (a long
+ * import in the intake thread), the write is skipped (false) instead of blocking this thread for
+ * the busy timeout. Only for writes that may be lost, such as a token's last-used time.
+ */
+export function writeIfFree(sqlite: { pragma(source: string, options?: { simple?: boolean }): unknown }, write: () => void): boolean {
+  const previous = Number(sqlite.pragma('busy_timeout', { simple: true }));
+  sqlite.pragma('busy_timeout = 0');
+  try {
+    write();
+    return true;
+  } catch (err) {
+    if (isBusy(err)) return false;
+    throw err;
+  } finally {
+    sqlite.pragma(`busy_timeout = ${previous}`);
+  }
+}

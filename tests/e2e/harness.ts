@@ -4,13 +4,13 @@
 // everything started here is stopped by stop()/close().
 import { spawn, type ChildProcess } from 'node:child_process';
 import { existsSync, mkdtempSync, rmSync } from 'node:fs';
-import net from 'node:net';
 import os from 'node:os';
 import path from 'node:path';
 import { chromium, type BrowserContext, type Page } from 'playwright-core';
 import { openDatabase } from '../../src/db/client';
 import { migrateDatabase } from '../../src/db/migrate';
 import { projectRoot } from '../../src/db/paths';
+import { freePort } from '../support/probes';
 import { seedDemo } from '../../src/seed/seed';
 import { createApp } from '../../src/app/app';
 import { parseEnv } from '../../src/adapters/env';
@@ -26,18 +26,6 @@ export interface RunningApp {
   /** Server output so far (shown when something fails). */
   logs: () => string;
   stop: () => Promise<void>;
-}
-
-async function freePort(): Promise<number> {
-  return new Promise((resolve, reject) => {
-    const srv = net.createServer();
-    srv.unref();
-    srv.on('error', reject);
-    srv.listen(0, '127.0.0.1', () => {
-      const { port } = srv.address() as net.AddressInfo;
-      srv.close(() => resolve(port));
-    });
-  });
 }
 
 async function waitForHealth(baseUrl: string, child: ChildProcess, logs: () => string, timeoutMs = 30_000): Promise<void> {

@@ -5,9 +5,11 @@
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { Page } from 'playwright-core';
 import { count, eq } from 'drizzle-orm';
+import { readFileSync } from 'node:fs';
 import path from 'node:path';
 import { batches, campaigns, measurements, stars, uploads } from '../../src/db/schema';
 import { projectRoot } from '../../src/db/paths';
+import { readFits } from '../../src/core/input/fits-file';
 import { DEMO_CAMPAIGN, demoUsers } from '../../src/seed/seed';
 import { launchBrowser, startApp, type Browser, type RunningApp } from './harness';
 
@@ -80,6 +82,9 @@ describe('intake in the browser', () => {
     expect(run.app.db.select({ n: count() }).from(measurements).where(eq(measurements.bandKey, 'W1')).get()!.n).toBe(0);
     const u = run.app.db.select().from(uploads).where(eq(uploads.originalName, 'catalogue_wide.csv')).get()!;
     expect(u).toMatchObject({ status: 'imported', campaignId: id, detectedFormat: 'csv' });
+    // The page header's counts follow the import without a reload (they said 0 and 0 before it).
+    await expect(page.getByTestId('campaign-star-count').textContent()).resolves.toBe('3');
+    await expect(page.getByTestId('campaign-value-count').textContent()).resolves.toBe('14');
 
     // On to a batch: the worker started with the server fits the three stars.
     await Promise.all([page.waitForURL(`${run.baseUrl}/campaigns/${id}/batches`), editor.getByRole('link', { name: 'Start a batch fit' }).click()]);
@@ -133,6 +138,33 @@ describe('intake in the browser', () => {
     await addThroughDashboard(page, { name: 'sheet.csv', mimeType: 'text/csv', buffer: Buffer.from([0x50, 0x4b, 0x03, 0x04, 0, 0, 1, 2, 3]) });
     await page.getByTestId('upload-errors').waitFor({ timeout: 30_000 });
     await expect(page.getByTestId('upload-errors').textContent()).resolves.toMatch(/sheet\.csv: .*binary content \(a ZIP archive/);
+    expect(run.app.db.select({ n: count() }).from(stars).get()!.n).toBe(before);
+    await page.close();
+  });
+
+  it('reports a truncated FITS table as truncated, with the byte counts, not as an image', async () => {
+    const page = await browser.newPage();
+    await signIn(page);
+    await page.goto(`${run.baseUrl}/campaigns/${demoCampaignId()}/intake`);
+    await page.getByTestId('uppy-dashboard').locator('.uppy-Dashboard').waitFor();
+    // The astropy-written fixture (a primary header, then one BINTABLE) cut 100 bytes into the table's data.
+    const whole = readFileSync(path.join(projectRoot(), 'fixtures/fits/all_types.fits'));
+    const table = readFits(new Uint8Array(whole)).hdus[1];
+    expect(table.kind).toBe('bintable');
+    const cut = whole.subarray(0, table.dataOffset + 100);
+    const before = run.app.db.select({ n: count() }).from(stars).get()!.n;
+    await addThroughDashboard(page, { name: 'cut-table.fits', mimeType: 'application/fits', buffer: Buffer.from(cut) });
+    const error = page.getByTestId('mapping-load-error');
+    await error.waitFor({ timeout: 60_000 });
+    const text = (await error.textContent()) ?? '';
+    const missing = table.dataOffset + table.dataBytes - cut.length;
+    expect(text.startsWith('cut-table.fits: ')).toBe(true);
+    expect(text).toContain(`truncated file: HDU 1 declares ${table.dataBytes} bytes of data from byte ${table.dataOffset}, but the file ends at byte ${cut.length} (${missing} bytes missing)`);
+    const row = page.getByTestId('upload-table').locator('tr', { hasText: 'cut-table.fits' });
+    await expect(row.textContent()).resolves.toMatch(/rejected/);
+    await expect(row.textContent()).resolves.not.toMatch(/FITS image/);
+    const stored = run.app.db.select().from(uploads).where(eq(uploads.originalName, 'cut-table.fits')).get()!;
+    expect([stored.status, stored.detectedFormat]).toEqual(['rejected', null]);
     expect(run.app.db.select({ n: count() }).from(stars).get()!.n).toBe(before);
     await page.close();
   });

@@ -2,7 +2,15 @@
 // first rows, saved presets, quality rules, the check report and the import.
 import { useEffect, useMemo, useState } from 'react';
 import { BAND_ROLES, ROLE_LABELS, type ColumnAssignment, type ColumnRole, type Mapping, type MappingRules } from '../../core/input/mapping';
-import { intakeApi, IntakeApiError, type CheckSummary, type ImportSummary, type MappingPresetView, type ReportEntry, type UploadDetail } from '../../browser/intake';
+import { intakeApi, IntakeApiError, type CheckSummary, type ImportSummary, type IntakeJobView, type MappingPresetView, type ReportEntry, type UploadDetail } from '../../browser/intake';
+import { CAMPAIGN_COUNTS_EVENT, type CampaignCounts } from '../../contracts/intake';
+
+/** What a job is doing, in words: waiting, rows read so far, stars written. */
+export function jobProgressText(j: IntakeJobView): string {
+  if (j.status === 'pending') return 'Waiting for the intake to start…';
+  if (j.phase === 'importing') return `Writing the stars: ${j.starsWritten.toLocaleString('en')} written`;
+  return `Reading the file: ${j.rowsRead.toLocaleString('en')} rows so far`;
+}
 
 interface Props {
   campaignId: string;
@@ -16,18 +24,37 @@ const LONG_ROLES: ColumnRole[] = ['ignore', 'id', 'band', 'mag', 'mag_err', 'jy'
 export default function MappingEditor({ campaignId, uploadId, onChanged }: Props) {
   const [upload, setUpload] = useState<UploadDetail | null>(null);
   const [loadError, setLoadError] = useState<string | null>(null);
+  const [reading, setReading] = useState<IntakeJobView | null>(null);
   useEffect(() => {
-    intakeApi.get(campaignId, uploadId).then(setUpload, (e: Error) => setLoadError(e.message));
+    intakeApi.get(campaignId, uploadId, setReading).then(
+      (u) => {
+        setUpload(u);
+        onChanged();
+      },
+      (e: Error) => {
+        setLoadError(e.message);
+        onChanged();
+      },
+    );
+    // onChanged only refreshes the list: a new function each render must not start this again.
   }, [campaignId, uploadId]);
-  if (loadError) return <p className="notice notice-error">{loadError}</p>;
-  if (!upload) return <p className="text-sm text-ink-500">Reading the file…</p>;
+  if (loadError) return <p className="notice notice-error" data-testid="mapping-load-error">{loadError}</p>;
+  if (!upload)
+    return (
+      <p className="text-sm text-ink-500" data-testid="job-progress" aria-live="polite">
+        {reading ? jobProgressText(reading) : 'Reading the file…'}
+      </p>
+    );
   if (upload.format === 'fits-image') return <ImageImport campaignId={campaignId} upload={upload} onChanged={onChanged} />;
   return <TableMapping campaignId={campaignId} upload={upload} onChanged={onChanged} />;
 }
 
 function TableMapping({ campaignId, upload, onChanged }: { campaignId: string; upload: UploadDetail; onChanged: () => void }) {
-  const [mapping, setMapping] = useState<Mapping>(() => ({ layout: upload.detected?.layout ?? 'wide', columns: { ...(upload.detected?.columns ?? {}) } }));
-  const [rules, setRules] = useState<MappingRules>(() => upload.detected?.rules ?? { quality: [] });
+  // Reopened after a check: the mapping that was checked (the one an import uses), else the detected one.
+  const [mapping, setMapping] = useState<Mapping>(() =>
+    upload.checked ? { layout: upload.checked.mapping.layout, columns: { ...upload.checked.mapping.columns } } : { layout: upload.detected?.layout ?? 'wide', columns: { ...(upload.detected?.columns ?? {}) } },
+  );
+  const [rules, setRules] = useState<MappingRules>(() => upload.checked?.rules ?? upload.detected?.rules ?? { quality: [] });
   const [presets, setPresets] = useState<MappingPresetView[]>([]);
   const [presetName, setPresetName] = useState('');
   const [message, setMessage] = useState<{ kind: 'ok' | 'error'; text: string } | null>(null);
@@ -37,6 +64,7 @@ function TableMapping({ campaignId, upload, onChanged }: { campaignId: string; u
   const [importValid, setImportValid] = useState(false);
   const [result, setResult] = useState<ImportSummary | null>(null);
   const [busy, setBusy] = useState(false);
+  const [progress, setProgress] = useState<IntakeJobView | null>(null);
 
   useEffect(() => {
     intakeApi.presets(campaignId).then(setPresets, () => setPresets([]));
@@ -61,20 +89,23 @@ function TableMapping({ campaignId, upload, onChanged }: { campaignId: string; u
       } else setMessage({ kind: 'error', text: (e as Error).message });
     } finally {
       setBusy(false);
+      setProgress(null);
     }
   };
   const doCheck = () =>
     run(async () => {
-      const c = await intakeApi.check(campaignId, upload.id, mapping, rules);
+      const c = await intakeApi.check(campaignId, upload.id, mapping, rules, setProgress);
       setCheck(c);
       setReport(c.report);
       onChanged();
     });
   const doImport = () =>
     run(async () => {
-      const r = await intakeApi.import(campaignId, upload.id, { mapping, rules, source: source.trim() || undefined, importValidRows: importValid });
+      const r = await intakeApi.import(campaignId, upload.id, { mapping, rules, source: source.trim() || undefined, importValidRows: importValid }, setProgress);
       setResult(r);
       setReport(r.report);
+      // The page header's campaign counts (outside this island) follow the import.
+      window.dispatchEvent(new CustomEvent<CampaignCounts>(CAMPAIGN_COUNTS_EVENT, { detail: { stars: r.campaignStars, measurements: r.campaignMeasurements } }));
       onChanged();
     });
   const doSavePreset = () =>
@@ -268,6 +299,11 @@ function TableMapping({ campaignId, upload, onChanged }: { campaignId: string; u
         <button type="button" className="btn btn-quiet" disabled={busy} onClick={doCheck}>
           Check every row
         </button>
+        {busy && progress && (
+          <span className="text-sm text-ink-600" data-testid="job-progress" aria-live="polite">
+            {jobProgressText(progress)}
+          </span>
+        )}
         {check && (
           <span className="text-sm text-ink-700" data-testid="check-summary">
             <span className="num">{check.starCount}</span> stars with <span className="num">{check.measurementCount}</span> values ready;{' '}
@@ -356,8 +392,14 @@ function ImageImport({ campaignId, upload, onChanged }: { campaignId: string; up
   const [message, setMessage] = useState<{ kind: 'ok' | 'error'; text: string } | null>(null);
   const submit = async () => {
     setMessage(null);
+    // An empty field is no value (Number('') would be 0): say so instead of sending one.
+    const given = (text: string) => (text.trim() === '' ? Number.NaN : Number(text));
+    if (!Number.isFinite(given(mag)) || !Number.isFinite(given(magErr))) {
+      setMessage({ kind: 'error', text: `Give the ${band} magnitude and its error measured on the image as numbers; nothing was stored.` });
+      return;
+    }
     try {
-      const r = await intakeApi.import(campaignId, upload.id, { rules: { quality: [] }, importValidRows: false, image: { starId, band, mag: Number(mag), magErr: Number(magErr) } });
+      const r = await intakeApi.import(campaignId, upload.id, { rules: { quality: [] }, importValidRows: false, image: { starId, band, mag: given(mag), magErr: given(magErr) } });
       setMessage({ kind: 'ok', text: `Stored ${band} = ${mag} for ${starId} with the image's metadata (${r.measurementsCreated ? 'new value' : 'replaced the earlier value'}).` });
       onChanged();
     } catch (e) {

@@ -1,6 +1,8 @@
 // Applying a mapping to every row: stars with measurements, and every problem with file, row and
 // column.
 import { BAND_ROLES, type ColumnRole, type ColumnTable, type Mapping, type MappedStar, type MappingProblem, type MappingResult, type MappingRules, type TableCell } from './column-table';
+
+export type { MappedStar } from './column-table';
 import { FALSE_FLAGS, readCellNumber, textOf, TRUE_FLAGS } from './cells';
 import { checkMapping } from './check-mapping';
 import { closestBandKey } from './column-names';
@@ -35,296 +37,419 @@ const STAR_WORDS: Record<StarRole, string> = { ra: 'right ascension', dec: 'decl
  */
 export const MAG_RANGE = { min: -30, max: 50 } as const;
 
+/** A long-format star while its rows arrive: its values so far, and the row of each band. */
+export interface LongStar extends MappedStar {
+  bad: boolean;
+  rows: number;
+  bandRow: Record<string, number>;
+  /** File line of its first row, when the format has lines. */
+  line?: number;
+}
+
 /**
- * Every row through the mapping → stars with measurements, and every problem with file, row and
- * column. A star with an error in any of its rows is left out whole; the others carry on, so the
- * caller can import the valid rows and keep the report.
+ * Where the mapper keeps what it must remember across rows: the first row of every star id (wide
+ * tables: duplicates), the stars found good, and the long-format stars being assembled. In memory
+ * for applyMapping; in a SQLite file for the intake job, so memory does not grow with the rows.
  */
-export function applyMapping(table: ColumnTable, mapping: Mapping, rules: MappingRules, options: ApplyOptions): MappingResult {
-  const file = table.file;
-  const { bandKeys } = options;
-  const problems: MappingProblem[] = checkMapping(mapping, table.columns, bandKeys, file);
-  const colIndex = new Map(table.columns.map((c, i) => [c, i] as const));
-  const result = (stars: MappedStar[], rowCount: number, rejectedRows: number, excluded: number): MappingResult => ({
-    stars,
-    problems,
-    rowCount,
-    rejectedRows,
-    excludedByQuality: excluded,
-    errorCount: problems.filter((p) => p.severity === 'error').length,
-    warningCount: problems.filter((p) => p.severity === 'warning').length,
-  });
-  if (problems.some((p) => p.severity === 'error')) return result([], table.rows.length, table.rows.length, 0);
+export interface MapperStore {
+  /** The first row of `id` when it was seen before; otherwise remembers `row` and returns undefined. */
+  firstRow(id: string, row: number): number | undefined;
+  addStar(star: MappedStar): void;
+  getLong(id: string): LongStar | undefined;
+  putLong(star: LongStar): void;
+  /** Every long-format star in order of its first row. */
+  eachLong(fn: (star: LongStar) => void): void;
+}
 
-  const roleCol = (role: ColumnRole): number | undefined => {
-    const e = Object.entries(mapping.columns).find(([, a]) => a.role === role);
-    return e ? colIndex.get(e[0]) : undefined;
-  };
-  const idCol = roleCol('id')!;
-  const starCols: Partial<Record<StarRole, number>> = {};
-  for (const r of Object.keys(STAR_PROPS) as StarRole[]) {
-    const c = roleCol(r);
-    if (c !== undefined) starCols[r] = c;
+/** Where problems go; `add` sees every problem in order (the caller may keep only the first ones). */
+export interface ProblemSink {
+  add(p: MappingProblem): void;
+}
+
+export class MemoryStore implements MapperStore {
+  readonly stars: MappedStar[] = [];
+  private readonly first = new Map<string, number>();
+  private readonly long = new Map<string, LongStar>();
+  firstRow(id: string, row: number): number | undefined {
+    const prior = this.first.get(id);
+    if (prior === undefined) this.first.set(id, row);
+    return prior;
   }
-  // Quality rules by column.
-  const keepByCol = new Map<number, Set<string>>();
-  for (const rule of rules.quality) {
-    const c = colIndex.get(rule.column);
-    if (c === undefined) {
-      problems.push({ file, row: 0, severity: 'error', message: `the quality rule names column "${rule.column}", which the file does not have` });
-      continue;
-    }
-    if (mapping.columns[rule.column]?.role !== 'quality') {
-      problems.push({ file, row: 0, column: { name: rule.column, number: c + 1 }, severity: 'error', message: `the quality rule on ${rule.column} needs that column mapped to quality letters` });
-      continue;
-    }
-    keepByCol.set(c, new Set(rule.keep.map((k) => k.trim().toUpperCase())));
+  addStar(star: MappedStar): void {
+    this.stars.push(star);
   }
-  if (problems.some((p) => p.severity === 'error')) return result([], table.rows.length, table.rows.length, 0);
-
-  const bandCols = new Map<string, BandCols>();
-  const band = (key: string) => {
-    if (!bandCols.has(key)) bandCols.set(key, {});
-    return bandCols.get(key)!;
-  };
-  for (const [name, a] of Object.entries(mapping.columns)) {
-    const c = colIndex.get(name)!;
-    if (a.role === 'quality') {
-      a.bands!.forEach((b, pos) => {
-        if (b !== '-') band(b).quality = { col: c, pos, single: a.bands!.length === 1 };
-      });
-    } else if (mapping.layout === 'wide' && a.band && BAND_ROLES.includes(a.role)) {
-      (band(a.band) as Record<string, number>)[a.role] = c;
-    }
+  getLong(id: string): LongStar | undefined {
+    return this.long.get(id);
   }
-
-  const ncol = table.columns.length;
-  const cur = { row: 0, line: undefined as number | undefined, cells: [] as TableCell[], bad: false };
-  const problem = (col: number | undefined, message: string, severity: 'error' | 'warning' = 'error') => {
-    problems.push({
-      file,
-      row: cur.row,
-      line: cur.line,
-      column: col === undefined ? undefined : { name: table.columns[col], number: col + 1 },
-      severity,
-      message: `row ${cur.row}${cur.line === undefined ? '' : ` (file line ${cur.line})`}${col === undefined ? '' : `, column ${table.columns[col]}`}: ${message}`,
-    });
-    if (severity === 'error') cur.bad = true;
-  };
-  /** The cell as a number; `what` (prefixed by `key` when given) names it in the problem, built only then. */
-  const num = (col: number | undefined, what: string, key?: string): number | undefined => {
-    if (col === undefined) return undefined;
-    const x = readCellNumber(cur.cells[col]);
-    if (x !== undefined && !Number.isFinite(x)) {
-      const text = shownText(textOf(cur.cells[col]));
-      problem(col, `${key === undefined ? what : `${key} ${what}`} "${text}" is ${Number.isNaN(x) ? 'not a number' : 'not a finite number (too large for a double)'}`);
-      return undefined;
-    }
-    return x;
-  };
-  /** A magnitude (value or upper limit) inside MAG_RANGE. */
-  const magnitude = (col: number | undefined, value: number | undefined, what: string): number | undefined => {
-    if (value === undefined || (value >= MAG_RANGE.min && value <= MAG_RANGE.max)) return value;
-    problem(col, `${what} ${value} is outside ${MAG_RANGE.min}…${MAG_RANGE.max} mag`);
-    return undefined;
-  };
-  const nonNegative = (col: number | undefined, value: number | undefined, what: string) => {
-    if (value !== undefined && value < 0) problem(col, `negative ${what} ${value}`);
-  };
-  let excluded = 0;
-  /** true when the band's value may be used under the quality rules */
-  const qualityOf = (key: string): { keep: boolean; letter?: string } => {
-    const q = bandCols.get(key)?.quality;
-    if (!q) return { keep: true };
-    const text = textOf(cur.cells[q.col]);
-    const letter = q.single ? text : text.charAt(q.pos);
-    const keep = keepByCol.get(q.col);
-    if (!keep) return { keep: true, letter: letter || undefined };
-    return { keep: letter !== '' && keep.has(letter.toUpperCase()), letter: letter || undefined };
-  };
-
-  const starRoles = Object.keys(starCols) as StarRole[];
-  const readStarValues = (star: MappedStar, mergeWithin: boolean) => {
-    for (let j = 0; j < starRoles.length; j++) {
-      const r = starRoles[j];
-      const c = starCols[r]!;
-      const v = num(c, STAR_WORDS[r]);
-      if (v === undefined) continue;
-      if (r === 'ra' && (v < 0 || v >= 360)) problem(c, `right ascension ${v} is outside 0 ≤ ra < 360 degrees`);
-      if (r === 'dec' && (v < -90 || v > 90)) problem(c, `declination ${v} is outside −90…90 degrees`);
-      if (r === 'parallax_err' || r === 'av') nonNegative(c, v, r === 'av' ? 'A_V' : 'parallax error');
-      const prop = STAR_PROPS[r];
-      if (mergeWithin && star[prop] !== undefined && star[prop] !== v) problem(c, `${STAR_WORDS[r]} ${v} differs from ${star[prop]} given for star "${star.id}" in an earlier row`);
-      else star[prop] = v;
-    }
-  };
-
-  /** Makes row r current; its star id, or null when the row is ragged or has no id (both reported). */
-  const beginRow = (cells: TableCell[], r: number): string | null => {
-    cur.row = r + 1;
-    cur.line = table.lines?.[r];
-    cur.cells = cells;
-    cur.bad = false;
-    if (cells.length !== ncol) {
-      problem(undefined, `has ${cells.length} value${cells.length === 1 ? '' : 's'} but the header has ${ncol} columns; the row was left out`);
-      return null;
-    }
-    const id = textOf(cells[idCol]);
-    if (id === '') {
-      problem(idCol, 'missing star id; the row was left out');
-      return null;
-    }
-    const bad = starIdProblem(id);
-    if (bad) {
-      problem(idCol, `${bad}; the row was left out`);
-      return null;
-    }
-    return id;
-  };
-
-  if (mapping.layout === 'wide') {
-    const stars: MappedStar[] = [];
-    // An array, not the Map: iterating a Map makes a fresh [key, value] pair per band and row.
-    const bandList = [...bandCols].map(([key, cols]) => ({ key, cols }));
-    const firstRow = new Map<string, number>();
-    let rejected = 0;
-    table.rows.forEach((cells, r) => {
-      const id = beginRow(cells, r);
-      if (id === null) {
-        rejected++;
-        return;
-      }
-      const prior = firstRow.get(id);
-      if (prior !== undefined) {
-        problem(idCol, `duplicate star id "${id}" (first in row ${prior}); the row was left out`);
-        rejected++;
-        return;
-      }
-      firstRow.set(id, cur.row);
-      const star: MappedStar = { id, measurements: [], row: cur.row };
-      readStarValues(star, false);
-      for (let j = 0; j < bandList.length; j++) {
-        const key = bandList[j].key;
-        const b = bandList[j].cols;
-        const mag = magnitude(b.mag, num(b.mag, 'magnitude', key), `${key} magnitude`);
-        const magErr = num(b.mag_err, 'magnitude error', key);
-        const jy = num(b.jy, 'flux', key);
-        const jyErr = num(b.jy_err, 'flux error', key);
-        const magUl = magnitude(b.mag_ul, num(b.mag_ul, 'upper limit', key), `${key} upper limit`);
-        const jyUl = num(b.jy_ul, 'upper limit', key);
-        const gFlux = num(b.gaia_flux, 'Gaia flux', key);
-        const gFluxErr = num(b.gaia_flux_err, 'Gaia flux error', key);
-        nonNegative(b.mag_err, magErr, 'error');
-        nonNegative(b.jy_err, jyErr, 'error');
-        nonNegative(b.gaia_flux_err, gFluxErr, 'error');
-        const given = (mag !== undefined ? 1 : 0) + (jy !== undefined ? 1 : 0) + (magUl !== undefined ? 1 : 0) + (jyUl !== undefined ? 1 : 0) + (gFlux !== undefined ? 1 : 0);
-        if (given === 0) continue;
-        if (given > 1) {
-          problem(b.mag ?? b.jy ?? b.gaia_flux ?? b.mag_ul ?? b.jy_ul, `band ${key} has both a value and an upper limit; keep one`);
-          continue;
-        }
-        const q = qualityOf(key);
-        if (!q.keep) {
-          excluded++;
-          continue;
-        }
-        const quality = q.letter ? { quality: q.letter } : {};
-        if (mag !== undefined) {
-          if (magErr === undefined) problem(b.mag_err ?? b.mag, `band ${key} has a magnitude but no error; the value was not used`, 'warning');
-          else star.measurements.push({ bandKey: key, mag, magErr, ...quality });
-        } else if (jy !== undefined) {
-          if (jyErr === undefined) problem(b.jy_err ?? b.jy, `band ${key} has a flux but no error; the value was not used`, 'warning');
-          else if (jy <= 0) problem(b.jy, `flux ${jy} Jy must be positive (give a negative detection as an upper limit)`);
-          else star.measurements.push({ bandKey: key, fnuJy: jy, fnuErrJy: jyErr, ...quality });
-        } else if (gFlux !== undefined) {
-          if (gFlux <= 0) problem(b.gaia_flux, `Gaia flux ${gFlux} e⁻/s must be positive`);
-          else if (gFluxErr === undefined) problem(b.gaia_flux_err ?? b.gaia_flux, `band ${key} has a Gaia flux but no error; the value was not used`, 'warning');
-          else {
-            const m = magnitude(b.gaia_flux, -2.5 * Math.log10(gFlux) + GAIA_VEGA_ZERO_POINT_MAG[key], `${key} from the Gaia flux ${gFlux} e⁻/s,`);
-            if (m !== undefined) star.measurements.push({ bandKey: key, mag: m, magErr: MAG_PER_LN * (gFluxErr / gFlux), ...quality });
-          }
-        } else if (magUl !== undefined) {
-          star.measurements.push({ bandKey: key, mag: magUl, upperLimit: true, ...quality });
-        } else if (jyUl !== undefined) {
-          if (jyUl <= 0) problem(b.jy_ul, `upper-limit flux ${jyUl} Jy must be positive`);
-          else star.measurements.push({ bandKey: key, fnuJy: jyUl, upperLimit: true, ...quality });
-        }
-      }
-      if (cur.bad) {
-        rejected++;
-        return;
-      }
-      stars.push(star);
-    });
-    return result(stars, table.rows.length, rejected, excluded);
+  putLong(star: LongStar): void {
+    this.long.set(star.id, star);
   }
+  eachLong(fn: (star: LongStar) => void): void {
+    for (const s of this.long.values()) fn(s);
+  }
+}
 
-  // Long format: one row per star and band.
-  const c = {
-    band: roleCol('band')!,
-    mag: roleCol('mag'),
-    mag_err: roleCol('mag_err'),
-    jy: roleCol('jy'),
-    jy_err: roleCol('jy_err'),
-    ul: roleCol('ul'),
-  };
-  const byId = new Map<string, MappedStar & { bad: boolean; rows: number; bandRow: Map<string, number> }>();
-  let rejected = 0;
-  table.rows.forEach((cells, r) => {
-    const id = beginRow(cells, r);
-    if (id === null) {
-      rejected++;
+export interface RowCounts {
+  rowCount: number;
+  rejectedRows: number;
+  excludedByQuality: number;
+}
+
+/**
+ * The mapping applied one row at a time: `row` for each data row in file order, then `finish`.
+ * Stars go to the store, problems (file, row, column) to the sink. A star with an error in any of
+ * its rows is left out whole; the others carry on, so the caller can import the valid rows and keep
+ * the report. When the mapping itself has errors (`refused`), rows are only counted.
+ */
+export class RowMapper {
+  readonly refused: boolean;
+  private rowCount = 0;
+  private rejected = 0;
+  private excluded = 0;
+  private readonly rowFn: (cells: TableCell[], line: number | undefined) => void;
+  private readonly finishFn: () => void;
+
+  constructor(
+    columns: readonly string[],
+    file: string,
+    mapping: Mapping,
+    rules: MappingRules,
+    options: ApplyOptions,
+    private readonly store: MapperStore,
+    sink: ProblemSink,
+  ) {
+    const { bandKeys } = options;
+    let fatal = false;
+    const push = (p: MappingProblem) => {
+      if (p.severity === 'error') fatal = true;
+      sink.add(p);
+    };
+    for (const p of checkMapping(mapping, columns, bandKeys, file)) push(p);
+    const colIndex = new Map(columns.map((c, i) => [c, i] as const));
+    const noop = () => undefined;
+    if (fatal) {
+      this.refused = true;
+      this.rowFn = () => void this.rejected++;
+      this.finishFn = noop;
       return;
     }
-    let s = byId.get(id);
-    if (!s) {
-      s = { id, measurements: [], row: cur.row, bad: false, rows: 0, bandRow: new Map() };
-      byId.set(id, s);
+    const roleCol = (role: ColumnRole): number | undefined => {
+      const e = Object.entries(mapping.columns).find(([, a]) => a.role === role);
+      return e ? colIndex.get(e[0]) : undefined;
+    };
+    const idCol = roleCol('id')!;
+    const starCols: Partial<Record<StarRole, number>> = {};
+    for (const r of Object.keys(STAR_PROPS) as StarRole[]) {
+      const c = roleCol(r);
+      if (c !== undefined) starCols[r] = c;
     }
-    s.rows++;
-    readStarValues(s, true);
-    const key = textOf(cells[c.band]);
-    if (!bandKeys.includes(key)) {
-      const guess = key === '' ? undefined : closestBandKey(key, bandKeys);
-      problem(c.band, key === '' ? 'missing band' : `unknown band "${shownText(key)}" (band keys are case-sensitive${guess ? `; did you mean '${guess}'?` : `; known bands: ${bandKeys.join(' ')}`})`);
-    } else {
-      const prior = s.bandRow.get(key);
-      if (prior !== undefined) problem(c.band, `duplicate: star "${id}" already has band ${key} in row ${prior}`);
-      else s.bandRow.set(key, cur.row);
+    // Quality rules by column.
+    const keepByCol = new Map<number, Set<string>>();
+    for (const rule of rules.quality) {
+      const c = colIndex.get(rule.column);
+      if (c === undefined) {
+        push({ file, row: 0, severity: 'error', message: `the quality rule names column "${rule.column}", which the file does not have` });
+        continue;
+      }
+      if (mapping.columns[rule.column]?.role !== 'quality') {
+        push({ file, row: 0, column: { name: rule.column, number: c + 1 }, severity: 'error', message: `the quality rule on ${rule.column} needs that column mapped to quality letters` });
+        continue;
+      }
+      keepByCol.set(c, new Set(rule.keep.map((k) => k.trim().toUpperCase())));
     }
-    const mag = magnitude(c.mag, num(c.mag, 'magnitude'), 'magnitude');
-    const magErr = num(c.mag_err, 'magnitude error');
-    const jy = num(c.jy, 'flux');
-    const jyErr = num(c.jy_err, 'flux error');
-    nonNegative(c.mag_err, magErr, 'error');
-    nonNegative(c.jy_err, jyErr, 'error');
-    const flagText = c.ul === undefined ? '' : textOf(cells[c.ul]).toLowerCase();
-    if (!TRUE_FLAGS.has(flagText) && !FALSE_FLAGS.has(flagText)) problem(c.ul, `upper-limit flag must be 1 or 0/empty, found "${shownText(flagText)}"`);
-    const ul = TRUE_FLAGS.has(flagText);
-    if (mag !== undefined && jy !== undefined) problem(c.mag, 'both a magnitude and a flux are given; one row holds one of them');
-    else if (mag === undefined && jy === undefined) problem(c.mag ?? c.jy, 'neither a magnitude nor a flux is given');
-    if (!cur.bad) {
-      if (mag !== undefined) {
-        if (ul) s.measurements.push({ bandKey: key, mag, upperLimit: true });
-        else if (magErr === undefined) problem(c.mag_err ?? c.mag, `band ${key} has a magnitude but no error; the value was not used`, 'warning');
-        else s.measurements.push({ bandKey: key, mag, magErr });
-      } else if (jy !== undefined) {
-        if (jy <= 0) problem(c.jy, `flux ${jy} Jy must be positive`);
-        else if (ul) s.measurements.push({ bandKey: key, fnuJy: jy, upperLimit: true });
-        else if (jyErr === undefined) problem(c.jy_err ?? c.jy, `band ${key} has a flux but no error; the value was not used`, 'warning');
-        else s.measurements.push({ bandKey: key, fnuJy: jy, fnuErrJy: jyErr });
+    if (fatal) {
+      this.refused = true;
+      this.rowFn = () => void this.rejected++;
+      this.finishFn = noop;
+      return;
+    }
+    this.refused = false;
+
+    const bandCols = new Map<string, BandCols>();
+    const band = (key: string) => {
+      if (!bandCols.has(key)) bandCols.set(key, {});
+      return bandCols.get(key)!;
+    };
+    for (const [name, a] of Object.entries(mapping.columns)) {
+      const c = colIndex.get(name)!;
+      if (a.role === 'quality') {
+        a.bands!.forEach((b, pos) => {
+          if (b !== '-') band(b).quality = { col: c, pos, single: a.bands!.length === 1 };
+        });
+      } else if (mapping.layout === 'wide' && a.band && BAND_ROLES.includes(a.role)) {
+        (band(a.band) as Record<string, number>)[a.role] = c;
       }
     }
-    if (cur.bad) s.bad = true;
-  });
-  const stars: MappedStar[] = [];
-  for (const s of byId.values()) {
-    if (s.bad) {
-      rejected += s.rows;
-      problems.push({ file, row: s.row, line: table.lines?.[s.row - 1], severity: 'error', message: `star "${s.id}" was left out because of the errors in its rows` });
-      continue;
+
+    // A band whose value column has no error column beside it cannot be used in any row: said once,
+    // at the top of the report, naming the bands, instead of once per row.
+    const noErrorColumn = [...bandCols]
+      .filter(([, b]) => (b.mag !== undefined && b.mag_err === undefined) || (b.jy !== undefined && b.jy_err === undefined) || (b.gaia_flux !== undefined && b.gaia_flux_err === undefined))
+      .map(([key, b]) => ({ key, col: (b.mag ?? b.jy ?? b.gaia_flux)! }));
+    if (noErrorColumn.length > 0) {
+      const first = noErrorColumn[0];
+      push({
+        file,
+        row: 0,
+        column: { name: columns[first.col], number: first.col + 1 },
+        severity: 'warning',
+        message: `${noErrorColumn.map((b) => b.key).join(', ')}: no error column is mapped, so ${noErrorColumn.length === 1 ? 'this band is' : 'these bands are'} not used in any row; map each band's error column (such as ${first.key}_err or e_${first.key})`,
+      });
     }
-    stars.push({ id: s.id, raDeg: s.raDeg, decDeg: s.decDeg, parallaxMas: s.parallaxMas, parallaxErrMas: s.parallaxErrMas, avMag: s.avMag, measurements: s.measurements, row: s.row });
+
+    const ncol = columns.length;
+    const cur = { row: 0, line: undefined as number | undefined, cells: [] as TableCell[], bad: false };
+    const problem = (col: number | undefined, message: string, severity: 'error' | 'warning' = 'error') => {
+      sink.add({
+        file,
+        row: cur.row,
+        line: cur.line,
+        column: col === undefined ? undefined : { name: columns[col], number: col + 1 },
+        severity,
+        message: `row ${cur.row}${cur.line === undefined ? '' : ` (file line ${cur.line})`}${col === undefined ? '' : `, column ${columns[col]}`}: ${message}`,
+      });
+      if (severity === 'error') cur.bad = true;
+    };
+    /** The cell as a number; `what` (prefixed by `key` when given) names it in the problem, built only then. */
+    const num = (col: number | undefined, what: string, key?: string): number | undefined => {
+      if (col === undefined) return undefined;
+      const x = readCellNumber(cur.cells[col]);
+      if (x !== undefined && !Number.isFinite(x)) {
+        const text = shownText(textOf(cur.cells[col]));
+        problem(col, `${key === undefined ? what : `${key} ${what}`} "${text}" is ${Number.isNaN(x) ? 'not a number' : 'not a finite number (too large for a double)'}`);
+        return undefined;
+      }
+      return x;
+    };
+    /** A magnitude (value or upper limit) inside MAG_RANGE. */
+    const magnitude = (col: number | undefined, value: number | undefined, what: string): number | undefined => {
+      if (value === undefined || (value >= MAG_RANGE.min && value <= MAG_RANGE.max)) return value;
+      problem(col, `${what} ${value} is outside ${MAG_RANGE.min}…${MAG_RANGE.max} mag`);
+      return undefined;
+    };
+    const nonNegative = (col: number | undefined, value: number | undefined, what: string) => {
+      if (value !== undefined && value < 0) problem(col, `negative ${what} ${value}`);
+    };
+    /** true when the band's value may be used under the quality rules */
+    const qualityOf = (key: string): { keep: boolean; letter?: string } => {
+      const q = bandCols.get(key)?.quality;
+      if (!q) return { keep: true };
+      const text = textOf(cur.cells[q.col]);
+      const letter = q.single ? text : text.charAt(q.pos);
+      const keep = keepByCol.get(q.col);
+      if (!keep) return { keep: true, letter: letter || undefined };
+      return { keep: letter !== '' && keep.has(letter.toUpperCase()), letter: letter || undefined };
+    };
+
+    const starRoles = Object.keys(starCols) as StarRole[];
+    const readStarValues = (star: MappedStar, mergeWithin: boolean) => {
+      for (let j = 0; j < starRoles.length; j++) {
+        const r = starRoles[j];
+        const c = starCols[r]!;
+        const v = num(c, STAR_WORDS[r]);
+        if (v === undefined) continue;
+        if (r === 'ra' && (v < 0 || v >= 360)) problem(c, `right ascension ${v} is outside 0 ≤ ra < 360 degrees`);
+        if (r === 'dec' && (v < -90 || v > 90)) problem(c, `declination ${v} is outside −90…90 degrees`);
+        if (r === 'parallax_err' || r === 'av') nonNegative(c, v, r === 'av' ? 'A_V' : 'parallax error');
+        const prop = STAR_PROPS[r];
+        if (mergeWithin && star[prop] !== undefined && star[prop] !== v) problem(c, `${STAR_WORDS[r]} ${v} differs from ${star[prop]} given for star "${star.id}" in an earlier row`);
+        else star[prop] = v;
+      }
+    };
+
+    /** Makes the next row current; its star id, or null when the row is ragged or has no id (both reported). */
+    const beginRow = (cells: TableCell[], line: number | undefined): string | null => {
+      cur.row = this.rowCount;
+      cur.line = line;
+      cur.cells = cells;
+      cur.bad = false;
+      if (cells.length !== ncol) {
+        problem(undefined, `has ${cells.length} value${cells.length === 1 ? '' : 's'} but the header has ${ncol} columns; the row was left out`);
+        return null;
+      }
+      const id = textOf(cells[idCol]);
+      if (id === '') {
+        problem(idCol, 'missing star id; the row was left out');
+        return null;
+      }
+      const bad = starIdProblem(id);
+      if (bad) {
+        problem(idCol, `${bad}; the row was left out`);
+        return null;
+      }
+      return id;
+    };
+
+    if (mapping.layout === 'wide') {
+      // An array, not the Map: iterating a Map makes a fresh [key, value] pair per band and row.
+      const bandList = [...bandCols].map(([key, cols]) => ({ key, cols }));
+      this.rowFn = (cells, line) => {
+        const id = beginRow(cells, line);
+        if (id === null) {
+          this.rejected++;
+          return;
+        }
+        const prior = store.firstRow(id, cur.row);
+        if (prior !== undefined) {
+          problem(idCol, `duplicate star id "${id}" (first in row ${prior}); the row was left out`);
+          this.rejected++;
+          return;
+        }
+        const star: MappedStar = { id, measurements: [], row: cur.row };
+        readStarValues(star, false);
+        for (let j = 0; j < bandList.length; j++) {
+          const key = bandList[j].key;
+          const b = bandList[j].cols;
+          const mag = magnitude(b.mag, num(b.mag, 'magnitude', key), `${key} magnitude`);
+          const magErr = num(b.mag_err, 'magnitude error', key);
+          const jy = num(b.jy, 'flux', key);
+          const jyErr = num(b.jy_err, 'flux error', key);
+          const magUl = magnitude(b.mag_ul, num(b.mag_ul, 'upper limit', key), `${key} upper limit`);
+          const jyUl = num(b.jy_ul, 'upper limit', key);
+          const gFlux = num(b.gaia_flux, 'Gaia flux', key);
+          const gFluxErr = num(b.gaia_flux_err, 'Gaia flux error', key);
+          nonNegative(b.mag_err, magErr, 'error');
+          nonNegative(b.jy_err, jyErr, 'error');
+          nonNegative(b.gaia_flux_err, gFluxErr, 'error');
+          const given = (mag !== undefined ? 1 : 0) + (jy !== undefined ? 1 : 0) + (magUl !== undefined ? 1 : 0) + (jyUl !== undefined ? 1 : 0) + (gFlux !== undefined ? 1 : 0);
+          if (given === 0) continue;
+          if (given > 1) {
+            problem(b.mag ?? b.jy ?? b.gaia_flux ?? b.mag_ul ?? b.jy_ul, `band ${key} has both a value and an upper limit; keep one`);
+            continue;
+          }
+          const q = qualityOf(key);
+          if (!q.keep) {
+            this.excluded++;
+            continue;
+          }
+          const quality = q.letter ? { quality: q.letter } : {};
+          if (mag !== undefined) {
+            if (magErr === undefined) {
+              if (b.mag_err !== undefined) problem(b.mag_err, `band ${key} has a magnitude but no error; the value was not used`, 'warning');
+            } else star.measurements.push({ bandKey: key, mag, magErr, ...quality });
+          } else if (jy !== undefined) {
+            if (jyErr === undefined) {
+              if (b.jy_err !== undefined) problem(b.jy_err, `band ${key} has a flux but no error; the value was not used`, 'warning');
+            } else if (jy <= 0) problem(b.jy, `flux ${jy} Jy must be positive (give a negative detection as an upper limit)`);
+            else star.measurements.push({ bandKey: key, fnuJy: jy, fnuErrJy: jyErr, ...quality });
+          } else if (gFlux !== undefined) {
+            if (gFlux <= 0) problem(b.gaia_flux, `Gaia flux ${gFlux} e⁻/s must be positive`);
+            else if (gFluxErr === undefined) {
+              if (b.gaia_flux_err !== undefined) problem(b.gaia_flux_err, `band ${key} has a Gaia flux but no error; the value was not used`, 'warning');
+            } else {
+              const m = magnitude(b.gaia_flux, -2.5 * Math.log10(gFlux) + GAIA_VEGA_ZERO_POINT_MAG[key], `${key} from the Gaia flux ${gFlux} e⁻/s,`);
+              if (m !== undefined) star.measurements.push({ bandKey: key, mag: m, magErr: MAG_PER_LN * (gFluxErr / gFlux), ...quality });
+            }
+          } else if (magUl !== undefined) {
+            star.measurements.push({ bandKey: key, mag: magUl, upperLimit: true, ...quality });
+          } else if (jyUl !== undefined) {
+            if (jyUl <= 0) problem(b.jy_ul, `upper-limit flux ${jyUl} Jy must be positive`);
+            else star.measurements.push({ bandKey: key, fnuJy: jyUl, upperLimit: true, ...quality });
+          }
+        }
+        if (cur.bad) {
+          this.rejected++;
+          return;
+        }
+        store.addStar(star);
+      };
+      this.finishFn = noop;
+      return;
+    }
+
+    // Long format: one row per star and band.
+    const c = {
+      band: roleCol('band')!,
+      mag: roleCol('mag'),
+      mag_err: roleCol('mag_err'),
+      jy: roleCol('jy'),
+      jy_err: roleCol('jy_err'),
+      ul: roleCol('ul'),
+    };
+    this.rowFn = (cells, line) => {
+      const id = beginRow(cells, line);
+      if (id === null) {
+        this.rejected++;
+        return;
+      }
+      let s = store.getLong(id);
+      if (!s) s = { id, measurements: [], row: cur.row, bad: false, rows: 0, bandRow: {}, ...(cur.line !== undefined ? { line: cur.line } : {}) };
+      s.rows++;
+      readStarValues(s, true);
+      const key = textOf(cells[c.band]);
+      if (!bandKeys.includes(key)) {
+        const guess = key === '' ? undefined : closestBandKey(key, bandKeys);
+        problem(c.band, key === '' ? 'missing band' : `unknown band "${shownText(key)}" (band keys are case-sensitive${guess ? `; did you mean '${guess}'?` : `; known bands: ${bandKeys.join(' ')}`})`);
+      } else {
+        const prior = Object.prototype.hasOwnProperty.call(s.bandRow, key) ? s.bandRow[key] : undefined;
+        if (prior !== undefined) problem(c.band, `duplicate: star "${id}" already has band ${key} in row ${prior}`);
+        else s.bandRow[key] = cur.row;
+      }
+      const mag = magnitude(c.mag, num(c.mag, 'magnitude'), 'magnitude');
+      const magErr = num(c.mag_err, 'magnitude error');
+      const jy = num(c.jy, 'flux');
+      const jyErr = num(c.jy_err, 'flux error');
+      nonNegative(c.mag_err, magErr, 'error');
+      nonNegative(c.jy_err, jyErr, 'error');
+      const flagText = c.ul === undefined ? '' : textOf(cells[c.ul]).toLowerCase();
+      if (!TRUE_FLAGS.has(flagText) && !FALSE_FLAGS.has(flagText)) problem(c.ul, `upper-limit flag must be 1 or 0/empty, found "${shownText(flagText)}"`);
+      const ul = TRUE_FLAGS.has(flagText);
+      if (mag !== undefined && jy !== undefined) problem(c.mag, 'both a magnitude and a flux are given; one row holds one of them');
+      else if (mag === undefined && jy === undefined) problem(c.mag ?? c.jy, 'neither a magnitude nor a flux is given');
+      if (!cur.bad) {
+        if (mag !== undefined) {
+          if (ul) s.measurements.push({ bandKey: key, mag, upperLimit: true });
+          else if (magErr === undefined) problem(c.mag_err ?? c.mag, `band ${key} has a magnitude but no error; the value was not used`, 'warning');
+          else s.measurements.push({ bandKey: key, mag, magErr });
+        } else if (jy !== undefined) {
+          if (jy <= 0) problem(c.jy, `flux ${jy} Jy must be positive`);
+          else if (ul) s.measurements.push({ bandKey: key, fnuJy: jy, upperLimit: true });
+          else if (jyErr === undefined) problem(c.jy_err ?? c.jy, `band ${key} has a flux but no error; the value was not used`, 'warning');
+          else s.measurements.push({ bandKey: key, fnuJy: jy, fnuErrJy: jyErr });
+        }
+      }
+      if (cur.bad) s.bad = true;
+      store.putLong(s);
+    };
+    this.finishFn = () => {
+      store.eachLong((s) => {
+        if (s.bad) {
+          this.rejected += s.rows;
+          sink.add({ file, row: s.row, line: s.line, severity: 'error', message: `star "${s.id}" was left out because of the errors in its rows` });
+          return;
+        }
+        store.addStar({ id: s.id, raDeg: s.raDeg, decDeg: s.decDeg, parallaxMas: s.parallaxMas, parallaxErrMas: s.parallaxErrMas, avMag: s.avMag, measurements: s.measurements, row: s.row });
+      });
+    };
   }
-  return result(stars, table.rows.length, rejected, excluded);
+
+  /** The next data row (row numbers count from 1 in call order); `line` is its file line when the format has lines. */
+  row(cells: TableCell[], line?: number): void {
+    this.rowCount++;
+    this.rowFn(cells, line);
+  }
+
+  finish(): RowCounts {
+    this.finishFn();
+    return { rowCount: this.rowCount, rejectedRows: this.rejected, excludedByQuality: this.excluded };
+  }
+}
+
+/**
+ * Every row of a table through the mapping → stars with measurements, and every problem with file,
+ * row and column (RowMapper with everything kept in memory).
+ */
+export function applyMapping(table: ColumnTable, mapping: Mapping, rules: MappingRules, options: ApplyOptions): MappingResult {
+  const problems: MappingProblem[] = [];
+  const store = new MemoryStore();
+  const mapper = new RowMapper(table.columns, table.file, mapping, rules, options, store, { add: (p) => problems.push(p) });
+  for (let r = 0; r < table.rows.length; r++) mapper.row(table.rows[r], table.lines?.[r]);
+  const counts = mapper.finish();
+  return {
+    stars: store.stars,
+    problems,
+    ...counts,
+    errorCount: problems.filter((p) => p.severity === 'error').length,
+    warningCount: problems.filter((p) => p.severity === 'warning').length,
+  };
 }

@@ -33,6 +33,9 @@ const TEMPLATES: Template[] = [
   { prefix: 'F', suffix: '', role: 'gaia_flux', onlyKeys: GAIA_KEYS, rank: 1 },
   { prefix: 'e_F', suffix: '', role: 'gaia_flux_err', onlyKeys: GAIA_KEYS, rank: 1 },
   { prefix: 'phot_', suffix: '_mean_mag', role: 'mag', onlyKeys: GAIA_KEYS, keyAnyCase: true, rank: 2 },
+  // Tables derived from the Gaia archive (the archive itself gives no magnitude error) often add one
+  // beside phot_g_mean_mag in the archive's own spelling.
+  { prefix: 'phot_', suffix: '_mean_mag_error', role: 'mag_err', onlyKeys: GAIA_KEYS, keyAnyCase: true, rank: 1 },
   { prefix: '', suffix: 'mag', role: 'mag', rank: 1 },
   { prefix: '', suffix: '_mag', role: 'mag', rank: 1 },
   { prefix: '', suffix: '_m', role: 'mag', rank: 1 },

@@ -2,7 +2,8 @@
 // "" for one quote), and the units and dashes lines of VizieR's tab-separated output. Star names
 // are invented; the numbers are arbitrary inputs, not reference values.
 import { describe, expect, it } from 'vitest';
-import { decodeText, parseDelimited } from './delimited';
+import { decodeText } from './delimited';
+import { parseDelimited } from './delimited-stream';
 
 describe('RFC 4180 splitting', () => {
   it('handles quotes, doubled quotes, delimiters and line breaks inside quotes, CRLF, BOM and comments', () => {

@@ -3,6 +3,7 @@
 // the checks on every row, are core/input/mapping's (detectMapping, checkMapping, applyMapping), the one
 // path the web intake and `starkiln fit` share.
 export { DETECTED_FORMATS, FORMAT_LABELS, readUpload, sniffFormat, UnreadableFile, voTableAsColumns, type DetectedFormat, type ImageObservation, type ReadUpload, type ReadUploadOptions, type XmlTableReader } from './table-file';
-export { DelimitedError, decodeText, parseDelimited, type DelimitedTable, type Delimiter } from './delimited';
+export { DelimitedError, decodeText, type DelimitedTable, type Delimiter } from './delimited';
+export { parseDelimited } from './delimited-stream';
 export { FitsError, readFits, readFitsTable, readFitsImageHeader, type FitsFile, type FitsHdu, type FitsTable, type FitsObservationMeta } from './fits-file';
 export { readVoTable, VoTableError } from './votable';

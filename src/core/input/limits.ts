@@ -21,6 +21,11 @@ export class UnreadableFile extends Error {
   }
 }
 
+/** A reader's message without its leading "file: " (the caller names the file once, its own way). */
+export function stripSource(message: string, file: string): string {
+  return message.startsWith(`${file}: `) ? message.slice(file.length + 2) : message;
+}
+
 export interface InputLimits {
   /** Largest file read, in bytes. */
   maxBytes: number;

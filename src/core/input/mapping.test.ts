@@ -53,6 +53,15 @@ describe('detectMapping: column names', () => {
     expect(m.notes.phot_g_mean_mag).toMatch(/phot_g_mean_flux/);
     // Without a flux error column the magnitude is used instead.
     expect(roles(['id', 'phot_g_mean_flux', 'phot_g_mean_mag'])).toMatchObject({ phot_g_mean_flux: 'ignore', phot_g_mean_mag: 'G:mag' });
+    // A magnitude error in the archive's spelling (phot_<band>_mean_mag_error) is the magnitude's error,
+    // for G, BP and RP alike, so the bands are used rather than dropped for want of an error.
+    const magOnly = ['source_id', 'phot_g_mean_mag', 'phot_g_mean_mag_error', 'phot_bp_mean_mag', 'phot_bp_mean_mag_error', 'phot_rp_mean_mag', 'phot_rp_mean_mag_error'];
+    expect(roles(magOnly)).toEqual({
+      source_id: 'id',
+      phot_g_mean_mag: 'G:mag', phot_g_mean_mag_error: 'G:mag_err',
+      phot_bp_mean_mag: 'BP:mag', phot_bp_mean_mag_error: 'BP:mag_err',
+      phot_rp_mean_mag: 'RP:mag', phot_rp_mean_mag_error: 'RP:mag_err',
+    });
   });
 
   it('reads the Gaia FGK benchmark table names (Soubiran et al. 2024: hip, ra/ra_j2000, ks_m, w1mpro, hp_mag, ph_qual_tmass/_allwise)', () => {

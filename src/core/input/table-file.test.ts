@@ -115,7 +115,7 @@ describe('wide tables', () => {
       // One edit away may be a coincidence, but the data would be lost without a word.
       ['warning', 'RPP', 7, `unknown band column "RPP" (band keys are case-sensitive); did you mean 'RP'? The column was not read`],
       // Vmag is a catalogue name for V, read as such; without an e_Vmag its value is not used.
-      ['warning', 'Vmag', 5, 'row 1 (file line 2), column Vmag: band V has a magnitude but no error; the value was not used'],
+      ['warning', 'Vmag', 5, "V: no error column is mapped, so this band is not used in any row; map each band's error column (such as V_err or e_V)"],
     ]);
     // The detection proposes the same on the mapping screen, where the analyst can map the column.
     expect(t.detected.notes.KS).toBe(`unknown band column "KS" (band keys are case-sensitive); did you mean 'Ks'?`);
@@ -127,6 +127,17 @@ describe('wide tables', () => {
     expect(t.detected.notes.notes).toBeUndefined();
     // Warnings only: the star is kept, with nothing read from the mistyped columns.
     expect(t.stars).toEqual([{ id: 'x', row: 1, measurements: [] }]);
+  });
+
+  it('bands with no error column mapped are named once at the top of the report, not once per row', () => {
+    // Gaia DR3 archive spelling: phot_<band>_mean_mag has no error column of its own there.
+    const rows = Array.from({ length: 125 }, (_, i) => `star-${i},${9 + i / 100},0.02,10.1,10.3,9.6`).join('\n');
+    const t = read(`id,V,V_err,phot_g_mean_mag,phot_bp_mean_mag,phot_rp_mean_mag\n${rows}`);
+    expect(t.problems.map((p) => [p.severity, p.row, p.column?.name, p.message])).toEqual([
+      ['warning', 0, 'phot_g_mean_mag', "G, BP, RP: no error column is mapped, so these bands are not used in any row; map each band's error column (such as G_err or e_G)"],
+    ]);
+    expect(t.stars).toHaveLength(125);
+    expect(t.stars.every((s) => s.measurements.length === 1 && s.measurements[0].bandKey === 'V')).toBe(true);
   });
 
   it('a magnitude without an error is not used, with a warning; a value and an upper limit in one band is an error', () => {

@@ -3,10 +3,13 @@
 // intake and the `starkiln fit` command both read files through here, so they accept the same
 // formats and say the same things about a file they cannot read.
 import type { ColumnTable, TableCell } from './mapping';
-import { DelimitedError, decodeText, parseDelimited } from './delimited';
-import { FitsError, readFits, readFitsImageHeader, readFitsTable, type FitsCell } from './fits-file';
+import { DelimitedError, decodeText } from './delimited';
+import type { DelimitedHeader } from './delimited-stream';
+import { TextTableReader } from './text-table';
+import { FitsError, readFits, readFitsImageHeader, readFitsTable, type FitsCell, type FitsValue } from './fits-file';
+import { MAG_RANGE } from './apply-mapping';
 import { readVoTable, VoTableError } from './votable';
-import { ReadBudget, shownText, UnreadableFile, type Clock, type InputLimits } from './limits';
+import { ReadBudget, shownText, stripSource, UnreadableFile, type Clock, type InputLimits } from './limits';
 
 export { InputLimitError, UnreadableFile } from './limits';
 
@@ -91,7 +94,7 @@ function readFitsUpload(bytes: Uint8Array, file: string, hdu: number | string | 
     try {
       const partial = readFits(bytes, { source: file, allowTruncatedData: true });
       const meta = readFitsImageHeader(bytes, { source: file });
-      if (!partial.hdus.some((h) => h.kind === 'bintable') && (meta.filter || meta.object)) return imageUpload(meta);
+      if (!partial.hdus.some((h) => h.kind === 'bintable') && (meta.filter || meta.object)) return imageUpload(meta, file);
     } catch {
       // fall through to the table error, which says what is wrong
     }
@@ -126,14 +129,14 @@ function readFitsUpload(bytes: Uint8Array, file: string, hdu: number | string | 
     throw new UnreadableFile(`${file}: the FITS file holds no binary table and no image (${hdus.map((h) => h.kind).join(', ')})`);
   }
   try {
-    return imageUpload(readFitsImageHeader(bytes, { source: file }));
+    return imageUpload(readFitsImageHeader(bytes, { source: file }), file);
   } catch (err) {
     if (err instanceof FitsError) throw new UnreadableFile(`${file}: the FITS image header cannot be read: ${stripSource(err.message, file)}`);
     throw err;
   }
 }
 
-function imageUpload(meta: ReturnType<typeof readFitsImageHeader>): ReadUpload {
+function imageUpload(meta: ReturnType<typeof readFitsImageHeader>, file: string): ReadUpload {
   const observation: ImageObservation = {
     object: meta.object,
     filter: meta.filter,
@@ -146,17 +149,38 @@ function imageUpload(meta: ReturnType<typeof readFitsImageHeader>): ReadUpload {
     zeroPointErrMag: meta.zeroPointErrMag,
     zeroPointKeyword: meta.zeroPointKeyword,
   };
+  // A magnitude keyword that is present must hold a number: an empty or undefined value, or text,
+  // is refused naming the keyword rather than skipped (it would be offered or stored as no value).
+  const keyword = (k: string) => {
+    const v = meta.header.get(k);
+    return v === undefined ? meta.primaryHeader.get(k) : v;
+  };
+  const refuse = (k: string, v: FitsValue, what: string): never => {
+    const said = v === null ? `${k} has no value` : typeof v === 'string' ? (v.trim() === '' ? `${k} = '' is empty` : `${k} = '${shownText(v.trim())}' is not a number`) : `${k} = ${String(v)} is not a number`;
+    throw new UnreadableFile(`${file}: the header's ${said}, so it cannot be ${what}; correct or remove the keyword and upload the file again`);
+  };
+  const numberOf = (v: FitsValue): number | undefined => {
+    if (typeof v === 'number' && Number.isFinite(v)) return v;
+    if (typeof v === 'string' && /^\s*[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?\s*$/.test(v)) return Number(v);
+    return undefined;
+  };
   for (const [k, errKeys] of MAG_KEYWORDS) {
-    const v = meta.header.get(k) ?? meta.primaryHeader.get(k);
-    if (typeof v !== 'number' || !Number.isFinite(v)) continue;
-    observation.mag = v;
+    const v = keyword(k);
+    if (v === undefined) continue;
+    const mag = numberOf(v);
+    if (mag === undefined) refuse(k, v, 'the magnitude measured on the image');
+    if (mag! < MAG_RANGE.min || mag! > MAG_RANGE.max) {
+      throw new UnreadableFile(`${file}: the header's ${k} = ${mag} is outside ${MAG_RANGE.min}…${MAG_RANGE.max} mag, so it cannot be the magnitude measured on the image; correct or remove the keyword and upload the file again`);
+    }
+    observation.mag = mag;
     observation.magKeyword = k;
     for (const ek of errKeys) {
-      const e = meta.header.get(ek) ?? meta.primaryHeader.get(ek);
-      if (typeof e === 'number' && Number.isFinite(e)) {
-        observation.magErr = e;
-        break;
-      }
+      const e = keyword(ek);
+      if (e === undefined) continue;
+      const err = numberOf(e);
+      if (err === undefined || err < 0) refuse(ek, e, 'the error of the magnitude measured on the image');
+      observation.magErr = err;
+      break;
     }
     break;
   }
@@ -164,91 +188,41 @@ function imageUpload(meta: ReturnType<typeof readFitsImageHeader>): ReadUpload {
   return { format: 'fits-image', observation, warnings: meta.warnings };
 }
 
-function stripSource(message: string, file: string): string {
-  return message.startsWith(`${file}: `) ? message.slice(file.length + 2) : message;
-}
-
-/** Where a cell of a delimited file is, in words: its data row, file line and column. */
-function cellPlace(parsed: { header: string[]; lines: number[] }, r: number, c: number): string {
-  return `row ${r + 1} (file line ${parsed.lines[r]}), column ${parsed.header[c] || c + 1}`;
-}
-
-/**
- * A NUL byte in a cell (text is never expected to hold one; a C string would end there): refused,
- * naming the first cell that has one.
- */
-function refuseNul(parsed: { header: string[]; rows: string[][]; lines: number[] }, file: string): void {
-  for (let r = 0; r < parsed.rows.length; r++) {
-    const row = parsed.rows[r];
-    for (let c = 0; c < row.length; c++) {
-      if (row[c].includes('\u0000')) throw new UnreadableFile(`${file}, ${cellPlace(parsed, r, c)}: the cell "${shownText(row[c], 40)}" holds a NUL byte (U+0000), which text never holds; nothing was read`);
-    }
-  }
-  const h = parsed.header.findIndex((x) => x.includes('\u0000'));
-  if (h >= 0) throw new UnreadableFile(`${file}: column ${h + 1} of the header holds a NUL byte (U+0000)`);
-}
-
-const DECIMAL_COMMA = /^\s*[+-]?(\d+,\d*|,\d+)([eE][+-]?\d+)?\s*$/;
-const DECIMAL_POINT = /^\s*[+-]?(\d+\.\d*|\.\d+)([eEdD][+-]?\d+)?\s*$/;
-
-/**
- * A semicolon-separated file (the export of a spreadsheet set to a language that writes decimal
- * commas) with numbers like 9,52: read as 9.52 when no cell uses a decimal point; refused, naming
- * one cell of each kind, when both kinds appear (which one a cell like 1,234 means cannot be told).
- */
-function readDecimalCommas(parsed: { header: string[]; rows: string[][]; lines: number[] }, file: string): void {
-  let comma: [number, number] | undefined;
-  let point: [number, number] | undefined;
-  for (let r = 0; r < parsed.rows.length && !(comma && point); r++) {
-    const row = parsed.rows[r];
-    for (let c = 0; c < row.length; c++) {
-      const v = row[c];
-      if (!comma && v.includes(',') && DECIMAL_COMMA.test(v)) comma = [r, c];
-      else if (!point && v.includes('.') && DECIMAL_POINT.test(v)) point = [r, c];
-    }
-  }
-  if (!comma) return;
-  if (point) {
-    throw new UnreadableFile(
-      `${file}: semicolon-separated with both decimal commas (${cellPlace(parsed, ...comma)}: "${shownText(parsed.rows[comma[0]][comma[1]])}") and decimal points (${cellPlace(parsed, ...point)}: "${shownText(parsed.rows[point[0]][point[1]])}"); which a number means cannot be told: save the file with one decimal separator (or as comma-separated CSV with decimal points)`,
-    );
-  }
-  for (const row of parsed.rows) {
-    for (let c = 0; c < row.length; c++) if (row[c].includes(',') && DECIMAL_COMMA.test(row[c])) row[c] = row[c].replace(',', '.');
-  }
-}
-
-function readTextUpload(bytes: Uint8Array, file: string, budget: ReadBudget): ReadUpload {
-  let text: string;
+/** Bytes of a text upload as text, or an UnreadableFile saying what they are instead (decodeText). */
+export function decodeTextUpload(bytes: Uint8Array, file: string): string {
   try {
-    text = decodeText(bytes, file);
+    return decodeText(bytes, file);
   } catch (err) {
     if (err instanceof DelimitedError) {
       throw new UnreadableFile(`${file}: ${stripSource(err.message, file)}. Upload a CSV or TSV text file, a VOTable or a FITS table.`);
     }
     throw err;
   }
-  let parsed;
-  try {
-    parsed = parseDelimited(text, { source: file, budget });
-  } catch (err) {
-    if (err instanceof DelimitedError) throw new UnreadableFile(`${file}: ${stripSource(err.message, file)}`);
-    throw err;
-  }
-  if (parsed.header.length === 0 || parsed.header.every((h) => h === '')) throw new UnreadableFile(`${file}: the file has no header line with column names`);
-  const seen = new Map<string, number>();
-  parsed.header.forEach((h, i) => {
-    if (h === '') throw new UnreadableFile(`${file}, line ${parsed.headerLine}, column ${i + 1}: the header has an empty column name`);
-    if (seen.has(h)) throw new UnreadableFile(`${file}, line ${parsed.headerLine}: the column name "${h}" appears twice (columns ${seen.get(h)! + 1} and ${i + 1})`);
-    seen.set(h, i);
-  });
-  if (parsed.rows.length === 0) throw new UnreadableFile(`${file}: the file has a header but no data rows`);
-  if (text.includes('\u0000')) refuseNul(parsed, file);
-  if (parsed.delimiter === ';') readDecimalCommas(parsed, file);
-  return {
-    format: parsed.delimiter === '\t' ? 'tsv' : 'csv',
-    table: { file, columns: parsed.header, rows: parsed.rows, lines: parsed.lines, ...(parsed.units ? { units: parsed.units } : {}) },
-  };
+}
+
+function readTextUpload(bytes: Uint8Array, file: string, budget: ReadBudget): ReadUpload {
+  const text = decodeTextUpload(bytes, file);
+  let head: DelimitedHeader | undefined;
+  const rows: string[][] = [];
+  const lines: number[] = [];
+  const reader = new TextTableReader(
+    file,
+    {
+      head: (h) => {
+        head = h;
+      },
+      row: (fields, line) => {
+        rows.push(fields);
+        lines.push(line);
+      },
+    },
+    budget,
+    true,
+  );
+  reader.push(text);
+  const { format } = reader.end();
+  const h = head!;
+  return { format, table: { file, columns: h.header, rows, lines, ...(h.units ? { units: h.units } : {}) } };
 }
 
 export type XmlTableReader = (bytes: Uint8Array, file: string, budget?: ReadBudget) => ColumnTable;

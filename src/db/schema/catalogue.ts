@@ -43,3 +43,27 @@ export const catalogueVersions = sqliteTable('catalogue_versions', {
     .references(() => campaigns.id, { onDelete: 'cascade' }),
   version: integer('version').notNull().default(0),
 });
+
+/**
+ * The catalogue's summary bins: how many current results of a campaign fall in each cell of review
+ * status × χ²_ν class × Teff bin (100 K) × log L bin (0.1 dex), once for all results (flag '') and
+ * once more per flag they carry. Kept by triggers (drizzle/0014) in the transaction that writes,
+ * reviews or supersedes a result, whoever does it; never written by code. Totals and diagrams add
+ * cells instead of reading every result (src/server/catalogue/bins.ts). Sentinels: chi2_class -1
+ * and teff_bin -1 for no value, lum_bin -100000 for no (or no positive) luminosity.
+ */
+export const catalogueBins = sqliteTable(
+  'catalogue_bins',
+  {
+    campaignId: text('campaign_id')
+      .notNull()
+      .references(() => campaigns.id, { onDelete: 'cascade' }),
+    flag: text('flag').notNull(),
+    reviewStatus: text('review_status').notNull(),
+    chi2Class: integer('chi2_class').notNull(),
+    teffBin: integer('teff_bin').notNull(),
+    lumBin: integer('lum_bin').notNull(),
+    n: integer('n').notNull(),
+  },
+  (t) => [primaryKey({ columns: [t.campaignId, t.flag, t.reviewStatus, t.chi2Class, t.teffBin, t.lumBin] })],
+);

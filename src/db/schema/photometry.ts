@@ -32,8 +32,47 @@ export const uploads = sqliteTable(
     uploadedById: text('uploaded_by_id').references(() => user.id, { onDelete: 'set null' }),
     createdAt: integer('created_at', { mode: 'timestamp_ms' }).notNull().default(now),
     importedAt: integer('imported_at', { mode: 'timestamp_ms' }),
+    // What the intake job read once from the file (columns, units, preview rows, detected mapping,
+    // or an image's observation), so views never parse the file again (decision record 0023).
+    inspection: text('inspection', { mode: 'json' }).$type<Record<string, unknown>>(),
+    // The last check: its summary, the mapping and rules it used and where its staged rows are.
+    lastCheck: text('last_check', { mode: 'json' }).$type<Record<string, unknown>>(),
   },
   (t) => [index('uploads_campaign_idx').on(t.campaignId, t.createdAt)],
+);
+
+export const INTAKE_JOB_KINDS = ['read', 'check', 'import'] as const;
+export type IntakeJobKind = (typeof INTAKE_JOB_KINDS)[number];
+export const INTAKE_JOB_STATUSES = ['pending', 'running', 'done', 'failed'] as const;
+export type IntakeJobStatus = (typeof INTAKE_JOB_STATUSES)[number];
+
+/**
+ * Intake jobs: reading, checking and importing an upload run here, off the web server's request
+ * path, one at a time in the web process's intake thread (decision record 0023).
+ */
+export const intakeJobs = sqliteTable(
+  'intake_jobs',
+  {
+    id: text('id').primaryKey(),
+    uploadId: text('upload_id')
+      .notNull()
+      .references(() => uploads.id, { onDelete: 'cascade' }),
+    campaignId: text('campaign_id')
+      .notNull()
+      .references(() => campaigns.id, { onDelete: 'cascade' }),
+    kind: text('kind', { enum: INTAKE_JOB_KINDS }).notNull(),
+    status: text('status', { enum: INTAKE_JOB_STATUSES }).notNull().default('pending'),
+    // The request as validated: mapping, rules, source, importValidRows, image.
+    input: text('input', { mode: 'json' }).$type<Record<string, unknown>>().notNull(),
+    // The answer when done (check or import summary) or the refusal (status, code, message, report).
+    outcome: text('outcome', { mode: 'json' }).$type<Record<string, unknown>>(),
+    rowsRead: integer('rows_read').notNull().default(0),
+    actorId: text('actor_id').references(() => user.id, { onDelete: 'set null' }),
+    createdAt: integer('created_at', { mode: 'timestamp_ms' }).notNull().default(now),
+    startedAt: integer('started_at', { mode: 'timestamp_ms' }),
+    finishedAt: integer('finished_at', { mode: 'timestamp_ms' }),
+  },
+  (t) => [index('intake_jobs_upload_idx').on(t.uploadId, t.createdAt), index('intake_jobs_pending_idx').on(t.status, t.createdAt)],
 );
 
 /** A saved column mapping (column → role/band), named per campaign. */

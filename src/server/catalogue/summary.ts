@@ -1,4 +1,5 @@
-// Totals and diagrams read every matching row, so they are kept per database, campaign and filter
+// Totals and diagrams add up the campaign's summary bins when those answer the filter (bins.ts),
+// else they read every matching row; either way they are kept per database, campaign and filter
 // under the campaign's stamp (catalogue_versions, raised by triggers on every result insert, review
 // decision, change of current result or deletion: drizzle/0008). A stamp lookup is one primary-key
 // read, so a repeated request costs nothing and a stale answer is never served, even when another
@@ -6,6 +7,7 @@
 import type Database from 'better-sqlite3';
 import type { DbOrTx } from '../../db/client';
 import { filterToParams, type CatalogueFilter } from './filter';
+import { binnedCampaignTotal, binnedCells, binsAnswer, totalOf } from './bins';
 import { filterSql, prepared, STARS_THEN_RESULTS, type Params } from './page';
 
 const SUMMARY_CACHE_ENTRIES = 256;
@@ -61,6 +63,8 @@ export function catalogueCount(db: DbOrTx, campaignId: string, f: CatalogueFilte
 export const SUMMARY_INDEX = 'fit_results f INDEXED BY fit_results_current_summary_idx';
 
 function computeCount(sqlite: Database.Database, campaignId: string, f: CatalogueFilter): { total: number; campaignTotal: number } {
+  // From the summary bins when they answer the filter exactly (bins.ts): a few thousand cells.
+  if (binsAnswer(sqlite, campaignId, f)) return { total: totalOf(binnedCells(sqlite, campaignId, f)), campaignTotal: binnedCampaignTotal(sqlite, campaignId) };
   const count = (g: CatalogueFilter): number => {
     const params: Params = { campaign: campaignId };
     const where = ['f.campaign_id = @campaign', 'f.is_current = 1', ...filterSql(g, params, { flagsFromIndex: true })];

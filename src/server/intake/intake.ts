@@ -1,35 +1,29 @@
-// Intake use cases: receive an upload, detect its format and columns, check a mapping against
-// every row, and import the stars and measurements in one transaction.
+// Intake use cases: receive an upload, then read it, check a mapping against every row and import
+// the stars and measurements in one transaction — each of those three as an intake job that runs
+// off the request (src/server/intake/run.ts, decision record 0023). Views read what the jobs
+// stored; no request parses the file.
 import { and, count, desc, eq, inArray } from 'drizzle-orm';
-import { readFileSync, rmSync } from 'node:fs';
+import { rmSync } from 'node:fs';
 import { z } from 'zod';
-import {
-  applyMapping,
-  COLUMN_ROLES,
-  detectMapping,
-  previewRows,
-  type ColumnRole,
-  type ColumnTable,
-  type Mapping,
-  type MappingResult,
-  type MappingRules,
-} from '../../core/input/mapping';
+import { COLUMN_ROLES, type ColumnRole, type Mapping } from '../../core/input/mapping';
 import type { AppDatabase, DbOrTx } from '../../db/client';
 import { measurements, stars, uploads } from '../../db/schema';
 import type { Actor, AppServices } from '../context';
 import { newId } from '../ids';
 import { parseInput } from '../validation';
-import { recordAudit, recordAuditSql } from '../audit';
+import { recordAudit } from '../audit';
 import { getCurrentLibrary } from '../band-library';
 import { IntakeError } from './errors';
-import { FORMAT_LABELS, readUpload, UnreadableFile, type DetectedFormat, type ReadUpload } from '../../core/input/table-file';
-import type { InputLimits } from '../../core/input/limits';
+import { FORMAT_LABELS, UnreadableFile, type DetectedFormat } from '../../core/input/table-file';
+import { fileProblem } from './report';
+import type { IntakeJobView, ReportEntry, UploadDetail, UploadSummary } from '../../contracts/intake';
+import { enqueueJob, getJob, jobView, latestJob, wakeIntakeRunner } from './jobs';
+import { sniffOnArrival } from './read-table';
+import { checkKey, type Inspection, type StoredCheck } from './run';
 import { starIdProblem } from '../../core/input/star-id';
 import { MAG_RANGE } from '../../core/input/apply-mapping';
-import { fileProblem, toReport } from './report';
-import type { CheckSummary, ImportSummary, ReportEntry, UploadDetail, UploadSummary } from '../../contracts/intake';
 
-export type { CheckSummary, ImportSummary, UploadDetail, UploadSummary } from '../../contracts/intake';
+export type { CheckSummary, ImportSummary, IntakeJobView, UploadDetail, UploadSummary } from '../../contracts/intake';
 import { intakeConfigOf, receiveUpload, type IntakeConfig } from './storage';
 
 export const PREVIEW_ROWS = 8;
@@ -43,17 +37,11 @@ export function intakeConfig(app: AppServices): IntakeConfig {
   return intakeConfigOf(app.env);
 }
 
-/** Reads the stored file of an upload again (uploads are read on each step, never cached). */
-export function readStoredUpload(storedPath: string, file: string, limits?: Partial<InputLimits>): ReadUpload {
-  const bytes = new Uint8Array(readFileSync(storedPath));
-  return readUpload(bytes, file, undefined, { limits });
-}
-
 /**
  * How the intake answers a file it will not read: 400 for what is refused for safety (hostile XML),
  * 422 for a file it cannot read or one past a limit (docs/decisions/0018-input-limits.md).
  */
-function unreadableAnswer(err: UnreadableFile): { status: number; code: string } {
+export function unreadableAnswer(err: UnreadableFile): { status: number; code: string } {
   if (err.kind === 'unsafe') return { status: 400, code: 'unsafe_file' };
   if (err.kind === 'limit') return { status: 422, code: 'input_limit' };
   return { status: 422, code: 'unreadable_file' };
@@ -140,21 +128,17 @@ export function bandForFilter(filter: string | undefined, keys: readonly string[
   return ci.length === 1 ? ci[0] : undefined;
 }
 
-function detail(db: DbOrTx, u: UploadRow, read: ReadUpload | null): UploadDetail {
+function detail(db: DbOrTx, u: UploadRow): UploadDetail {
   const keys = bandKeys(db);
-  const base = { ...summary(u), bandKeys: keys, report: (u.report ?? []) as ReportEntry[] };
-  if (!read) return { ...base, columns: [], units: [], preview: [], detected: null };
-  if (read.format === 'fits-image') {
-    return { ...base, columns: [], units: [], preview: [], detected: null, observation: read.observation, suggestedBand: bandForFilter(read.observation.filter, keys) };
+  const stored = u.lastCheck as unknown as StoredCheck | null;
+  const checked = stored?.mapping && stored.rules ? { mapping: stored.mapping, rules: stored.rules } : null;
+  const base = { ...summary(u), bandKeys: keys, checked, report: (u.report ?? []) as ReportEntry[], job: latestJob(db, u.id) };
+  const ins = u.status === 'rejected' ? null : (u.inspection as unknown as Inspection | null);
+  if (!ins) return { ...base, columns: [], units: [], preview: [], detected: null };
+  if (u.detectedFormat === 'fits-image') {
+    return { ...base, columns: [], units: [], preview: [], detected: null, ...(ins.observation ? { observation: ins.observation } : {}), ...(ins.suggestedBand ? { suggestedBand: ins.suggestedBand } : {}) };
   }
-  const t = read.table;
-  return {
-    ...base,
-    columns: t.columns,
-    units: t.columns.map((_, i) => t.units?.[i] ?? null),
-    preview: previewRows(t, PREVIEW_ROWS),
-    detected: detectMapping(t.columns, t.rows.slice(0, 50), keys),
-  };
+  return { ...base, columns: ins.columns, units: ins.units, preview: ins.preview, detected: ins.detected };
 }
 
 // ---------------------------------------------------------------------------------------------
@@ -167,17 +151,18 @@ function getUploadRow(db: DbOrTx, campaignId: string, uploadId: string): UploadR
 }
 
 /**
- * Stores the request's file, detects its format and reads its columns. A file that cannot be read
- * at all is kept as a rejected upload (with its report) and answered with 422.
+ * Stores the request's file and queues the job that reads it (format, columns, preview, detected
+ * mapping and a first check). A file that is plainly unreadable on arrival (empty, binary content)
+ * is kept as a rejected upload with its report and answered with 422 at once; any other problem
+ * of the file is the reading job's answer.
  */
 export async function createUpload(app: AppServices, actor: Actor, campaignId: string, request: Request, config: IntakeConfig = intakeConfig(app)): Promise<UploadDetail> {
   const stored = await receiveUpload(request, campaignId, config);
   const id = newId();
-  let read: ReadUpload | null = null;
   let problem: string | null = null;
   let answer = { status: 422, code: 'unreadable_file' };
   try {
-    read = readStoredUpload(stored.storedPath, stored.originalName, app.env.inputLimits);
+    sniffOnArrival(stored.storedPath, stored.originalName);
   } catch (err) {
     if (!(err instanceof UnreadableFile)) {
       rmSync(stored.storedPath, { force: true });
@@ -193,185 +178,78 @@ export async function createUpload(app: AppServices, actor: Actor, campaignId: s
     storedPath: stored.storedPath,
     sizeBytes: stored.sizeBytes,
     sha256: stored.sha256,
-    detectedFormat: read?.format ?? null,
+    detectedFormat: null,
     status: problem ? ('rejected' as const) : ('received' as const),
     report: problem ? fileProblem(stored.originalName, problem) : [],
-    rowCount: read && read.format !== 'fits-image' ? read.table.rows.length : read ? 1 : null,
+    rowCount: null,
     uploadedById: actor.id,
   };
   app.db.transaction((tx) => {
     tx.insert(uploads).values(row).run();
     recordAudit(tx, { actorId: actor.id, action: problem ? 'upload.rejected' : 'upload.received', campaignId, details: { uploadId: id, name: stored.originalName, sizeBytes: stored.sizeBytes, sha256: stored.sha256 } });
+    if (!problem) enqueueJob(tx, { uploadId: id, campaignId, kind: 'read', input: {}, actorId: actor.id });
   }, { behavior: 'immediate' });
   if (problem) {
     // The content is useless; keep the record and report, not the bytes.
     rmSync(stored.storedPath, { force: true });
     throw new IntakeError(answer.status, answer.code, problem, { uploadId: id, report: row.report });
   }
-  return detail(app.db, getUploadRow(app.db, campaignId, id), read);
+  wakeIntakeRunner();
+  return detail(app.db, getUploadRow(app.db, campaignId, id));
 }
 
 export function listUploads(db: DbOrTx, campaignId: string, limit = 50): UploadSummary[] {
   return db.select().from(uploads).where(eq(uploads.campaignId, campaignId)).orderBy(desc(uploads.createdAt)).limit(limit).all().map(summary);
 }
 
+/** The upload as its reading job left it (columns, preview, detected mapping), with its latest job. */
 export function getUpload(db: DbOrTx, campaignId: string, uploadId: string): UploadDetail {
-  const u = getUploadRow(db, campaignId, uploadId);
-  if (u.status === 'rejected') return detail(db, u, null);
-  try {
-    return detail(db, u, readStoredUpload(u.storedPath, u.originalName));
-  } catch (err) {
-    if (err instanceof UnreadableFile) return detail(db, u, null);
-    throw err;
-  }
+  return detail(db, getUploadRow(db, campaignId, uploadId));
 }
 
-function checkSummary(uploadId: string, r: MappingResult): CheckSummary {
-  return {
-    uploadId,
-    rowCount: r.rowCount,
-    starCount: r.stars.length,
-    measurementCount: r.stars.reduce((n, s) => n + s.measurements.length, 0),
-    rejectedRows: r.rejectedRows,
-    excludedByQuality: r.excludedByQuality,
-    errorCount: r.errorCount,
-    warningCount: r.warningCount,
-    report: toReport(r.problems),
-  };
-}
-
-function readTableOf(u: UploadRow, limits?: Partial<InputLimits>): ColumnTable {
+function refuseEarly(u: UploadRow): void {
   if (u.status === 'rejected') throw new IntakeError(409, 'conflict', `${u.originalName} was rejected when it arrived and cannot be checked or imported; upload a corrected file.`);
-  let read: ReadUpload;
-  try {
-    read = readStoredUpload(u.storedPath, u.originalName, limits);
-  } catch (err) {
-    // Read at upload, so this is a limit lowered since (or the time limit on a busy machine).
-    if (err instanceof UnreadableFile) throw new IntakeError(unreadableAnswer(err).status, unreadableAnswer(err).code, err.message);
-    throw err;
-  }
-  if (read.format === 'fits-image') throw new IntakeError(400, 'bad_request', `${u.originalName} is a FITS image: import it with a star id, band and magnitude, not a column mapping.`);
-  return read.table;
-}
-
-function mapUpload(db: DbOrTx, u: UploadRow, mapping: Mapping, rules: MappingRules, limits?: Partial<InputLimits>): MappingResult {
-  return applyMapping(readTableOf(u, limits), mapping, rules, { bandKeys: bandKeys(db) });
-}
-
-/** Applies the mapping to every row and keeps the report with the upload. Writes no stars. */
-export function checkUpload(app: AppServices, actor: Actor, campaignId: string, uploadId: string, raw: unknown): CheckSummary {
-  const input = parseInput(checkInput, raw);
-  const u = getUploadRow(app.db, campaignId, uploadId);
-  const result = checkSummary(uploadId, mapUpload(app.db, u, input.mapping as Mapping, input.rules, app.env.inputLimits));
-  app.db
-    .update(uploads)
-    .set({ report: result.report, ...(u.status === 'imported' ? {} : { status: 'checked' as const }) })
-    .where(eq(uploads.id, uploadId))
-    .run();
-  return result;
-}
-
-export interface ImportHooks {
-  /** Called inside the transaction after each star is written (tests use it to fail mid-import). */
-  afterStar?: (starKey: string) => void;
 }
 
 /**
- * Imports in one transaction. With errors in the report and importValidRows false: 422 with the
- * report and nothing written. With importValidRows: the valid stars are imported and the report
- * is kept with the upload.
+ * Queues a check of every row with this mapping and rules (writes no stars). When the upload's
+ * stored check used the same mapping, rules and band keys, the job is answered from it at once and
+ * the file is not read again.
  */
-export function importUpload(app: AppServices, actor: Actor, campaignId: string, uploadId: string, raw: unknown, hooks: ImportHooks = {}): ImportSummary {
+export function checkUpload(app: AppServices, actor: Actor, campaignId: string, uploadId: string, raw: unknown): IntakeJobView {
+  const input = parseInput(checkInput, raw);
+  const u = getUploadRow(app.db, campaignId, uploadId);
+  refuseEarly(u);
+  const stored = u.lastCheck as unknown as StoredCheck | null;
+  if (stored && stored.key === checkKey(input.mapping as Mapping, input.rules, bandKeys(app.db), app.env.inputLimits)) {
+    const job = app.db.transaction((tx) => {
+      tx.update(uploads).set({ report: stored.summary.report, ...(u.status === 'imported' ? {} : { status: 'checked' as const }) }).where(eq(uploads.id, u.id)).run();
+      return enqueueJob(tx, { uploadId, campaignId, kind: 'check', input, actorId: actor.id, done: { check: stored.summary } });
+    }, { behavior: 'immediate' });
+    return jobView(job);
+  }
+  const job = enqueueJob(app.db, { uploadId, campaignId, kind: 'check', input, actorId: actor.id });
+  wakeIntakeRunner();
+  return jobView(job);
+}
+
+/**
+ * Queues the import (one transaction in the job). With errors in the report and importValidRows
+ * false the job ends refused (422 with the report) and nothing is written; with importValidRows
+ * the valid stars are imported and the report is kept with the upload.
+ */
+export function importUpload(app: AppServices, actor: Actor, campaignId: string, uploadId: string, raw: unknown): IntakeJobView {
   const input = parseInput(importInput, raw);
   const u = getUploadRow(app.db, campaignId, uploadId);
-  const source = input.source && input.source !== '' ? input.source : u.originalName;
-  let result: MappingResult;
-  let observation: Record<string, unknown> | undefined;
-  if (u.detectedFormat === 'fits-image' && u.status !== 'rejected') {
-    const read = readStoredUpload(u.storedPath, u.originalName, app.env.inputLimits);
-    if (read.format !== 'fits-image') throw new Error('stored image changed format');
-    if (!input.image) throw new IntakeError(400, 'validation_failed', 'A FITS image needs the star id, band and magnitude measured on it (image.starId, image.band, image.mag, image.magErr).');
-    const keys = bandKeys(app.db);
-    const problems = keys.includes(input.image.band)
-      ? []
-      : [{ file: u.originalName, row: 0, severity: 'error' as const, message: `unknown band "${input.image.band}" (band keys are case-sensitive; known bands: ${keys.join(' ')})` }];
-    observation = { ...read.observation, image: u.originalName };
-    result = {
-      stars: problems.length ? [] : [{ id: input.image.starId, raDeg: read.observation.raDeg, decDeg: read.observation.decDeg, row: 1, measurements: [{ bandKey: input.image.band, mag: input.image.mag, magErr: input.image.magErr }] }],
-      problems,
-      rowCount: 1,
-      rejectedRows: problems.length ? 1 : 0,
-      excludedByQuality: 0,
-      errorCount: problems.length,
-      warningCount: 0,
-    };
-  } else {
-    if (!input.mapping) throw new IntakeError(400, 'validation_failed', 'mapping is required.');
-    result = mapUpload(app.db, u, input.mapping as Mapping, input.rules, app.env.inputLimits);
-  }
-  const check = checkSummary(uploadId, result);
-  if (result.errorCount > 0 && !input.importValidRows) {
-    app.db.update(uploads).set({ report: check.report, status: u.status === 'imported' ? 'imported' : 'checked' }).where(eq(uploads.id, uploadId)).run();
-    throw new IntakeError(422, 'validation_failed', `${u.originalName} has ${result.errorCount} problem${result.errorCount === 1 ? '' : 's'}; nothing was imported. Fix the file or mapping, or choose to import the valid rows and keep the report.`, { report: check.report, summary: { ...check, report: undefined } });
-  }
-  if (result.stars.length === 0) {
-    throw new IntakeError(422, 'nothing_to_import', `${u.originalName}: no valid star to import; nothing was imported.`, { report: check.report, summary: { ...check, report: undefined } });
-  }
+  refuseEarly(u);
+  if (u.detectedFormat !== 'fits-image' && !input.mapping) throw new IntakeError(400, 'validation_failed', 'mapping is required.');
+  const job = enqueueJob(app.db, { uploadId, campaignId, kind: 'import', input: input as unknown as Record<string, unknown>, actorId: actor.id });
+  wakeIntakeRunner();
+  return jobView(job);
+}
 
-  const sqlite = app.db.$client;
-  const nowMs = Date.now();
-  const findStar = sqlite.prepare('SELECT id FROM stars WHERE campaign_id = ? AND star_key = ?');
-  const insertStar = sqlite.prepare(
-    'INSERT INTO stars (campaign_id, star_key, ra_deg, dec_deg, parallax_mas, parallax_err_mas, av_mag, created_at, updated_at) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?)',
-  );
-  // Re-uploading a star keeps what it had where the new file is empty, and takes the new value elsewhere.
-  const updateStar = sqlite.prepare(
-    'UPDATE stars SET ra_deg = coalesce(?, ra_deg), dec_deg = coalesce(?, dec_deg), parallax_mas = coalesce(?, parallax_mas), parallax_err_mas = coalesce(?, parallax_err_mas), av_mag = coalesce(?, av_mag), updated_at = ? WHERE id = ?',
-  );
-  const findMeasurement = sqlite.prepare('SELECT id FROM measurements WHERE star_id = ? AND band_key = ? AND source = ?');
-  const insertMeasurement = sqlite.prepare(
-    'INSERT INTO measurements (star_id, band_key, source, upload_id, mag, mag_err, fnu_jy, fnu_err_jy, upper_limit, quality, observation, created_at) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)',
-  );
-  const updateMeasurement = sqlite.prepare(
-    'UPDATE measurements SET upload_id = ?, mag = ?, mag_err = ?, fnu_jy = ?, fnu_err_jy = ?, upper_limit = ?, quality = ?, observation = ? WHERE id = ?',
-  );
-  const counts = { starsCreated: 0, starsUpdated: 0, measurementsCreated: 0, measurementsUpdated: 0 };
-  const n = (v: number | undefined) => (v === undefined ? null : v);
-  const observationJson = observation ? JSON.stringify(observation) : null;
-
-  sqlite.transaction(() => {
-    for (const s of result.stars) {
-      const existing = findStar.get(campaignId, s.id) as { id: number } | undefined;
-      let starId: number;
-      if (existing) {
-        updateStar.run(n(s.raDeg), n(s.decDeg), n(s.parallaxMas), n(s.parallaxErrMas), n(s.avMag), nowMs, existing.id);
-        starId = existing.id;
-        counts.starsUpdated++;
-      } else {
-        starId = Number(insertStar.run(campaignId, s.id, n(s.raDeg), n(s.decDeg), n(s.parallaxMas), n(s.parallaxErrMas), n(s.avMag), nowMs, nowMs).lastInsertRowid);
-        counts.starsCreated++;
-      }
-      for (const m of s.measurements) {
-        const values = [uploadId, n(m.mag), n(m.magErr), n(m.fnuJy), n(m.fnuErrJy), m.upperLimit ? 1 : 0, m.quality ?? null, observationJson] as const;
-        const prior = findMeasurement.get(starId, m.bandKey, source) as { id: number } | undefined;
-        if (prior) {
-          updateMeasurement.run(...values, prior.id);
-          counts.measurementsUpdated++;
-        } else {
-          insertMeasurement.run(starId, m.bandKey, source, ...values, nowMs);
-          counts.measurementsCreated++;
-        }
-      }
-      hooks.afterStar?.(s.id);
-    }
-    sqlite
-      .prepare('UPDATE uploads SET status = ?, report = ?, imported_row_count = ?, imported_at = ? WHERE id = ?')
-      .run('imported', JSON.stringify(check.report), result.rowCount - result.rejectedRows, nowMs, uploadId);
-    recordAuditSql(sqlite, { actorId: actor.id, action: 'upload.imported', campaignId, details: { uploadId, source, ...counts, problems: result.errorCount } });
-  }).immediate();
-
-  const totals = campaignCounts(app.db, campaignId);
-  return { ...check, source, ...counts, campaignStars: totals.stars, campaignMeasurements: totals.measurements };
+export function getIntakeJob(db: DbOrTx, campaignId: string, uploadId: string, jobId: string): IntakeJobView {
+  return getJob(db, campaignId, uploadId, jobId);
 }
 
 export function campaignCounts(db: DbOrTx, campaignId: string): { stars: number; measurements: number } {

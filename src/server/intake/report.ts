@@ -31,3 +31,41 @@ export function toReport(problems: readonly MappingProblem[]): ReportEntry[] {
 export function fileProblem(file: string, message: string): ReportEntry[] {
   return [{ file, row: 0, severity: 'error', message }];
 }
+
+/**
+ * Problems as a streaming check produces them: the first REPORT_LIMIT kept as report entries, the
+ * rest only counted, so a file with a million bad rows does not hold a million messages. `report()`
+ * equals toReport(all problems).
+ */
+export class CappedProblems {
+  private readonly kept: MappingProblem[] = [];
+  errorCount = 0;
+  warningCount = 0;
+  private extra = 0;
+  private extraErrors = 0;
+  private file = '';
+
+  add(p: MappingProblem): void {
+    if (p.severity === 'error') this.errorCount++;
+    else this.warningCount++;
+    if (this.kept.length === 0 && this.extra === 0) this.file = p.file;
+    if (this.kept.length < REPORT_LIMIT) this.kept.push(p);
+    else {
+      this.extra++;
+      if (p.severity === 'error') this.extraErrors++;
+    }
+  }
+
+  report(): ReportEntry[] {
+    const entries = toReport(this.kept);
+    if (this.extra > 0) {
+      entries.push({
+        file: this.file,
+        row: 0,
+        severity: this.extraErrors > 0 ? 'error' : 'warning',
+        message: `…and ${this.extra} more problems (${this.extraErrors} errors) not listed here`,
+      });
+    }
+    return entries;
+  }
+}

@@ -43,13 +43,29 @@ export const PARTIAL_IDLE_MS = 15 * 60 * 1000;
  * uploads); a worker with the earlier of its start and PARTIAL_IDLE_MS ago. Returns the files removed.
  */
 export function removeLeftoverPartials(dataDir: string, before: number): string[] {
-  const root = path.join(dataDir, 'uploads');
   const removed: string[] = [];
+  for (const { dir, name } of uploadFolderFiles(dataDir)) {
+    if (!name.startsWith(PARTIAL_PREFIX)) continue;
+    const file = path.join(dir, name);
+    try {
+      if (statSync(file).mtimeMs >= before) continue;
+      rmSync(file, { force: true });
+      removed.push(file);
+    } catch {
+      // gone meanwhile (renamed into place or removed by another process)
+    }
+  }
+  return removed;
+}
+
+/** Every file name in the campaign folders under `dataDir/uploads` (none when there are no uploads yet). */
+export function* uploadFolderFiles(dataDir: string): Generator<{ dir: string; name: string }> {
+  const root = path.join(dataDir, 'uploads');
   let campaigns: string[];
   try {
     campaigns = readdirSync(root);
   } catch {
-    return removed; // no uploads yet
+    return; // no uploads yet
   }
   for (const campaign of campaigns) {
     const dir = path.join(root, campaign);
@@ -59,19 +75,8 @@ export function removeLeftoverPartials(dataDir: string, before: number): string[
     } catch {
       continue; // not a folder
     }
-    for (const name of names) {
-      if (!name.startsWith(PARTIAL_PREFIX)) continue;
-      const file = path.join(dir, name);
-      try {
-        if (statSync(file).mtimeMs >= before) continue;
-        rmSync(file, { force: true });
-        removed.push(file);
-      } catch {
-        // gone meanwhile (renamed into place or removed by another process)
-      }
-    }
+    for (const name of names) yield { dir, name };
   }
-  return removed;
 }
 
 export interface StoredFile {

@@ -1,13 +1,14 @@
 // Withdrawing an upload: the upload and everything its import brought in go in one IMMEDIATE
 // transaction — its measurements, and the stars that then have no measurement and no fit left
 // (stars that other files also measured, or that were fitted, stay: their fits and review history
-// are part of the record). The stored file is removed after the commit. Audited with the file's
+// are part of the record). The stored file and its staging file are removed after the commit. Audited with the file's
 // name, checksum and what was removed. Callers check the role (the campaign's analysts, admins).
 import { rmSync } from 'node:fs';
 import type { AppDatabase } from '../../db/client';
 import { recordAudit } from '../audit';
 import type { Actor } from '../context';
 import { HttpError } from '../errors';
+import { removeStaging } from './staging';
 
 export interface WithdrawOutcome {
   uploadId: string;
@@ -26,6 +27,9 @@ export function withdrawUpload(db: AppDatabase, actor: Actor, campaignId: string
         | { id: string; original_name: string; stored_path: string; sha256: string }
         | undefined;
       if (!up) throw new HttpError('not_found', 'No upload with that id in this campaign.');
+      // A job reading or importing it would write for an upload that is gone: wait for it.
+      const busy = sqlite.prepare("SELECT kind FROM intake_jobs WHERE upload_id = ? AND status IN ('pending', 'running') LIMIT 1").pluck().get(uploadId) as string | undefined;
+      if (busy) throw new HttpError('conflict', `${up.original_name} is being ${busy === 'import' ? 'imported' : busy === 'check' ? 'checked' : 'read'}; withdraw it once that has finished.`);
       const starIds = sqlite.prepare('SELECT DISTINCT star_id FROM measurements WHERE upload_id = ?').pluck().all(uploadId) as number[];
       const measurementsRemoved = sqlite.prepare('DELETE FROM measurements WHERE upload_id = ?').run(uploadId).changes;
       const orphan = sqlite.prepare(
@@ -46,5 +50,6 @@ export function withdrawUpload(db: AppDatabase, actor: Actor, campaignId: string
     { behavior: 'immediate' },
   );
   rmSync(outcome.storedPath, { force: true });
+  removeStaging(outcome.storedPath);
   return { uploadId: outcome.uploadId, originalName: outcome.originalName, measurementsRemoved: outcome.measurementsRemoved, starsRemoved: outcome.starsRemoved, starsKept: outcome.starsKept };
 }
