@@ -242,6 +242,8 @@ export async function runFit(args: FitCommandArgs, io: Io): Promise<number> {
       parallaxMas: star.parallaxMas,
       parallaxErrMas: star.parallaxErrMas,
       avMag: star.avMag,
+      lumClass: star.lumClass ?? null,
+      fehDex: star.fehDex ?? null,
     });
     if (!result.ok) failures[result.reason] = (failures[result.reason] ?? 0) + 1;
     rows.push(catalogueRow({ id: star.id, raDeg: star.raDeg, decDeg: star.decDeg, result }));
