@@ -279,7 +279,7 @@ export async function runFit(args: FitCommandArgs, io: Io): Promise<number> {
     notes: table.excludedByQuality > 0 ? [`${table.excludedByQuality} band values were left out by the quality rules`] : undefined,
     createdAt: io.now().toISOString(),
     input: { file: path.basename(args.input), sha256, format: `${formatLabel}, ${resolved.mapping.layout} layout`, rows: table.rowCount, stars: table.stars.length, rejectedRows: table.rejectedRows + starsLeftOut },
-    photosphere: model.photosphere && !args.planckOnly ? `${model.photosphere.data.name} ${model.photosphere.data.version}` : null,
+    photosphere: model.photosphere && !args.planckOnly ? `${model.photosphere.data.name} ${model.photosphere.version}` : null,
     extrapolatedBands: extrapolatedBandKeys(
       usedBandKeys.map((k) => getBand(library, k)!).filter((b) => b !== null),
       args.law,
