@@ -314,6 +314,23 @@ describe('starkiln fit, end to end', () => {
     expect(header).toContain('quality_rules = ph_qual_tmass keep AB ph_qual_allwise keep AB');
   });
 
+  it('a lum_class column beats --lum-class and a feh column is recorded, per star', () => {
+    // Rough magnitudes of a K dwarf (from memory); only which class is used is checked.
+    const phot = '8.2,0.02,7.9,0.003,8.4,0.003,7.3,0.004,6.5,0.02,6.0,0.02,5.9,0.02,40,0.05';
+    writeFileSync(
+      path.join(dir, 'classes.csv'),
+      `id,lum_class,feh,V,V_err,G,G_err,BP,BP_err,RP,RP_err,J,J_err,H,H_err,Ks,Ks_err,parallax_mas,parallax_err_mas\nBrackmere,giant,-1.2,${phot}\nFennlow,,0.1,${phot}\n`,
+    );
+    const r = run('fit', 'classes.csv', '-o', 'classes-out.csv', '--lum-class', 'dwarf');
+    expect(r.code, r.stderr).toBe(0);
+    const rows = readCatalogue(path.join(dir, 'classes-out.csv')).rows;
+    expect(rows.map((x) => [x.id, x.lum_class, x.lum_class_source, x.feh])).toEqual([
+      ['Brackmere', 'giant', 'input', '-1.2'],
+      ['Fennlow', 'dwarf', 'batch', '0.1'],
+    ]);
+    expect(rows[0].flags.split(' ')).toContain('feh_far');
+  });
+
   it('usage errors exit with 64; a missing input with 1; --help and --version print', () => {
     expect(run('fit', 'nope.csv').code).toBe(64);
     const missing = run('fit', 'nope.csv', '-o', 'x.csv');
