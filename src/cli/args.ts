@@ -18,13 +18,17 @@ Teff, angular diameter, radius, luminosity and quality flags.
 Input: CSV or TSV text (wide: one row per star; long: one row per star and band), a
 VOTable (TABLEDATA) or a FITS binary table, told apart by their content. Columns are
 recognised by name, as in the web intake: the canonical names
-  id, ra, dec, parallax_mas, parallax_err_mas, av, and per band <key>, <key>_err (mag),
+  id, ra, dec, parallax_mas, parallax_err_mas, distance_pc, distance_lo_pc, distance_hi_pc,
+  av, and per band <key>, <key>_err (mag),
   <key>_jy, <key>_jy_err (Jy), <key>_ul, <key>_jy_ul (upper limits),
 and catalogue names such as source_id, parallax, phot_g_mean_flux (Gaia, e-/s), j_m and
 j_msigcom with ph_qual (2MASS), w1mpro (WISE), Vmag and e_Vmag, Plx, RA_ICRS (VizieR).
 Band keys (case-sensitive): U B V R I  J H Ks  G BP RP  u g r i z  W1 W2 W3 W4  BT VT Hp  FUV NUV
 Quality letters (2MASS and WISE ph_qual): by default a band's value is used only where
-its letter is A or B.
+its letter is A or B; a U letter (and an AllWISE magnitude without an error) is an upper
+limit, used as one unless it is brighter than the band's saturation limit. The catalogues'
+own flags are read when present: cc_flg, cc_flags and ext_flg leave a band out, a large
+corrected BP/RP excess leaves BP and RP out, RUWE above 1.4 (G 6 or fainter) flags the star.
 
 Options:
   -o, --output <file>     catalogue to write (.csv, .ecsv or .json); "-" writes CSV to stdout
@@ -49,6 +53,21 @@ Options:
                           quality letters to keep for a quality column (its name, or 2mass
                           or wise), e.g. --quality 2mass=ABC (default: A and B)
   --no-quality-rules      use every value whatever its quality letter
+  --bright-limits <which> catalogue (default): leave out values brighter than the survey's
+                          saturation limit (Gaia G 3, BP G 3.94, RP 3.45; 2MASS J 4.5, H 4,
+                          Ks 3.5; AllWISE W1 8.1, W2 6.7, W3 3.8, W4 -0.4) in columns named as
+                          the survey names them (j_m, w1mpro, phot_g_mean_flux …); all: in
+                          canonical <key> columns too; off: none
+  --bright-limit <key>=<mag>
+                          replace one band's bright limit, e.g. --bright-limit W1=7.5
+  --no-catalogue-flags    do not read cc_flg, cc_flags, ext_flg, ruwe and the BP/RP excess
+  --no-native-limits      keep 2MASS U letters and AllWISE null-error magnitudes out instead
+                          of reading them as upper limits
+  --parallax-origin <o>   gaia_dr3, hipparcos or other: where the parallax column comes from
+                          (default: from the column names)
+  --parallax-zero-point <mas>
+                          Gaia DR3 parallax zero-point Z, subtracted from Gaia DR3 parallaxes
+                          (default -0.017; 0 = none); a distance_pc column is used as given
   --mapping <file.json>   use a saved column mapping (a preset exported from the app, or one
                           written by --save-mapping) instead of the detection
   --save-mapping <file>   write the mapping used, in the same form, for the next run
@@ -81,6 +100,12 @@ export interface FitCommandArgs {
   /** --quality: letters to keep per quality column ('2mass' and 'wise' name the column by its bands). */
   qualityKeep: { column: string; letters: string[] }[];
   noQualityRules: boolean;
+  brightLimits: 'catalogue' | 'all' | 'off';
+  brightLimitMag: Record<string, number>;
+  catalogueFlags: boolean;
+  nativeUpperLimits: boolean;
+  parallaxOrigin?: 'gaia_dr3' | 'hipparcos' | 'other';
+  gaiaParallaxZeroPointMas: number;
   mappingFile?: string;
   saveMappingFile?: string;
   showMapping: boolean;
@@ -120,6 +145,12 @@ export function parseCommandLine(argv: string[]): ParsedCommand {
         columns: { type: 'string', multiple: true },
         quality: { type: 'string', multiple: true },
         'no-quality-rules': { type: 'boolean' },
+        'bright-limits': { type: 'string' },
+        'bright-limit': { type: 'string', multiple: true },
+        'no-catalogue-flags': { type: 'boolean' },
+        'no-native-limits': { type: 'boolean' },
+        'parallax-origin': { type: 'string' },
+        'parallax-zero-point': { type: 'string' },
         mapping: { type: 'string' },
         'save-mapping': { type: 'string' },
         'show-mapping': { type: 'boolean' },
@@ -172,6 +203,20 @@ export function parseCommandLine(argv: string[]): ParsedCommand {
     }
     qualityKeep.push({ column, letters: [...new Set(letters)] });
   }
+  const brightLimits = (v['bright-limits'] ?? 'catalogue').toLowerCase();
+  if (brightLimits !== 'catalogue' && brightLimits !== 'all' && brightLimits !== 'off') throw new UsageError(`--bright-limits must be catalogue, all or off, got "${v['bright-limits']}"`);
+  const brightLimitMag: Record<string, number> = {};
+  for (const spec of v['bright-limit'] ?? []) {
+    const eq = spec.indexOf('=');
+    const key = spec.slice(0, Math.max(0, eq)).trim();
+    const mag = Number(spec.slice(eq + 1).trim());
+    if (eq <= 0 || key === '' || spec.slice(eq + 1).trim() === '' || !Number.isFinite(mag) || mag < -30 || mag > 50) {
+      throw new UsageError(`--bright-limit takes <band key>=<magnitude>, e.g. W1=7.5; got "${spec}"`);
+    }
+    brightLimitMag[key] = mag;
+  }
+  const origin = v['parallax-origin']?.toLowerCase();
+  if (origin !== undefined && origin !== 'gaia_dr3' && origin !== 'hipparcos' && origin !== 'other') throw new UsageError(`--parallax-origin must be gaia_dr3, hipparcos or other, got "${v['parallax-origin']}"`);
   const lumClass = (v['lum-class'] ?? 'auto').toLowerCase();
   if (lumClass !== 'auto' && lumClass !== 'dwarf' && lumClass !== 'giant') throw new UsageError(`--lum-class must be auto, dwarf or giant, got "${v['lum-class']}"`);
   if (v['save-mapping'] !== undefined && v['save-mapping'] === v.output) throw new UsageError('--save-mapping and -o name the same file');
@@ -196,6 +241,12 @@ export function parseCommandLine(argv: string[]): ParsedCommand {
       columnMap,
       qualityKeep,
       noQualityRules: v['no-quality-rules'] === true,
+      brightLimits,
+      brightLimitMag,
+      catalogueFlags: v['no-catalogue-flags'] !== true,
+      nativeUpperLimits: v['no-native-limits'] !== true,
+      ...(origin !== undefined ? { parallaxOrigin: origin } : {}),
+      gaiaParallaxZeroPointMas: number('parallax-zero-point', v['parallax-zero-point'], -0.017, (x) => Math.abs(x) < 1, 'a number of mas within ±1 (0 = none)'),
       mappingFile: v.mapping,
       saveMappingFile: v['save-mapping'],
       showMapping: v['show-mapping'] === true,

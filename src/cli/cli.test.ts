@@ -39,6 +39,7 @@ describe('options', () => {
     const p = parseCommandLine([
       'fit', 'in.csv', '-o', 'out.json', '--law', 'ccm89', '--rv', '3.6', '--av', '0.2', '--fit-av', '--floor', '0', '--exclude', 'W3, W4', '--exclude', 'u', '--clip', '--include-long', '--planck-only', '--lum-class', 'giant',
       '--columns', 'j_m=J,junk=', '--hdu', '2', '--quality', '2mass=abc', '--quality', 'ph_qual_allwise=A,B', '--no-quality-rules', '--mapping', 'preset.json', '--save-mapping', 'used.json', '--show-mapping',
+      '--bright-limits', 'all', '--bright-limit', 'W1=7.5', '--no-catalogue-flags', '--no-native-limits', '--parallax-origin', 'hipparcos', '--parallax-zero-point', '0',
     ]);
     expect(p).toEqual({
       command: 'fit',
@@ -47,10 +48,13 @@ describe('options', () => {
         columnMap: { j_m: 'J', junk: '-' }, hdu: 2, quiet: false,
         qualityKeep: [{ column: '2mass', letters: ['A', 'B', 'C'] }, { column: 'ph_qual_allwise', letters: ['A', 'B'] }],
         noQualityRules: true, mappingFile: 'preset.json', saveMappingFile: 'used.json', showMapping: true,
+        brightLimits: 'all', brightLimitMag: { W1: 7.5 }, catalogueFlags: false, nativeUpperLimits: false, parallaxOrigin: 'hipparcos', gaiaParallaxZeroPointMas: 0,
       },
     });
     const d = parseCommandLine(['fit', 'in.csv', '-o', 'out.csv']);
     expect(d.command === 'fit' && [d.args.law, d.args.rv, d.args.avMag, d.args.floorFraction, d.args.format, d.args.planckOnly, d.args.lumClass]).toEqual(['f99', 3.1, 0, 0.02, 'csv', false, 'auto']);
+    // The survey rules are on by default; the Gaia DR3 zero-point is −0.017 mas (Lindegren et al. 2021, from memory).
+    expect(d.command === 'fit' && [d.args.brightLimits, d.args.catalogueFlags, d.args.nativeUpperLimits, d.args.parallaxOrigin, d.args.gaiaParallaxZeroPointMas]).toEqual(['catalogue', true, true, undefined, -0.017]);
     expect(parseCommandLine(['--help'])).toEqual({ command: 'help' });
   });
 
@@ -65,6 +69,10 @@ describe('options', () => {
       [['fits', 'a.csv'], /unknown command "fits"/],
       [['fit', 'a.csv', '-o', 'x.csv', '--quality', 'ABC'], /--quality takes <column>=<letters to keep>/],
       [['fit', 'a.csv', '-o', 'x.csv', '--quality', '2mass=A+'], /--quality takes/],
+      [['fit', 'a.csv', '-o', 'x.csv', '--bright-limits', 'some'], /--bright-limits must be catalogue, all or off/],
+      [['fit', 'a.csv', '-o', 'x.csv', '--bright-limit', 'W1'], /--bright-limit takes <band key>=<magnitude>/],
+      [['fit', 'a.csv', '-o', 'x.csv', '--parallax-origin', 'dr2'], /--parallax-origin must be gaia_dr3, hipparcos or other/],
+      [['fit', 'a.csv', '-o', 'x.csv', '--parallax-zero-point', '5'], /--parallax-zero-point must be a number of mas within ±1/],
     ];
     for (const [argv, msg] of bad) expect(() => parseCommandLine(argv), argv.join(' ')).toThrow(msg);
     expect(() => parseCommandLine(['fit', 'a.csv', '-o', 'x', '--rv', 'x'])).toThrow(UsageError);
@@ -282,7 +290,17 @@ describe('starkiln fit, end to end', () => {
     const r = run('fit', fits, '-o', 'gbs.csv');
     // hp_mag (Hipparcos Hp) has no zero-point in the band library yet: one warning, not 96 errors.
     expect(r.stderr).toMatch(/hp_mag: warning: columns hp_mag, e_hp_mag \(band Hp\) not used/);
-    expect(r.stderr).toMatch(/starkiln: 91 stars fitted, 5 not fitted \(few_bands 5\), 0 input rows left out, \d+ band values left out by quality rules, 0 errors and 1 warning/);
+    // The survey rules (src/core/input/survey-rules.ts) leave out every value brighter than its
+    // survey's bright limit: on this table of bright stars most WISE values (AllWISE W1 < 8.1, W2 < 6.7,
+    // WISE All-Sky Explanatory Supplement), BP for G < 3.94 and RP < 3.45 (Gaia EDR3 documentation
+    // §5.5.2); 20 stars are then left with Gaia G alone (their 2MASS letters are C–E) and get
+    // few_bands (measured on this table). Each rule has a summary line with its source.
+    expect(r.stderr).toMatch(/starkiln: 71 stars fitted, 25 not fitted \(few_bands 25\), 0 input rows left out, \d+ band values left out by quality rules, \d+ by survey rules, 0 errors and 12 warnings/);
+    expect(r.stderr).toMatch(/warning: 72 W1 values left out as saturated .*W1 4\.106 is brighter than the bright limit 8\.1 mag \(WISE All-Sky Explanatory Supplement/);
+    expect(r.stderr).toMatch(/2 stars with Gaia RUWE above 1\.4 .* flagged possible_companion/);
+    expect(r.stderr).toMatch(/34 stars brighter than G 6 with RUWE above 1\.4 not flagged/);
+    // None of the AllWISE magnitudes without an error (U letters) becomes an upper limit: all are brighter than the bright limit.
+    expect(r.stderr).not.toMatch(/read as upper limits/);
     expect(r.code).toBe(0);
     const cat = readCatalogue(path.join(dir, 'gbs.csv'));
     // 96 rows in the table (astropy reads the same, fixtures/fits/gbs_v3_dev_half.astropy.json).
@@ -291,10 +309,28 @@ describe('starkiln fit, end to end', () => {
     const ref = readUpload(new Uint8Array(readFileSync(fits)), 'gbs.fits');
     if (ref.format !== 'fits-table') throw new Error('benchmark table not read as a FITS table');
     const col = (name: string) => ref.table.columns.indexOf(name);
-    const byHip = new Map(ref.table.rows.map((row) => [String(row[col('hip')]), { teffK: Number(row[col('teff')]), tmass: String(row[col('ph_qual_tmass')] ?? '') }]));
-    // Measured on this table: 90 of 96 stars get a Teff (5 have too few bands, one a lower bound only).
+    const num = (row: (typeof ref.table.rows)[number], name: string) => (row[col(name)] === null || row[col(name)] === undefined ? NaN : Number(row[col(name)]));
+    const byHip = new Map(
+      ref.table.rows.map((row) => [
+        String(row[col('hip')]),
+        { teffK: Number(row[col('teff')]), tmass: String(row[col('ph_qual_tmass')] ?? ''), w1: num(row, 'w1mpro'), w2: num(row, 'w2mpro'), g: num(row, 'phot_g_mean_mag') },
+      ]),
+    );
+    // Measured on this table: 71 of 96 stars get a Teff (25 have too few bands; HIP 19849, a lower
+    // bound before the bright limits, now fits without its saturated W1/W2).
     const fitted = cat.rows.filter((x) => x.teff_k !== '');
-    expect(fitted.length).toBe(90);
+    expect(fitted.length).toBe(71);
+    // Bright limits, checked against the table's own magnitudes: no W1 brighter than 8.1 or W2 than 6.7
+    // (WISE All-Sky Explanatory Supplement, Cutri et al. 2012), no BP where G < 3.94 (Gaia EDR3 documentation §5.5.2).
+    for (const row of cat.rows) {
+      const ref = byHip.get(row.id)!;
+      const used = row.bands_used.split(' ');
+      if (ref.w1 < 8.1) expect(used, row.id).not.toContain('W1');
+      if (ref.w2 < 6.7) expect(used, row.id).not.toContain('W2');
+      if (ref.g < 3.94) expect(used, row.id).not.toContain('BP');
+    }
+    // HIP 19849: its W1 6.23 and W2 5.61 (quality A, a wrong cross-match) are saturated by the AllWISE limits and never reach the fit.
+    expect(cat.rows.find((x) => x.id === 'HIP19849')!.bands_used.split(' ')).not.toContain('W1');
     for (const row of cat.rows.filter((x) => x.teff_k === '')) expect(row.flags).toMatch(/few_bands|temp_lower_bound/);
     // Quality rule: a 2MASS band reaches the fit only where its ph_qual_tmass letter is A or B.
     for (const row of cat.rows) {

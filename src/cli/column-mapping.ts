@@ -18,6 +18,7 @@ import {
   type MappingProblem,
   type MappingRules,
 } from '../core/input/mapping';
+import type { ParallaxOrigin, SurveyRules } from '../core/input/survey-rules';
 import { UsageError } from './args';
 
 /** Rows the detection looks at to tell numbers from text and to count quality letters (the intake uses 50 too). */
@@ -40,6 +41,8 @@ export interface MappingChoices {
   qualityKeep: { column: string; letters: string[] }[];
   noQualityRules: boolean;
   excludeBands: string[];
+  /** The survey rules from the command line (absent: the mapping file's, else the defaults). */
+  survey?: SurveyRules;
 }
 
 const SINGLE_ROLES: ColumnRole[] = ['id', 'ra', 'dec', 'parallax', 'parallax_err', 'av', 'band', 'ul'];
@@ -76,7 +79,13 @@ export function readMappingFile(file: string): { mapping: Mapping; rules: Mappin
     }
     if (a.band !== undefined && typeof a.band !== 'string') throw bad(`column "${name}": band must be a band key`);
     if (a.bands !== undefined && !(Array.isArray(a.bands) && a.bands.every((b) => typeof b === 'string'))) throw bad(`column "${name}": bands must be a list of band keys`);
-    columns[name] = { role: a.role as ColumnRole, ...(a.band !== undefined ? { band: a.band as string } : {}), ...(a.bands !== undefined ? { bands: a.bands as string[] } : {}) };
+    if (a.origin !== undefined && !PARALLAX_ORIGINS.includes(a.origin as ParallaxOrigin)) throw bad(`column "${name}": origin must be one of ${PARALLAX_ORIGINS.join(', ')}`);
+    columns[name] = {
+      role: a.role as ColumnRole,
+      ...(a.band !== undefined ? { band: a.band as string } : {}),
+      ...(a.bands !== undefined ? { bands: a.bands as string[] } : {}),
+      ...(a.origin !== undefined ? { origin: a.origin as ParallaxOrigin } : {}),
+    };
   }
   const quality: MappingRules['quality'] = [];
   const r = holder.rules;
@@ -89,8 +98,23 @@ export function readMappingFile(file: string): { mapping: Mapping; rules: Mappin
       quality.push({ column: q.column, keep: q.keep as string[] });
     }
   }
-  return { mapping: { layout: m.layout, columns }, rules: { quality } };
+  let survey: SurveyRules | undefined;
+  if (isRecord(r) && r.survey !== undefined) {
+    const sv = r.survey;
+    const ok =
+      isRecord(sv) &&
+      (sv.brightLimits === undefined || ['catalogue', 'all', 'off'].includes(sv.brightLimits as string)) &&
+      (sv.brightLimitMag === undefined || (isRecord(sv.brightLimitMag) && Object.values(sv.brightLimitMag).every((x) => typeof x === 'number' && Number.isFinite(x)))) &&
+      (sv.catalogueFlags === undefined || typeof sv.catalogueFlags === 'boolean') &&
+      (sv.nativeUpperLimits === undefined || typeof sv.nativeUpperLimits === 'boolean') &&
+      (sv.parallaxOrigin === undefined || PARALLAX_ORIGINS.includes(sv.parallaxOrigin as ParallaxOrigin));
+    if (!ok) throw bad('rules.survey must be {"brightLimits": "catalogue"|"all"|"off", "brightLimitMag": {"W1": 7.5}, "catalogueFlags": true, "nativeUpperLimits": true, "parallaxOrigin": "gaia_dr3"|"hipparcos"|"other"}');
+    survey = sv as SurveyRules;
+  }
+  return { mapping: { layout: m.layout, columns }, rules: { quality, ...(survey ? { survey } : {}) } };
 }
+
+const PARALLAX_ORIGINS: readonly ParallaxOrigin[] = ['gaia_dr3', 'hipparcos', 'other'];
 
 /** The preset shape the app saves, so `--save-mapping` output loads in both places. */
 export function mappingFileJson(resolved: ResolvedMapping, name: string): string {
@@ -241,6 +265,7 @@ export function resolveMapping(table: ColumnTable, library: BandLibrary, choices
     const column = qualityColumn(resolved.mapping, q.column);
     resolved.rules.quality = [...resolved.rules.quality.filter((r) => r.column !== column), { column, keep: q.letters }];
   }
+  if (choices.survey) resolved.rules.survey = { ...resolved.rules.survey, ...choices.survey };
   dropUnconvertibleBands(library, table, resolved, new Set(choices.excludeBands));
   warnUnknownBandPairs(table, resolved, bandKeys);
   return resolved;
@@ -259,6 +284,15 @@ export function describeMapping(resolved: ResolvedMapping, table: ColumnTable, f
   }
   if (resolved.rules.quality.length === 0) lines.push('  quality rules: none (every value is used whatever its quality letter)');
   for (const q of resolved.rules.quality) lines.push(`  quality rule: use a band's value only where its letter in ${q.column} is ${q.keep.join(' or ')}`);
+  const sv = resolved.rules.survey ?? {};
+  const mode = sv.brightLimits ?? 'catalogue';
+  lines.push(
+    `  bright limits: ${mode === 'off' ? 'off' : mode === 'all' ? 'on every magnitude column' : 'on columns named as the survey names them'}` +
+      (sv.brightLimitMag && Object.keys(sv.brightLimitMag).length ? ` (set here: ${Object.entries(sv.brightLimitMag).map(([k, m]) => `${k} ${m}`).join(', ')})` : ''),
+  );
+  lines.push(`  catalogue flags (cc_flg, cc_flags, ext_flg, RUWE, BP/RP excess): ${sv.catalogueFlags === false ? 'not read' : 'read where present'}; native upper limits: ${sv.nativeUpperLimits === false ? 'off' : 'on'}`);
+  const plx = Object.entries(resolved.mapping.columns).find(([, a]) => a.role === 'parallax');
+  if (plx) lines.push(`  parallax ${plx[0]}: origin ${sv.parallaxOrigin ?? plx[1].origin ?? 'other'}`);
   for (const c of unused.filter((c) => resolved.notes[c])) lines.push(`  ${c}: ${resolved.notes[c]}`);
   if (unused.length) lines.push(`  not used: ${unused.join(', ')}`);
   return lines.join('\n') + '\n';

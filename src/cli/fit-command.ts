@@ -23,6 +23,7 @@ import { measurementToBandFlux } from '../core/photometry';
 import { fitStar, prepareFitModel, type FitFailure, type FitResult } from '../core/fit';
 import { applyMapping, closestBandKey, type ColumnTable, type MappedStar, type MappingProblem } from '../core/input/mapping';
 import { FORMAT_LABELS, readUpload, UnreadableFile, type ReadUpload } from '../core/input/table-file';
+import type { SurveyRules } from '../core/input/survey-rules';
 import { limitsFromEnv, ReadBudget, type InputLimits } from '../core/input/limits';
 import type { BandFlux } from '../core/types';
 import { UsageError, type FitCommandArgs } from './args';
@@ -140,11 +141,33 @@ function convertStar(star: MappedStar, table: ColumnTable, excluded: Set<string>
   return { fluxes, problems };
 }
 
+/** The survey rules the command line sets (undefined: none, the mapping file's or the defaults apply). */
+function surveyChoices(args: FitCommandArgs): SurveyRules | undefined {
+  const survey: SurveyRules = {
+    ...(args.brightLimits !== 'catalogue' ? { brightLimits: args.brightLimits } : {}),
+    ...(Object.keys(args.brightLimitMag).length ? { brightLimitMag: args.brightLimitMag } : {}),
+    ...(!args.catalogueFlags ? { catalogueFlags: false } : {}),
+    ...(!args.nativeUpperLimits ? { nativeUpperLimits: false } : {}),
+    ...(args.parallaxOrigin ? { parallaxOrigin: args.parallaxOrigin } : {}),
+  };
+  return Object.keys(survey).length ? survey : undefined;
+}
+
+/** Provenance notes on what the input rules did (counts; the per-star reasons are in each fit). */
+function inputNotes(t: { excludedByQuality: number; leftOutBySurveyRules: number; nativeUpperLimits: number; possibleCompanions: number }): string[] | undefined {
+  const notes: string[] = [];
+  if (t.excludedByQuality > 0) notes.push(`${t.excludedByQuality} band values were left out by the quality rules`);
+  if (t.leftOutBySurveyRules > 0) notes.push(`${t.leftOutBySurveyRules} band values were left out by the survey rules (saturation, catalogue flags, BP/RP excess)`);
+  if (t.nativeUpperLimits > 0) notes.push(`${t.nativeUpperLimits} band values are upper limits by the catalogue's own convention (2MASS U, AllWISE null error)`);
+  if (t.possibleCompanions > 0) notes.push(`${t.possibleCompanions} stars flagged possible_companion (Gaia RUWE above 1.4)`);
+  return notes.length ? notes : undefined;
+}
+
 export async function runFit(args: FitCommandArgs, io: Io): Promise<number> {
   const started = performance.now();
   const library = starterBandLibrary();
   const bandKeys = Object.keys(library.bands).length ? Object.keys(library.bands) : [...STARTER_BAND_KEYS];
-  for (const key of args.excludeBands) {
+  for (const key of [...args.excludeBands, ...Object.keys(args.brightLimitMag)]) {
     if (!getBand(library, key)) {
       const guess = closestBandKey(key, bandKeys);
       throw new UsageError(`--exclude: unknown band "${key}"${guess ? `; did you mean '${guess}'?` : ''} (band keys: ${bandKeys.join(' ')})`);
@@ -189,6 +212,7 @@ export async function runFit(args: FitCommandArgs, io: Io): Promise<number> {
     qualityKeep: args.qualityKeep,
     noQualityRules: args.noQualityRules,
     excludeBands: args.excludeBands,
+    survey: surveyChoices(args),
   });
   if (args.showMapping) io.stderr.write(describeMapping(resolved, columnTable, formatLabel));
   const table = applyMapping(columnTable, resolved.mapping, resolved.rules, { bandKeys });
@@ -222,6 +246,7 @@ export async function runFit(args: FitCommandArgs, io: Io): Promise<number> {
     includeLongBands: args.includeLongBands,
     planckOnly: args.planckOnly,
     lumClass: args.lumClass,
+    gaiaParallaxZeroPointMas: args.gaiaParallaxZeroPointMas,
   });
   const excluded = new Set(args.excludeBands);
   const progress = new Progress(io.stderr, table.stars.length, !args.quiet && io.stderr.isTTY === true && table.stars.length >= 2000);
@@ -244,6 +269,12 @@ export async function runFit(args: FitCommandArgs, io: Io): Promise<number> {
       avMag: star.avMag,
       lumClass: star.lumClass ?? null,
       fehDex: star.fehDex ?? null,
+      parallaxOrigin: star.parallaxOrigin ?? null,
+      distancePc: star.distancePc ?? null,
+      distanceLoPc: star.distanceLoPc ?? null,
+      distanceHiPc: star.distanceHiPc ?? null,
+      possibleCompanion: star.possibleCompanion === true,
+      leftOut: star.leftOut,
     });
     if (!result.ok) failures[result.reason] = (failures[result.reason] ?? 0) + 1;
     rows.push(catalogueRow({ id: star.id, raDeg: star.raDeg, decDeg: star.decDeg, result }));
@@ -275,8 +306,13 @@ export async function runFit(args: FitCommandArgs, io: Io): Promise<number> {
         .filter(([, a]) => a.role !== 'ignore')
         .map(([c, a]) => `${c}=${a.role === 'quality' ? `quality:${(a.bands ?? []).join('/')}` : a.band ? `${a.band}:${a.role}` : a.role}`),
       quality_rules: resolved.rules.quality.map((q) => `${q.column} keep ${q.keep.join('')}`),
+      bright_limits: resolved.rules.survey?.brightLimits ?? 'catalogue',
+      ...(resolved.rules.survey?.brightLimitMag ? { bright_limit_mag: Object.entries(resolved.rules.survey.brightLimitMag).map(([k, m]) => `${k}=${m}`) } : {}),
+      catalogue_flags: resolved.rules.survey?.catalogueFlags !== false,
+      native_upper_limits: resolved.rules.survey?.nativeUpperLimits !== false,
+      gaia_parallax_zero_point_mas: args.gaiaParallaxZeroPointMas,
     },
-    notes: table.excludedByQuality > 0 ? [`${table.excludedByQuality} band values were left out by the quality rules`] : undefined,
+    notes: inputNotes(table),
     createdAt: io.now().toISOString(),
     input: { file: path.basename(args.input), sha256, format: `${formatLabel}, ${resolved.mapping.layout} layout`, rows: table.rowCount, stars: table.stars.length, rejectedRows: table.rejectedRows + starsLeftOut },
     photosphere: model.photosphere && !args.planckOnly ? `${model.photosphere.data.name} ${model.photosphere.version}` : null,
@@ -308,6 +344,8 @@ export async function runFit(args: FitCommandArgs, io: Io): Promise<number> {
         (failText ? `, ${rows.length - fitted} not fitted (${failText})` : '') +
         `, ${rejected} input row${rejected === 1 ? '' : 's'} left out` +
         (table.excludedByQuality > 0 ? `, ${table.excludedByQuality} band value${table.excludedByQuality === 1 ? '' : 's'} left out by quality rules` : '') +
+        (table.leftOutBySurveyRules > 0 ? `, ${table.leftOutBySurveyRules} by survey rules` : '') +
+        (table.nativeUpperLimits > 0 ? `, ${table.nativeUpperLimits} read as upper limits` : '') +
         `, ${errors.length} error${errors.length === 1 ? '' : 's'} and ${problems.length - errors.length} warning${problems.length - errors.length === 1 ? '' : 's'} in the input` +
         (problems.length > 0 ? ` (positions are file:line:column; for VOTable and FITS the table row)` : '') +
         `; wrote ${args.output === '-' ? 'stdout' : args.output} in ${seconds} s\n`,

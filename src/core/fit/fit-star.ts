@@ -39,6 +39,7 @@ import {
   type PhotosphereData,
 } from '../photosphere/model';
 import { radiusRsunFromTheta, PLX_SNR_MIN } from './derived';
+import { asymmetricIntervals, resolveDistance, type DistanceUsed, type Interval68 } from './distance';
 
 export type { LumClass } from '../photosphere/model';
 /** Where a fit's luminosity class came from. */
@@ -67,6 +68,11 @@ export interface FitOptions {
   planckOnly: boolean;
   /** Luminosity class for stars without their own: 'auto' (from the parallax radius; dwarf without one) or a fixed class. */
   lumClass: 'auto' | LumClass;
+  /**
+   * Gaia DR3 parallax zero-point Z in mas, subtracted (ϖ − Z) from parallaxes whose origin is Gaia
+   * DR3; 0 = none. Default −0.017 (Lindegren et al. 2021 quasar median, from memory; decision 0026).
+   */
+  gaiaParallaxZeroPointMas: number;
 }
 
 export const DEFAULT_FIT_OPTIONS: Readonly<FitOptions> = Object.freeze({
@@ -81,6 +87,7 @@ export const DEFAULT_FIT_OPTIONS: Readonly<FitOptions> = Object.freeze({
   clip: false,
   planckOnly: false,
   lumClass: 'auto' as const,
+  gaiaParallaxZeroPointMas: -0.017,
 });
 
 export function resolveFitOptions(partial: Partial<FitOptions> = {}): FitOptions {
@@ -94,6 +101,7 @@ export function resolveFitOptions(partial: Partial<FitOptions> = {}): FitOptions
   if (o.modelErrorFraction !== undefined && !(o.modelErrorFraction >= 0)) throw new Error(`model error fraction must be ≥ 0, got ${o.modelErrorFraction}`);
   if (!['auto', 'dwarf', 'giant'].includes(o.lumClass)) throw new Error(`luminosity class must be auto, dwarf or giant, got "${o.lumClass}"`);
   if (typeof o.planckOnly !== 'boolean') throw new Error('planckOnly must be true or false');
+  if (!(Number.isFinite(o.gaiaParallaxZeroPointMas) && Math.abs(o.gaiaParallaxZeroPointMas) < 1)) throw new Error(`the Gaia parallax zero-point must be a number of mas within ±1, got ${o.gaiaParallaxZeroPointMas}`);
   if (o.monteCarlo && !(Number.isInteger(o.monteCarlo.samples) && o.monteCarlo.samples >= 10)) {
     throw new Error(`Monte Carlo needs an integer number of samples ≥ 10, got ${o.monteCarlo.samples}`);
   }
@@ -191,6 +199,26 @@ export interface StarInput {
   lumClass?: LumClass | null;
   /** [Fe/H] in dex (input column feh): recorded; far from solar it raises feh_far. */
   fehDex?: number | null;
+  /** Where the parallax comes from: Gaia DR3 parallaxes get options.gaiaParallaxZeroPointMas. */
+  parallaxOrigin?: 'gaia_dr3' | 'hipparcos' | 'other' | null;
+  /** A given distance (pc) with its 68 % interval: used instead of 1/parallax (src/core/fit/distance.ts). */
+  distancePc?: number | null;
+  distanceLoPc?: number | null;
+  distanceHiPc?: number | null;
+  /** Raises possible_companion (the input's Gaia RUWE rule, src/core/input/survey-rules.ts). */
+  possibleCompanion?: boolean;
+  /** Values the input rules left out, listed first among the fit's excluded bands with their reason. */
+  leftOut?: { bandKey: string; reason: InputExclusionReason; detail: string }[];
+}
+
+/** Why the input rules left a value out (src/core/input/survey-rules.ts LeftOutReason). */
+export type InputExclusionReason = 'quality_letter' | 'saturated' | 'catalogue_flag' | 'bp_rp_excess';
+
+/** A band the fit did not use, with why; `detail` says more for the input rules' reasons. */
+export interface Excluded {
+  band: string;
+  reason: ExclusionReason;
+  detail?: string;
 }
 
 /** The pure Planck fit kept beside the calibrated one (never widened by any model term). */
@@ -208,7 +236,7 @@ export interface PlanckFit {
   avMag: number | null;
 }
 
-export type ExclusionReason = 'excluded_by_option' | 'long_wavelength' | 'clipped' | 'no_valid_error';
+export type ExclusionReason = 'excluded_by_option' | 'long_wavelength' | 'clipped' | 'no_valid_error' | InputExclusionReason;
 
 export interface Interval {
   p16: number;
@@ -247,7 +275,7 @@ export interface FitResult {
   modelFluxes: Record<string, number>;
   irExcessSigma: number | null;
   flags: FlagCode[];
-  excluded: { band: string; reason: ExclusionReason }[];
+  excluded: Excluded[];
   /** Formal covariance (not scaled) of (teffK, s[, avMag]). */
   covariance: { params: string[]; matrix: number[][] };
   /** The pure Planck fit (tbb_* columns); with planckOnly its numbers equal the ones above. */
@@ -261,6 +289,11 @@ export interface FitResult {
   modelScatter?: Record<string, number>;
   /** The calibration term σ(ln T) added along the T–θ degeneracy (calibrated fit), 0 for Planck only. */
   teffModelTermLn: number;
+  /** The distance R and L rest on, and where it came from (null: no usable parallax or distance). */
+  distance: DistanceUsed | null;
+  /** 68 % intervals of R and L from the distance's own ends and the fit's errors (null ends: unbounded or not given). */
+  radiusIntervalRsun: Interval68 | null;
+  lumIntervalLsun: Interval68 | null;
   monteCarlo?: {
     samples: number;
     seed: number;
@@ -277,7 +310,7 @@ export interface FitFailure {
   id: string;
   reason: 'few_bands' | 'no_convergence';
   message: string;
-  excluded: { band: string; reason: ExclusionReason }[];
+  excluded: Excluded[];
 }
 
 export interface Entry {
@@ -326,8 +359,8 @@ export function engineSettings(opts: FitOptions): EngineSettings {
  * A star's band fluxes as engine entries: floor applied (applyFloor), roles set (excluded by option,
  * long-wavelength diagnostic), bands without a usable error listed as excluded.
  */
-export function starEntries(model: FitModel, star: StarInput, opts: FitOptions): { entries: Entry[]; excluded: { band: string; reason: ExclusionReason }[] } {
-  const excluded: { band: string; reason: ExclusionReason }[] = [];
+export function starEntries(model: FitModel, star: StarInput, opts: FitOptions): { entries: Entry[]; excluded: Excluded[] } {
+  const excluded: Excluded[] = (star.leftOut ?? []).map((l) => ({ band: l.bandKey, reason: l.reason, detail: l.detail }));
   const entries: Entry[] = [];
   const excludeList = opts.excludeBands;
   for (const bf of star.bandFluxes) {
@@ -371,7 +404,13 @@ function failureOf(engine: FitEngine, status: number, star: StarInput, opts: Fit
 }
 
 /** The result fields an engine's last run gives (Planck or photosphere engine alike). */
-function resultOf(engine: FitEngine, entries: Entry[], excluded: FitResult['excluded'], star: StarInput, opts: FitOptions): Omit<FitResult, 'planck' | 'photosphere' | 'lumClass' | 'lumClassSource' | 'fehDex' | 'teffModelTermLn'> {
+function resultOf(
+  engine: FitEngine,
+  entries: Entry[],
+  excluded: FitResult['excluded'],
+  star: StarInput,
+  opts: FitOptions,
+): Omit<FitResult, 'planck' | 'photosphere' | 'lumClass' | 'lumClassSource' | 'fehDex' | 'teffModelTermLn' | 'distance' | 'radiusIntervalRsun' | 'lumIntervalLsun'> {
   const d = engine.derived;
   const lowerBound = (engine.flags & FLAG_BITS.temp_lower_bound) !== 0;
   const residualsSigma: Record<string, number> = {};
@@ -419,7 +458,7 @@ function resultOf(engine: FitEngine, entries: Entry[], excluded: FitResult['excl
     residualsSigma,
     modelFluxes,
     irExcessSigma: nullable(engine.irExcessSigma),
-    flags: flagCodes(engine.flags),
+    flags: flagCodes(engine.flags | (star.possibleCompanion ? FLAG_BITS.possible_companion : 0)),
     excluded: [...excluded, ...excludedOf(engine, entries)],
     covariance: { params, matrix },
   };
@@ -473,8 +512,10 @@ export function fitStar(model: FitModel, star: StarInput, options?: Partial<FitO
   const settings = engineSettings(opts);
   const avMag = finiteOrNaN(star.avMag);
   const av = Number.isFinite(avMag) ? avMag : opts.avMag;
-  const plx = finiteOrNaN(star.parallaxMas);
-  const plxErr = finiteOrNaN(star.parallaxErrMas);
+  // A given distance, or the parallax with the Gaia DR3 zero-point when it is one (distance.ts).
+  const dist = resolveDistance(star, opts.gaiaParallaxZeroPointMas);
+  const plx = finiteOrNaN(dist.parallaxMas);
+  const plxErr = finiteOrNaN(dist.parallaxErrMas);
   const feh = finiteOrNaN(star.fehDex);
   const rt = opts.planckOnly ? null : model.photosphere;
   // 1. The pure Planck fit, always, never widened by a model term.
@@ -504,7 +545,7 @@ export function fitStar(model: FitModel, star: StarInput, options?: Partial<FitO
       engine.flags |= FLAG_BITS.model_error_added;
       res = resultOf(engine, entries, excluded, star, opts);
     }
-    const result: FitResult = { ...res, planck, photosphere: null, lumClass: null, lumClassSource: null, fehDex: nullable(feh), teffModelTermLn: mef };
+    const result: FitResult = { ...res, planck, photosphere: null, lumClass: null, lumClassSource: null, fehDex: nullable(feh), teffModelTermLn: mef, ...distanceFields(res, dist.used) };
     if (opts.monteCarlo && result.teffK !== null) result.monteCarlo = monteCarlo(engine, entries, settings, av, plx, plxErr, opts.monteCarlo, mef, engine.beta);
     return result;
   }
@@ -561,9 +602,31 @@ export function fitStar(model: FitModel, star: StarInput, options?: Partial<FitO
     fehDex: nullable(feh),
     modelScatter,
     teffModelTermLn: Math.sqrt(varM),
+    ...distanceFields(res, dist.used),
   };
   if (opts.monteCarlo && result.teffK !== null) result.monteCarlo = monteCarlo(pe, calEntries, settings, av, plx, plxErr, opts.monteCarlo, Math.sqrt(varM), pe.beta);
   return result;
+}
+
+/**
+ * The distance record and the asymmetric R and L intervals (distance.ts). For a given distance the
+ * parallax flags do not apply (plx_weak speaks of 1/ϖ): they are dropped.
+ */
+function distanceFields(
+  res: Pick<FitResult, 'radiusRsun' | 'lumLsun' | 'thetaMas' | 'thetaErrMas' | 'fbolCgs' | 'fbolErrCgs' | 'flags'>,
+  used: DistanceUsed | null,
+): Pick<FitResult, 'distance' | 'radiusIntervalRsun' | 'lumIntervalLsun'> {
+  if (used?.source === 'input_distance') {
+    const i = res.flags.indexOf('plx_weak');
+    if (i >= 0) res.flags.splice(i, 1);
+  }
+  if (!used || res.radiusRsun === null || res.lumLsun === null || res.thetaMas === null || res.fbolCgs === null) {
+    return { distance: used, radiusIntervalRsun: null, lumIntervalLsun: null };
+  }
+  const sTheta = (res.thetaErrMas ?? NaN) / res.thetaMas;
+  const sF = (res.fbolErrCgs ?? NaN) / res.fbolCgs;
+  const iv = asymmetricIntervals(used, res.radiusRsun, res.lumLsun, sTheta, sF);
+  return { distance: used, radiusIntervalRsun: iv.radiusRsun, lumIntervalLsun: iv.lumLsun };
 }
 
 function percentiles(values: number[]): Interval {

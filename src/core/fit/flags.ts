@@ -19,6 +19,9 @@ export const FLAG_BITS = {
   feh_far: 1 << 13,
   outside_calibration: 1 << 14,
   band_uncalibrated: 1 << 15,
+  // Set from the input (Gaia RUWE, src/core/input/survey-rules.ts), not by the engine; a high bit
+  // keeps clear of the engine's own flags.
+  possible_companion: 1 << 24,
 } as const;
 
 export type FlagCode = keyof typeof FLAG_BITS;
@@ -41,6 +44,7 @@ export const FLAG_EXPLANATIONS: Record<FlagCode | 'few_bands' | 'no_convergence'
   feh_far: 'The star\'s [Fe/H] lies more than 0.5 dex from solar: the photosphere is calibrated on near-solar stars.',
   outside_calibration: 'The temperature lies outside the range the photosphere is calibrated on for this class: the Teff error was widened to the Planck-vs-model difference.',
   band_uncalibrated: 'At least one fitted band has no calibration for this class and temperature: the Planck value was used there with an assumed 10 % scatter.',
+  possible_companion: 'Gaia RUWE above 1.4 (on a star fainter than G 6, where RUWE is reliable): possibly a binary, so the photometry may be the light of two stars.',
   few_bands: 'Too few usable detections for the fit (at least 2, or 3 when A_V is fitted).',
   no_convergence: 'The fit did not converge to a finite result.',
 };
@@ -63,6 +67,7 @@ export const FLAG_ORDER: FlagCode[] = [
   'feh_far',
   'outside_calibration',
   'band_uncalibrated',
+  'possible_companion',
 ];
 
 export function flagCodes(bits: number): FlagCode[] {

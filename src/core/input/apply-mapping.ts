@@ -1,5 +1,6 @@
 // Applying a mapping to every row: stars with measurements, and every problem with file, row and
 // column.
+import type { Measurement } from '../types';
 import { BAND_ROLES, type ColumnRole, type ColumnTable, type Mapping, type MappedStar, type MappingProblem, type MappingResult, type MappingRules, type TableCell } from './column-table';
 
 export type { MappedStar } from './column-table';
@@ -9,6 +10,19 @@ import { closestBandKey } from './column-names';
 import { GAIA_VEGA_ZERO_POINT_MAG, MAG_PER_LN } from './gaia-zero-points';
 import { shownText } from './limits';
 import { starIdProblem } from './star-id';
+import {
+  BP_RP_EXCESS_NSIGMA,
+  bpRpExcessSigma,
+  brightLimitFor,
+  confusionLeftOut,
+  correctedBpRpExcess,
+  isCanonicalValueColumn,
+  RUWE_BRIGHT_G,
+  RUWE_MAX,
+  SURVEY_BANDS,
+  type LeftOutReason,
+  type LeftOutValue,
+} from './survey-rules';
 
 export interface ApplyOptions {
   bandKeys: readonly string[];
@@ -25,11 +39,35 @@ interface BandCols {
   gaia_flux_err?: number;
   /** quality column and letter position */
   quality?: { col: number; pos: number; single: boolean };
+  /** contamination letters (cc_flg, cc_flags) and letter position */
+  confusion?: { col: number; pos: number; single: boolean };
+  /** AllWISE ext_flg column */
+  extended?: number;
 }
 
-const STAR_PROPS = { ra: 'raDeg', dec: 'decDeg', parallax: 'parallaxMas', parallax_err: 'parallaxErrMas', av: 'avMag', feh: 'fehDex' } as const;
+const STAR_PROPS = {
+  ra: 'raDeg',
+  dec: 'decDeg',
+  parallax: 'parallaxMas',
+  parallax_err: 'parallaxErrMas',
+  av: 'avMag',
+  feh: 'fehDex',
+  distance: 'distancePc',
+  distance_lo: 'distanceLoPc',
+  distance_hi: 'distanceHiPc',
+} as const;
 type StarRole = keyof typeof STAR_PROPS;
-const STAR_WORDS: Record<StarRole, string> = { ra: 'right ascension', dec: 'declination', parallax: 'parallax', parallax_err: 'parallax error', av: 'A_V', feh: '[Fe/H]' };
+const STAR_WORDS: Record<StarRole, string> = {
+  ra: 'right ascension',
+  dec: 'declination',
+  parallax: 'parallax',
+  parallax_err: 'parallax error',
+  av: 'A_V',
+  feh: '[Fe/H]',
+  distance: 'distance',
+  distance_lo: 'distance lower end',
+  distance_hi: 'distance upper end',
+};
 /**
  * [Fe/H] of real stars lies within about −5…+1 dex (the most metal-poor stars known are near −5
  * or below, the richest near +0.6; from memory): a value beyond is a unit or column mistake.
@@ -100,6 +138,12 @@ export interface RowCounts {
   rowCount: number;
   rejectedRows: number;
   excludedByQuality: number;
+  /** Values left out by the survey rules (saturation, contamination flags, BP/RP excess). */
+  leftOutBySurveyRules: number;
+  /** Values that became upper limits by the catalogue's own convention (2MASS U, AllWISE null error). */
+  nativeUpperLimits: number;
+  /** Stars flagged possible_companion (RUWE). */
+  possibleCompanions: number;
 }
 
 /**
@@ -113,6 +157,9 @@ export class RowMapper {
   private rowCount = 0;
   private rejected = 0;
   private excluded = 0;
+  private bySurvey = 0;
+  private nativeLimits = 0;
+  private companions = 0;
   private readonly rowFn: (cells: TableCell[], line: number | undefined) => void;
   private readonly finishFn: () => void;
 
@@ -179,10 +226,12 @@ export class RowMapper {
     };
     for (const [name, a] of Object.entries(mapping.columns)) {
       const c = colIndex.get(name)!;
-      if (a.role === 'quality') {
+      if (a.role === 'quality' || a.role === 'confusion') {
         a.bands!.forEach((b, pos) => {
-          if (b !== '-') band(b).quality = { col: c, pos, single: a.bands!.length === 1 };
+          if (b !== '-') band(b)[a.role as 'quality' | 'confusion'] = { col: c, pos, single: a.bands!.length === 1 };
         });
+      } else if (a.role === 'extended') {
+        for (const b of a.bands!) if (b !== '-') band(b).extended = c;
       } else if (mapping.layout === 'wide' && a.band && BAND_ROLES.includes(a.role)) {
         (band(a.band) as Record<string, number>)[a.role] = c;
       }
@@ -262,6 +311,13 @@ export class RowMapper {
       if (mergeWithin && star.lumClass !== undefined && star.lumClass !== cls) problem(lumClassCol, `luminosity class ${cls} differs from ${star.lumClass} given for star "${star.id}" in an earlier row`);
       else star.lumClass = cls;
     };
+    /** The distance interval must hold the distance (lo ≤ d ≤ hi). */
+    const checkDistance = (star: MappedStar) => {
+      const d = star.distancePc;
+      if (d === undefined) return;
+      if (star.distanceLoPc !== undefined && star.distanceLoPc > d) problem(starCols.distance_lo, `distance lower end ${star.distanceLoPc} pc is above the distance ${d} pc`);
+      if (star.distanceHiPc !== undefined && star.distanceHiPc < d) problem(starCols.distance_hi, `distance upper end ${star.distanceHiPc} pc is below the distance ${d} pc`);
+    };
     const readStarValues = (star: MappedStar, mergeWithin: boolean) => {
       readLumClass(star, mergeWithin);
       for (let j = 0; j < starRoles.length; j++) {
@@ -273,6 +329,10 @@ export class RowMapper {
         if (r === 'dec' && (v < -90 || v > 90)) problem(c, `declination ${v} is outside −90…90 degrees`);
         if (r === 'parallax_err' || r === 'av') nonNegative(c, v, r === 'av' ? 'A_V' : 'parallax error');
         if (r === 'feh' && (v < FEH_RANGE.min || v > FEH_RANGE.max)) problem(c, `[Fe/H] ${v} is outside ${FEH_RANGE.min}…+${FEH_RANGE.max} dex`);
+        if ((r === 'distance' || r === 'distance_lo' || r === 'distance_hi') && !(v > 0)) {
+          problem(c, `${STAR_WORDS[r]} ${v} pc must be positive`);
+          continue;
+        }
         const prop = STAR_PROPS[r];
         if (mergeWithin && star[prop] !== undefined && star[prop] !== v) problem(c, `${STAR_WORDS[r]} ${v} differs from ${star[prop]} given for star "${star.id}" in an earlier row`);
         else star[prop] = v;
@@ -302,6 +362,99 @@ export class RowMapper {
       return id;
     };
 
+
+    // ---- The survey rules (survey-rules.ts, decision 0026), after a row's values are read.
+    const survey = rules.survey ?? {};
+    const brightMode = survey.brightLimits ?? 'catalogue';
+    const flagsOn = survey.catalogueFlags !== false;
+    const nativeUl = survey.nativeUpperLimits !== false;
+    /** Bands whose value column is named as a survey names it (not the canonical `<band>`). */
+    const catalogueNamed = new Set<string>();
+    for (const [key, b] of bandCols) {
+      const col = b.mag ?? b.gaia_flux ?? b.mag_ul;
+      if (col !== undefined && !isCanonicalValueColumn(columns[col], key)) catalogueNamed.add(key);
+    }
+    const ruweCol = roleCol('ruwe');
+    const excessCol = roleCol('bp_rp_excess');
+    const parallaxCol = roleCol('parallax');
+    const parallaxOrigin = survey.parallaxOrigin ?? (parallaxCol === undefined ? undefined : mapping.columns[columns[parallaxCol]]?.origin) ?? 'other';
+    const summary = new LeftOutSummary(file);
+    const letterAt = (q: { col: number; pos: number; single: boolean }) => {
+      const text = textOf(cur.cells[q.col]);
+      return q.single ? text : text.charAt(q.pos);
+    };
+    const fmt = (x: number) => String(Number(x.toFixed(3)));
+    const applySurveyRules = (star: MappedStar, candidates: Candidate[], leftOut: LeftOutValue[]) => {
+      if (star.parallaxMas !== undefined) star.parallaxOrigin = parallaxOrigin;
+      const magOf = (key: string) => candidates.find((c) => c.key === key && c.m.mag !== undefined && !c.m.upperLimit)?.m.mag;
+      const g = magOf('G');
+      let excessOut: string | undefined;
+      if (flagsOn && excessCol !== undefined) {
+        const c = num(excessCol, 'BP/RP excess factor');
+        const bp = magOf('BP');
+        const rp = magOf('RP');
+        if (c !== undefined && g !== undefined && bp !== undefined && rp !== undefined) {
+          const cStar = correctedBpRpExcess(c, bp - rp);
+          const sigma = bpRpExcessSigma(g);
+          if (Math.abs(cStar) > BP_RP_EXCESS_NSIGMA * sigma) {
+            excessOut = `corrected BP/RP flux excess C* = ${fmt(cStar)} is beyond ${BP_RP_EXCESS_NSIGMA}σ (σ = ${fmt(sigma)} at G ${fmt(g)}; Riello et al. 2021): BP and RP hold light from elsewhere`;
+          }
+        }
+      }
+      if (flagsOn && ruweCol !== undefined) {
+        const ruwe = num(ruweCol, 'RUWE');
+        if (ruwe !== undefined && ruwe > RUWE_MAX) {
+          if (g === undefined || g >= RUWE_BRIGHT_G) {
+            star.possibleCompanion = true;
+            this.companions++;
+            summary.companion(cur.row, cur.line);
+          } else summary.ruweTooBright(cur.row, cur.line);
+        }
+      }
+      const out = (c: Candidate, reason: LeftOutReason, detail: string) => {
+        leftOut.push({ bandKey: c.key, reason, detail });
+        this.bySurvey++;
+        summary.note(c.key, reason, detail, cur.row, cur.line);
+      };
+      for (const c of candidates) {
+        const m = c.m;
+        if (m.mag !== undefined && (c.native || (brightMode !== 'off' && (brightMode === 'all' || c.catalogue)))) {
+          const limit = brightLimitFor(c.key, survey);
+          const on = limit?.onBand ? (magOf(limit.onBand) ?? m.mag) : m.mag;
+          if (limit && on < limit.mag) {
+            const what = c.native ? `${fmt(m.mag)} (a native upper limit)` : fmt(m.mag);
+            out(c, 'saturated', `${c.key} ${what}${limit.onBand && limit.onBand !== c.key ? ` with ${limit.onBand} ${fmt(on)}` : ''} is brighter than the bright limit ${limit.onBand && limit.onBand !== c.key ? `${limit.onBand} ` : ''}${limit.mag} mag (${limit.source})`);
+            continue;
+          }
+        }
+        if (flagsOn) {
+          const b = bandCols.get(c.key)!;
+          const cc = b.confusion ? letterAt(b.confusion) : '';
+          if (confusionLeftOut(cc)) {
+            out(c, 'catalogue_flag', `contamination letter ${cc} in ${columns[b.confusion!.col]} (only 0, clean, is used)`);
+            continue;
+          }
+          if (b.extended !== undefined) {
+            const ext = readCellNumber(cur.cells[b.extended]);
+            if (ext !== undefined && Number.isFinite(ext) && ext > 0) {
+              out(c, 'catalogue_flag', `extended source: ${columns[b.extended]} = ${ext} (the profile-fit magnitude assumes a point source)`);
+              continue;
+            }
+          }
+          if (excessOut && (c.key === 'BP' || c.key === 'RP')) {
+            out(c, 'bp_rp_excess', excessOut);
+            continue;
+          }
+        }
+        if (c.native) {
+          this.nativeLimits++;
+          summary.nativeLimit(c.key, cur.row, cur.line);
+        }
+        star.measurements.push(m);
+      }
+      if (leftOut.length > 0) star.leftOut = leftOut;
+    };
+
     if (mapping.layout === 'wide') {
       // An array, not the Map: iterating a Map makes a fresh [key, value] pair per band and row.
       const bandList = [...bandCols].map(([key, cols]) => ({ key, cols }));
@@ -318,7 +471,10 @@ export class RowMapper {
           return;
         }
         const star: MappedStar = { id, measurements: [], row: cur.row };
+        const candidates: Candidate[] = [];
+        const leftOut: LeftOutValue[] = [];
         readStarValues(star, false);
+        checkDistance(star);
         for (let j = 0; j < bandList.length; j++) {
           const key = bandList[j].key;
           const b = bandList[j].cols;
@@ -340,42 +496,52 @@ export class RowMapper {
             continue;
           }
           const q = qualityOf(key);
-          if (!q.keep) {
+          // 2MASS and AllWISE write U for a magnitude that is a 95 % upper limit: a limit, not a value to drop.
+          const nativeU = nativeUl && q.letter?.toUpperCase() === 'U' && mag !== undefined && SURVEY_BANDS[key] !== undefined;
+          if (!q.keep && !nativeU) {
             this.excluded++;
+            const qc = bandCols.get(key)!.quality!;
+            leftOut.push({ bandKey: key, reason: 'quality_letter', detail: `quality letter ${q.letter ?? '(none)'} in ${columns[qc.col]} (kept: ${[...(keepByCol.get(qc.col) ?? [])].join('')})` });
             continue;
           }
           const quality = q.letter ? { quality: q.letter } : {};
           if (mag !== undefined) {
-            if (magErr === undefined) {
+            // AllWISE gives no w?sigmpro where w?mpro is a 95 % upper limit (Explanatory Supplement, column descriptions).
+            const nullErrorLimit = nativeUl && magErr === undefined && catalogueNamed.has(key) && SURVEY_BANDS[key] === 'AllWISE';
+            if (nativeU || nullErrorLimit) candidates.push({ key, m: { bandKey: key, mag, upperLimit: true, ...quality }, native: true, catalogue: catalogueNamed.has(key) });
+            else if (magErr === undefined) {
               if (b.mag_err !== undefined) problem(b.mag_err, `band ${key} has a magnitude but no error; the value was not used`, 'warning');
-            } else star.measurements.push({ bandKey: key, mag, magErr, ...quality });
+            } else candidates.push({ key, m: { bandKey: key, mag, magErr, ...quality }, native: false, catalogue: catalogueNamed.has(key) });
           } else if (jy !== undefined) {
             if (jyErr === undefined) {
               if (b.jy_err !== undefined) problem(b.jy_err, `band ${key} has a flux but no error; the value was not used`, 'warning');
             } else if (jy <= 0) problem(b.jy, `flux ${jy} Jy must be positive (give a negative detection as an upper limit)`);
-            else star.measurements.push({ bandKey: key, fnuJy: jy, fnuErrJy: jyErr, ...quality });
+            else candidates.push({ key, m: { bandKey: key, fnuJy: jy, fnuErrJy: jyErr, ...quality }, native: false, catalogue: false });
           } else if (gFlux !== undefined) {
             if (gFlux <= 0) problem(b.gaia_flux, `Gaia flux ${gFlux} e⁻/s must be positive`);
             else if (gFluxErr === undefined) {
               if (b.gaia_flux_err !== undefined) problem(b.gaia_flux_err, `band ${key} has a Gaia flux but no error; the value was not used`, 'warning');
             } else {
               const m = magnitude(b.gaia_flux, -2.5 * Math.log10(gFlux) + GAIA_VEGA_ZERO_POINT_MAG[key], `${key} from the Gaia flux ${gFlux} e⁻/s,`);
-              if (m !== undefined) star.measurements.push({ bandKey: key, mag: m, magErr: MAG_PER_LN * (gFluxErr / gFlux), ...quality });
+              if (m !== undefined) candidates.push({ key, m: { bandKey: key, mag: m, magErr: MAG_PER_LN * (gFluxErr / gFlux), ...quality }, native: false, catalogue: true });
             }
           } else if (magUl !== undefined) {
-            star.measurements.push({ bandKey: key, mag: magUl, upperLimit: true, ...quality });
+            candidates.push({ key, m: { bandKey: key, mag: magUl, upperLimit: true, ...quality }, native: false, catalogue: catalogueNamed.has(key) });
           } else if (jyUl !== undefined) {
             if (jyUl <= 0) problem(b.jy_ul, `upper-limit flux ${jyUl} Jy must be positive`);
-            else star.measurements.push({ bandKey: key, fnuJy: jyUl, upperLimit: true, ...quality });
+            else candidates.push({ key, m: { bandKey: key, fnuJy: jyUl, upperLimit: true, ...quality }, native: false, catalogue: false });
           }
         }
         if (cur.bad) {
           this.rejected++;
           return;
         }
+        applySurveyRules(star, candidates, leftOut);
         store.addStar(star);
       };
-      this.finishFn = noop;
+      this.finishFn = () => {
+        for (const p of summary.lines()) sink.add(p);
+      };
       return;
     }
 
@@ -399,6 +565,7 @@ export class RowMapper {
       if (!s) s = { id, measurements: [], row: cur.row, bad: false, rows: 0, bandRow: {}, ...(cur.line !== undefined ? { line: cur.line } : {}) };
       s.rows++;
       readStarValues(s, true);
+      checkDistance(s);
       const key = textOf(cells[c.band]);
       if (!bandKeys.includes(key)) {
         const guess = key === '' ? undefined : closestBandKey(key, bandKeys);
@@ -448,7 +615,20 @@ export class RowMapper {
           sink.add({ file, row: s.row, line: s.line, severity: 'error', message: `star "${s.id}" was left out because of the errors in its rows` });
           return;
         }
-        store.addStar({ id: s.id, raDeg: s.raDeg, decDeg: s.decDeg, parallaxMas: s.parallaxMas, parallaxErrMas: s.parallaxErrMas, avMag: s.avMag, measurements: s.measurements, row: s.row });
+        store.addStar({
+          id: s.id,
+          raDeg: s.raDeg,
+          decDeg: s.decDeg,
+          parallaxMas: s.parallaxMas,
+          parallaxErrMas: s.parallaxErrMas,
+          ...(s.parallaxMas !== undefined ? { parallaxOrigin } : {}),
+          ...(s.distancePc !== undefined ? { distancePc: s.distancePc, distanceLoPc: s.distanceLoPc, distanceHiPc: s.distanceHiPc } : {}),
+          avMag: s.avMag,
+          ...(s.lumClass !== undefined ? { lumClass: s.lumClass } : {}),
+          ...(s.fehDex !== undefined ? { fehDex: s.fehDex } : {}),
+          measurements: s.measurements,
+          row: s.row,
+        });
       });
     };
   }
@@ -461,12 +641,99 @@ export class RowMapper {
 
   finish(): RowCounts {
     this.finishFn();
-    return { rowCount: this.rowCount, rejectedRows: this.rejected, excludedByQuality: this.excluded };
+    return {
+      rowCount: this.rowCount,
+      rejectedRows: this.rejected,
+      excludedByQuality: this.excluded,
+      leftOutBySurveyRules: this.bySurvey,
+      nativeUpperLimits: this.nativeLimits,
+      possibleCompanions: this.companions,
+    };
   }
 }
 
 /** Shown row numbers of the rows a summary names; the rest are counted. */
 const NAMED_ROWS = 5;
+
+/** A value read from a row, before the survey rules decide on it. */
+interface Candidate {
+  key: string;
+  m: Measurement & { quality?: string };
+  /** An upper limit by the catalogue's own convention (2MASS U, AllWISE null error). */
+  native: boolean;
+  /** From a column named as a survey names it. */
+  catalogue: boolean;
+}
+
+const REASON_WORDS: Record<LeftOutReason, string> = {
+  quality_letter: 'left out by their quality letter',
+  saturated: 'left out as saturated (brighter than the survey\'s bright limit)',
+  catalogue_flag: 'left out by the catalogue\'s contamination or extended-source flag',
+  bp_rp_excess: 'left out for a large corrected BP/RP flux excess',
+};
+
+/**
+ * The survey rules' decisions gathered by band and reason, reported once per band at the end
+ * (file-wide lines at the top of the report) instead of once per row. Each line names the first
+ * rows, the first value's reason in full and its source.
+ */
+class LeftOutSummary {
+  private readonly groups = new Map<string, { key: string; reason: LeftOutReason | 'native'; count: number; rows: string[]; detail: string }>();
+  private companions = { count: 0, rows: [] as string[] };
+  private bright = { count: 0, rows: [] as string[] };
+
+  constructor(private readonly file: string) {}
+
+  private static where(row: number, line: number | undefined): string {
+    return line === undefined ? `row ${row}` : `row ${row} (file line ${line})`;
+  }
+
+  private add(key: string, reason: LeftOutReason | 'native', detail: string, row: number, line: number | undefined): void {
+    const k = `${reason}\u0000${key}`;
+    let g = this.groups.get(k);
+    if (!g) this.groups.set(k, (g = { key, reason, count: 0, rows: [], detail }));
+    g.count++;
+    if (g.rows.length < NAMED_ROWS) g.rows.push(LeftOutSummary.where(row, line));
+  }
+
+  note(key: string, reason: LeftOutReason, detail: string, row: number, line: number | undefined): void {
+    this.add(key, reason, detail, row, line);
+  }
+
+  nativeLimit(key: string, row: number, line: number | undefined): void {
+    this.add(key, 'native', '', row, line);
+  }
+
+  companion(row: number, line: number | undefined): void {
+    this.companions.count++;
+    if (this.companions.rows.length < NAMED_ROWS) this.companions.rows.push(LeftOutSummary.where(row, line));
+  }
+
+  ruweTooBright(row: number, line: number | undefined): void {
+    this.bright.count++;
+    if (this.bright.rows.length < NAMED_ROWS) this.bright.rows.push(LeftOutSummary.where(row, line));
+  }
+
+  lines(): MappingProblem[] {
+    const out: MappingProblem[] = [];
+    const more = (count: number, rows: string[]) => `${rows.join(', ')}${count > rows.length ? ` and ${count - rows.length} more` : ''}`;
+    for (const g of this.groups.values()) {
+      const n = `${g.count} ${g.key} value${g.count === 1 ? '' : 's'}`;
+      const message =
+        g.reason === 'native'
+          ? `${n} read as upper limits by the catalogue's own convention (2MASS quality letter U, or AllWISE magnitude without an error: a 95 % upper limit) (${more(g.count, g.rows)})`
+          : `${n} ${REASON_WORDS[g.reason]} (${more(g.count, g.rows)}); the first: ${g.detail}`;
+      out.push({ file: this.file, row: 0, severity: 'warning', message });
+    }
+    if (this.companions.count > 0) {
+      out.push({ file: this.file, row: 0, severity: 'warning', message: `${this.companions.count} star${this.companions.count === 1 ? '' : 's'} with Gaia RUWE above ${RUWE_MAX} (possibly a binary, photometry may be blended) flagged possible_companion (${more(this.companions.count, this.companions.rows)})` });
+    }
+    if (this.bright.count > 0) {
+      out.push({ file: this.file, row: 0, severity: 'warning', message: `${this.bright.count} star${this.bright.count === 1 ? '' : 's'} brighter than G ${RUWE_BRIGHT_G} with RUWE above ${RUWE_MAX} not flagged: RUWE is not reliable for such bright stars (${more(this.bright.count, this.bright.rows)})` });
+    }
+    return out;
+  }
+}
 
 /**
  * Long format: values without an error, gathered by band and kind (magnitude, flux) and reported

@@ -15,13 +15,15 @@ export function checkMapping(mapping: Mapping, columns: readonly string[], bandK
     if (cols.length > 1) header(`only one column can be ${ROLE_LABELS[role]}; ${cols.join(', ')} all are`, cols[1]);
   };
   if (!used.some(([, a]) => a.role === 'id')) header('no column is mapped to the star id');
-  for (const r of ['id', 'ra', 'dec', 'parallax', 'parallax_err', 'av', 'lum_class', 'feh'] as ColumnRole[]) single(r);
+  for (const r of ['id', 'ra', 'dec', 'parallax', 'parallax_err', 'av', 'lum_class', 'feh', 'ruwe', 'bp_rp_excess', 'distance', 'distance_lo', 'distance_hi'] as ColumnRole[]) single(r);
+  const has = (role: ColumnRole) => used.some(([, a]) => a.role === role);
+  if ((has('distance_lo') || has('distance_hi')) && !has('distance')) header('a distance interval needs the distance itself (distance_pc) mapped too');
   if (mapping.layout === 'long') {
     for (const r of ['band', 'mag', 'mag_err', 'jy', 'jy_err', 'ul'] as ColumnRole[]) single(r);
     if (!used.some(([, a]) => a.role === 'band')) header('the long format needs a column with the band of each row');
     if (!used.some(([, a]) => a.role === 'mag' || a.role === 'jy')) header('the long format needs a magnitude or a flux (Jy) column');
     for (const [name, a] of used) {
-      if (['mag_ul', 'jy_ul', 'gaia_flux', 'gaia_flux_err', 'quality'].includes(a.role)) header(`column ${name}: ${ROLE_LABELS[a.role]} is for the wide format (one row per star)`, name);
+      if (['mag_ul', 'jy_ul', 'gaia_flux', 'gaia_flux_err', 'quality', 'confusion', 'extended'].includes(a.role)) header(`column ${name}: ${ROLE_LABELS[a.role]} is for the wide format (one row per star)`, name);
     }
   } else {
     const seen = new Map<string, string>();
@@ -71,9 +73,10 @@ export function checkMapping(mapping: Mapping, columns: readonly string[], bandK
     });
   }
   for (const [name, a] of used) {
-    if (a.role !== 'quality') continue;
-    if (!a.bands || a.bands.length === 0) header(`column ${name}: say which band each quality letter belongs to`, name);
-    else for (const b of a.bands) if (b !== '-' && !bandKeys.includes(b)) header(`column ${name}: unknown band "${b}" for a quality letter`, name);
+    if (a.role !== 'quality' && a.role !== 'confusion' && a.role !== 'extended') continue;
+    const what = a.role === 'quality' ? 'quality letter' : a.role === 'confusion' ? 'contamination letter' : 'extended-source flag';
+    if (!a.bands || a.bands.length === 0) header(`column ${name}: say which band each ${what} belongs to`, name);
+    else for (const b of a.bands) if (b !== '-' && !bandKeys.includes(b)) header(`column ${name}: unknown band "${b}" for a ${what}`, name);
   }
   return problems;
 }

@@ -3,6 +3,7 @@
 import { ROLE_LABELS, type ColumnAssignment, type ColumnRole, type DetectedMapping, type TableCell } from './column-table';
 import { looksNumeric, textOf } from './cells';
 import { GAIA_KEYS } from './gaia-zero-points';
+import type { ParallaxOrigin } from './survey-rules';
 
 interface Template {
   prefix: string;
@@ -67,12 +68,36 @@ const STAR_NAMES: { role: ColumnRole; names: string[] }[] = [
   { role: 'id', names: ['id', 'star', 'star_id', 'starid', 'name', 'star_name', 'object', 'main_id', 'designation', 'source_id', 'source', 'hip', 'hd', 'tmass_id', '2mass', 'objid'] },
   { role: 'ra', names: ['ra', 'ra_deg', 'radeg', 'ra_icrs', 'raj2000', '_raj2000', 'ra_j2000', 'ra_icrs_deg', 'ramdeg'] },
   { role: 'dec', names: ['dec', 'dec_deg', 'decdeg', 'de', 'dedeg', 'de_icrs', 'dej2000', '_dej2000', 'dec_j2000', 'decj2000', 'demdeg'] },
-  { role: 'parallax', names: ['parallax_mas', 'parallax', 'plx', 'plx_mas', 'pi'] },
+  { role: 'parallax', names: ['parallax_mas', 'parallax', 'plx', 'plx_mas', 'pi', 'parallax_hip', 'plx_hip', 'hip_plx'] },
   { role: 'parallax_err', names: ['parallax_err_mas', 'parallax_error', 'parallax_err', 'e_plx', 'plx_err', 'e_parallax', 'eplx', 'sig_plx'] },
   { role: 'av', names: ['av', 'a_v', 'av_mag', 'a_v_mag', 'ext_v', 'extinction_v'] },
   { role: 'lum_class', names: ['lum_class', 'lumclass', 'luminosity_class', 'lum_cls'] },
   { role: 'feh', names: ['feh', 'fe_h', '[fe/h]', 'feh_dex', 'fe_h_dex', '__fe_h_'] },
+  { role: 'ruwe', names: ['ruwe'] },
+  { role: 'bp_rp_excess', names: ['phot_bp_rp_excess_factor', 'bp_rp_excess_factor', 'e(bp/rp)'] },
+  // Canonical distance columns, then the geometric and photogeometric distances of Bailer-Jones et
+  // al. (2021) in their archive spelling; each list in the same order, so lo/hi come from one source.
+  { role: 'distance', names: ['distance_pc', 'r_med_geo', 'r_med_photogeo'] },
+  { role: 'distance_lo', names: ['distance_lo_pc', 'r_lo_geo', 'r_lo_photogeo'] },
+  { role: 'distance_hi', names: ['distance_hi_pc', 'r_hi_geo', 'r_hi_photogeo'] },
 ];
+
+/**
+ * Where a parallax column comes from, from its name and the table's other columns: Gaia DR3 when it
+ * is spelt as the Gaia archive or VizieR spell it and the table carries Gaia DR3 columns beside it
+ * (phot_g_mean_*, ruwe, a name with "dr3"); Hipparcos when the name says so or the table is a
+ * Hipparcos one (Hpmag); otherwise 'other' (no zero-point: the user's own or an unknown release).
+ */
+export function parallaxOriginOf(name: string, columns: readonly string[]): ParallaxOrigin {
+  const n = name.toLowerCase();
+  const lower = columns.map((c) => c.toLowerCase());
+  if (n.includes('hip')) return 'hipparcos';
+  if (lower.some((c) => c.includes('dr2') || c.includes('edr3'))) return 'other';
+  const gaia = lower.some((c) => c.includes('dr3') || c === 'ruwe' || c.startsWith('phot_g_mean') || c.startsWith('phot_bp_mean') || c === 'fg' || c === 'e_fg');
+  if ((n === 'parallax' || n === 'plx') && gaia) return 'gaia_dr3';
+  if (n === 'plx' && lower.includes('hpmag')) return 'hipparcos';
+  return 'other';
+}
 
 /** Long format: column names of the band, value and flag columns. */
 const LONG_NAMES: { role: ColumnRole; names: string[] }[] = [
@@ -207,7 +232,7 @@ export function detectMapping(columns: readonly string[], sampleRows: readonly T
       if (chosen < 0) chosen = i;
       else out.notes[columns[i]] = `looks like ${ROLE_LABELS[role]}, but column ${columns[chosen]} was taken for it`;
     }
-    if (chosen >= 0) assign(columns[chosen], { role });
+    if (chosen >= 0) assign(columns[chosen], role === 'parallax' ? { role, origin: parallaxOriginOf(columns[chosen], columns) } : { role });
   }
 
   if (out.layout === 'wide') {
@@ -264,6 +289,22 @@ export function detectMapping(columns: readonly string[], sampleRows: readonly T
     if (!bands || !bands.every((b) => bandKeys.includes(b))) return;
     assign(name, { role: 'quality', bands });
     out.rules.quality.push({ column: name, keep: ['A', 'B'] });
+  });
+
+  // Contamination letters (2MASS cc_flg: J H Ks; AllWISE cc_flags: W1–W4) and AllWISE ext_flg.
+  columns.forEach((name, i) => {
+    const n = lowerNames[i];
+    if (out.columns[name].role !== 'ignore') return;
+    if (n.startsWith('ext_flg')) {
+      if (['W1', 'W2', 'W3', 'W4'].every((b) => bandKeys.includes(b))) assign(name, { role: 'extended', bands: ['W1', 'W2', 'W3', 'W4'] });
+      return;
+    }
+    if (!n.startsWith('cc_flg') && !n.startsWith('cc_flags') && n !== 'cflg' && n !== 'ccf') return;
+    const lengths = new Set(sample(i).map((v) => textOf(v).length).filter((l) => l > 0));
+    const len = lengths.size === 1 ? [...lengths][0] : n.startsWith('cc_flags') || n === 'ccf' ? 4 : 3;
+    const bands = len === 4 ? ['W1', 'W2', 'W3', 'W4'] : len === 3 ? ['J', 'H', 'Ks'] : null;
+    if (!bands || !bands.every((b) => bandKeys.includes(b))) return;
+    assign(name, { role: 'confusion', bands });
   });
   return out;
 }

@@ -3,6 +3,7 @@
 // Pure types and vocabularies; the steps are in column-names.ts (detection), check-mapping.ts and
 // apply-mapping.ts, and mapping.ts re-exports them all.
 import type { Measurement } from '../types';
+import type { LeftOutValue, ParallaxOrigin, SurveyRules } from './survey-rules';
 
 /** A cell as readers give it: text (CSV), numbers/booleans/null (FITS, VOTable). */
 export type TableCell = string | number | bigint | boolean | null | undefined;
@@ -51,11 +52,26 @@ export type ColumnRole =
   /** long format: the column naming the band of each row */
   | 'band'
   /** long format: 1 = upper limit */
-  | 'ul';
+  | 'ul'
+  /** Gaia renormalised unit weight error (ruwe) */
+  | 'ruwe'
+  /** Gaia phot_bp_rp_excess_factor (the raw C; the mapping corrects it for colour) */
+  | 'bp_rp_excess'
+  /** contamination and confusion letters, one per band in `bands` (2MASS cc_flg, AllWISE cc_flags) */
+  | 'confusion'
+  /** AllWISE ext_flg: 0 = point source; applies to every band in `bands` */
+  | 'extended'
+  /** distance in pc, used instead of 1/parallax */
+  | 'distance'
+  /** lower end of the distance interval, pc */
+  | 'distance_lo'
+  /** upper end of the distance interval, pc */
+  | 'distance_hi';
 
 export const COLUMN_ROLES: readonly ColumnRole[] = [
   'ignore', 'id', 'ra', 'dec', 'parallax', 'parallax_err', 'av', 'lum_class', 'feh', 'mag', 'mag_err', 'jy', 'jy_err',
-  'mag_ul', 'jy_ul', 'gaia_flux', 'gaia_flux_err', 'quality', 'band', 'ul',
+  'mag_ul', 'jy_ul', 'gaia_flux', 'gaia_flux_err', 'quality', 'band', 'ul', 'ruwe', 'bp_rp_excess', 'confusion', 'extended',
+  'distance', 'distance_lo', 'distance_hi',
 ];
 
 /** Roles that belong to one band in the wide format. */
@@ -83,14 +99,23 @@ export const ROLE_LABELS: Record<ColumnRole, string> = {
   quality: 'quality letters',
   band: 'band name (long format)',
   ul: 'upper-limit flag (long format)',
+  ruwe: 'Gaia RUWE',
+  bp_rp_excess: 'Gaia BP/RP flux excess factor',
+  confusion: 'contamination letters (2MASS cc_flg, AllWISE cc_flags)',
+  extended: 'extended-source flag (AllWISE ext_flg)',
+  distance: 'distance (pc)',
+  distance_lo: 'distance, lower end (pc)',
+  distance_hi: 'distance, upper end (pc)',
 };
 
 export interface ColumnAssignment {
   role: ColumnRole;
   /** Band key for band roles in the wide format. */
   band?: string;
-  /** For 'quality': the band each letter belongs to, in order (one band = the whole cell). */
+  /** For 'quality' and 'confusion': the band each letter belongs to, in order (one band = the whole cell); for 'extended', the bands it applies to. */
   bands?: string[];
+  /** For 'parallax': where it comes from (Gaia DR3 parallaxes get the zero-point). */
+  origin?: ParallaxOrigin;
 }
 
 export type TableLayout = 'wide' | 'long';
@@ -109,6 +134,8 @@ export interface QualityRule {
 
 export interface MappingRules {
   quality: QualityRule[];
+  /** The survey rules (bright limits, catalogue flags, native upper limits); on by default. */
+  survey?: SurveyRules;
 }
 
 export interface MappingProblem {
@@ -133,6 +160,16 @@ export interface MappedStar {
   lumClass?: 'dwarf' | 'giant';
   /** Input column feh. */
   fehDex?: number;
+  /** Input columns distance_pc, distance_lo_pc, distance_hi_pc: used instead of 1/parallax. */
+  distancePc?: number;
+  distanceLoPc?: number;
+  distanceHiPc?: number;
+  /** Where the parallax comes from (set whenever a parallax is). */
+  parallaxOrigin?: ParallaxOrigin;
+  /** Gaia RUWE above 1.4 on a star not too bright for it: possibly a binary, photometry may be blended. */
+  possibleCompanion?: boolean;
+  /** Values in the file left out by the quality and survey rules, each with its reason. */
+  leftOut?: LeftOutValue[];
   measurements: (Measurement & { quality?: string })[];
   /** First data row of the star. */
   row: number;
@@ -146,6 +183,12 @@ export interface MappingResult {
   rejectedRows: number;
   /** Band values left out by a quality rule (not an error: the rule asked for it). */
   excludedByQuality: number;
+  /** Band values left out by the survey rules (saturation, catalogue flags, BP/RP excess). */
+  leftOutBySurveyRules: number;
+  /** Band values read as upper limits by the catalogue's own convention. */
+  nativeUpperLimits: number;
+  /** Stars flagged possible_companion (Gaia RUWE). */
+  possibleCompanions: number;
   errorCount: number;
   warningCount: number;
 }

@@ -47,6 +47,7 @@ describe('wide tables', () => {
         raDeg: 10.5,
         decDeg: -20.25,
         parallaxMas: 12.5,
+        parallaxOrigin: 'other',
         parallaxErrMas: 0.05,
         avMag: 0.1,
         row: 1,
@@ -196,9 +197,10 @@ describe('catalogue column names', () => {
     const { table } = tableOf(text, 'cat.csv');
     const byHand: Mapping = { layout: 'wide', columns: { hip: { role: 'id' }, j_m: { role: 'mag', band: 'J' }, j_msigcom: { role: 'mag_err', band: 'J' }, plx: { role: 'parallax' }, junk: { role: 'ignore' } } };
     const detected = detectMapping(table.columns, table.rows, KEYS);
-    expect(detected.columns).toEqual(byHand.columns);
+    // A plx column beside no Gaia DR3 columns has no known origin: no parallax zero-point (survey-rules.ts).
+    expect(detected.columns).toEqual({ ...byHand.columns, plx: { role: 'parallax', origin: 'other' } });
     const t = applyMapping(table, byHand, { quality: [] }, { bandKeys: KEYS });
-    expect(t.stars).toEqual([{ id: 'HIP1', parallaxMas: 10, row: 1, measurements: [{ bandKey: 'J', mag: 5.1, magErr: 0.02 }] }]);
+    expect(t.stars).toEqual([{ id: 'HIP1', parallaxMas: 10, parallaxOrigin: 'other', row: 1, measurements: [{ bandKey: 'J', mag: 5.1, magErr: 0.02 }] }]);
     expect(t.problems).toEqual([{ file: 'cat.csv', row: 2, line: 3, column: { name: 'j_m', number: 2 }, severity: 'error', message: 'row 2 (file line 3), column j_m: J magnitude "5.x" is not a number' }]);
   });
 });
@@ -220,6 +222,7 @@ describe('long tables', () => {
       {
         id: 'kiln-1',
         parallaxMas: 12.5,
+        parallaxOrigin: 'other',
         row: 1,
         measurements: [
           { bandKey: 'V', mag: 9.8, magErr: 0.02 },

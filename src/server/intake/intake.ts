@@ -54,6 +54,7 @@ const assignment = z.object({
   role: z.enum(COLUMN_ROLES as unknown as [ColumnRole, ...ColumnRole[]], `role must be one of ${COLUMN_ROLES.join(', ')}.`),
   band: z.string().max(40).optional(),
   bands: z.array(z.string().max(40)).max(10).optional(),
+  origin: z.enum(['gaia_dr3', 'hipparcos', 'other'], 'a parallax origin is gaia_dr3, hipparcos or other.').optional(),
 });
 
 export const mappingInput = z.object({
@@ -64,6 +65,16 @@ export const mappingInput = z.object({
 export const rulesInput = z
   .object({
     quality: z.array(z.object({ column: z.string().max(200), keep: z.array(z.string().min(1).max(4)).max(20) })).max(20).default([]),
+    // The survey rules (src/core/input/survey-rules.ts); absent = their defaults (on).
+    survey: z
+      .object({
+        brightLimits: z.enum(['catalogue', 'all', 'off'], 'bright limits are catalogue, all or off.').optional(),
+        brightLimitMag: z.record(z.string().max(40), z.number().min(-30).max(50)).optional(),
+        catalogueFlags: z.boolean().optional(),
+        nativeUpperLimits: z.boolean().optional(),
+        parallaxOrigin: z.enum(['gaia_dr3', 'hipparcos', 'other'], 'a parallax origin is gaia_dr3, hipparcos or other.').optional(),
+      })
+      .optional(),
   })
   .default({ quality: [] });
 
