@@ -37,6 +37,8 @@ export const AUDIT_ACTIONS = [
   'upload.rejected',
   'upload.imported',
   'intake.upload_withdrawn',
+  'photometry.set_aside',
+  'photometry.used_again',
 ] as const;
 export type AuditAction = (typeof AUDIT_ACTIONS)[number];
 

@@ -14,8 +14,16 @@ export interface SheetMeasurement {
   fnuErrJy: number | null;
   upperLimit: boolean;
   quality: string | null;
-  /** Set when this value did not reach the newest fit (another value in the band won, or it could not be converted). */
+  /** Set when this value did not reach the newest fit (another value in the band won, it was set aside, or it could not be converted). */
   notUsedReason: string | null;
+  /** The newest fit used this value ('used'), did not ('not_used', see notUsedReason); null: no fit yet. */
+  inNewestFit: 'used' | 'not_used' | null;
+  /** Set aside: kept on record, not used in fits from then on. */
+  setAside: { at: string; by: string | null; reason: string | null } | null;
+  /** Set aside or used again since the newest fit: the change takes effect when the star is fitted again. */
+  changedSinceFit: boolean;
+  /** Measured on a FITS image: what its header said about the observation (the pointing is the frame's, not the star's). */
+  image: { filter: string | null; dateObs: string | null; exptimeS: number | null; airmass: number | null; pointingRaDeg: number | null; pointingDecDeg: number | null } | null;
 }
 
 /** One band of the newest fit, ready to draw. Fluxes are band-mean F_λ (erg s⁻¹ cm⁻² Å⁻¹). */

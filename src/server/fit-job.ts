@@ -101,7 +101,12 @@ export interface MeasurementRow {
   fnu_jy: number | null;
   fnu_err_jy: number | null;
   upper_limit: number;
+  /** 1 when the value was set aside (kept on record, not used in fits); absent or 0: used. */
+  set_aside?: number;
 }
+
+/** Why a set-aside value was not used, as the fit's record of skipped values says it. */
+export const SET_ASIDE_REASON = 'set aside: not used in fits';
 
 /** A fit_results row ready to insert (snake_case = column names). */
 export interface FitResultRow {
@@ -174,6 +179,10 @@ export function starBandFluxes(library: BandLibrary, rows: MeasurementRow[]): { 
   const best = new Map<string, { flux: BandFlux; source: string }>();
   const rank = (f: BandFlux) => (f.upperLimit ? 1e9 : 0) + (f.fluxCgs > 0 ? f.errCgs / f.fluxCgs : 1e6);
   for (const m of rows) {
+    if (m.set_aside === 1) {
+      skipped.push({ band: m.band_key, source: m.source, reason: SET_ASIDE_REASON });
+      continue;
+    }
     const band: Band | null = getBand(library, m.band_key);
     if (!band) {
       skipped.push({ band: m.band_key, source: m.source, reason: `band ${m.band_key} is not in band library ${library.version}` });
@@ -322,7 +331,7 @@ export class FitStarRunner {
       'SELECT id, star_key, parallax_mas, parallax_err_mas, av_mag, lum_class, feh_dex FROM stars WHERE id IN (SELECT value FROM json_each(?))',
     );
     this.selectMeasurements = this.sqlite.prepare(
-      `SELECT star_id, band_key, source, mag, mag_err, fnu_jy, fnu_err_jy, upper_limit FROM measurements
+      `SELECT star_id, band_key, source, mag, mag_err, fnu_jy, fnu_err_jy, upper_limit, set_aside_at IS NOT NULL AS set_aside FROM measurements
        WHERE star_id IN (SELECT value FROM json_each(?)) ORDER BY star_id, band_key, source`,
     );
     this.selectDone = this.sqlite.prepare('SELECT star_id FROM fit_results WHERE batch_id = ? AND star_id IN (SELECT value FROM json_each(?))').pluck();

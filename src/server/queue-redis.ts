@@ -109,7 +109,7 @@ export class RedisDispatchStore {
       stars: this.sqlite.prepare('SELECT id, star_key, parallax_mas, parallax_err_mas, av_mag FROM stars WHERE id IN (SELECT value FROM json_each(?))'),
       // Same order as FitStarRunner: the choice between two values in one band depends on it.
       measurements: this.sqlite.prepare(
-        `SELECT star_id, band_key, source, mag, mag_err, fnu_jy, fnu_err_jy, upper_limit FROM measurements
+        `SELECT star_id, band_key, source, mag, mag_err, fnu_jy, fnu_err_jy, upper_limit, set_aside_at IS NOT NULL AS set_aside FROM measurements
          WHERE star_id IN (SELECT value FROM json_each(?)) ORDER BY star_id, band_key, source`,
       ),
       renewAll: this.sqlite.prepare(`UPDATE jobs SET lease_expires_at = ? WHERE status = 'leased' AND lease_owner LIKE 'redis:%'`),

@@ -11,7 +11,7 @@ import type { ExtinctionLawKey } from '../core/types';
 import type { AppDatabase } from '../db/client';
 import type { SheetBand, SheetFit, SheetMeasurement, StarSheet } from '../contracts/review';
 import { findLibrary, getCurrentLibrary } from './band-library';
-import type { FitResultRow } from './fit-job';
+import { SET_ASIDE_REASON, type FitResultRow } from './fit-job';
 import { HttpError } from './errors';
 import { carryoverOf, explainFlags, getReviewSettings, starHistory } from './review';
 
@@ -116,15 +116,27 @@ export function starSheet(db: AppDatabase, campaignId: string, starRef: string |
   for (const s of detail.skipped ?? []) skippedBy.set(`${s.band}\u0000${s.source}`, s.reason);
   const measurementRows = sqlite
     .prepare(
-      `SELECT m.id, m.band_key, m.source, m.upload_id, up.original_name, m.mag, m.mag_err, m.fnu_jy, m.fnu_err_jy, m.upper_limit, m.quality
-       FROM measurements m LEFT JOIN uploads up ON up.id = m.upload_id WHERE m.star_id = ? ORDER BY m.band_key, m.source`,
+      `SELECT m.id, m.band_key, m.source, m.upload_id, up.original_name, m.mag, m.mag_err, m.fnu_jy, m.fnu_err_jy, m.upper_limit, m.quality,
+              m.set_aside_at, m.set_aside_reason, sb.name AS set_aside_by,
+              m.observation IS NOT NULL AS from_image, json_extract(m.observation, '$.filter') AS obs_filter, json_extract(m.observation, '$.dateObs') AS obs_date,
+              json_extract(m.observation, '$.exptimeS') AS obs_exptime, json_extract(m.observation, '$.airmass') AS obs_airmass,
+              json_extract(m.observation, '$.raDeg') AS obs_ra, json_extract(m.observation, '$.decDeg') AS obs_dec
+       FROM measurements m LEFT JOIN uploads up ON up.id = m.upload_id LEFT JOIN user sb ON sb.id = m.set_aside_by_id
+       WHERE m.star_id = ? ORDER BY m.band_key, m.source`,
     )
     .all(star.id) as {
     id: number; band_key: string; source: string; upload_id: string | null; original_name: string | null; mag: number | null; mag_err: number | null;
     fnu_jy: number | null; fnu_err_jy: number | null; upper_limit: number; quality: string | null;
+    set_aside_at: number | null; set_aside_reason: string | null; set_aside_by: string | null;
+    from_image: number; obs_filter: string | null; obs_date: string | null; obs_exptime: number | null; obs_airmass: number | null; obs_ra: number | null; obs_dec: number | null;
   }[];
+  const num = (v: unknown) => (typeof v === 'number' && Number.isFinite(v) ? v : null);
+  const str = (v: unknown) => (typeof v === 'string' && v !== '' ? v : null);
   const measurements: SheetMeasurement[] = measurementRows.map((m) => {
     const band = getBand(current, m.band_key);
+    const notUsedReason = skippedBy.get(`${m.band_key}\u0000${m.source}`) ?? null;
+    const inNewestFit: SheetMeasurement['inNewestFit'] = !latest ? null : notUsedReason !== null || !(detail.observed && m.band_key in detail.observed) ? 'not_used' : 'used';
+    const setAside = m.set_aside_at !== null;
     return {
       id: m.id,
       bandKey: m.band_key,
@@ -138,7 +150,13 @@ export function starSheet(db: AppDatabase, campaignId: string, starRef: string |
       fnuErrJy: m.fnu_err_jy,
       upperLimit: m.upper_limit === 1,
       quality: m.quality,
-      notUsedReason: skippedBy.get(`${m.band_key}\u0000${m.source}`) ?? null,
+      notUsedReason,
+      inNewestFit,
+      setAside: setAside ? { at: new Date(m.set_aside_at!).toISOString(), by: m.set_aside_by, reason: m.set_aside_reason } : null,
+      changedSinceFit: !!latest && setAside !== (notUsedReason === SET_ASIDE_REASON),
+      image: m.from_image === 1
+        ? { filter: str(m.obs_filter), dateObs: str(m.obs_date), exptimeS: num(m.obs_exptime), airmass: num(m.obs_airmass), pointingRaDeg: num(m.obs_ra), pointingDecDeg: num(m.obs_dec) }
+        : null,
     };
   });
 

@@ -366,6 +366,7 @@ export class RowMapper {
       jy_err: roleCol('jy_err'),
       ul: roleCol('ul'),
     };
+    const noError = new MissingErrors(file, columns, c);
     this.rowFn = (cells, line) => {
       const id = beginRow(cells, line);
       if (id === null) {
@@ -399,19 +400,26 @@ export class RowMapper {
       if (!cur.bad) {
         if (mag !== undefined) {
           if (ul) s.measurements.push({ bandKey: key, mag, upperLimit: true });
-          else if (magErr === undefined) problem(c.mag_err ?? c.mag, `band ${key} has a magnitude but no error; the value was not used`, 'warning');
-          else s.measurements.push({ bandKey: key, mag, magErr });
+          else if (magErr === undefined) noError.note(key, 'mag', cur.row, cur.line);
+          else {
+            noError.note(key, 'mag', cur.row, cur.line, true);
+            s.measurements.push({ bandKey: key, mag, magErr });
+          }
         } else if (jy !== undefined) {
           if (jy <= 0) problem(c.jy, `flux ${jy} Jy must be positive`);
           else if (ul) s.measurements.push({ bandKey: key, fnuJy: jy, upperLimit: true });
-          else if (jyErr === undefined) problem(c.jy_err ?? c.jy, `band ${key} has a flux but no error; the value was not used`, 'warning');
-          else s.measurements.push({ bandKey: key, fnuJy: jy, fnuErrJy: jyErr });
+          else if (jyErr === undefined) noError.note(key, 'jy', cur.row, cur.line);
+          else {
+            noError.note(key, 'jy', cur.row, cur.line, true);
+            s.measurements.push({ bandKey: key, fnuJy: jy, fnuErrJy: jyErr });
+          }
         }
       }
       if (cur.bad) s.bad = true;
       store.putLong(s);
     };
     this.finishFn = () => {
+      for (const p of noError.summary()) sink.add(p);
       store.eachLong((s) => {
         if (s.bad) {
           this.rejected += s.rows;
@@ -435,6 +443,72 @@ export class RowMapper {
   }
 }
 
+/** Shown row numbers of the rows a summary names; the rest are counted. */
+const NAMED_ROWS = 5;
+
+/**
+ * Long format: values without an error, gathered by band and kind (magnitude, flux) and reported
+ * once per band at the end instead of once per row. A band none of whose values has an error is
+ * named with the others like it in one line ("G, BP, RP: …"); a band where only some rows lack
+ * one says how many and which. The sink's reader puts these file-wide (row 0) lines at the top.
+ */
+class MissingErrors {
+  private readonly bands = new Map<string, { kind: 'mag' | 'jy'; values: number; missing: number; rows: string[] }>();
+
+  constructor(
+    private readonly file: string,
+    private readonly columns: readonly string[],
+    private readonly c: { mag?: number; mag_err?: number; jy?: number; jy_err?: number },
+  ) {}
+
+  /** A value row of `band`; `withError` when it had an error. */
+  note(band: string, kind: 'mag' | 'jy', row: number, line: number | undefined, withError = false): void {
+    let b = this.bands.get(`${kind}\u0000${band}`);
+    if (!b) this.bands.set(`${kind}\u0000${band}`, (b = { kind, values: 0, missing: 0, rows: [] }));
+    b.values++;
+    if (withError) return;
+    b.missing++;
+    if (b.rows.length < NAMED_ROWS) b.rows.push(line === undefined ? `row ${row}` : `row ${row} (file line ${line})`);
+  }
+
+  summary(): MappingProblem[] {
+    const out: MappingProblem[] = [];
+    for (const kind of ['mag', 'jy'] as const) {
+      const errCol = kind === 'mag' ? this.c.mag_err : this.c.jy_err;
+      const valueCol = kind === 'mag' ? this.c.mag : this.c.jy;
+      const what = kind === 'mag' ? 'magnitude' : 'flux';
+      const list = [...this.bands].filter(([, b]) => b.kind === kind && b.missing > 0).map(([k, b]) => ({ key: k.split('\u0000')[1], ...b }));
+      const whole = list.filter((b) => b.missing === b.values);
+      const col = errCol ?? valueCol;
+      const column = col === undefined ? undefined : { name: this.columns[col], number: col + 1 };
+      if (whole.length > 0) {
+        const keys = whole.map((b) => b.key).join(', ');
+        const one = whole.length === 1;
+        const why = errCol === undefined ? `no ${what} error column is mapped` : `no row gives a ${what} error`;
+        const fix = errCol === undefined ? `map the file's ${what} error column (such as ${kind === 'mag' ? 'mag_err or e_mag' : 'jy_err or e_jy'})` : `fill in the ${what} errors in column ${this.columns[errCol]}`;
+        out.push({ file: this.file, row: 0, column, severity: 'warning', message: `${keys}: ${why}, so ${one ? 'this band is' : 'these bands are'} not used in any row (upper limits are kept); ${fix}` });
+      }
+      for (const b of list) {
+        if (b.missing === b.values) continue;
+        const more = b.missing > b.rows.length ? ` and ${b.missing - b.rows.length} more` : '';
+        out.push({
+          file: this.file,
+          row: 0,
+          column,
+          severity: 'warning',
+          message: `${b.key}: ${b.missing} of ${b.values} ${what} rows have no error (${b.rows.join(', ')}${more}), so those values were not used`,
+        });
+      }
+    }
+    return out;
+  }
+}
+
+/** File-wide problems (row 0: the mapping, summaries by band) first, then the rows in order. */
+export function fileWideFirst<P extends { row: number }>(problems: P[]): P[] {
+  return [...problems.filter((p) => p.row === 0), ...problems.filter((p) => p.row !== 0)];
+}
+
 /**
  * Every row of a table through the mapping → stars with measurements, and every problem with file,
  * row and column (RowMapper with everything kept in memory).
@@ -447,7 +521,7 @@ export function applyMapping(table: ColumnTable, mapping: Mapping, rules: Mappin
   const counts = mapper.finish();
   return {
     stars: store.stars,
-    problems,
+    problems: fileWideFirst(problems),
     ...counts,
     errorCount: problems.filter((p) => p.severity === 'error').length,
     warningCount: problems.filter((p) => p.severity === 'warning').length,

@@ -177,6 +177,47 @@ describe('applyMapping', () => {
     expect(r.rejectedRows).toBe(6);
   });
 
+  it('long format without an error column: the bands are named once at the top, not once per row', () => {
+    // 43 stars × G, BP, RP, one row each, as a Gaia DR3 query laid out one band per row; no error column.
+    const rows = Array.from({ length: 43 }, (_, i) => ['G', 'BP', 'RP'].map((b, j) => [`star-${i}`, b, String(9 + j / 10 + i / 100)])).flat();
+    const t = table(['id', 'band', 'mag'], [...rows, ['star-0', 'W1', '8.2']]);
+    const m = detectMapping(t.columns, t.rows, keys);
+    expect(m.layout).toBe('long');
+    const r = applyMapping(t, m, m.rules, { bandKeys: keys });
+    expect(r.problems.map((p) => [p.severity, p.row, p.column?.name, p.message])).toEqual([
+      ['warning', 0, 'mag', "G, BP, RP, W1: no magnitude error column is mapped, so these bands are not used in any row (upper limits are kept); map the file's magnitude error column (such as mag_err or e_mag)"],
+    ]);
+    expect(r.stars).toHaveLength(43);
+    expect(r.stars.every((s) => s.measurements.length === 0)).toBe(true);
+  });
+
+  it('long format with an error column: a band with no error anywhere is named once, a band missing some errors says how many and which rows', () => {
+    const rows: string[][] = [];
+    for (let i = 0; i < 8; i++) {
+      rows.push([`s${i}`, 'V', '9.1', i === 2 || i === 5 ? '' : '0.02']);
+      rows.push([`s${i}`, 'G', '9.0', '']);
+      rows.push([`s${i}`, 'BP', '9.3', '']);
+    }
+    const t = table(['id', 'band', 'mag', 'mag_err'], rows);
+    const m = detectMapping(t.columns, t.rows, keys);
+    const r = applyMapping(t, m, m.rules, { bandKeys: keys });
+    expect(r.problems.map((p) => [p.severity, p.row, p.column?.name, p.message])).toEqual([
+      ['warning', 0, 'mag_err', 'G, BP: no row gives a magnitude error, so these bands are not used in any row (upper limits are kept); fill in the magnitude errors in column mag_err'],
+      ['warning', 0, 'mag_err', 'V: 2 of 8 magnitude rows have no error (row 7 (file line 8), row 16 (file line 17)), so those values were not used'],
+    ]);
+    expect(r.stars.map((s) => s.measurements.map((x) => x.bandKey).join(' '))).toEqual(['V', 'V', '', 'V', 'V', '', 'V', 'V']);
+  });
+
+  it('lists the file-wide summaries before the row problems', () => {
+    const t = table(['id', 'band', 'mag', 'mag_err'], [['a', 'G', 'bright', ''], ['b', 'G', '9.0', ''], ['c', 'V', '9.0', '0.1']]);
+    const m = detectMapping(t.columns, t.rows, keys);
+    const r = applyMapping(t, m, m.rules, { bandKeys: keys });
+    expect(r.problems.map((p) => p.row)).toEqual([0, 1, 1, 1]);
+    expect(r.problems[0].message).toMatch(/^G: no row gives a magnitude error/);
+    expect(r.problems[1].message).toMatch(/magnitude "bright" is not a number/);
+    expect(r.problems[3].message).toMatch(/star "a" was left out/);
+  });
+
   it('refuses a mapping without an id, with an unknown band or with two value columns for one band', () => {
     const cols = ['name', 'Vmag', 'V_jy', 'X'];
     const bad: Mapping = { layout: 'wide', columns: { Vmag: { role: 'mag', band: 'V' }, V_jy: { role: 'jy', band: 'V' }, X: { role: 'mag', band: 'X' } } };

@@ -130,7 +130,7 @@ describe('wide tables', () => {
   });
 
   it('bands with no error column mapped are named once at the top of the report, not once per row', () => {
-    // Gaia DR3 archive spelling: phot_<band>_mean_mag has no error column of its own there.
+    // Gaia DR3 archive spelling (from memory): gaia_source has phot_<band>_mean_mag but no magnitude error column.
     const rows = Array.from({ length: 125 }, (_, i) => `star-${i},${9 + i / 100},0.02,10.1,10.3,9.6`).join('\n');
     const t = read(`id,V,V_err,phot_g_mean_mag,phot_bp_mean_mag,phot_rp_mean_mag\n${rows}`);
     expect(t.problems.map((p) => [p.severity, p.row, p.column?.name, p.message])).toEqual([

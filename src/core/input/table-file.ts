@@ -8,6 +8,7 @@ import type { DelimitedHeader } from './delimited-stream';
 import { TextTableReader } from './text-table';
 import { FitsError, readFits, readFitsImageHeader, readFitsTable, type FitsCell, type FitsValue } from './fits-file';
 import { MAG_RANGE } from './apply-mapping';
+import { readCellNumber } from './cells';
 import { readVoTable, VoTableError } from './votable';
 import { ReadBudget, shownText, stripSource, UnreadableFile, type Clock, type InputLimits } from './limits';
 
@@ -159,10 +160,10 @@ function imageUpload(meta: ReturnType<typeof readFitsImageHeader>, file: string)
     const said = v === null ? `${k} has no value` : typeof v === 'string' ? (v.trim() === '' ? `${k} = '' is empty` : `${k} = '${shownText(v.trim())}' is not a number`) : `${k} = ${String(v)} is not a number`;
     throw new UnreadableFile(`${file}: the header's ${said}, so it cannot be ${what}; correct or remove the keyword and upload the file again`);
   };
+  // A number, or text that reads as one the way a table cell does (readCellNumber).
   const numberOf = (v: FitsValue): number | undefined => {
-    if (typeof v === 'number' && Number.isFinite(v)) return v;
-    if (typeof v === 'string' && /^\s*[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?\s*$/.test(v)) return Number(v);
-    return undefined;
+    const n = typeof v === 'number' || typeof v === 'string' ? readCellNumber(v) : undefined;
+    return n !== undefined && Number.isFinite(n) ? n : undefined;
   };
   for (const [k, errKeys] of MAG_KEYWORDS) {
     const v = keyword(k);

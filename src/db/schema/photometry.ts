@@ -142,6 +142,11 @@ export const measurements = sqliteTable(
     // Per-observation metadata read from a FITS image header (filter, exposure, date, airmass …).
     observation: text('observation', { mode: 'json' }).$type<Record<string, unknown>>(),
     createdAt: integer('created_at', { mode: 'timestamp_ms' }).notNull().default(now),
+    // Set aside: kept on record but not used in fits from then on (null: used). Who, when and why;
+    // putting it back clears all three. Both directions are audited (src/server/measurement-use.ts).
+    setAsideAt: integer('set_aside_at', { mode: 'timestamp_ms' }),
+    setAsideById: text('set_aside_by_id').references(() => user.id, { onDelete: 'set null' }),
+    setAsideReason: text('set_aside_reason'),
   },
   (t) => [
     uniqueIndex('measurements_star_band_source_unique').on(t.starId, t.bandKey, t.source),

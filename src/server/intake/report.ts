@@ -34,11 +34,12 @@ export function fileProblem(file: string, message: string): ReportEntry[] {
 
 /**
  * Problems as a streaming check produces them: the first REPORT_LIMIT kept as report entries, the
- * rest only counted, so a file with a million bad rows does not hold a million messages. `report()`
- * equals toReport(all problems).
+ * rest only counted, so a file with a million bad rows does not hold a million messages. File-wide
+ * problems (row 0) come first, as applyMapping lists them.
  */
 export class CappedProblems {
   private readonly kept: MappingProblem[] = [];
+  private readonly fileWide: MappingProblem[] = [];
   errorCount = 0;
   warningCount = 0;
   private extra = 0;
@@ -48,8 +49,10 @@ export class CappedProblems {
   add(p: MappingProblem): void {
     if (p.severity === 'error') this.errorCount++;
     else this.warningCount++;
-    if (this.kept.length === 0 && this.extra === 0) this.file = p.file;
-    if (this.kept.length < REPORT_LIMIT) this.kept.push(p);
+    if (this.file === '') this.file = p.file;
+    // File-wide problems (the mapping's, summaries by band) are few and always kept, listed first.
+    if (p.row === 0) this.fileWide.push(p);
+    else if (this.fileWide.length + this.kept.length < REPORT_LIMIT) this.kept.push(p);
     else {
       this.extra++;
       if (p.severity === 'error') this.extraErrors++;
@@ -57,13 +60,18 @@ export class CappedProblems {
   }
 
   report(): ReportEntry[] {
-    const entries = toReport(this.kept);
-    if (this.extra > 0) {
+    // File-wide lines that arrived after the rows filled the report push the last rows out.
+    const room = Math.max(0, REPORT_LIMIT - this.fileWide.length);
+    const pushedOut = this.kept.slice(room);
+    const extra = this.extra + pushedOut.length;
+    const extraErrors = this.extraErrors + pushedOut.filter((p) => p.severity === 'error').length;
+    const entries = toReport([...this.fileWide, ...this.kept.slice(0, room)]);
+    if (extra > 0) {
       entries.push({
         file: this.file,
         row: 0,
-        severity: this.extraErrors > 0 ? 'error' : 'warning',
-        message: `…and ${this.extra} more problems (${this.extraErrors} errors) not listed here`,
+        severity: extraErrors > 0 ? 'error' : 'warning',
+        message: `…and ${extra} more problems (${extraErrors} errors) not listed here`,
       });
     }
     return entries;
