@@ -102,11 +102,14 @@ describe('every reader path through upload → check → import', () => {
     expect(u.preview[0][0]).toBe('ember-21');
     expect(u.detected!.rules.quality).toEqual([{ column: 'ph_qual', keep: ['A', 'B'] }]);
     const checked = await check(u.id, { mapping: mappingOf(u), rules: u.detected!.rules });
-    expect(checked).toMatchObject({ rowCount: 3, starCount: 3, errorCount: 0, excludedByQuality: 1 });
+    // ember-21's W1mag 7.55 is brighter than the AllWISE W1 saturation onset 8.1 mag (WISE All-Sky
+    // Explanatory Supplement, Cutri et al. 2012): left out by the survey rules, said in the report.
+    expect(checked).toMatchObject({ rowCount: 3, starCount: 3, errorCount: 0, excludedByQuality: 1, leftOutBySurveyRules: 1 });
+    expect(checked.report.find((e) => e.row === 0 && /1 W1 value left out as saturated/.test(e.message))!.message).toMatch(/W1 7\.55 is brighter than the bright limit 8\.1 mag/);
     expect(counts()).toEqual({ stars: 0, measurements: 0 });
 
     const r = await importNow(u.id, { mapping: mappingOf(u), rules: u.detected!.rules });
-    expect(r).toMatchObject({ starsCreated: 3, measurementsCreated: 3 * 6 - 1, source: 'catalogue_wide.csv' });
+    expect(r).toMatchObject({ starsCreated: 3, measurementsCreated: 3 * 6 - 1 - 1, source: 'catalogue_wide.csv' });
     const s = t.db.select().from(stars).where(eq(stars.starKey, 'ember-22')).get()!;
     expect(s).toMatchObject({ campaignId, raDeg: 11.5, decDeg: -21, parallaxMas: 8.4, parallaxErrMas: 0.05 });
     const ms = t.db.select().from(measurements).where(eq(measurements.starId, s.id)).all();
@@ -178,7 +181,18 @@ describe('every reader path through upload → check → import', () => {
     // Its 2MASS letters are DDE: no 2MASS band passes the A/B rule.
     const bands = t.db.select().from(measurements).where(eq(measurements.starId, s.id)).all().map((m) => m.bandKey);
     expect(bands).not.toContain('J');
-    expect(bands).toContain('W1');
+    // Its W1 4.106 and W2 3.355 are brighter than the AllWISE saturation onsets 8.1 and 6.7 mag (WISE
+    // All-Sky Explanatory Supplement, Cutri et al. 2012): left out by the survey rules; W4 3.97 is fainter than −0.4.
+    expect(bands).not.toContain('W1');
+    expect(bands).toContain('W4');
+    expect(checked.leftOutBySurveyRules).toBeGreaterThan(200);
+    expect(checked.nativeUpperLimits).toBe(0);
+    expect(checked.possibleCompanions).toBe(2);
+    // The validation report says so once per band, with the limit's source, before any row.
+    const w1 = checked.report.find((e) => /W1 values left out as saturated/.test(e.message))!;
+    expect(w1).toMatchObject({ row: 0, severity: 'warning' });
+    expect(w1.message).toMatch(/brighter than the bright limit 8\.1 mag \(WISE All-Sky Explanatory Supplement \(Cutri et al\. 2012\)/);
+    expect(checked.report.some((e) => /stars with Gaia RUWE above 1\.4 .*flagged possible_companion/.test(e.message))).toBe(true);
   });
 
   it('FITS image header: metadata on the measurement, band from FILTER', async () => {

@@ -53,6 +53,12 @@ export interface CheckSummary {
   measurementCount: number;
   rejectedRows: number;
   excludedByQuality: number;
+  /** Values left out by the survey rules (saturation, catalogue flags, BP/RP excess); absent in checks stored before them. */
+  leftOutBySurveyRules?: number;
+  /** Values read as upper limits by the catalogue's own convention (2MASS U, AllWISE null error). */
+  nativeUpperLimits?: number;
+  /** Stars flagged possible_companion (Gaia RUWE above 1.4, G ≥ 6). */
+  possibleCompanions?: number;
   errorCount: number;
   warningCount: number;
   report: ReportEntry[];

@@ -18,7 +18,10 @@ interface Props {
   onChanged: () => void;
 }
 
-const WIDE_ROLES: ColumnRole[] = ['ignore', 'id', 'ra', 'dec', 'parallax', 'parallax_err', 'av', 'mag', 'mag_err', 'jy', 'jy_err', 'mag_ul', 'jy_ul', 'gaia_flux', 'gaia_flux_err', 'quality'];
+const WIDE_ROLES: ColumnRole[] = [
+  'ignore', 'id', 'ra', 'dec', 'parallax', 'parallax_err', 'distance', 'distance_lo', 'distance_hi', 'av', 'mag', 'mag_err', 'jy', 'jy_err', 'mag_ul', 'jy_ul', 'gaia_flux', 'gaia_flux_err',
+  'quality', 'confusion', 'extended', 'ruwe', 'bp_rp_excess',
+];
 const LONG_ROLES: ColumnRole[] = ['ignore', 'id', 'band', 'mag', 'mag_err', 'jy', 'jy_err', 'ul', 'ra', 'dec', 'parallax', 'parallax_err', 'av'];
 
 export default function MappingEditor({ campaignId, uploadId, onChanged }: Props) {
@@ -121,7 +124,7 @@ function TableMapping({ campaignId, upload, onChanged }: { campaignId: string; u
     const columns: Record<string, ColumnAssignment> = {};
     for (const c of upload.columns) columns[c] = p.mapping.columns[c] ?? { role: 'ignore' };
     setMapping({ layout: p.mapping.layout, columns });
-    setRules({ quality: p.rules.quality.filter((q) => upload.columns.includes(q.column)) });
+    setRules({ ...p.rules, quality: p.rules.quality.filter((q) => upload.columns.includes(q.column)) });
     setCheck(null);
     setMessage({ kind: 'ok', text: `Applied “${p.name}”.` });
   };
@@ -202,7 +205,16 @@ function TableMapping({ campaignId, upload, onChanged }: { campaignId: string; u
                       value={a.role}
                       onChange={(e) => {
                         const role = e.target.value as ColumnRole;
-                        setColumn(name, role === 'quality' ? { role, bands: ['J', 'H', 'Ks'] } : BAND_ROLES.includes(role) ? { role, band: a.band ?? upload.bandKeys[0] } : { role });
+                        setColumn(
+                          name,
+                          role === 'quality' || role === 'confusion'
+                            ? { role, bands: ['J', 'H', 'Ks'] }
+                            : role === 'extended'
+                              ? { role, bands: ['W1', 'W2', 'W3', 'W4'] }
+                              : BAND_ROLES.includes(role)
+                                ? { role, band: a.band ?? upload.bandKeys[0] }
+                                : { role },
+                        );
                       }}
                     >
                       {roles.map((r) => (
@@ -222,7 +234,7 @@ function TableMapping({ campaignId, upload, onChanged }: { campaignId: string; u
                         ))}
                       </select>
                     )}
-                    {a.role === 'quality' && (
+                    {(a.role === 'quality' || a.role === 'confusion' || a.role === 'extended') && (
                       <input
                         className="field-input w-32"
                         aria-label={`Bands of the letters in ${name}`}
@@ -256,7 +268,7 @@ function TableMapping({ campaignId, upload, onChanged }: { campaignId: string; u
                   placeholder="any letter"
                   onChange={(e) => {
                     const keep = e.target.value.toUpperCase().split(/[\s,]+/).filter(Boolean);
-                    setRules((r) => ({ quality: [...r.quality.filter((q) => q.column !== col), ...(keep.length ? [{ column: col, keep }] : [])] }));
+                    setRules((r) => ({ ...r, quality: [...r.quality.filter((q) => q.column !== col), ...(keep.length ? [{ column: col, keep }] : [])] }));
                     setCheck(null);
                   }}
                 />
@@ -311,6 +323,16 @@ function TableMapping({ campaignId, upload, onChanged }: { campaignId: string; u
             {check.excludedByQuality > 0 && (
               <>
                 ; <span className="num">{check.excludedByQuality}</span> values left out by the quality rules
+              </>
+            )}
+            {(check.leftOutBySurveyRules ?? 0) > 0 && (
+              <>
+                ; <span className="num">{check.leftOutBySurveyRules}</span> left out by the survey rules (saturation, catalogue flags)
+              </>
+            )}
+            {(check.nativeUpperLimits ?? 0) > 0 && (
+              <>
+                ; <span className="num">{check.nativeUpperLimits}</span> read as upper limits
               </>
             )}
             .
