@@ -48,6 +48,8 @@ describe('setting a value aside on the star sheet', () => {
     const row = page.locator(`[data-testid="measurement-table"] tr[data-measurement="${j.id}"]`);
     await expect(row.getAttribute('data-in-fit')).resolves.toBe('used');
     await expect(row.getAttribute('data-set-aside')).resolves.toBe('false');
+    // The band table names the file each fitted value came from.
+    await expect(page.locator('[data-testid="band-table"] tr[data-band="J"]').getAttribute('data-source')).resolves.toBe(j.source);
 
     await row.getByText('Set aside…').click();
     await row.getByLabel('Why (kept with the value)').fill('J is 0.45 mag off the curve; the 2MASS match is doubtful');
