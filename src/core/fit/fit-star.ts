@@ -70,7 +70,7 @@ export interface FitOptions {
   lumClass: 'auto' | LumClass;
   /**
    * Gaia DR3 parallax zero-point Z in mas, subtracted (ϖ − Z) from parallaxes whose origin is Gaia
-   * DR3; 0 = none. Default −0.017 (Lindegren et al. 2021 quasar median, from memory; decision 0026).
+   * DR3; 0 = none. Default −0.017 (Lindegren et al. 2021 quasar median, from memory; decision 0027).
    */
   gaiaParallaxZeroPointMas: number;
 }

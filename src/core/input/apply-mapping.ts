@@ -363,7 +363,7 @@ export class RowMapper {
     };
 
 
-    // ---- The survey rules (survey-rules.ts, decision 0026), after a row's values are read.
+    // ---- The survey rules (survey-rules.ts, decision 0027), after a row's values are read.
     const survey = rules.survey ?? {};
     const brightMode = survey.brightLimits ?? 'catalogue';
     const flagsOn = survey.catalogueFlags !== false;
