@@ -118,7 +118,7 @@ export interface PhotosphereRuntime {
    * differs only by the zero-point (the correction is then shifted, src/core/photosphere/standing.ts).
    */
   usable(key: string): boolean;
-  /** The model version in effect with this library (decision 0025): "kp-1", or "kp-1+v3" after a zero-point change. */
+  /** The model version in effect with this library (decision 0026): "kp-1", or "kp-1+v3" after a zero-point change. */
   version: string;
 }
 
