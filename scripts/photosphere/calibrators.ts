@@ -15,6 +15,7 @@ import { readFileSync } from 'node:fs';
 import path from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { readFitsTable } from '../../src/core/input/fits-file';
+import { GAIA_BRIGHT_CORRECTION_RANGE, gaiaBrightCorrection } from '../../src/core/input/survey-rules';
 import { requireBand, starterBandLibrary, type BandLibrary } from '../../src/core/bands';
 import { measurementToBandFlux, planckBandMean, pivotWavelength } from '../../src/core/photometry';
 import { MAS_PER_RAD, PARSEC_M, SOLAR_RADIUS_M } from '../../src/core/constants';
@@ -197,13 +198,19 @@ export function benchmarkCalibrators(lib: BandLibrary = starterBandLibrary()): C
     if (!(teff[i] > 0) || !(theta[i] > 0)) continue;
     const fluxes: BandFlux[] = [];
     const bandsUsed: Record<string, Band> = {};
+    const raw = { G: gaia[0][1][i], RP: gaia[2][1][i] };
     for (const [key, mag, fl, fe] of gaia) {
       if (!Number.isFinite(mag[i]) || !(fl[i] > 0) || !(fe[i] > 0)) continue;
-      // G brighter than 3.5 mag is beyond Gaia's bright-star calibration (the six such giants here sit
-      // 0.15–0.35 above the others in G − RP); BP and RP are kept.
+      // G brighter than 3.5 mag: too few calibrators of Gaia's own bright-star relation there to use
+      // it for calibration (the six such giants here sit 0.15–0.35 above the others in G − RP).
       if (key === 'G' && mag[i] < GAIA_G_BRIGHT_LIMIT) continue;
+      // Gaia's bright-star (saturation) corrections, as the column mapping applies them to a survey's
+      // own Gaia columns (src/core/input/survey-rules.ts); brighter than their range the value is out.
+      const on = raw[GAIA_BRIGHT_CORRECTION_RANGE[key].on];
+      const shift = Number.isFinite(on) ? gaiaBrightCorrection(key, on) : 0;
+      if (shift === undefined) continue;
       bandsUsed[key] = requireBand(lib, key);
-      fluxes.push(measurementToBandFlux(bandsUsed[key], { bandKey: key, mag: mag[i], magErr: (MAG_PER_LN * fe[i]) / fl[i] }));
+      fluxes.push(measurementToBandFlux(bandsUsed[key], { bandKey: key, mag: mag[i] + shift, magErr: (MAG_PER_LN * fe[i]) / fl[i] }));
     }
     const q = typeof qual[i] === 'string' ? (qual[i] as string) : '';
     tmass.forEach(([key, mag, err], j) => {

@@ -8,7 +8,7 @@ import type { LumClass, PhotosphereData, TeffTermBin } from '../../src/core/phot
 import { BENCHMARK_CITATION, SEQUENCE_CITATION, type Calibrator } from './calibrators';
 
 export const MODEL_NAME = 'Kiln photosphere';
-export const MODEL_VERSION = 'kp-1';
+export const MODEL_VERSION = 'kp-2';
 
 /** Bands the model calibrates when data allow (U, ugriz, GALEX, Tycho/Hipparcos and W4 are never calibrated). */
 export const CALIBRATED_BAND_KEYS = ['B', 'V', 'R', 'I', 'G', 'BP', 'RP', 'J', 'H', 'Ks', 'W1', 'W2', 'W3'];

@@ -16,6 +16,8 @@ import {
   brightLimitFor,
   confusionLeftOut,
   correctedBpRpExcess,
+  GAIA_BRIGHT_CORRECTION_RANGE,
+  gaiaBrightCorrection,
   isCanonicalValueColumn,
   RUWE_BRIGHT_G,
   RUWE_MAX,
@@ -387,17 +389,39 @@ export class RowMapper {
     const applySurveyRules = (star: MappedStar, candidates: Candidate[], leftOut: LeftOutValue[]) => {
       if (star.parallaxMas !== undefined) star.parallaxOrigin = parallaxOrigin;
       const magOf = (key: string) => candidates.find((c) => c.key === key && c.m.mag !== undefined && !c.m.upperLimit)?.m.mag;
+      // Gaia's own bright-star corrections first (survey-rules.ts): the bright limits, RUWE and the
+      // flux excess then see corrected magnitudes. Brighter than the relations' range the bright limit
+      // leaves the value out below.
+      const raw = { G: magOf('G'), BP: magOf('BP'), RP: magOf('RP') };
+      /** The catalogue's value of each corrected candidate. */
+      const corrected = new Map<Candidate, number>();
+      if (brightMode !== 'off') {
+        for (const c of candidates) {
+          if (SURVEY_BANDS[c.key] !== 'Gaia' || c.m.mag === undefined || c.m.upperLimit || !(brightMode === 'all' || c.catalogue)) continue;
+          const band = c.key as 'G' | 'BP' | 'RP';
+          const on = raw[GAIA_BRIGHT_CORRECTION_RANGE[band].on];
+          const d = on === undefined ? undefined : gaiaBrightCorrection(band, on);
+          if (d === undefined || d === 0) continue;
+          summary.corrected(band, `${band} ${fmt(c.m.mag)} → ${fmt(c.m.mag + d)}`, cur.row, cur.line);
+          corrected.set(c, c.m.mag);
+          c.m.mag += d;
+        }
+      }
       const g = magOf('G');
       let excessOut: string | undefined;
       if (flagsOn && excessCol !== undefined) {
         const c = num(excessCol, 'BP/RP excess factor');
-        const bp = magOf('BP');
-        const rp = magOf('RP');
-        if (c !== undefined && g !== undefined && bp !== undefined && rp !== undefined) {
+        // The excess test (Riello et al. 2021) is stated on the catalogue's own values, so it takes the
+        // uncorrected magnitudes; where BP needs its saturation correction the factor itself comes from
+        // saturated fluxes and says nothing of contamination: not tested, counted in one report line.
+        const bp = raw.BP;
+        const rp = raw.RP;
+        if (c !== undefined && raw.G !== undefined && raw.G < GAIA_BRIGHT_CORRECTION_RANGE.BP.to && bp !== undefined && rp !== undefined) summary.excessTooBright(cur.row, cur.line);
+        else if (c !== undefined && raw.G !== undefined && bp !== undefined && rp !== undefined) {
           const cStar = correctedBpRpExcess(c, bp - rp);
-          const sigma = bpRpExcessSigma(g);
+          const sigma = bpRpExcessSigma(raw.G);
           if (Math.abs(cStar) > BP_RP_EXCESS_NSIGMA * sigma) {
-            excessOut = `corrected BP/RP flux excess C* = ${fmt(cStar)} is beyond ${BP_RP_EXCESS_NSIGMA}σ (σ = ${fmt(sigma)} at G ${fmt(g)}; Riello et al. 2021): BP and RP hold light from elsewhere`;
+            excessOut = `corrected BP/RP flux excess C* = ${fmt(cStar)} is beyond ${BP_RP_EXCESS_NSIGMA}σ (σ = ${fmt(sigma)} at G ${fmt(raw.G)}; Riello et al. 2021): BP and RP hold light from elsewhere`;
           }
         }
       }
@@ -420,9 +444,12 @@ export class RowMapper {
         const m = c.m;
         if (m.mag !== undefined && (c.native || (brightMode !== 'off' && (brightMode === 'all' || c.catalogue)))) {
           const limit = brightLimitFor(c.key, survey);
-          const on = limit?.onBand ? (magOf(limit.onBand) ?? m.mag) : m.mag;
+          // Gaia's limits are on the catalogue's own magnitudes, as the corrections' ranges are.
+          const own = corrected.get(c) ?? m.mag;
+          const onBand = limit?.onBand as keyof typeof raw | undefined;
+          const on = onBand ? (raw[onBand] ?? magOf(onBand) ?? own) : own;
           if (limit && on < limit.mag) {
-            const what = c.native ? `${fmt(m.mag)} (a native upper limit)` : fmt(m.mag);
+            const what = c.native ? `${fmt(own)} (a native upper limit)` : fmt(own);
             out(c, 'saturated', `${c.key} ${what}${limit.onBand && limit.onBand !== c.key ? ` with ${limit.onBand} ${fmt(on)}` : ''} is brighter than the bright limit ${limit.onBand && limit.onBand !== c.key ? `${limit.onBand} ` : ''}${limit.mag} mag (${limit.source})`);
             continue;
           }
@@ -678,9 +705,10 @@ const REASON_WORDS: Record<LeftOutReason, string> = {
  * rows, the first value's reason in full and its source.
  */
 class LeftOutSummary {
-  private readonly groups = new Map<string, { key: string; reason: LeftOutReason | 'native'; count: number; rows: string[]; detail: string }>();
+  private readonly groups = new Map<string, { key: string; reason: LeftOutReason | 'native' | 'corrected'; count: number; rows: string[]; detail: string }>();
   private companions = { count: 0, rows: [] as string[] };
   private bright = { count: 0, rows: [] as string[] };
+  private brightExcess = { count: 0, rows: [] as string[] };
 
   constructor(private readonly file: string) {}
 
@@ -688,7 +716,7 @@ class LeftOutSummary {
     return line === undefined ? `row ${row}` : `row ${row} (file line ${line})`;
   }
 
-  private add(key: string, reason: LeftOutReason | 'native', detail: string, row: number, line: number | undefined): void {
+  private add(key: string, reason: LeftOutReason | 'native' | 'corrected', detail: string, row: number, line: number | undefined): void {
     const k = `${reason}\u0000${key}`;
     let g = this.groups.get(k);
     if (!g) this.groups.set(k, (g = { key, reason, count: 0, rows: [], detail }));
@@ -709,6 +737,16 @@ class LeftOutSummary {
     if (this.companions.rows.length < NAMED_ROWS) this.companions.rows.push(LeftOutSummary.where(row, line));
   }
 
+  /** A Gaia value moved by Gaia's bright-star correction (`change`: "BP 3.81 → 3.62"). */
+  corrected(key: string, change: string, row: number, line: number | undefined): void {
+    this.add(key, 'corrected', change, row, line);
+  }
+
+  excessTooBright(row: number, line: number | undefined): void {
+    this.brightExcess.count++;
+    if (this.brightExcess.rows.length < NAMED_ROWS) this.brightExcess.rows.push(LeftOutSummary.where(row, line));
+  }
+
   ruweTooBright(row: number, line: number | undefined): void {
     this.bright.count++;
     if (this.bright.rows.length < NAMED_ROWS) this.bright.rows.push(LeftOutSummary.where(row, line));
@@ -722,11 +760,17 @@ class LeftOutSummary {
       const message =
         g.reason === 'native'
           ? `${n} read as upper limits by the catalogue's own convention (2MASS quality letter U, or AllWISE magnitude without an error: a 95 % upper limit) (${more(g.count, g.rows)})`
-          : `${n} ${REASON_WORDS[g.reason]} (${more(g.count, g.rows)}); the first: ${g.detail}`;
+          : g.reason === 'corrected'
+            ? `${n} corrected for saturation by Gaia's bright-star relation (Gaia EDR3 documentation §5.5.2, eq. ${GAIA_BRIGHT_CORRECTION_RANGE[g.key as 'G' | 'BP' | 'RP'].equation}) (${more(g.count, g.rows)}); the first: ${g.detail}`
+            : `${n} ${REASON_WORDS[g.reason]} (${more(g.count, g.rows)}); the first: ${g.detail}`;
       out.push({ file: this.file, row: 0, severity: 'warning', message });
     }
     if (this.companions.count > 0) {
       out.push({ file: this.file, row: 0, severity: 'warning', message: `${this.companions.count} star${this.companions.count === 1 ? '' : 's'} with Gaia RUWE above ${RUWE_MAX} (possibly a binary, photometry may be blended) flagged possible_companion (${more(this.companions.count, this.companions.rows)})` });
+    }
+    if (this.brightExcess.count > 0) {
+      const n = this.brightExcess.count;
+      out.push({ file: this.file, row: 0, severity: 'warning', message: `${n} star${n === 1 ? '' : 's'} brighter than G ${GAIA_BRIGHT_CORRECTION_RANGE.BP.to}: the BP/RP flux excess was not tested, as it comes from saturated BP and RP fluxes there (Gaia EDR3 documentation §5.5.2) (${more(n, this.brightExcess.rows)})` });
     }
     if (this.bright.count > 0) {
       out.push({ file: this.file, row: 0, severity: 'warning', message: `${this.bright.count} star${this.bright.count === 1 ? '' : 's'} brighter than G ${RUWE_BRIGHT_G} with RUWE above ${RUWE_MAX} not flagged: RUWE is not reliable for such bright stars (${more(this.bright.count, this.bright.rows)})` });

@@ -11,7 +11,7 @@ import { describe, expect, it } from 'vitest';
 import { STARTER_BAND_KEYS } from '../bands';
 import { applyMapping, detectMapping, type ColumnTable, type MappingRules } from './mapping';
 import { readUpload } from './table-file';
-import { BRIGHT_LIMITS, RUWE_BRIGHT_G, bpRpExcessSigma, correctedBpRpExcess } from './survey-rules';
+import { BRIGHT_LIMITS, RUWE_BRIGHT_G, bpRpExcessSigma, correctedBpRpExcess, gaiaBrightCorrection } from './survey-rules';
 
 const keys = STARTER_BAND_KEYS;
 const root = fileURLToPath(new URL('../../..', import.meta.url));
@@ -104,16 +104,44 @@ describe('the benchmark table, read with its own column names', () => {
     expect(b.result.stars.every((s) => s.measurements.every((m) => !m.upperLimit))).toBe(true);
   });
 
-  it('BP is left out where G < 3.94 and RP where RP < 3.45 (Gaia EDR3 documentation §5.5.2)', () => {
+  it("Gaia's bright-star corrections move G, BP and RP inside their ranges; brighter than 2 mag the value is left out (Gaia EDR3 documentation §5.5.2)", () => {
     let bp = 0;
+    let rp = 0;
     for (let i = 0; i < b.t.rows.length; i++) {
       const g = b.value(i, 'phot_g_mean_mag');
-      if (!(g < 3.94)) continue;
+      const rpRaw = b.value(i, 'phot_rp_mean_mag');
+      if (!Number.isFinite(g)) continue;
       const s = b.star(String(b.t.rows[i][b.t.columns.indexOf('hip')]));
-      expect(s.measurements.some((m) => m.bandKey === 'BP'), s.id).toBe(false);
-      bp++;
+      const mag = (k: string) => s.measurements.find((m) => m.bandKey === k)?.mag;
+      // Eq. 5.29 for 2 < G < 8 (every benchmark star with G is in that range).
+      expect(mag('G')! - g).toBeCloseTo(gaiaBrightCorrection('G', g)!, 6);
+      if (g < 3.94) {
+        expect(mag('BP')! - b.value(i, 'phot_bp_mean_mag')).toBeCloseTo(gaiaBrightCorrection('BP', g)!, 6);
+        bp++;
+      } else expect(mag('BP')).toBeCloseTo(b.value(i, 'phot_bp_mean_mag'), 6);
+      if (rpRaw < 3.45) {
+        expect(mag('RP')! - rpRaw).toBeCloseTo(gaiaBrightCorrection('RP', rpRaw)!, 6);
+        rp++;
+      }
     }
     expect(bp).toBeGreaterThan(10);
+    expect(rp).toBeGreaterThan(10);
+    expect(b.result.problems.some((p) => p.row === 0 && /21 stars brighter than G 3\.94: the BP\/RP flux excess was not tested/.test(p.message))).toBe(true);
+  });
+
+  it('the bright-star relations give the documented polynomials at check points (values worked by hand from eqs. 5.29–5.31)', () => {
+    // G 5: −0.09892 + 0.295 − 0.244375 + 0.061675 = 0.01338
+    expect(gaiaBrightCorrection('G', 5)).toBeCloseTo(0.01338, 6);
+    // BP at G 3: −0.9921 − 0.07794 + 1.6497 − 0.77274 = −0.19308
+    expect(gaiaBrightCorrection('BP', 3)).toBeCloseTo(-0.19308, 6);
+    // RP at G_RP 2.5: −14.94 + 36.025 − 29.10625 + 7.859375 = −0.161875
+    expect(gaiaBrightCorrection('RP', 2.5)).toBeCloseTo(-0.161875, 6);
+    // Fainter than the ranges nothing moves; brighter than 2 mag nothing is calibrated.
+    expect(gaiaBrightCorrection('G', 8)).toBe(0);
+    expect(gaiaBrightCorrection('BP', 4)).toBe(0);
+    expect(gaiaBrightCorrection('RP', 3.5)).toBe(0);
+    expect(gaiaBrightCorrection('G', 1.9)).toBeUndefined();
+    expect(gaiaBrightCorrection('RP', 2)).toBeUndefined();
   });
 
   it('RUWE > 1.4 flags possible_companion only at G ≥ 6; the brighter ones (most of them) are named in one report line', () => {
@@ -150,11 +178,15 @@ describe('the benchmark table, read with its own column names', () => {
     expect(off.star('HIP19849').measurements.map((m) => m.bandKey)).toEqual(expect.arrayContaining(['W1', 'W2']));
     expect((off.star('HIP19849').leftOut ?? []).filter((l) => l.reason !== 'quality_letter')).toEqual([]);
     // Native upper limits keep their saturation check even then (a limit there would bind wrongly): the
-    // 86 AllWISE null-error values; and the bright stars' BP/RP now meet the excess rule (17 stars, G < 3.7).
+    // 86 AllWISE null-error values. The bright stars' BP/RP are not tested for their flux excess (it
+    // comes from saturated fluxes there) and nothing else is left out.
     const reasons = off.result.stars.flatMap((x) => (x.leftOut ?? []).filter((l) => l.reason !== 'quality_letter'));
     expect(reasons.filter((l) => l.reason === 'saturated' && /native upper limit/.test(l.detail))).toHaveLength(86);
-    expect(reasons.filter((l) => l.reason === 'bp_rp_excess')).toHaveLength(34);
-    expect(reasons).toHaveLength(120);
+    expect(reasons).toHaveLength(86);
+    // Nor is anything corrected with the bright limits off.
+    const hip = off.star('HIP109176');
+    // (read from the flux column, so equal to the catalogue magnitude to 1e-6 mag, mapping.test.ts)
+    expect(hip.measurements.find((m) => m.bandKey === 'BP')!.mag).toBeCloseTo(off.value(off.rowOf('HIP109176'), 'phot_bp_mean_mag'), 6);
   });
 });
 
@@ -216,6 +248,24 @@ describe('invented stars with survey columns (Kiln scenario)', () => {
     expect(r.stars[1].leftOut![1].detail).toMatch(/extended source: ext_flg = 1/);
     const off = mapped(cols, [['kiln-c3', 10.1, 0.02, 9.8, 0.02, 'AAA', '0p0', 9.6, 0.02, 9.6, 0.02, 'h000', 1]], { survey: { catalogueFlags: false } }).r;
     expect(off.stars[0].measurements).toHaveLength(4);
+  });
+
+  it('brighter than 2 mag (G for G and BP, G_RP for RP) a Gaia value is left out as saturated; canonical columns are not corrected', () => {
+    const cols = ['source_id', 'phot_g_mean_mag', 'phot_g_mean_mag_error', 'phot_bp_mean_mag', 'phot_bp_mean_mag_error', 'phot_rp_mean_mag', 'phot_rp_mean_mag_error'];
+    const { r } = mapped(cols, [
+      ['kiln-b1', 1.9, 0.003, 2.3, 0.003, 1.4, 0.004],
+      ['kiln-b2', 2.5, 0.003, 3.0, 0.003, 1.95, 0.004],
+    ]);
+    expect(r.stars[0].measurements).toEqual([]);
+    expect(r.stars[0].leftOut!.map((l) => [l.bandKey, l.reason])).toEqual([['G', 'saturated'], ['BP', 'saturated'], ['RP', 'saturated']]);
+    expect(r.stars[0].leftOut![1].detail).toMatch(/BP 2\.3 with G 1\.9 is brighter than the bright limit G 2 mag \(Gaia EDR3 documentation §5\.5\.2/);
+    // G 2.5 and BP (on G 2.5) are inside the relations' ranges and corrected; RP 1.95 is not.
+    expect(r.stars[1].measurements.map((m) => [m.bandKey, m.mag])).toEqual([
+      ['G', 2.5 + gaiaBrightCorrection('G', 2.5)!],
+      ['BP', 3.0 + gaiaBrightCorrection('BP', 2.5)!],
+    ]);
+    const canonical = mapped(['star', 'G', 'G_err', 'BP', 'BP_err'], [['kiln-b3', 2.5, 0.003, 3.0, 0.003]]).r;
+    expect(canonical.stars[0].measurements.map((m) => m.mag)).toEqual([2.5, 3.0]);
   });
 
   it('a large corrected BP/RP excess leaves BP and RP out, G stays', () => {

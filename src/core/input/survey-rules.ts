@@ -26,13 +26,12 @@ export interface BrightLimit {
  * saturated or its saturation correction is not calibrated.
  */
 export const BRIGHT_LIMITS: Readonly<Record<string, BrightLimit>> = {
-  // Gaia EDR3/DR3 documentation §5.5.2 "Saturation correction" (Riello et al. 2021, A&A 649, A3):
-  // the empirical bright-star corrections are calibrated for 2 < G < 8, 2 < G < 3.94 (BP, where BP
-  // needs up to −0.2 mag) and 2 < G_RP < 3.45 (RP). G brighter than 3 has too few calibrators to
-  // trust (our choice, inside the documented range).
-  G: { mag: 3.0, source: 'Gaia EDR3 documentation §5.5.2 (Riello et al. 2021): bright-star calibration; G < 3 is our cut inside it' },
-  BP: { mag: 3.94, onBand: 'G', source: 'Gaia EDR3 documentation §5.5.2 (Riello et al. 2021): BP saturates for G < 3.94' },
-  RP: { mag: 3.45, source: 'Gaia EDR3 documentation §5.5.2 (Riello et al. 2021): RP saturates for G_RP < 3.45' },
+  // Gaia EDR3 documentation §5.5.2 "Saturation correction" (Riello et al. 2021, A&A 649, A3): the
+  // bright-star corrections (gaiaBrightCorrection below) hold for 2 < G < 8, for BP at 2 < G < 3.94 and
+  // for RP at 2 < G_RP < 3.45. Brighter than 2 mag nothing is calibrated: those values are left out.
+  G: { mag: 2.0, source: 'Gaia EDR3 documentation §5.5.2 (Riello et al. 2021): no bright-star correction brighter than G 2' },
+  BP: { mag: 2.0, onBand: 'G', source: 'Gaia EDR3 documentation §5.5.2 (Riello et al. 2021): no BP bright-star correction brighter than G 2' },
+  RP: { mag: 2.0, source: 'Gaia EDR3 documentation §5.5.2 (Riello et al. 2021): no RP bright-star correction brighter than G_RP 2' },
   // 2MASS All-Sky Explanatory Supplement (Cutri et al. 2003): stars brighter than about
   // J 9, H 8.5, Ks 8 saturate the 1.3 s exposures and are measured on the 51 ms Read_1 frames, which
   // saturate in turn near J 4.5, H 4, Ks 3.5 (from memory); brighter values are PSF-wing estimates.
@@ -47,6 +46,30 @@ export const BRIGHT_LIMITS: Readonly<Record<string, BrightLimit>> = {
   W3: { mag: 3.8, source: 'WISE All-Sky Explanatory Supplement (Cutri et al. 2012): W3 saturation onset 3.8 mag, from memory' },
   W4: { mag: -0.4, source: 'WISE All-Sky Explanatory Supplement (Cutri et al. 2012): W4 saturation onset −0.4 mag, from memory' },
 };
+
+/** Where Gaia's bright-star correction of a band applies: on which band's magnitude, and its range. */
+export const GAIA_BRIGHT_CORRECTION_RANGE: Readonly<Record<'G' | 'BP' | 'RP', { on: 'G' | 'RP'; from: number; to: number; equation: string }>> = {
+  G: { on: 'G', from: 2, to: 8, equation: '5.29' },
+  BP: { on: 'G', from: 2, to: 3.94, equation: '5.30' },
+  RP: { on: 'RP', from: 2, to: 3.45, equation: '5.31' },
+};
+
+/**
+ * Gaia's published correction for saturation at the bright end, m_corr − m in magnitudes, for a
+ * catalogue mean magnitude of G, BP or RP (Gaia EDR3 documentation §5.5.2, eqs. 5.29–5.31; the DR3
+ * mean magnitudes are the EDR3 ones). `onMag` is the magnitude the relation is stated in: G for G and
+ * BP, G_RP for RP. 0 where the star is fainter than the relation's range (no saturation to correct);
+ * undefined where it is brighter than the range (not calibrated: the value is left out as saturated).
+ */
+export function gaiaBrightCorrection(band: 'G' | 'BP' | 'RP', onMag: number): number | undefined {
+  const r = GAIA_BRIGHT_CORRECTION_RANGE[band];
+  if (onMag >= r.to) return 0;
+  if (!(onMag > r.from)) return undefined;
+  const x = onMag;
+  if (band === 'G') return -0.09892 + 0.059 * x - 0.009775 * x * x + 0.0004934 * x * x * x;
+  if (band === 'BP') return -0.9921 - 0.02598 * x + 0.1833 * x * x - 0.02862 * x * x * x;
+  return -14.94 + 14.41 * x - 4.657 * x * x + 0.503 * x * x * x;
+}
 
 /**
  * RUWE above this suggests a non-single source (Lindegren et al. 2021, A&A 649, A2, and the Gaia
