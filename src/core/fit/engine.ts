@@ -889,6 +889,8 @@ export class FitEngine {
       this.flags |= FLAG_BITS.clipped;
       this.partition();
     }
+    // No degrees of freedom: as many detections as parameters (upper limits do not count).
+    if (this.dof <= 0) this.flags |= FLAG_BITS.no_dof;
     this.dof = Math.max(this.dof, 0);
     this.chi2Red = this.dof > 0 ? this.chi2 / this.dof : NaN;
     if (this.chi2Red > CHI2_HIGH) this.flags |= FLAG_BITS.chi2_high;

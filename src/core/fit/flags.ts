@@ -19,6 +19,7 @@ export const FLAG_BITS = {
   feh_far: 1 << 13,
   outside_calibration: 1 << 14,
   band_uncalibrated: 1 << 15,
+  no_dof: 1 << 16,
 } as const;
 
 export type FlagCode = keyof typeof FLAG_BITS;
@@ -41,6 +42,7 @@ export const FLAG_EXPLANATIONS: Record<FlagCode | 'few_bands' | 'no_convergence'
   feh_far: 'The star\'s [Fe/H] lies more than 0.5 dex from solar: the photosphere is calibrated on near-solar stars.',
   outside_calibration: 'The temperature lies outside the range the photosphere is calibrated on for this class: the Teff error was widened to the Planck-vs-model difference.',
   band_uncalibrated: 'At least one fitted band has no calibration for this class and temperature: the Planck value was used there with an assumed 10 % scatter.',
+  no_dof: 'As many fitted bands as fitted parameters (Teff and θ, and A_V when fitted): the curve passes through every band, so χ² says nothing and the errors are not checked by the data.',
   few_bands: 'Too few usable detections for the fit (at least 2, or 3 when A_V is fitted).',
   no_convergence: 'The fit did not converge to a finite result.',
 };
@@ -49,6 +51,7 @@ export const FLAG_EXPLANATIONS: Record<FlagCode | 'few_bands' | 'no_convergence'
 export const FLAG_ORDER: FlagCode[] = [
   'temp_lower_bound',
   'temp_cool_edge',
+  'no_dof',
   'outlier',
   'clipped',
   'ir_excess',
