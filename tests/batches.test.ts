@@ -67,14 +67,14 @@ describe('starting a batch', () => {
     const w = await world(3);
     const params = { id: w.campaign.id };
     const cases: [unknown, string, RegExp][] = [
-      [{ options: { rv: 'three' } }, 'options.rv', /rv \(R_V\) must be a number/],
+      [{ options: { rv: 'three' } }, 'options.rv', /^R_V must be a number/],
       [{ options: { rv: 9 } }, 'options.rv', /between 2 and 6/],
-      [{ options: { law: 'mw' } }, 'options.law', /law must be one of f99/],
+      [{ options: { law: 'mw' } }, 'options.law', /^The extinction law must be one of f99/],
       [{ options: { floorFraction: -0.1 } }, 'options.floorFraction', /cannot be negative/],
       [{ options: { excludeBands: ['V', 'k'] } }, 'options.excludeBands.1', /"k" is not a band key/],
       [{ options: { avMode: 'guess' } }, 'options.avMode', /fixed or fitted/],
-      [{ options: { speed: 'fast' } }, 'options', /unknown option "speed"/],
-      [{ starKeys: ['KST-000001', 'KST-999999'] }, 'starKeys', /not in this campaign: "KST-999999"/],
+      [{ options: { speed: 'fast' } }, 'options', /^Unknown fit option "speed"/],
+      [{ starKeys: ['KST-000001', 'KST-999999'] }, 'starKeys', /^1 star id is not in this campaign: "KST-999999"\.$/],
     ];
     for (const [body, field, message] of cases) {
       const res = await call(startRoute, w.t, w.analyst, params, { body });

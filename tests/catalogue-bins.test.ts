@@ -4,7 +4,7 @@
 // change, and after a batch is deleted. Real migrated SQLite, real worker loop.
 import { afterEach, describe, expect, it } from 'vitest';
 import { catalogueCount, catalogueDiagrams, type CatalogueFilter } from '../src/server/catalogue';
-import { catalogueBinsTuning } from '../src/server/catalogue/bins';
+import { catalogueBinsTuning, cellKey, diagramsFromCells, lumBinOf, teffBinOf } from '../src/server/catalogue/bins';
 import { bulkDecide, decide } from '../src/server/review';
 import { addToCampaign, makeCampaign, makeUser } from '../src/seed/factories';
 import { makeFittedCatalogue, refit } from './factories-catalogue';
@@ -139,4 +139,27 @@ describe('catalogue summary bins', () => {
     t.sqlite.prepare('DELETE FROM batches WHERE id = ?').run(refitBatch);
     expectBinsMatch(t, 'after a batch is deleted');
   }, 120_000);
+});
+
+describe('the temperature histogram of a small catalogue', () => {
+  it('has about √n bars for n stars (the square-root choice), each a whole number of stars, on the 100 K grid', () => {
+    // 43 stars spread over 3500–9000 K, as a small campaign would be: 7 bars, not one bar per star.
+    const cells = new Map<number, number>();
+    for (let i = 0; i < 43; i++) {
+      const key = cellKey(teffBinOf(3500 + (5500 * i) / 42), lumBinOf(1 + i / 10));
+      cells.set(key, (cells.get(key) ?? 0) + 1);
+    }
+    const d = diagramsFromCells({ cells, noTeff: 0 }, 40, [120, 90]);
+    expect(d.histogram.counts).toHaveLength(Math.ceil(Math.sqrt(43)));
+    expect(d.histogram.counts.reduce((a, b) => a + b, 0)).toBe(43);
+    for (const e of d.histogram.edgesK) expect(e % 100).toBe(0);
+    // A large catalogue keeps the limit asked for.
+    const many = new Map<number, number>();
+    for (let i = 0; i < 5000; i++) {
+      const key = cellKey(teffBinOf(3500 + (5500 * i) / 4999), lumBinOf(1));
+      many.set(key, (many.get(key) ?? 0) + 1);
+    }
+    expect(diagramsFromCells({ cells: many, noTeff: 0 }, 40, [120, 90]).histogram.counts.length).toBeLessThanOrEqual(40);
+    expect(diagramsFromCells({ cells: many, noTeff: 0 }, 40, [120, 90]).histogram.counts.length).toBeGreaterThan(20);
+  });
 });

@@ -147,7 +147,7 @@ describe('star ids and numbers through upload → check → import', () => {
     expect(JSON.stringify(imp.body)).toMatch(/U\+202E RIGHT-TO-LEFT OVERRIDE/);
     const far = await post(postImport, up.body.upload!.id, { rules: { quality: [] }, image: { starId: 'ember-9', band: 'V', mag: 1e308, magErr: 0.03 } });
     expect(far.status).toBe(400);
-    expect(JSON.stringify(far.body)).toMatch(/mag must be within -30…50/);
+    expect(JSON.stringify(far.body)).toMatch(/The magnitude must be within -30…50/);
     expect(counts()).toEqual({ stars: 0, measurements: 0 });
   });
 });

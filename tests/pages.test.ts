@@ -1,6 +1,7 @@
-// The rule every guarded page shares when its guard or loader throws (src/web/pages.ts refusePage).
+// The rule every guarded page shares when its guard or loader throws (src/web/pages.ts refusePage),
+// and guardPage, the preamble that applies it.
 import { describe, expect, it } from 'vitest';
-import { refusePage, type PageContext } from '../src/web/pages';
+import { guardPage, refusePage, type PageContext } from '../src/web/pages';
 import { forbidden, HttpError, unauthenticated } from '../src/server/errors';
 
 function page(path: string): PageContext & { redirectedTo: string | null } {
@@ -39,5 +40,36 @@ describe('refusePage', () => {
   it('lets anything that is not an HttpError propagate (a bug, not a refusal)', () => {
     const bug = new TypeError('x is undefined');
     expect(() => refusePage(bug, page('/admin'))).toThrow(bug);
+  });
+});
+
+describe('guardPage', () => {
+  it('runs the loader once and reports nothing refused when it passes', async () => {
+    const p = page('/admin');
+    let runs = 0;
+    expect(await guardPage(p, async () => void runs++)).toEqual({ denied: null });
+    expect(runs).toBe(1);
+    expect(p.response.status).toBe(200);
+  });
+
+  it('hands back a Response the loader returns (a redirect after a form post)', async () => {
+    const redirect = new Response(null, { status: 303, headers: { location: '/campaigns/c1/batches/b1' } });
+    expect(await guardPage(page('/campaigns/c1/batches'), () => redirect)).toBe(redirect);
+  });
+
+  it('turns a refusal into the page to show, and a visitor not signed in into the sign-in redirect', async () => {
+    const p = page('/admin/people');
+    const err = forbidden('Only admins can do that.');
+    expect(await guardPage(p, () => { throw err; })).toEqual({ denied: err });
+    expect(p.response.status).toBe(403);
+    const anon = page('/admin/people?q=x');
+    const out = await guardPage(anon, async () => { throw unauthenticated(); });
+    expect(out).toBeInstanceOf(Response);
+    expect(anon.redirectedTo).toBe('/sign-in?next=%2Fadmin%2Fpeople%3Fq%3Dx');
+  });
+
+  it('lets a bug propagate', async () => {
+    const bug = new TypeError('x is undefined');
+    await expect(guardPage(page('/admin'), () => { throw bug; })).rejects.toBe(bug);
   });
 });

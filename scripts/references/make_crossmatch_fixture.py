@@ -2,7 +2,9 @@
 """Cross-match fixtures for `starkiln fit`, written by astropy (Debian python3-astropy).
 
 Run with Debian's interpreter from the project root:
-    /usr/bin/python3 scripts/references/make_crossmatch_fixture.py
+    /usr/bin/python3 scripts/references/make_crossmatch_fixture.py [folder]
+(into fixtures/crossmatch, or the folder given: src/cli/crossmatch.test.ts regenerates them in a
+temporary folder and compares byte for byte)
 The photometry comes from src/cli/crossmatch-mock.ts (blackbody band means integrated through
 each band by Starkiln's core, so a fit must give back T and theta); this script only writes it as a
 FITS binary table and a VOTable (TABLEDATA) with the archives' own column names and types:
@@ -13,6 +15,7 @@ The stars and their numbers are invented; the .ts file also writes vizier_style.
 import json
 import os
 import subprocess
+import sys
 
 import numpy as np
 from astropy.io import fits
@@ -25,9 +28,9 @@ OUT = os.path.join(ROOT, 'fixtures', 'crossmatch')
 UNITS = {'ra': 'deg', 'dec': 'deg', 'parallax': 'mas', 'parallax_error': 'mas'}
 
 
-def main():
-    os.makedirs(OUT, exist_ok=True)
-    made = subprocess.run(['node', '--import', 'tsx', 'src/cli/crossmatch-mock.ts', OUT], cwd=ROOT, check=True, capture_output=True, text=True)
+def main(out=OUT):
+    os.makedirs(out, exist_ok=True)
+    made = subprocess.run(['node', '--import', 'tsx', 'src/cli/crossmatch-mock.ts', out], cwd=ROOT, check=True, capture_output=True, text=True)
     data = json.loads(made.stdout)
     rows = data['rows']
     t = Table()
@@ -48,7 +51,7 @@ def main():
     # A column a cross-match carries that is no photometry (and must be left alone).
     t['ruwe'] = np.linspace(0.9, 1.4, len(rows))
     t.meta['ORIGIN'] = 'Starkiln fixture: invented stars, scripts/references/make_crossmatch_fixture.py'
-    fits_path = os.path.join(OUT, 'crossmatch.fits')
+    fits_path = os.path.join(out, 'crossmatch.fits')
     t.write(fits_path, overwrite=True)
     # The Gaia archive's own spelling of the flux unit, which astropy's unit parser does not take.
     with fits.open(fits_path, mode='update') as hdul:
@@ -57,8 +60,8 @@ def main():
             if h[f'TTYPE{i}'].startswith('phot_'):
                 h[f'TUNIT{i}'] = "'electron'.s**-1"
     vot = from_table(t)
-    vot.to_xml(os.path.join(OUT, 'crossmatch.vot'), tabledata_format='tabledata')
-    with open(os.path.join(OUT, 'crossmatch_truth.json'), 'w') as f:
+    vot.to_xml(os.path.join(out, 'crossmatch.vot'), tabledata_format='tabledata')
+    with open(os.path.join(out, 'crossmatch_truth.json'), 'w') as f:
         json.dump({'provenance': 'invented stars from src/cli/crossmatch-mock.ts crossmatchStars(); A_V = 0; '
                                  'C and U 2MASS bands are made 0.4 mag fainter on purpose',
                    'stars': data['stars']}, f, indent=1)
@@ -66,4 +69,4 @@ def main():
 
 
 if __name__ == '__main__':
-    main()
+    main(sys.argv[1] if len(sys.argv) > 1 else OUT)

@@ -1,14 +1,16 @@
 #!/usr/bin/python3
 """VOTable fixtures written by astropy (Debian python3-astropy) for Starkiln's VOTable reader and intake.
 
-Run with Debian's interpreter: /usr/bin/python3 scripts/references/make_votable_fixtures.py
+Run with Debian's interpreter: /usr/bin/python3 scripts/references/make_votable_fixtures.py [folder]
 Writes fixtures/votable/*.vot (and fixtures/intake/wide_table.fits, the same invented stars as a FITS
-binary table, for the intake tests) and, beside each, astropy's own reading of it (*.astropy.json:
+binary table, for the intake tests; given a folder, everything goes there instead, which is how
+src/core/input/votable.test.ts checks that the committed files regenerate byte for byte) and, beside each, astropy's own reading of it (*.astropy.json:
 column names, units, UCDs and every cell as text, null where astropy masks it). All star names and
 numbers are invented (the "Ember Reach" survey of the demo scenario), not measurements.
 """
 import json
 import os
+import sys
 import warnings
 
 import numpy as np
@@ -66,28 +68,30 @@ def dump(path):
         fh.write('\n')
 
 
-def main():
-    os.makedirs(OUT, exist_ok=True)
+def main(out=OUT, intake=os.path.join(ROOT, 'fixtures', 'intake')):
+    os.makedirs(out, exist_ok=True)
     t = wide_table()
     vot = from_table(t)
     f = vot.get_first_table()
     f.get_field_by_id('RA_ICRS').ucd = 'pos.eq.ra;meta.main'
     f.get_field_by_id('DE_ICRS').ucd = 'pos.eq.dec;meta.main'
     f.get_field_by_id('Vmag').ucd = 'phot.mag;em.opt.V'
-    p = os.path.join(OUT, 'wide_tabledata.vot')
+    p = os.path.join(out, 'wide_tabledata.vot')
     vot.to_xml(p, tabledata_format='tabledata')
     dump(p)
-    p2 = os.path.join(OUT, 'wide_binary2.vot')
+    p2 = os.path.join(out, 'wide_binary2.vot')
     vot2 = from_table(t)
     vot2.to_xml(p2, tabledata_format='binary2')
     dump(p2)
-    intake = os.path.join(ROOT, 'fixtures', 'intake')
     os.makedirs(intake, exist_ok=True)
     t.write(os.path.join(intake, 'wide_table.fits'), format='fits', overwrite=True)
     # XML that is well-formed but not a VOTable.
-    with open(os.path.join(OUT, 'not_a_votable.xml'), 'w') as fh:
+    with open(os.path.join(out, 'not_a_votable.xml'), 'w') as fh:
         fh.write('<?xml version="1.0" encoding="UTF-8"?>\n<catalogue>\n  <star id="ember-11"><V>8.91</V></star>\n</catalogue>\n')
 
 
 if __name__ == '__main__':
-    main()
+    if len(sys.argv) > 1:
+        main(sys.argv[1], sys.argv[1])
+    else:
+        main()

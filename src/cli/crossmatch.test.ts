@@ -4,8 +4,8 @@
 // scripts/references/make_crossmatch_fixture.py); invented noise-free stars whose photometry was
 // integrated through each band by the core (src/cli/crossmatch-mock.ts), so the fit must give back
 // T and θ (docs/science.md check values: self-consistency).
-import { spawnSync } from 'node:child_process';
-import { existsSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
+import { execFileSync, spawnSync } from 'node:child_process';
+import { existsSync, mkdtempSync, readdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import path from 'node:path';
 import { fileURLToPath } from 'node:url';
@@ -57,6 +57,20 @@ describe('fixtures', () => {
     expect(readFileSync(path.join(fixtures, 'vizier_style.tsv'), 'utf8')).toBe(vizierTsv());
     // Some stars have C or U letters, or the quality test below would prove nothing.
     expect(truth.filter((s) => /[CU]/.test(s.phQual)).length).toBeGreaterThanOrEqual(4);
+  });
+
+  const hasAstropy = spawnSync('/usr/bin/python3', ['-c', 'import astropy'], { stdio: 'ignore' }).status === 0;
+  it.skipIf(!hasAstropy)('re-running scripts/references/make_crossmatch_fixture.py gives the committed files byte for byte', () => {
+    // The FITS and VOTable photometry too, not only the truth and the TSV checked above.
+    const out = mkdtempSync(path.join(tmpdir(), 'starkiln-crossmatch-made-'));
+    try {
+      execFileSync('/usr/bin/python3', [path.join(root, 'scripts/references/make_crossmatch_fixture.py'), out], { cwd: root, stdio: 'pipe', timeout: 120_000 });
+      const made = readdirSync(out).sort();
+      expect(made).toEqual(['crossmatch.fits', 'crossmatch.vot', 'crossmatch_truth.json', 'vizier_style.tsv']);
+      for (const f of made) expect(Buffer.compare(readFileSync(path.join(out, f)), readFileSync(path.join(fixtures, f))), f).toBe(0);
+    } finally {
+      rmSync(out, { recursive: true, force: true });
+    }
   });
 });
 

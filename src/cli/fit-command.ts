@@ -33,6 +33,8 @@ export interface Io {
   stdout: NodeJS.WritableStream & { isTTY?: boolean };
   stderr: NodeJS.WritableStream & { isTTY?: boolean; columns?: number };
   now: () => Date;
+  /** Where the command's settings (INPUT_MAX_*) come from: the process environment, read by main. */
+  env: Readonly<Record<string, string | undefined>>;
 }
 
 const MAX_PROBLEMS_SHOWN = 200;
@@ -153,7 +155,7 @@ export async function runFit(args: FitCommandArgs, io: Io): Promise<number> {
   // The same limits as the web intake, from the same settings (INPUT_MAX_*).
   let limits: InputLimits;
   try {
-    limits = limitsFromEnv(process.env);
+    limits = limitsFromEnv(io.env);
   } catch (e) {
     io.stderr.write(`starkiln: ${(e as Error).message}\n`);
     return 2;

@@ -26,15 +26,15 @@ export type { ApiTokenView };
 
 export const createTokenInput = z.object({
   name: z
-    .string({ error: 'name is required.' })
+    .string({ error: 'Give the token a name, such as the script that will use it.' })
     .trim()
     .min(1, 'Give the token a name, such as the script that will use it.')
     .max(80, 'A token name can have at most 80 characters.'),
   expiresInDays: z
-    .number({ error: 'expiresInDays must be a number of days.' })
-    .int('expiresInDays must be a whole number of days.')
-    .min(1, 'expiresInDays must be at least 1.')
-    .max(3650, 'expiresInDays can be at most 3650 (ten years).')
+    .number({ error: 'The expiry must be a number of days.' })
+    .int('The expiry must be a whole number of days.')
+    .min(1, 'The expiry must be at least 1 day.')
+    .max(3650, 'The expiry can be at most 3650 days (ten years).')
     .nullable()
     .optional(),
 });

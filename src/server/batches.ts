@@ -27,50 +27,50 @@ export type { BatchFailure, BatchFailuresPage, BatchProgress, BatchSummary, Retr
 /** Fit options as the analyst gives them (API and start form). Every field has a default. */
 export const batchOptionsInput = z.strictObject(
   {
-    law: z.enum(['f99', 'ccm89', 'od94'], 'law must be one of f99 (Fitzpatrick 1999), ccm89 (Cardelli, Clayton & Mathis 1989) or od94 (O’Donnell 1994).').default('f99'),
+    law: z.enum(['f99', 'ccm89', 'od94'], 'The extinction law must be one of f99 (Fitzpatrick 1999), ccm89 (Cardelli, Clayton & Mathis 1989) or od94 (O’Donnell 1994).').default('f99'),
     rv: z
-      .number({ error: 'rv (R_V) must be a number.' })
-      .min(2, 'rv (R_V) must be between 2 and 6.')
-      .max(6, 'rv (R_V) must be between 2 and 6.')
+      .number({ error: 'R_V must be a number.' })
+      .min(2, 'R_V must be between 2 and 6.')
+      .max(6, 'R_V must be between 2 and 6.')
       .default(3.1),
-    avMode: z.enum(['fixed', 'fitted'], 'avMode must be fixed or fitted.').default('fixed'),
+    avMode: z.enum(['fixed', 'fitted'], 'A_V is either fixed or fitted.').default('fixed'),
     avMag: z
-      .number({ error: 'avMag (A_V) must be a number of magnitudes.' })
-      .min(0, 'avMag (A_V) cannot be negative.')
-      .max(20, 'avMag (A_V) can be at most 20 mag.')
+      .number({ error: 'A_V must be a number of magnitudes.' })
+      .min(0, 'A_V cannot be negative.')
+      .max(20, 'A_V can be at most 20 mag.')
       .default(0),
     avMaxMag: z
-      .number({ error: 'avMaxMag must be a number of magnitudes.' })
-      .gt(0, 'avMaxMag must be above 0.')
-      .max(20, 'avMaxMag can be at most 20 mag.')
+      .number({ error: 'The largest A_V to fit must be a number of magnitudes.' })
+      .gt(0, 'The largest A_V to fit must be above 0.')
+      .max(20, 'The largest A_V to fit can be at most 20 mag.')
       .default(10),
     floorFraction: z
-      .number({ error: 'floorFraction must be a number (0.02 means 2 %).' })
-      .min(0, 'floorFraction cannot be negative (0 means no floor).')
-      .max(0.5, 'floorFraction can be at most 0.5 (50 % of the flux).')
+      .number({ error: 'The error floor must be a number (a fraction of the flux in the API: 0.02 means 2 %).' })
+      .min(0, 'The error floor cannot be negative (0 means no floor).')
+      .max(0.5, 'The error floor can be at most 50 % of the flux.')
       .default(0.02),
     excludeBands: z
       .array(
         // Checked against the current band library when the batch starts (bands can be added).
-        z.string({ error: 'excludeBands must list band keys.' }),
-        { error: 'excludeBands must be a list of band keys.' },
+        z.string({ error: 'The bands to leave out must be band keys.' }),
+        { error: 'The bands to leave out must be a list of band keys.' },
       )
       .max(200)
       .default([]),
-    clip: z.boolean({ error: 'clip must be true or false.' }).default(false),
-    includeLongBands: z.boolean({ error: 'includeLongBands must be true or false.' }).default(false),
+    clip: z.boolean({ error: 'Dropping the worst band is either on (true) or off (false).' }).default(false),
+    includeLongBands: z.boolean({ error: 'Fitting the bands beyond ~5 µm is either on (true) or off (false).' }).default(false),
     // The calibrated photosphere by default, as in the CLI and the core; the Planck fit is stored beside it.
-    planckOnly: z.boolean({ error: 'planckOnly must be true or false.' }).default(false),
-    lumClass: z.enum(['auto', 'dwarf', 'giant'], { error: 'lumClass must be auto, dwarf or giant.' }).default('auto'),
+    planckOnly: z.boolean({ error: 'Fitting a blackbody only is either on (true) or off (false).' }).default(false),
+    lumClass: z.enum(['auto', 'dwarf', 'giant'], { error: 'The luminosity class must be auto, dwarf or giant.' }).default('auto'),
   },
-  { error: (issue) => (issue.code === 'unrecognized_keys' ? `options: unknown option ${issue.keys.map((k) => `"${k}"`).join(', ')}.` : 'options must be an object.') },
+  { error: (issue) => (issue.code === 'unrecognized_keys' ? `Unknown fit option ${issue.keys.map((k) => `"${k}"`).join(', ')}.` : 'The fit options must be an object.') },
 );
 export type BatchOptionsInput = z.input<typeof batchOptionsInput>;
 
 export const startBatchInput = z.object({
   options: batchOptionsInput.default(() => batchOptionsInput.parse({})),
   /** Star ids as the campaign's tables give them; all stars of the campaign when absent. */
-  starKeys: z.array(z.string({ error: 'starKeys must list star ids.' }), { error: 'starKeys must be a list of star ids.' }).min(1, 'starKeys, when given, needs at least one star id.').optional(),
+  starKeys: z.array(z.string({ error: 'The star list must hold star ids (text).' }), { error: 'The stars must be given as a list of star ids.' }).min(1, 'The star list, when given, needs at least one star id.').optional(),
 });
 
 /**
@@ -168,7 +168,7 @@ export function startBatch(app: AppServices, actor: Actor, campaignId: string, r
   const unknownAt = input.options.excludeBands.findIndex((k) => !bandKeys.includes(k));
   if (unknownAt >= 0) {
     const unknownBand = input.options.excludeBands[unknownAt];
-    throw new HttpError('validation_failed', `excludeBands: "${unknownBand}" is not a band key; known keys are ${bandKeys.join(' ')} (case-sensitive).`, `options.excludeBands.${unknownAt}`);
+    throw new HttpError('validation_failed', `Left-out band "${unknownBand}" is not a band key; known keys are ${bandKeys.join(' ')} (case-sensitive).`, `options.excludeBands.${unknownAt}`);
   }
   const options = toFitOptions(input.options);
   const sqlite = db.$client;
@@ -184,7 +184,7 @@ export function startBatch(app: AppServices, actor: Actor, campaignId: string, r
       const missing = keys.filter((k) => !known.has(k));
       throw new HttpError(
         'validation_failed',
-        `starKeys: ${missing.length} star id${missing.length === 1 ? ' is' : 's are'} not in this campaign: ${missing.slice(0, 5).map((k) => `"${k}"`).join(', ')}${missing.length > 5 ? ' …' : ''}.`,
+        `${missing.length} star id${missing.length === 1 ? ' is' : 's are'} not in this campaign: ${missing.slice(0, 5).map((k) => `"${k}"`).join(', ')}${missing.length > 5 ? ' …' : ''}.`,
         'starKeys',
       );
     }

@@ -48,3 +48,30 @@ export function refusePage(error: unknown, page: PageContext): Response | HttpEr
   page.response.status = error.status;
   return error;
 }
+
+/** What a guarded page renders: nothing refused, or the refusal to show with <Denied>. */
+export interface PageAccess {
+  denied: HttpError | null;
+}
+
+/**
+ * The guard preamble of every guarded page, written once. `load` runs the page's guard and its
+ * server-side work; what it throws goes through refusePage's rule. A Response it returns (a redirect
+ * after a form post) or the sign-in redirect comes back for the page to return:
+ *
+ *   const guarded = await guardPage(Astro, () => { requireAdmin(Astro.locals); });
+ *   if (guarded instanceof Response) return guarded;
+ *   const { denied } = guarded;
+ *
+ * A page variable that `load` sets is declared `let x = null as T | null`: TypeScript does not follow
+ * assignments made inside a callback, and would take `let x: T | null = null` for always null after it.
+ */
+export async function guardPage(page: PageContext, load: () => unknown): Promise<Response | PageAccess> {
+  try {
+    const answer = await load();
+    return answer instanceof Response ? answer : { denied: null };
+  } catch (e) {
+    const refused = refusePage(e, page);
+    return refused instanceof Response ? refused : { denied: refused };
+  }
+}

@@ -9,7 +9,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { Page } from 'playwright-core';
 import { demoUsers } from '../../src/seed/seed';
 import { projectRoot } from '../../src/db/paths';
-import { callApi, launchBrowser, signInCookie, startApp, type Browser, type RunningApp } from './harness';
+import { callApi, launchBrowser, signInCookie, signInWithForm, startApp, type Browser, type RunningApp } from './harness';
 
 let run: RunningApp;
 let browser: Browser;
@@ -26,14 +26,8 @@ afterAll(async () => {
   await run?.stop();
 });
 
-async function signIn(page: Page, who: keyof typeof people) {
-  await page.goto(`${run.baseUrl}/sign-in`);
-  // The browser context keeps its cookie between tests: already signed in, sign-in sends us on.
-  if (new URL(page.url()).pathname !== '/sign-in') return;
-  await page.getByLabel('E-mail').fill(people[who].email);
-  await page.getByLabel('Password').fill(people[who].password);
-  await Promise.all([page.waitForURL(`${run.baseUrl}/campaigns`), page.getByRole('button', { name: 'Sign in' }).click()]);
-}
+// The browser context keeps its cookie between tests: already signed in, sign-in sends us on.
+const signIn = (page: Page, who: keyof typeof people) => signInWithForm(browser, page, run.baseUrl, people[who], { keepSession: true });
 
 describe('band library in the browser', () => {
   it('an admin adds a band from an energy-type curve file in µm and sees its pivot before and after saving', async () => {

@@ -5,7 +5,7 @@ import type { Page } from 'playwright-core';
 import { eq } from 'drizzle-orm';
 import { campaigns } from '../../src/db/schema';
 import { DEMO_CAMPAIGN, demoUsers } from '../../src/seed/seed';
-import { launchBrowser, startApp, type Browser, type RunningApp } from './harness';
+import { launchBrowser, signInWithForm, startApp, type Browser, type RunningApp } from './harness';
 
 let run: RunningApp;
 let browser: Browser;
@@ -21,10 +21,7 @@ afterAll(async () => {
 });
 
 async function signIn(page: Page, who: keyof typeof people) {
-  await page.goto(`${run.baseUrl}/sign-in`);
-  await page.getByLabel('E-mail').fill(people[who].email);
-  await page.getByLabel('Password').fill(people[who].password);
-  await Promise.all([page.waitForURL(`${run.baseUrl}/campaigns`), page.getByRole('button', { name: 'Sign in' }).click()]);
+  await signInWithForm(browser, page, run.baseUrl, people[who], { keepSession: true });
   await expect(page.getByTestId('signed-in-as').textContent()).resolves.toContain(people[who].name);
 }
 

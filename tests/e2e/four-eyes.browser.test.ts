@@ -10,7 +10,7 @@ import { DEMO_CAMPAIGN, demoUsers } from '../../src/seed/seed';
 import { nameKey } from '../../src/server/campaigns';
 import { decide } from '../../src/server/review';
 import { fitIdOf, seedReviewDemo } from '../../src/seed/review-stars';
-import { launchBrowser, startApp, type Browser, type RunningApp } from './harness';
+import { launchBrowser, signInWithForm, startApp, type Browser, type RunningApp } from './harness';
 
 let run: RunningApp;
 let browser: Browser;
@@ -34,13 +34,8 @@ afterAll(async () => {
   await run?.stop();
 });
 
-async function signIn(page: Page, who: keyof typeof people) {
-  await browser.context.clearCookies();
-  await page.goto(`${run.baseUrl}/sign-in`);
-  await page.getByLabel('E-mail').fill(people[who].email);
-  await page.getByLabel('Password').fill(people[who].password);
-  await Promise.all([page.waitForURL(`${run.baseUrl}/campaigns`), page.getByRole('button', { name: 'Sign in' }).click()]);
-}
+/** Each call starts signed out (the browser profile is shared by the whole file). */
+const signIn = (page: Page, who: keyof typeof people) => signInWithForm(browser, page, run.baseUrl, people[who]);
 
 describe('the four-eyes switch', () => {
   it('is refused to the person it holds back, needs a reason from another member, and marks decisions made while it is off', async () => {

@@ -147,6 +147,26 @@ export async function launchBrowser(): Promise<Browser> {
   };
 }
 
+/**
+ * Sign in through the sign-in form, as a person does, and wait for the campaign list. The browser's
+ * cookies are cleared first, so every call starts signed out; with `keepSession` a browser that is
+ * already signed in (the sign-in page sends it on) is left as it is.
+ */
+export async function signInWithForm(
+  browser: Browser,
+  page: Page,
+  baseUrl: string,
+  person: { email: string; password: string },
+  options: { keepSession?: boolean } = {},
+): Promise<void> {
+  if (!options.keepSession) await browser.context.clearCookies();
+  await page.goto(`${baseUrl}/sign-in`);
+  if (options.keepSession && new URL(page.url()).pathname !== '/sign-in') return;
+  await page.getByLabel('E-mail').fill(person.email);
+  await page.getByLabel('Password').fill(person.password);
+  await Promise.all([page.waitForURL(`${baseUrl}/campaigns`), page.getByRole('button', { name: 'Sign in' }).click()]);
+}
+
 /** Sign in through better-auth's JSON endpoint; returns the Cookie header value for later calls. */
 export async function signInCookie(baseUrl: string, email: string, password: string): Promise<string> {
   const res = await fetch(`${baseUrl}/api/auth/sign-in/email`, {

@@ -11,7 +11,7 @@ import { batches, campaigns, measurements, stars, uploads } from '../../src/db/s
 import { projectRoot } from '../../src/db/paths';
 import { readFits } from '../../src/core/input/fits-file';
 import { DEMO_CAMPAIGN, demoUsers } from '../../src/seed/seed';
-import { launchBrowser, startApp, type Browser, type RunningApp } from './harness';
+import { launchBrowser, signInWithForm, startApp, type Browser, type RunningApp } from './harness';
 
 let run: RunningApp;
 let browser: Browser;
@@ -26,14 +26,8 @@ afterAll(async () => {
   await run?.stop();
 });
 
-async function signIn(page: Page) {
-  // One browser profile for the file: after the first test the session cookie is already there.
-  await page.goto(`${run.baseUrl}/campaigns`);
-  if (new URL(page.url()).pathname === '/campaigns') return;
-  await page.getByLabel('E-mail').fill(people.analyst.email);
-  await page.getByLabel('Password').fill(people.analyst.password);
-  await Promise.all([page.waitForURL(`${run.baseUrl}/campaigns`), page.getByRole('button', { name: 'Sign in' }).click()]);
-}
+// One browser profile for the file: after the first test the session cookie is already there.
+const signIn = (page: Page) => signInWithForm(browser, page, run.baseUrl, people.analyst, { keepSession: true });
 
 function demoCampaignId(): string {
   return run.app.db.select().from(campaigns).where(eq(campaigns.name, DEMO_CAMPAIGN.name)).get()!.id;

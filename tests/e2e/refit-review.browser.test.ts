@@ -14,7 +14,7 @@ import { updateZeroPoint } from '../../src/server/band-library';
 import { decide } from '../../src/server/review';
 import { LANTERNFIELD_STARS, fitIdOf, seedReviewDemo } from '../../src/seed/review-stars';
 import { createWorker } from '../../workers/runner';
-import { launchBrowser, startApp, type Browser, type RunningApp } from './harness';
+import { launchBrowser, signInWithForm, startApp, type Browser, type RunningApp } from './harness';
 
 let run: RunningApp;
 let browser: Browser;
@@ -45,13 +45,8 @@ afterAll(async () => {
   await run?.stop();
 });
 
-async function signIn(page: Page, who: keyof typeof people) {
-  await browser.context.clearCookies();
-  await page.goto(`${run.baseUrl}/sign-in`);
-  await page.getByLabel('E-mail').fill(people[who].email);
-  await page.getByLabel('Password').fill(people[who].password);
-  await Promise.all([page.waitForURL(`${run.baseUrl}/campaigns`), page.getByRole('button', { name: 'Sign in' }).click()]);
-}
+/** Each call starts signed out (the browser profile is shared by the whole file). */
+const signIn = (page: Page, who: keyof typeof people) => signInWithForm(browser, page, run.baseUrl, people[who]);
 
 const acceptedNow = () =>
   run.app.db.$client.prepare("SELECT count(*) FROM fit_results WHERE campaign_id = ? AND is_current = 1 AND review_status = 'accepted'").pluck().get(campaignId) as number;

@@ -10,7 +10,7 @@ import { campaigns, user } from '../../src/db/schema';
 import { DEMO_CAMPAIGN, demoUsers } from '../../src/seed/seed';
 import { toActor } from '../../src/server/context';
 import { makeFittedCatalogue, refit } from '../factories-catalogue';
-import { launchBrowser, startApp, type Browser, type RunningApp } from './harness';
+import { launchBrowser, signInWithForm, startApp, type Browser, type RunningApp } from './harness';
 
 let run: RunningApp;
 let browser: Browser;
@@ -30,13 +30,8 @@ afterAll(async () => {
   await run?.stop();
 });
 
-async function signIn(page: Page, who: keyof typeof people) {
-  await browser.context.clearCookies();
-  await page.goto(`${run.baseUrl}/sign-in`);
-  await page.getByLabel('E-mail').fill(people[who].email);
-  await page.getByLabel('Password').fill(people[who].password);
-  await Promise.all([page.waitForURL(`${run.baseUrl}/campaigns`), page.getByRole('button', { name: 'Sign in' }).click()]);
-}
+/** Each call starts signed out (the browser profile is shared by the whole file). */
+const signIn = (page: Page, who: keyof typeof people) => signInWithForm(browser, page, run.baseUrl, people[who]);
 
 /** The bytes behind a link of the page, fetched with the page's session. */
 async function fetchBytes(page: Page, href: string): Promise<Buffer> {

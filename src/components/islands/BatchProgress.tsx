@@ -10,6 +10,8 @@ interface Props {
   batchId: string;
   initial: BatchProgressView;
   initialFailures: BatchFailuresPage;
+  /** The viewer may cancel (analysts, admins): the form is offered while the batch has not ended. */
+  canCancel?: boolean;
 }
 
 export default function BatchProgress(props: Props) {
@@ -37,7 +39,7 @@ const STATUS_WORDS: Record<string, string> = {
   cancelled: 'cancelled',
 };
 
-function Progress({ batchId, initial, initialFailures }: Props) {
+function Progress({ batchId, initial, initialFailures, canCancel = false }: Props) {
   const progress = useBatchProgress(batchId, initial);
   const p = progress.data ?? initial;
   const running = p.status !== 'finished' && p.status !== 'cancelled';
@@ -53,6 +55,15 @@ function Progress({ batchId, initial, initialFailures }: Props) {
 
   return (
     <div className="flex flex-col gap-6">
+      {canCancel && running && (
+        // A plain form post to the batch page (works without JavaScript); gone as soon as the batch ends.
+        <form method="post" className="-mb-2 flex items-center gap-3 text-sm" data-testid="cancel-form">
+          <button type="submit" className="btn btn-quiet">
+            Cancel this batch
+          </button>
+          <span className="text-ink-500">Waiting stars are dropped from it; stars already fitted keep their results.</span>
+        </form>
+      )}
       <section className="card p-5" aria-labelledby="progress-heading">
         <div className="flex items-baseline justify-between gap-4 flex-wrap mb-3">
           <h2 id="progress-heading" className="text-xl">

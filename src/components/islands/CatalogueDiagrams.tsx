@@ -4,13 +4,10 @@
 // limit the diagram arrives as a 2-D histogram (counts per Teff × log L cell); a cell click narrows
 // the table to that cell's Teff range.
 import { QueryClientProvider } from '@tanstack/react-query';
-import createPlotlyComponent from 'react-plotly.js/factory';
-import Plotly from 'plotly.js-dist-min';
 import { useEffect, useState } from 'react';
 import { FILTER_EVENT, filterQuery, useCatalogueDiagrams, type CatalogueDiagrams as Diagrams } from '../../browser/catalogue';
 import { getQueryClient } from '../../browser/query-client';
-
-const Plot = createPlotlyComponent(Plotly);
+import { Plot } from '../ui/review/Plot';
 
 interface Props {
   campaignId: string;
@@ -112,6 +109,13 @@ function showTeffBin(edgesK: number[], x: number) {
   window.location.search = p.toString();
 }
 
+/** A tick step of 1, 2 or 5 × 10^k stars giving about five ticks: never a fraction of a star. */
+function starTickStep(maxCount: number): number {
+  const raw = Math.max(1, maxCount / 5);
+  const p = 10 ** Math.floor(Math.log10(raw));
+  return ([1, 2, 5, 10].find((m) => m * p >= raw) ?? 10) * p;
+}
+
 function Histogram({ data }: { data: Diagrams }) {
   const e = data.histogram.edgesK;
   if (e.length === 0) return <p className="text-sm text-ink-500 p-4">No star in view has a fitted temperature.</p>;
@@ -120,7 +124,7 @@ function Histogram({ data }: { data: Diagrams }) {
   return (
     <Plot
       data={[{ type: 'bar', x, y: data.histogram.counts, width: x.map(() => width), marker: { color: '#3f87a3' }, hovertemplate: '%{x:.0f} K: %{y} stars<extra></extra>' }]}
-      layout={{ ...layoutBase, height: 380, bargap: 0.05, xaxis: { title: { text: 'Teff [K]' }, autorange: 'reversed', gridcolor: '#ece5d8' }, yaxis: { title: { text: 'stars' }, gridcolor: '#ece5d8' } }}
+      layout={{ ...layoutBase, height: 380, bargap: 0.05, xaxis: { title: { text: 'Teff [K]' }, autorange: 'reversed', gridcolor: '#ece5d8' }, yaxis: { title: { text: 'stars' }, gridcolor: '#ece5d8', rangemode: 'tozero', tickformat: 'd', dtick: starTickStep(Math.max(0, ...data.histogram.counts)) } }}
       config={{ displaylogo: false, responsive: true }}
       style={{ width: '100%' }}
       onClick={(ev) => showTeffBin(e, Number(ev.points[0]?.x))}

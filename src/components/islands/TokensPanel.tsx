@@ -2,7 +2,7 @@
 // revoke. Server-rendered with the list in place; once hydrated it talks to /api/tokens. Without
 // JavaScript the forms post to the page.
 import { QueryClientProvider, useMutation, useQuery, useQueryClient } from '@tanstack/react-query';
-import { useState, type SubmitEvent } from 'react';
+import { useEffect, useState, type SubmitEvent } from 'react';
 import type { ApiTokenView } from '../../contracts/api';
 import { ApiError, apiFetch } from '../../browser/api';
 import { getQueryClient } from '../../browser/query-client';
@@ -16,6 +16,8 @@ interface Props {
   serverSecret?: string | null;
   serverError?: { field?: string; message: string } | null;
   exampleUrl: string;
+  /** What the example URL downloads (null: it keeps a CAMPAIGN_ID placeholder, the person has no campaign). */
+  exampleNote?: string | null;
 }
 
 export default function TokensPanel(props: Props) {
@@ -28,7 +30,7 @@ export default function TokensPanel(props: Props) {
 
 const KEY = ['tokens'];
 
-function Tokens({ initial, serverSecret, serverError, exampleUrl }: Props) {
+function Tokens({ initial, serverSecret, serverError, exampleUrl, exampleNote = null }: Props) {
   const qc = useQueryClient();
   const list = useQuery({ queryKey: KEY, queryFn: async () => (await apiFetch<{ tokens: TokenRow[] }>('/api/tokens')).tokens, initialData: initial });
   const [secret, setSecret] = useState<string | null>(serverSecret ?? null);
@@ -64,10 +66,19 @@ function Tokens({ initial, serverSecret, serverError, exampleUrl }: Props) {
         {secret && (
           <div className="mx-5 mb-4 notice notice-ok" role="status">
             <p className="font-semibold">Copy this token now: it is not shown again.</p>
-            <code className="block mt-2 p-2 bg-white border border-rule rounded break-all select-all" data-testid="new-token-secret">
-              {secret}
-            </code>
-            <pre className="mt-2 text-xs whitespace-pre-wrap break-all">{`curl -H "Authorization: Bearer ${secret}" \\\n  "${exampleUrl}"`}</pre>
+            <div className="flex items-start gap-2 mt-2">
+              <code className="block flex-1 p-2 bg-white border border-rule rounded break-all select-all" data-testid="new-token-secret">
+                {secret}
+              </code>
+              <CopyButton text={secret} label="Copy the token" testId="copy-token" />
+            </div>
+            <p className="mt-3 text-xs">
+              Try it: this downloads {exampleNote ?? 'a campaign’s accepted catalogue (put the campaign’s id, from its address, for CAMPAIGN_ID)'} as CSV.
+            </p>
+            <div className="flex items-start gap-2 mt-1">
+              <pre className="flex-1 text-xs whitespace-pre-wrap break-all" data-testid="token-curl">{curlExample(secret, exampleUrl)}</pre>
+              <CopyButton text={curlExample(secret, exampleUrl)} label="Copy the command" testId="copy-curl" />
+            </div>
           </div>
         )}
         <table className="w-full text-sm" data-testid="token-table">
@@ -154,5 +165,51 @@ function Tokens({ initial, serverSecret, serverError, exampleUrl }: Props) {
         </button>
       </form>
     </div>
+  );
+}
+
+function curlExample(secret: string, url: string): string {
+  return `curl -H "Authorization: Bearer ${secret}" \\\n  "${url}"`;
+}
+
+/**
+ * Copies `text` to the clipboard, saying so. The Clipboard API needs a secure context (https or
+ * 127.0.0.1); elsewhere the text is put in a selected field and copied the older way.
+ */
+function CopyButton({ text, label, testId }: { text: string; label: string; testId: string }) {
+  const [state, setState] = useState<'idle' | 'copied' | 'failed'>('idle');
+  // Shown once hydrated: without JavaScript the button could do nothing (the text stays selectable).
+  const [hydrated, setHydrated] = useState(false);
+  useEffect(() => setHydrated(true), []);
+  async function copy() {
+    try {
+      if (navigator.clipboard && window.isSecureContext) await navigator.clipboard.writeText(text);
+      else {
+        const area = document.createElement('textarea');
+        area.value = text;
+        area.setAttribute('readonly', '');
+        area.style.position = 'fixed';
+        area.style.opacity = '0';
+        document.body.append(area);
+        area.select();
+        const ok = document.execCommand('copy');
+        area.remove();
+        if (!ok) throw new Error('copy refused');
+      }
+      setState('copied');
+    } catch {
+      setState('failed');
+    }
+  }
+  if (!hydrated) return null;
+  return (
+    <span className="flex flex-col items-end gap-1 shrink-0">
+      <button type="button" className="btn btn-quiet py-1 px-3 text-sm" onClick={() => void copy()} data-testid={testId}>
+        {label}
+      </button>
+      <span className="text-xs" role="status" aria-live="polite">
+        {state === 'copied' ? 'Copied.' : state === 'failed' ? 'Could not copy: select the text and copy it.' : ''}
+      </span>
+    </span>
   );
 }

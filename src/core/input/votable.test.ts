@@ -1,4 +1,6 @@
-import { readFileSync } from 'node:fs';
+import { execFileSync, spawnSync } from 'node:child_process';
+import { mkdtempSync, readdirSync, readFileSync, rmSync } from 'node:fs';
+import { tmpdir } from 'node:os';
 import path from 'node:path';
 import { describe, expect, it } from 'vitest';
 import { readVoTable, VoTableError } from './votable';
@@ -41,5 +43,25 @@ describe('readVoTable', () => {
     })();
     expect(err).toBeInstanceOf(VoTableError);
     expect(err!.message).toMatch(/^bad\.vot: not well-formed XML at line \d+/);
+  });
+});
+
+const hasAstropy = spawnSync('/usr/bin/python3', ['-c', 'import astropy'], { stdio: 'ignore' }).status === 0;
+
+describe('fixtures are reproducible', () => {
+  it.skipIf(!hasAstropy)('re-running scripts/references/make_votable_fixtures.py gives the committed files byte for byte', () => {
+    const out = mkdtempSync(path.join(tmpdir(), 'starkiln-votable-'));
+    try {
+      execFileSync('/usr/bin/python3', [path.resolve(__dirname, '../../../scripts/references/make_votable_fixtures.py'), out], { stdio: 'pipe' });
+      const made = readdirSync(out).sort();
+      // The VOTables with astropy's readings, the XML that is not a VOTable, and intake/wide_table.fits.
+      expect(made).toEqual(['not_a_votable.xml', 'wide_binary2.astropy.json', 'wide_binary2.vot', 'wide_table.fits', 'wide_tabledata.astropy.json', 'wide_tabledata.vot']);
+      for (const f of made) {
+        const committed = path.join(dir, '..', f === 'wide_table.fits' ? 'intake' : 'votable', f);
+        expect(Buffer.compare(readFileSync(path.join(out, f)), readFileSync(committed)), f).toBe(0);
+      }
+    } finally {
+      rmSync(out, { recursive: true, force: true });
+    }
   });
 });

@@ -143,7 +143,7 @@ export function totalOf(c: FineCells): number {
   return n;
 }
 
-/** Histogram and 2-D histogram of fine cells, merged to at most the given numbers of bins. */
+/** Histogram and 2-D histogram of fine cells, merged to at most the given numbers of bins (the histogram to about √n). */
 export function diagramsFromCells(c: FineCells, histogramBins: number, densityBins: [number, number]) {
   let tmin = Infinity;
   let tmax = -Infinity;
@@ -171,7 +171,9 @@ export function diagramsFromCells(c: FineCells, histogramBins: number, densityBi
     const m = Math.max(1, Math.ceil((hi - lo + 1) / Math.max(1, most)));
     return { m, bins: Math.ceil((hi - lo + 1) / m) };
   };
-  const h = merge(tmin, tmax, histogramBins);
+  // About √n bars for n stars (the square-root choice, common practice), at most histogramBins:
+  // 43 stars get 7 bars, not 40 bars of one star each.
+  const h = merge(tmin, tmax, Math.min(histogramBins, Math.ceil(Math.sqrt(placed + withoutLum))));
   histogram.edgesK = Array.from({ length: h.bins + 1 }, (_, i) => (tmin + i * h.m) * TEFF_BIN_K);
   histogram.counts = new Array<number>(h.bins).fill(0);
   for (const [t, , n] of cells) histogram.counts[Math.floor((t - tmin) / h.m)] += n;

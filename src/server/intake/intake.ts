@@ -87,8 +87,8 @@ export const importInput = z.object({
           if (problem) ctx.addIssue({ code: 'custom', message: `${problem[0].toUpperCase()}${problem.slice(1)}.` });
         }),
       band: z.string().min(1, 'Choose the band.').max(40),
-      mag: z.number({ error: 'mag must be a number.' }).finite().min(MAG_RANGE.min, `mag must be within ${MAG_RANGE.min}…${MAG_RANGE.max}.`).max(MAG_RANGE.max, `mag must be within ${MAG_RANGE.min}…${MAG_RANGE.max}.`),
-      magErr: z.number({ error: 'magErr must be a number.' }).finite().nonnegative('The magnitude error cannot be negative.'),
+      mag: z.number({ error: 'The magnitude must be a number.' }).finite().min(MAG_RANGE.min, `The magnitude must be within ${MAG_RANGE.min}…${MAG_RANGE.max}.`).max(MAG_RANGE.max, `The magnitude must be within ${MAG_RANGE.min}…${MAG_RANGE.max}.`),
+      magErr: z.number({ error: 'The magnitude error must be a number.' }).finite().nonnegative('The magnitude error cannot be negative.'),
     })
     .optional(),
 });
