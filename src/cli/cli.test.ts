@@ -43,7 +43,7 @@ describe('options', () => {
     expect(p).toEqual({
       command: 'fit',
       args: {
-        input: 'in.csv', output: 'out.json', format: 'json', law: 'ccm89', rv: 3.6, avMag: 0.2, fitAv: true, floorFraction: 0, excludeBands: ['W3', 'W4', 'u'], clip: true, includeLongBands: true, planckOnly: true, lumClass: 'giant',
+        input: 'in.csv', output: 'out.json', format: 'json', law: 'ccm89', rv: 3.6, avMag: 0.2, fitAv: true, floorFraction: 0, excludeBands: ['W3', 'W4', 'u'], clip: true, reject: true, includeLongBands: true, planckOnly: true, lumClass: 'giant',
         columnMap: { j_m: 'J', junk: '-' }, hdu: 2, quiet: false,
         qualityKeep: [{ column: '2mass', letters: ['A', 'B', 'C'] }, { column: 'ph_qual_allwise', letters: ['A', 'B'] }],
         noQualityRules: true, mappingFile: 'preset.json', saveMappingFile: 'used.json', showMapping: true,
@@ -80,7 +80,7 @@ describe('starkiln fit, end to end', () => {
     expect(r.stderr).toMatch(/starkiln: 25 stars fitted, 0 input rows left out, 0 errors and 0 warnings/);
     expect(r.code).toBe(0);
     const cat = readCatalogue(path.join(dir, 'out.csv'));
-    expect(cat.header).toEqual(['id', 'ra', 'dec', 'teff_k', 'teff_err_k', 'teff_err_formal_k', 'teff_lower_k', 'tbb_k', 'tbb_err_k', 'tbb_err_formal_k', 'tbb_lower_k', 'tbb_chi2_red', 'theta_mas', 'theta_err_mas', 'radius_rsun', 'radius_err_rsun', 'lum_lsun', 'lum_err_lsun', 'fbol_cgs', 'fbol_err_cgs', 'av', 'av_err', 'chi2_red', 'n_bands', 'bands_used', 'ir_excess_sigma', 'flags', 'lum_class', 'lum_class_source', 'feh', 'model']);
+    expect(cat.header).toEqual(['id', 'ra', 'dec', 'teff_k', 'teff_err_k', 'teff_err_formal_k', 'teff_lower_k', 'tbb_k', 'tbb_err_k', 'tbb_err_formal_k', 'tbb_lower_k', 'tbb_chi2_red', 'theta_mas', 'theta_err_mas', 'radius_rsun', 'radius_err_rsun', 'lum_lsun', 'lum_err_lsun', 'fbol_cgs', 'fbol_err_cgs', 'av', 'av_err', 'chi2_red', 'n_bands', 'bands_used', 'ir_excess_sigma', 'flags', 'lum_class', 'lum_class_source', 'feh', 'model', 'residuals_sigma', 'excluded_bands', 'teff_theta_corr', 'distance_pc', 'distance_source']);
     expect(cat.rows.length).toBe(25);
     for (const [i, s] of stars.entries()) {
       const row = cat.rows[i];
@@ -103,7 +103,7 @@ describe('starkiln fit, end to end', () => {
     expect(header).toContain('CODATA 2018');
     expect(header).toContain('IAU 2015 Resolution B3');
     expect(header).toContain('extinction law: f99, R_V = 3.1');
-    expect(header).toContain('options: av_default_mag = 0; fit_av = false; floor_fraction = 0.02; exclude = (none); clip = false; include_long = false');
+    expect(header).toContain('options: av_default_mag = 0; fit_av = false; floor_fraction = 0.02; exclude = (none); clip = false; reject = false; include_long = false');
     expect(header).toContain(`sha256 ${createHash('sha256').update(readFileSync(input)).digest('hex')}`);
     expect(header).toMatch(/created: \d{4}-\d\d-\d\dT/);
     // F99 is defined from 910 Å to 6 µm (Fitzpatrick 1999; python3-extinction's range): of the input's
@@ -292,9 +292,14 @@ describe('starkiln fit, end to end', () => {
     if (ref.format !== 'fits-table') throw new Error('benchmark table not read as a FITS table');
     const col = (name: string) => ref.table.columns.indexOf(name);
     const byHip = new Map(ref.table.rows.map((row) => [String(row[col('hip')]), { teffK: Number(row[col('teff')]), tmass: String(row[col('ph_qual_tmass')] ?? '') }]));
-    // Measured on this table: 90 of 96 stars get a Teff (5 have too few bands, one a lower bound only).
+    // Measured on this table: 91 of 96 stars get a Teff (5 have too few bands). HIP 19849 was a lower
+    // bound before robust rejection: its AllWISE W1/W2 are a wrong cross-match, 3.7 mag fainter than Ks.
     const fitted = cat.rows.filter((x) => x.teff_k !== '');
-    expect(fitted.length).toBe(90);
+    expect(fitted.length).toBe(91);
+    const hip19849 = cat.rows.find((x) => x.id === 'HIP19849')!;
+    expect(hip19849.excluded_bands.split(' ')).toEqual(expect.arrayContaining(['W1:rejected', 'W2:rejected']));
+    expect(Math.abs(Number(hip19849.teff_k) / byHip.get('HIP19849')!.teffK - 1)).toBeLessThan(0.03);
+    expect(hip19849.residuals_sigma).toMatch(/^G:[+-]\d+\.\d\d BP:[+-]\d+\.\d\d RP:[+-]\d+\.\d\d W1:-\d+\.\d\d W2:-\d+\.\d\d/);
     for (const row of cat.rows.filter((x) => x.teff_k === '')) expect(row.flags).toMatch(/few_bands|temp_lower_bound/);
     // Quality rule: a 2MASS band reaches the fit only where its ph_qual_tmass letter is A or B.
     for (const row of cat.rows) {
@@ -312,6 +317,36 @@ describe('starkiln fit, end to end', () => {
     expect(header).toMatch(/input: gbs_v3_dev_half\.fits \(FITS binary table, wide layout, sha256 [0-9a-f]{64}\); 96 data rows/);
     expect(header).toContain('mapping = detected from the column names');
     expect(header).toContain('quality_rules = ph_qual_tmass keep AB ph_qual_allwise keep AB');
+  });
+
+  it('says per star what went in and why: residuals, excluded bands with reasons, the Teff–θ covariance and the distance (CSV compact, JSON in full)', () => {
+    // HIP 19849 in the Gaia FGK benchmark table v3 (Soubiran et al. 2024): parallax 199.608 mas in the
+    // table (Gaia DR3), so 1/ϖ = 5.00982 pc; its AllWISE W1/W2 are a wrong cross-match (issue text).
+    const fits = path.resolve(root, '../shared/data/benchmark/gbs_v3_dev_half.fits');
+    expect(run('fit', fits, '-o', 'gbs.json', '--quiet').code).toBe(0);
+    const json = JSON.parse(readFileSync(path.join(dir, 'gbs.json'), 'utf8')) as { columns: { name: string }[]; rows: Record<string, unknown>[]; provenance: { text: string[] } };
+    expect(json.columns.map((c) => c.name).slice(-5)).toEqual(['residuals_sigma', 'excluded_bands', 'teff_theta_corr', 'distance_pc', 'distance_source']);
+    expect(json.provenance.text).toContain('excluded band reasons:');
+    const row = json.rows.find((x) => x.id === 'HIP19849') as Record<string, unknown> & { detail: { excluded: { band: string; reason: string; detail?: string }[]; residuals_sigma: Record<string, number>; teff_theta: { covKMas: number; corr: number }; covariance: { params: string[] } } };
+    expect(row.excluded_bands).toBe('W1:rejected W2:rejected W3:long_wavelength W4:long_wavelength');
+    const w1 = row.detail.excluded.find((e) => e.band === 'W1')!;
+    expect(w1.detail).toMatch(/^inconsistent with the other bands: \d+\.\dσ below the fit made without it and W2/);
+    // The compact column is the JSON's residuals rounded to 0.01σ.
+    for (const part of String(row.residuals_sigma).split(' ')) {
+      const [band, v] = part.split(':');
+      expect(Number(v)).toBeCloseTo(row.detail.residuals_sigma[band], 2);
+    }
+    // cov(T, θ) = corr × σ_T × σ_θ of the reported errors; T and θ trade off (|corr| close to 1 for optical–infrared photometry, common practice).
+    expect(row.detail.teff_theta.covKMas).toBeCloseTo((row.teff_theta_corr as number) * (row.teff_err_k as number) * (row.theta_err_mas as number), 6);
+    expect(row.teff_theta_corr as number).toBeLessThan(-0.5);
+    expect(row.distance_pc as number).toBeCloseTo(1000 / 199.6080124181338, 4);
+    expect(row.distance_source).toBe('parallax');
+    // With --no-reject the wrong W1/W2 stay in and the fit is fooled, as the issue reports.
+    expect(run('fit', fits, '-o', 'gbs-keep.csv', '--quiet', '--no-reject').code).toBe(0);
+    const kept = readCatalogue(path.join(dir, 'gbs-keep.csv')).rows.find((x) => x.id === 'HIP19849')!;
+    expect(kept.bands_used.split(' ')).toEqual(expect.arrayContaining(['W1', 'W2']));
+    expect(kept.teff_k === '' || Number(kept.teff_k) > 7000).toBe(true);
+    expect(kept.excluded_bands).toBe('W3:long_wavelength W4:long_wavelength');
   });
 
   it('a lum_class column beats --lum-class and a feh column is recorded, per star', () => {

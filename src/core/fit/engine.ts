@@ -39,6 +39,8 @@ export const EXCLUDE_NONE = 0;
 export const EXCLUDE_USER = 1;
 export const EXCLUDE_LONG = 2;
 export const EXCLUDE_CLIPPED = 3;
+/** Rejected by the robust test of rejection.ts (set by fitStar, never by the engine). */
+export const EXCLUDE_REJECTED = 4;
 
 export const STATUS_OK = 0;
 export const STATUS_FEW_BANDS = 1;
@@ -146,7 +148,7 @@ export class FitEngine {
     this.derived = {
       teffK: NaN, teffErrFormalK: NaN, teffErrK: NaN, thetaMas: NaN, thetaErrMas: NaN, fbolCgs: NaN,
       fbolErrCgs: NaN, radiusRsun: NaN, radiusErrRsun: NaN, lumLsun: NaN, lumErrLsun: NaN, avErrMag: NaN,
-      errScale: 1, plxFlags: 0,
+      errScale: 1, corrTeffTheta: NaN, plxFlags: 0,
     };
     this.avSolver = new AvSolver(this);
   }

@@ -20,6 +20,7 @@ import {
   EXCLUDE_CLIPPED,
   EXCLUDE_LONG,
   EXCLUDE_NONE,
+  EXCLUDE_REJECTED,
   EXCLUDE_USER,
   FitEngine,
   STATUS_FEW_BANDS,
@@ -39,6 +40,7 @@ import {
   type PhotosphereData,
 } from '../photosphere/model';
 import { radiusRsunFromTheta, PLX_SNR_MIN } from './derived';
+import { findRejections, rejectionDetail, REJECT_FALSE_RATE, type RejectedSet } from './rejection';
 
 export type { LumClass } from '../photosphere/model';
 /** Where a fit's luminosity class came from. */
@@ -59,7 +61,15 @@ export interface FitOptions {
   excludeBands: string[];
   /** Fit bands beyond ~5 µm too instead of treating them as excess diagnostics. */
   includeLongBands: boolean;
+  /** The older sequential clipping of the worst band (off by default; ignored while `reject` is on). */
   clip: boolean;
+  /**
+   * Robust rejection of one or two bands inconsistent with the others, on the residuals of the
+   * calibrated fit (rejection.ts, decision 0026). On by default; a Planck-only fit never rejects.
+   */
+  reject: boolean;
+  /** The rejection's false-rejection rate per star with correct errors (α of the Bonferroni test). */
+  rejectFalseRate: number;
   monteCarlo?: { samples: number; seed: number };
   /** Extra fractional Teff error for the blackbody approximation of a Planck-only fit (BLACKBODY_MODEL_ERROR_FRACTION). */
   modelErrorFraction?: number;
@@ -79,6 +89,8 @@ export const DEFAULT_FIT_OPTIONS: Readonly<FitOptions> = Object.freeze({
   excludeBands: [] as string[],
   includeLongBands: false,
   clip: false,
+  reject: true,
+  rejectFalseRate: REJECT_FALSE_RATE,
   planckOnly: false,
   lumClass: 'auto' as const,
 });
@@ -93,6 +105,8 @@ export function resolveFitOptions(partial: Partial<FitOptions> = {}): FitOptions
   if (!(Number.isFinite(o.floorFraction) && o.floorFraction >= 0)) throw new Error(`systematic floor must be a fraction ≥ 0, got ${o.floorFraction}`);
   if (o.modelErrorFraction !== undefined && !(o.modelErrorFraction >= 0)) throw new Error(`model error fraction must be ≥ 0, got ${o.modelErrorFraction}`);
   if (!['auto', 'dwarf', 'giant'].includes(o.lumClass)) throw new Error(`luminosity class must be auto, dwarf or giant, got "${o.lumClass}"`);
+  if (typeof o.reject !== 'boolean') throw new Error('reject must be true or false');
+  if (!(o.rejectFalseRate > 0 && o.rejectFalseRate < 0.5)) throw new Error(`the rejection's false-rejection rate must lie between 0 and 0.5, got ${o.rejectFalseRate}`);
   if (typeof o.planckOnly !== 'boolean') throw new Error('planckOnly must be true or false');
   if (o.monteCarlo && !(Number.isInteger(o.monteCarlo.samples) && o.monteCarlo.samples >= 10)) {
     throw new Error(`Monte Carlo needs an integer number of samples ≥ 10, got ${o.monteCarlo.samples}`);
@@ -208,7 +222,14 @@ export interface PlanckFit {
   avMag: number | null;
 }
 
-export type ExclusionReason = 'excluded_by_option' | 'long_wavelength' | 'clipped' | 'no_valid_error';
+export type ExclusionReason = 'excluded_by_option' | 'long_wavelength' | 'clipped' | 'rejected' | 'no_valid_error';
+
+/** A band the fit did not use, with why; `detail` says more (for a rejected band: its test in words). */
+export interface Excluded {
+  band: string;
+  reason: ExclusionReason;
+  detail?: string;
+}
 
 export interface Interval {
   p16: number;
@@ -247,9 +268,16 @@ export interface FitResult {
   modelFluxes: Record<string, number>;
   irExcessSigma: number | null;
   flags: FlagCode[];
-  excluded: { band: string; reason: ExclusionReason }[];
+  excluded: Excluded[];
+  /** The robust rejection's tests that rejected bands (empty when none was rejected); null when it was off. */
+  rejection: { falseRate: number; sets: RejectedSet[] } | null;
   /** Formal covariance (not scaled) of (teffK, s[, avMag]). */
   covariance: { params: string[]; matrix: number[][] };
+  /**
+   * The Teff–θ covariance of the reported errors (χ²_ν scaling and model term included), K·mas, and
+   * its correlation coefficient; null for a lower bound.
+   */
+  teffTheta: { covKMas: number; corr: number } | null;
   /** The pure Planck fit (tbb_* columns); with planckOnly its numbers equal the ones above. */
   planck: PlanckFit;
   /** The photosphere model used (name, version); null for a Planck-only fit. */
@@ -277,7 +305,7 @@ export interface FitFailure {
   id: string;
   reason: 'few_bands' | 'no_convergence';
   message: string;
-  excluded: { band: string; reason: ExclusionReason }[];
+  excluded: Excluded[];
 }
 
 export interface Entry {
@@ -287,10 +315,12 @@ export interface Entry {
   sigma: number;
   upper: boolean;
   exclude: number;
+  /** The reason in words of a rejected band. */
+  detail?: string;
 }
 
 function reasonOf(code: number): ExclusionReason {
-  return code === EXCLUDE_USER ? 'excluded_by_option' : code === EXCLUDE_LONG ? 'long_wavelength' : 'clipped';
+  return code === EXCLUDE_USER ? 'excluded_by_option' : code === EXCLUDE_LONG ? 'long_wavelength' : code === EXCLUDE_REJECTED ? 'rejected' : 'clipped';
 }
 
 function finiteOrNaN(v: number | null | undefined): number {
@@ -317,7 +347,8 @@ export function engineSettings(opts: FitOptions): EngineSettings {
     fitAv: opts.fitAv,
     avMinMag: opts.avBoundsMag[0],
     avMaxMag: opts.avBoundsMag[1],
-    clip: opts.clip,
+    // Robust rejection replaces the sequential clipping whenever a calibrated fit can run it.
+    clip: opts.clip && !(opts.reject && !opts.planckOnly),
     modelErrorFraction: opts.modelErrorFraction ?? 0,
   };
 }
@@ -326,8 +357,8 @@ export function engineSettings(opts: FitOptions): EngineSettings {
  * A star's band fluxes as engine entries: floor applied (applyFloor), roles set (excluded by option,
  * long-wavelength diagnostic), bands without a usable error listed as excluded.
  */
-export function starEntries(model: FitModel, star: StarInput, opts: FitOptions): { entries: Entry[]; excluded: { band: string; reason: ExclusionReason }[] } {
-  const excluded: { band: string; reason: ExclusionReason }[] = [];
+export function starEntries(model: FitModel, star: StarInput, opts: FitOptions): { entries: Entry[]; excluded: Excluded[] } {
+  const excluded: Excluded[] = [];
   const entries: Entry[] = [];
   const excludeList = opts.excludeBands;
   for (const bf of star.bandFluxes) {
@@ -371,7 +402,7 @@ function failureOf(engine: FitEngine, status: number, star: StarInput, opts: Fit
 }
 
 /** The result fields an engine's last run gives (Planck or photosphere engine alike). */
-function resultOf(engine: FitEngine, entries: Entry[], excluded: FitResult['excluded'], star: StarInput, opts: FitOptions): Omit<FitResult, 'planck' | 'photosphere' | 'lumClass' | 'lumClassSource' | 'fehDex' | 'teffModelTermLn'> {
+function resultOf(engine: FitEngine, entries: Entry[], excluded: FitResult['excluded'], star: StarInput, opts: FitOptions): Omit<FitResult, 'planck' | 'photosphere' | 'lumClass' | 'lumClassSource' | 'fehDex' | 'teffModelTermLn' | 'rejection'> {
   const d = engine.derived;
   const lowerBound = (engine.flags & FLAG_BITS.temp_lower_bound) !== 0;
   const residualsSigma: Record<string, number> = {};
@@ -422,12 +453,16 @@ function resultOf(engine: FitEngine, entries: Entry[], excluded: FitResult['excl
     flags: flagCodes(engine.flags),
     excluded: [...excluded, ...excludedOf(engine, entries)],
     covariance: { params, matrix },
+    teffTheta: lowerBound || !Number.isFinite(d.corrTeffTheta) ? null : { covKMas: d.corrTeffTheta * d.teffErrK * d.thetaErrMas, corr: d.corrTeffTheta },
   };
 }
 
 function excludedOf(engine: FitEngine, entries: Entry[]): FitResult['excluded'] {
   const out: FitResult['excluded'] = [];
-  for (let k = engine.nFit; k < engine.n; k++) out.push({ band: entries[engine.order[k]].bandKey, reason: reasonOf(engine.exclude[k]) });
+  for (let k = engine.nFit; k < engine.n; k++) {
+    const e = entries[engine.order[k]];
+    out.push(e.detail ? { band: e.bandKey, reason: reasonOf(engine.exclude[k]), detail: e.detail } : { band: e.bandKey, reason: reasonOf(engine.exclude[k]) });
+  }
   return out;
 }
 
@@ -479,23 +514,16 @@ export function fitStar(model: FitModel, star: StarInput, options?: Partial<FitO
   const rt = opts.planckOnly ? null : model.photosphere;
   // 1. The pure Planck fit, always, never widened by a model term.
   const engine = model.engine;
-  loadEngine(engine, entries);
-  const status = engine.run({ ...settings, modelErrorFraction: 0 }, av, plx, plxErr);
-  if (status !== STATUS_OK) return failureOf(engine, status, star, opts, [...excluded, ...excludedOf(engine, entries)]);
-  const planckRes = resultOf(engine, entries, excluded, star, opts);
-  const planck: PlanckFit = {
-    teffK: planckRes.teffK,
-    teffErrK: planckRes.teffErrK,
-    teffErrFormalK: planckRes.teffErrFormalK,
-    teffLowerK: planckRes.teffLowerK,
-    chi2Red: planckRes.chi2Red,
-    modelFluxes: planckRes.modelFluxes,
-    flags: planckRes.flags,
-    thetaMas: planckRes.thetaMas,
-    radiusRsun: planckRes.radiusRsun,
-    avMag: planckRes.avMag,
+  const planckRun = (ents: Entry[]): { status: number; res: ReturnType<typeof resultOf> | null } => {
+    loadEngine(engine, ents);
+    const status = engine.run({ ...settings, modelErrorFraction: 0 }, av, plx, plxErr);
+    return { status, res: status === STATUS_OK ? resultOf(engine, ents, excluded, star, opts) : null };
   };
+  let pr = planckRun(entries);
+  if (pr.status !== STATUS_OK) return failureOf(engine, pr.status, star, opts, [...excluded, ...excludedOf(engine, entries)]);
+  let planckRes = pr.res!;
   if (!rt) {
+    const planck = planckOf(planckRes);
     // Planck only: teff_* = tbb_*; the optional blackbody model-error term widens teff_* alone.
     const mef = opts.modelErrorFraction ?? 0;
     let res = planckRes;
@@ -504,32 +532,63 @@ export function fitStar(model: FitModel, star: StarInput, options?: Partial<FitO
       engine.flags |= FLAG_BITS.model_error_added;
       res = resultOf(engine, entries, excluded, star, opts);
     }
-    const result: FitResult = { ...res, planck, photosphere: null, lumClass: null, lumClassSource: null, fehDex: nullable(feh), teffModelTermLn: mef };
+    const result: FitResult = { ...res, planck, photosphere: null, lumClass: null, lumClassSource: null, fehDex: nullable(feh), teffModelTermLn: mef, rejection: null };
     if (opts.monteCarlo && result.teffK !== null) result.monteCarlo = monteCarlo(engine, entries, settings, av, plx, plxErr, opts.monteCarlo, mef, engine.beta);
     return result;
   }
   // 2. The photosphere fit, with the class's per-band model scatter in quadrature.
   const data = rt.data;
-  const { cls, source } = chooseLumClass(data, star, opts, finiteOrNaN(planck.thetaMas), plx, plxErr);
-  const pe = rt.engines[cls];
-  const tbb = planck.teffK ?? planck.teffLowerK ?? 5772;
   const scatter = new Float64Array(entries.length);
   const scatter2 = new Float64Array(entries.length);
-  scatterOf(rt, cls, entries, tbb, scatter);
-  let calEntries = withScatter(entries, scatter);
-  loadEngine(pe, calEntries);
-  let st = pe.run({ ...settings, modelErrorFraction: 0 }, av, plx, plxErr);
-  if (st === STATUS_OK) {
-    // The scatter belongs to the fitted temperature: refit once if it sits in another scatter bin.
-    scatterOf(rt, cls, entries, Math.exp(pe.u), scatter2);
-    if (scatter2.some((v, i) => v !== scatter[i])) {
-      scatter.set(scatter2);
-      calEntries = withScatter(entries, scatter);
-      loadEngine(pe, calEntries);
-      st = pe.run({ ...settings, modelErrorFraction: 0 }, av, plx, plxErr);
+  let calEntries: Entry[] = entries;
+  const calRun = (cls: LumClass, ents: Entry[], tStart: number): number => {
+    const pe = rt.engines[cls];
+    scatterOf(rt, cls, ents, tStart, scatter);
+    calEntries = withScatter(ents, scatter);
+    loadEngine(pe, calEntries);
+    let st = pe.run({ ...settings, modelErrorFraction: 0 }, av, plx, plxErr);
+    if (st === STATUS_OK) {
+      // The scatter belongs to the fitted temperature: refit once if it sits in another scatter bin.
+      scatterOf(rt, cls, ents, Math.exp(pe.u), scatter2);
+      if (scatter2.some((v, i) => v !== scatter[i])) {
+        scatter.set(scatter2);
+        calEntries = withScatter(ents, scatter);
+        loadEngine(pe, calEntries);
+        st = pe.run({ ...settings, modelErrorFraction: 0 }, av, plx, plxErr);
+      }
+    }
+    return st;
+  };
+  let { cls, source } = chooseLumClass(data, star, opts, finiteOrNaN(planckRes.thetaMas), plx, plxErr);
+  let st = calRun(cls, entries, planckRes.teffK ?? planckRes.teffLowerK ?? 5772);
+  let rejection: FitResult['rejection'] = null;
+  if (st === STATUS_OK && opts.reject) {
+    // 2b. Robust rejection on the calibrated fit's residuals (rejection.ts), then both fits again
+    // without the rejected bands (the Planck fit beside it uses the same bands; the class is chosen anew).
+    const pe = rt.engines[cls];
+    const base = calEntries;
+    const trial = (out: number[]): number => {
+      loadEngine(pe, base.map((e, i) => (out.includes(i) ? { ...e, exclude: EXCLUDE_REJECTED } : e)));
+      return pe.run({ ...settings, modelErrorFraction: 0 }, av, plx, plxErr);
+    };
+    const withPivot = base.map((e) => ({ ...e, pivotAngstrom: getBand(model.library, e.bandKey)!.pivotAngstrom }));
+    const found = findRejections(pe, withPivot, opts.fitAv ? 3 : 2, trial, opts.rejectFalseRate);
+    rejection = { falseRate: opts.rejectFalseRate, sets: found.sets };
+    if (found.indices.length > 0) {
+      const detailOf = new Map<string, string>();
+      for (const set of found.sets) for (const b of set.bands) detailOf.set(b, rejectionDetail(set, b, opts.rejectFalseRate));
+      const kept = entries.map((e, i) => (found.indices.includes(i) ? { ...e, exclude: EXCLUDE_REJECTED, detail: detailOf.get(e.bandKey) } : e));
+      pr = planckRun(kept);
+      if (pr.status !== STATUS_OK) return failureOf(engine, pr.status, star, opts, [...excluded, ...excludedOf(engine, kept)]);
+      planckRes = pr.res!;
+      ({ cls, source } = chooseLumClass(data, star, opts, finiteOrNaN(planckRes.thetaMas), plx, plxErr));
+      st = calRun(cls, kept, planckRes.teffK ?? planckRes.teffLowerK ?? 5772);
     }
   }
+  const pe = rt.engines[cls];
   if (st !== STATUS_OK) return failureOf(pe, st, star, opts, [...excluded, ...excludedOf(pe, calEntries)]);
+  const planck = planckOf(planckRes);
+  if (rejection && rejection.sets.length > 0) pe.flags |= FLAG_BITS.rejected;
   const tCal = Math.exp(pe.u);
   // 3. The calibration term in σ(ln T), along the T–θ degeneracy; grown outside the calibrated range.
   const sigmaM = teffTermSigma(data, cls, tCal);
@@ -561,9 +620,25 @@ export function fitStar(model: FitModel, star: StarInput, options?: Partial<FitO
     fehDex: nullable(feh),
     modelScatter,
     teffModelTermLn: Math.sqrt(varM),
+    rejection,
   };
   if (opts.monteCarlo && result.teffK !== null) result.monteCarlo = monteCarlo(pe, calEntries, settings, av, plx, plxErr, opts.monteCarlo, Math.sqrt(varM), pe.beta);
   return result;
+}
+
+function planckOf(r: ReturnType<typeof resultOf>): PlanckFit {
+  return {
+    teffK: r.teffK,
+    teffErrK: r.teffErrK,
+    teffErrFormalK: r.teffErrFormalK,
+    teffLowerK: r.teffLowerK,
+    chi2Red: r.chi2Red,
+    modelFluxes: r.modelFluxes,
+    flags: r.flags,
+    thetaMas: r.thetaMas,
+    radiusRsun: r.radiusRsun,
+    avMag: r.avMag,
+  };
 }
 
 function percentiles(values: number[]): Interval {

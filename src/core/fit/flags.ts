@@ -20,6 +20,7 @@ export const FLAG_BITS = {
   outside_calibration: 1 << 14,
   band_uncalibrated: 1 << 15,
   no_dof: 1 << 16,
+  rejected: 1 << 17,
 } as const;
 
 export type FlagCode = keyof typeof FLAG_BITS;
@@ -27,6 +28,7 @@ export type FlagCode = keyof typeof FLAG_BITS;
 /** One plain-words line per flag (shown in the UI, README and every export's provenance). */
 export const FLAG_EXPLANATIONS: Record<FlagCode | 'few_bands' | 'no_convergence', string> = {
   outlier: 'At least one band lies more than 3σ from the fitted curve.',
+  rejected: 'One or two bands disagree with the others beyond what their errors allow (a test of the calibrated fit with and without them) and were left out; the excluded list gives each one\'s reason.',
   clipped: 'The worst band (at most two) was dropped and the star refitted; see the excluded list.',
   ir_excess: 'A band beyond ~5 µm (a diagnostic, not a fit input) lies more than 3σ above the curve: possible dust or a companion.',
   temp_lower_bound: 'The photometry sits on the Rayleigh–Jeans tail: only a lower bound on Teff is given (one-sided 95 %), no value.',
@@ -53,6 +55,7 @@ export const FLAG_ORDER: FlagCode[] = [
   'temp_cool_edge',
   'no_dof',
   'outlier',
+  'rejected',
   'clipped',
   'ir_excess',
   'chi2_high',
