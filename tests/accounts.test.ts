@@ -2,7 +2,7 @@
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import { count, eq } from 'drizzle-orm';
 import { account, campaignMembers, invitations, outboxMessages, user } from '../src/db/schema';
-import { registerAccount, requestPasswordReset, resetPassword } from '../src/server/accounts';
+import { changePassword, registerAccount, requestPasswordReset, resetPassword } from '../src/server/accounts';
 import { addMember, listCampaignsForUser } from '../src/server/campaigns';
 import { HttpError } from '../src/server/errors';
 import { createTestApp, type TestApp } from './setup/db';
@@ -178,5 +178,50 @@ describe('password reset', () => {
     expect(t.db.select().from(outboxMessages).all()).toHaveLength(0);
     const bad = await caught(requestPasswordReset(t.app, { email: 'nope' }));
     expect(bad.field).toBe('email');
+  });
+});
+
+describe('changePassword (signed in)', () => {
+  async function session(email: string, password: string): Promise<Headers> {
+    const res = await t.app.auth.api.signInEmail({ body: { email, password }, asResponse: true });
+    expect(res.status).toBe(200);
+    return new Headers({ cookie: res.headers.getSetCookie().map((c) => c.split(';')[0]).join('; ') });
+  }
+  const signIn = (email: string, password: string) => t.app.auth.api.signInEmail({ body: { email, password }, asResponse: true }).then((r) => r.status);
+  const signedIn = async (headers: Headers) => (await t.app.auth.api.getSession({ headers })) !== null;
+
+  it('needs the current password, refuses a weak or unchanged one, and changes nothing when it refuses', async () => {
+    const person = await makeUser(t.app, { email: 'changer@example.test', name: 'Ada Changer', password: 'the-old-password' });
+    const headers = await session(person.email, 'the-old-password');
+    const wrong = await caught(changePassword(t.app, person, { currentPassword: 'not-the-password', password: 'a-fresh-long-password' }, headers));
+    expect([wrong.status, wrong.field]).toEqual([400, 'currentPassword']);
+    const weak = await caught(changePassword(t.app, person, { currentPassword: 'the-old-password', password: 'changer123456' }, headers));
+    expect(weak.field).toBe('password');
+    const same = await caught(changePassword(t.app, person, { currentPassword: 'the-old-password', password: 'the-old-password' }, headers));
+    expect(same.field).toBe('password');
+    expect(await signIn(person.email, 'the-old-password')).toBe(200);
+  });
+
+  it('sets the new password; other sessions end only when asked, and this one carries on under a new cookie', async () => {
+    const person = await makeUser(t.app, { email: 'mover@example.test', password: 'the-old-password' });
+    const here = await session(person.email, 'the-old-password');
+    const laptop = await session(person.email, 'the-old-password');
+    await changePassword(t.app, person, { currentPassword: 'the-old-password', password: 'a-fresh-long-password' }, here);
+    expect(await signIn(person.email, 'a-fresh-long-password')).toBe(200);
+    expect(await signIn(person.email, 'the-old-password')).toBe(401);
+    expect(await signedIn(laptop)).toBe(true);
+
+    const answer = await changePassword(t.app, person, { currentPassword: 'a-fresh-long-password', password: 'yet-another-long-password', signOutOthers: true }, here);
+    const renewed = new Headers({ cookie: answer.headers.getSetCookie().map((c) => c.split(';')[0]).join('; ') });
+    expect(renewed.get('cookie')).toMatch(/session_token=/);
+    expect(await signedIn(renewed)).toBe(true);
+    expect(await signedIn(laptop)).toBe(false);
+  });
+
+  it('asks a visitor whose session is gone to sign in again', async () => {
+    const person = await makeUser(t.app, { email: 'gone@example.test', password: 'the-old-password' });
+    const e = await caught(changePassword(t.app, person, { currentPassword: 'the-old-password', password: 'a-fresh-long-password' }, new Headers()));
+    expect(e.status).toBe(401);
+    expect(await signIn(person.email, 'the-old-password')).toBe(200);
   });
 });

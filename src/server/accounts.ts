@@ -11,7 +11,7 @@ import { passwordWeakness } from '../adapters/password-strength';
 import { countActiveApiTokens, revokeAllApiTokens } from './api-tokens';
 import type { AccountKind } from '../contracts/vocabulary';
 import { recordAudit } from './audit';
-import type { AppServices } from './context';
+import type { Actor, AppServices } from './context';
 import { HttpError } from './errors';
 import { hashToken } from './ids';
 import { parseInput } from './validation';
@@ -209,4 +209,37 @@ export async function resetPassword(app: AppServices, raw: unknown): Promise<{ r
   }
   const revokedTokens = input.revokeTokens ? revokeAllApiTokens(app.db, owner.userId, 'password reset') : 0;
   return { revokedTokens };
+}
+
+export const changePasswordInput = z.object({
+  currentPassword: z.string({ error: 'Enter your current password.' }).min(1, 'Enter your current password.'),
+  password: passwordField,
+  /** End every other session of the account (this one goes on under a new cookie). */
+  signOutOthers: z.boolean().optional(),
+});
+
+/**
+ * The signed-in person sets a new password, giving the current one. `headers` carry their session
+ * cookie; the answer is better-auth's, whose Set-Cookie the page forwards (with signOutOthers the
+ * session token is replaced). API tokens stay: a person who suspects a leak revokes them on the
+ * tokens page, or resets the password from the e-mail link.
+ */
+export async function changePassword(app: AppServices, actor: Actor, raw: unknown, headers: Headers): Promise<Response> {
+  const input = parseInput(changePasswordInput, raw);
+  requireStrongPassword(input.password, actor);
+  if (input.password === input.currentPassword) {
+    throw new HttpError('validation_failed', 'The new password is the one you have now; choose another.', 'password');
+  }
+  const response = await app.auth.api.changePassword({
+    body: { currentPassword: input.currentPassword, newPassword: input.password, revokeOtherSessions: input.signOutOthers ?? false },
+    headers,
+    asResponse: true,
+  });
+  if (response.status === 401) throw new HttpError('unauthenticated', 'Sign in again to change your password.');
+  if (!response.ok) {
+    const body = (await response.clone().json().catch(() => null)) as { code?: string; message?: string } | null;
+    if (body?.code === 'INVALID_PASSWORD') throw new HttpError('validation_failed', 'That is not your current password.', 'currentPassword');
+    throw new HttpError('bad_request', body?.message ?? 'The password could not be changed.', 'password');
+  }
+  return response;
 }

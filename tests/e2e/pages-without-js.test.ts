@@ -6,6 +6,7 @@ import { campaigns, outboxMessages, user } from '../../src/db/schema';
 import { DEMO_CAMPAIGN, demoUsers } from '../../src/seed/seed';
 import { startBatch } from '../../src/server/batches';
 import { nameKey } from '../../src/server/campaigns';
+import { makeUser } from '../../src/seed/factories';
 import { createWorker } from '../../workers/runner';
 import { insertMockStars } from '../factories-photometry';
 import { callApi, signInCookie, startApp, type RunningApp } from './harness';
@@ -131,6 +132,32 @@ describe('pages without JavaScript', () => {
     expect(done.location).toBe('/sign-in?reset=done');
     await expect(signInCookie(run.baseUrl, people.reviewer.email, 'a-brand-new-password')).resolves.toMatch(/session_token/);
     await expect(signInCookie(run.baseUrl, people.reviewer.email, people.reviewer.password)).rejects.toThrow(/401/);
+  });
+
+  it('change the password while signed in, by form post; other browsers are signed out when asked', async () => {
+    const person = await makeUser(run.app, { email: 'changing@lanternfield.test', name: 'Wren Holloway', password: 'the-first-password' });
+    const here = await signInCookie(run.baseUrl, person.email, 'the-first-password');
+    const elsewhere = await signInCookie(run.baseUrl, person.email, 'the-first-password');
+    expect((await get('/account/password')).location).toBe('/sign-in?next=%2Faccount%2Fpassword');
+    const page = await get('/account/password', here);
+    expect(page.status).toBe(200);
+    expect(page.html).toContain('Current password');
+
+    const wrong = await postForm('/account/password', { currentPassword: 'not-my-password', password: 'a-second-long-password', signOutOthers: 'yes' }, here);
+    expect(wrong.status).toBe(400);
+    expect(wrong.html).toContain('That is not your current password.');
+    const weak = await postForm('/account/password', { currentPassword: 'the-first-password', password: 'short' }, here);
+    expect(weak.html).toContain('at least 10 characters');
+
+    const done = await postForm('/account/password', { currentPassword: 'the-first-password', password: 'a-second-long-password', signOutOthers: 'yes' }, here);
+    expect(done.status).toBe(303);
+    expect(done.location).toBe('/account/password?changed=others-signed-out');
+    expect(done.cookies).toMatch(/session_token=/);
+    const after = await get(done.location!, done.cookies);
+    expect(after.html).toContain('Your password is changed.');
+    expect((await callApi(run.baseUrl, '/api/me', { cookie: elsewhere })).status).toBe(401);
+    await expect(signInCookie(run.baseUrl, person.email, 'a-second-long-password')).resolves.toMatch(/session_token/);
+    await expect(signInCookie(run.baseUrl, person.email, 'the-first-password')).rejects.toThrow(/401/);
   });
 
   it('list a campaign’s stars a page at a time, each linking to its star sheet', async () => {

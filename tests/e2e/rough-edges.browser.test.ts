@@ -13,7 +13,7 @@ import { nameKey } from '../../src/server/campaigns';
 import { startBatch } from '../../src/server/batches';
 import { seedReviewDemo } from '../../src/seed/review-stars';
 import { createWorker } from '../../workers/runner';
-import { launchBrowser, startApp, type Browser, type RunningApp } from './harness';
+import { launchBrowser, signInWithForm, startApp, type Browser, type RunningApp } from './harness';
 
 let run: RunningApp;
 let browser: Browser;
@@ -36,13 +36,7 @@ afterAll(async () => {
   await run?.stop();
 });
 
-async function signIn(page: Page, who: keyof typeof people) {
-  await browser.context.clearCookies();
-  await page.goto(`${run.baseUrl}/sign-in`);
-  await page.getByLabel('E-mail').fill(people[who].email);
-  await page.getByLabel('Password').fill(people[who].password);
-  await Promise.all([page.waitForURL(`${run.baseUrl}/campaigns`), page.getByRole('button', { name: 'Sign in' }).click()]);
-}
+const signIn = (page: Page, who: keyof typeof people) => signInWithForm(browser, page, run.baseUrl, people[who]);
 
 const hydrated = (page: Page) => page.waitForFunction(() => !document.querySelector('astro-island[ssr]'));
 

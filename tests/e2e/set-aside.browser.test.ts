@@ -10,7 +10,7 @@ import { campaigns, user } from '../../src/db/schema';
 import { DEMO_CAMPAIGN, demoUsers } from '../../src/seed/seed';
 import { nameKey } from '../../src/server/campaigns';
 import { seedReviewDemo } from '../../src/seed/review-stars';
-import { launchBrowser, startApp, type Browser, type RunningApp } from './harness';
+import { launchBrowser, signInWithForm, startApp, type Browser, type RunningApp } from './harness';
 
 let run: RunningApp;
 let browser: Browser;
@@ -32,13 +32,7 @@ afterAll(async () => {
   await run?.stop();
 });
 
-async function signIn(page: Page, who: keyof typeof people) {
-  await browser.context.clearCookies();
-  await page.goto(`${run.baseUrl}/sign-in`);
-  await page.getByLabel('E-mail').fill(people[who].email);
-  await page.getByLabel('Password').fill(people[who].password);
-  await Promise.all([page.waitForURL(`${run.baseUrl}/campaigns`), page.getByRole('button', { name: 'Sign in' }).click()]);
-}
+const signIn = (page: Page, who: keyof typeof people) => signInWithForm(browser, page, run.baseUrl, people[who]);
 
 describe('setting a value aside on the star sheet', () => {
   it('marks it with who, when and why, says it takes effect at the next fit, and undoes it', async () => {
