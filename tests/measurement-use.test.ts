@@ -67,6 +67,8 @@ afterAll(() => t.cleanup());
 
 describe('an image value in the fit, set aside and used again', () => {
   it('shows what the image contributed to the fit, with the observation its header describes', async () => {
+    // Imported after the star's newest fit: that fit did not use it.
+    expect(imageValue()).toMatchObject({ inNewestFit: 'not_used', notUsedReason: 'added after the newest fit' });
     await refit(t.app, analyst, campaignId, [starKey], KEEP_EVERY_BAND);
     const fit = latestFit();
     expect(Math.abs(fit.teff_k - teffBefore)).toBeGreaterThan(10);

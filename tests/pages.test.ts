@@ -1,7 +1,7 @@
 // The rule every guarded page shares when its guard or loader throws (src/web/pages.ts refusePage),
-// and guardPage, the preamble that applies it.
-import { describe, expect, it } from 'vitest';
-import { guardPage, refusePage, type PageContext } from '../src/web/pages';
+// guardPage, the preamble that applies it, and formFailure, what a failed form post shows.
+import { describe, expect, it, vi } from 'vitest';
+import { formFailure, guardPage, refusePage, type PageContext } from '../src/web/pages';
 import { forbidden, HttpError, unauthenticated } from '../src/server/errors';
 
 function page(path: string): PageContext & { redirectedTo: string | null } {
@@ -71,5 +71,26 @@ describe('guardPage', () => {
   it('lets a bug propagate', async () => {
     const bug = new TypeError('x is undefined');
     await expect(guardPage(page('/admin'), () => { throw bug; })).rejects.toBe(bug);
+  });
+});
+
+describe('formFailure', () => {
+  it("shows a refusal's message under its field, with its status", () => {
+    const p = page('/campaigns');
+    expect(formFailure(new HttpError('conflict', 'A campaign with this name exists.', 'name'), p)).toEqual({ field: 'name', message: 'A campaign with this name exists.' });
+    expect(p.response.status).toBe(409);
+  });
+
+  it('answers 500 with a plain message for a bug, which it logs', () => {
+    const p = page('/campaigns');
+    const logged = vi.spyOn(console, 'error').mockImplementation(() => {});
+    try {
+      const bug = new TypeError('x is undefined');
+      expect(formFailure(bug, p)).toEqual({ message: 'Something went wrong on the server. Please try again.' });
+      expect(p.response.status).toBe(500);
+      expect(logged).toHaveBeenCalledWith(bug);
+    } finally {
+      logged.mockRestore();
+    }
   });
 });

@@ -120,7 +120,7 @@ export function starSheet(db: AppDatabase, campaignId: string, starRef: string |
   const measurementRows = sqlite
     .prepare(
       `SELECT m.id, m.band_key, m.source, m.upload_id, up.original_name, m.mag, m.mag_err, m.fnu_jy, m.fnu_err_jy, m.upper_limit, m.quality,
-              m.set_aside_at, m.set_aside_reason, sb.name AS set_aside_by,
+              m.created_at, m.set_aside_at, m.set_aside_reason, sb.name AS set_aside_by,
               m.observation IS NOT NULL AS from_image, json_extract(m.observation, '$.filter') AS obs_filter, json_extract(m.observation, '$.dateObs') AS obs_date,
               json_extract(m.observation, '$.exptimeS') AS obs_exptime, json_extract(m.observation, '$.airmass') AS obs_airmass,
               json_extract(m.observation, '$.raDeg') AS obs_ra, json_extract(m.observation, '$.decDeg') AS obs_dec
@@ -130,14 +130,15 @@ export function starSheet(db: AppDatabase, campaignId: string, starRef: string |
     .all(star.id) as {
     id: number; band_key: string; source: string; upload_id: string | null; original_name: string | null; mag: number | null; mag_err: number | null;
     fnu_jy: number | null; fnu_err_jy: number | null; upper_limit: number; quality: string | null;
-    set_aside_at: number | null; set_aside_reason: string | null; set_aside_by: string | null;
+    created_at: number; set_aside_at: number | null; set_aside_reason: string | null; set_aside_by: string | null;
     from_image: number; obs_filter: string | null; obs_date: string | null; obs_exptime: number | null; obs_airmass: number | null; obs_ra: number | null; obs_dec: number | null;
   }[];
   const num = (v: unknown) => (typeof v === 'number' && Number.isFinite(v) ? v : null);
   const str = (v: unknown) => (typeof v === 'string' && v !== '' ? v : null);
   const measurements: SheetMeasurement[] = measurementRows.map((m) => {
     const band = getBand(current, m.band_key);
-    const notUsedReason = skippedBy.get(`${m.band_key}\u0000${m.source}`) ?? null;
+    // A value brought in after the newest fit was made never reached it.
+    const notUsedReason = skippedBy.get(`${m.band_key}\u0000${m.source}`) ?? (latest && m.created_at > latest.created_at ? 'added after the newest fit' : null);
     const inNewestFit: SheetMeasurement['inNewestFit'] = !latest ? null : notUsedReason !== null || !(detail.observed && m.band_key in detail.observed) ? 'not_used' : 'used';
     const setAside = m.set_aside_at !== null;
     return {

@@ -30,6 +30,15 @@ export function formErrors(err: unknown): { field?: string; message: string } {
   return { message: 'Something went wrong on the server. Please try again.' };
 }
 
+/**
+ * A form post that failed: the messages to show in the form (formErrors) and the page's status set
+ * to the error's (500 for anything that is not an HttpError, which formErrors logs).
+ */
+export function formFailure(err: unknown, page: { response: { status?: number } }): { field?: string; message: string } {
+  page.response.status = err instanceof HttpError ? err.status : 500;
+  return formErrors(err);
+}
+
 /** The parts of Astro's page context that refusePage uses. */
 export interface PageContext {
   url: URL;

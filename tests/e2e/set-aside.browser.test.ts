@@ -3,14 +3,17 @@
 // and why and that it takes effect at the next fit, finds it in the database and the audit trail,
 // and uses it again; a reviewer sees the marks but gets no switch. (What the next fit does with a
 // set-aside value is tested on the worker path in tests/measurement-use.test.ts.)
+import { readFileSync } from 'node:fs';
+import path from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import type { Page } from 'playwright-core';
+import type { Locator, Page } from 'playwright-core';
 import { eq } from 'drizzle-orm';
+import { projectRoot } from '../../src/db/paths';
 import { campaigns, user } from '../../src/db/schema';
 import { DEMO_CAMPAIGN, demoUsers } from '../../src/seed/seed';
 import { nameKey } from '../../src/server/campaigns';
 import { seedReviewDemo } from '../../src/seed/review-stars';
-import { launchBrowser, signInWithForm, startApp, type Browser, type RunningApp } from './harness';
+import { callApi, launchBrowser, signInCookie, signInWithForm, startApp, type Browser, type RunningApp } from './harness';
 
 let run: RunningApp;
 let browser: Browser;
@@ -45,6 +48,8 @@ describe('setting a value aside on the star sheet', () => {
     const row = page.locator(`[data-testid="measurement-table"] tr[data-measurement="${j.id}"]`);
     await expect(row.getAttribute('data-in-fit')).resolves.toBe('used');
     await expect(row.getAttribute('data-set-aside')).resolves.toBe('false');
+    // The band table names the file each fitted value came from.
+    await expect(page.locator('[data-testid="band-table"] tr[data-band="J"]').getAttribute('data-source')).resolves.toBe(j.source);
 
     await row.getByText('Set aside…').click();
     await row.getByLabel('Why (kept with the value)').fill('J is 0.45 mag off the curve; the 2MASS match is doubtful');
@@ -85,4 +90,51 @@ describe('setting a value aside on the star sheet', () => {
     expect(sqlite.prepare("SELECT count(*) FROM audit_events WHERE action = 'photometry.used_again' AND campaign_id = ?").pluck().get(campaignId)).toBe(1);
     await page.close();
   });
+
+  it("sets aside every value an image brought in from the intake page, and the star sheet shows what the image was", async () => {
+    const sqlite = run.app.db.$client;
+    const cookie = await signInCookie(run.baseUrl, people.analyst.email, people.analyst.password);
+    const api = `${run.baseUrl}/api/campaigns/${campaignId}`;
+    const waitJob = async (uploadId: string, jobId: string) => {
+      for (let i = 0; i < 240; i++) {
+        const j = (await callApi(run.baseUrl, `/api/campaigns/${campaignId}/uploads/${uploadId}/jobs/${jobId}`, { cookie })).body as { job: { status: string } };
+        if (j.job.status === 'done' || j.job.status === 'failed') return j.job;
+        await new Promise((r) => setTimeout(r, 250));
+      }
+      throw new Error('the intake job did not finish within a minute');
+    };
+    // The header fixture written by astropy (fixtures/fits/image_header.fits, invented target), measured as Cindermoor's V.
+    const form = new FormData();
+    form.append('file', new Blob([readFileSync(path.join(projectRoot(), 'fixtures/fits/image_header.fits'))]), 'cindermoor-v.fits');
+    const posted = await fetch(`${api}/uploads`, { method: 'POST', headers: { cookie, origin: run.baseUrl }, body: form });
+    expect(posted.status, await posted.clone().text()).toBe(201);
+    const { upload } = (await posted.json()) as { upload: { id: string; job: { id: string } } };
+    expect(await waitJob(upload.id, upload.job.id)).toMatchObject({ status: 'done' });
+    const imp = await callApi(run.baseUrl, `/api/campaigns/${campaignId}/uploads/${upload.id}/import`, { cookie, json: { rules: { quality: [] }, image: { starId: 'Cindermoor', band: 'V', mag: 9.81, magErr: 0.02 } } });
+    expect(imp.status).toBe(202);
+    expect(await waitJob(upload.id, (imp.body as { job: { id: string } }).job.id)).toMatchObject({ status: 'done' });
+
+    const page = await browser.newPage();
+    await signIn(page, 'analyst');
+    await page.goto(`${run.baseUrl}/campaigns/${campaignId}/intake`);
+    const item = page.getByTestId('withdraw-list').locator(`li[data-upload="${upload.id}"]`);
+    const said = async (l: Locator) => ((await l.textContent()) ?? '').replace(/\s+/g, ' ').trim();
+    await expect(said(item.getByTestId('upload-value-use'))).resolves.toBe('1 value used in fits');
+    await item.getByLabel('Why the values of cindermoor-v.fits are set aside').fill('guide star lost halfway through the exposure');
+    await Promise.all([page.waitForLoadState('load'), item.getByRole('button', { name: 'Set aside its values' }).click()]);
+    await expect(said(page.getByTestId('withdraw-notice'))).resolves.toBe('1 value of cindermoor-v.fits is set aside: the next fit of its star leaves it out; it stays on record.');
+    await expect(said(page.getByTestId('withdraw-list').locator(`li[data-upload="${upload.id}"]`).getByTestId('upload-value-use'))).resolves.toBe('0 values used in fits, 1 set aside');
+
+    const starId = sqlite.prepare("SELECT id FROM stars WHERE campaign_id = ? AND star_key = 'Cindermoor'").pluck().get(campaignId) as number;
+    await page.goto(`${run.baseUrl}/campaigns/${campaignId}/stars/${starId}`);
+    const row = page.locator('[data-testid="measurement-table"] tr[data-source="cindermoor-v.fits"]');
+    await expect(row.getAttribute('data-set-aside')).resolves.toBe('true');
+    // Imported after the newest fit: that fit did not use it.
+    await expect(row.getAttribute('data-in-fit')).resolves.toBe('not_used');
+    // The fixture's pointing is RA 05:35:17.30 = 83.8221°, Dec −05:23:28.0 = −5.3911°: shown as the frame's, not the star's.
+    await expect(said(row.getByTestId('image-observation'))).resolves.toMatch(/measured on a FITS image.*frame pointing RA 83\.8221° Dec -5\.3911° \(observation record only, not the star's position\)/);
+    await expect(row.getByTestId('set-aside-mark').textContent()).resolves.toContain('“guide star lost halfway through the exposure”');
+    await page.close();
+  });
 });
+
