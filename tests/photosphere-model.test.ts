@@ -1,5 +1,5 @@
 // The photosphere model the admin sees, on a real migrated SQLite: the version in effect follows
-// the band library (a zero-point change makes a new version of both, decision 0025), each
+// the band library (a zero-point change makes a new version of both, decision 0026), each
 // calibrated band says how it stands, and a fit made after the change records the new version.
 // The +0.6 % Ks zero-point is an invented recalibration; the magnitudes of the star are rough
 // values of a K dwarf (from memory) — only the bookkeeping is checked here.

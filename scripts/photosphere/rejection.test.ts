@@ -1,4 +1,4 @@
-// Robust rejection (src/core/fit/rejection.ts, decision 0026) on real stars, with the Kiln photosphere
+// Robust rejection (src/core/fit/rejection.ts, decision 0027) on real stars, with the Kiln photosphere
 // rebuilt without the star under test (or its fold), never with a correction calibrated on it:
 // - HIP 19849 in the Gaia FGK benchmark table v3 (Soubiran et al. 2024, A&A 682, A145;
 //   ../shared/data/benchmark/gbs_v3_dev_half.fits, read here directly): fundamental Teff 5181 K there;

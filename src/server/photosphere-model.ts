@@ -1,5 +1,5 @@
 // The photosphere model in effect with the current band library, for the admin page: its version,
-// what it was built with and from, and how each calibrated band stands (decision 0025).
+// what it was built with and from, and how each calibrated band stands (decision 0026).
 import { bandStanding, defaultPhotosphere, effectiveModelVersion } from '../core/photosphere';
 import type { AppDatabase } from '../db/client';
 import type { ModelBandView, PhotosphereModelView } from '../contracts/photosphere';

@@ -65,7 +65,7 @@ export interface FitOptions {
   clip: boolean;
   /**
    * Robust rejection of one or two bands inconsistent with the others, on the residuals of the
-   * calibrated fit (rejection.ts, decision 0026). On by default; a Planck-only fit never rejects.
+   * calibrated fit (rejection.ts, decision 0027). On by default; a Planck-only fit never rejects.
    */
   reject: boolean;
   /** The rejection's false-rejection rate per star with correct errors (α of the Bonferroni test). */
@@ -124,7 +124,7 @@ export interface PhotosphereRuntime {
    * differs only by the zero-point (the correction is then shifted, src/core/photosphere/standing.ts).
    */
   usable(key: string): boolean;
-  /** The model version in effect with this library (decision 0025): "kp-1", or "kp-1+v3" after a zero-point change. */
+  /** The model version in effect with this library (decision 0026): "kp-1", or "kp-1+v3" after a zero-point change. */
   version: string;
 }
 

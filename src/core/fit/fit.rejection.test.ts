@@ -1,4 +1,4 @@
-// Robust rejection (rejection.ts, decision 0026) on mock stars made with the Kiln photosphere itself
+// Robust rejection (rejection.ts, decision 0027) on mock stars made with the Kiln photosphere itself
 // (Planck band mean × the model's correction, through the starter passbands: self-consistency), with
 // Gaussian noise of the size the fit assumes. Real stars (HIP 19849, clean benchmark stars) are in
 // scripts/photosphere/rejection.test.ts. The χ² tail probabilities are checked against scipy.

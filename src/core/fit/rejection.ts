@@ -1,4 +1,4 @@
-// Robust rejection of bands that disagree with the others (decision 0026), on the residuals of the
+// Robust rejection of bands that disagree with the others (decision 0027), on the residuals of the
 // calibrated photosphere fit.
 //
 // The test is the mean-shift outlier test of least squares (common practice; e.g. Cook & Weisberg 1982,

@@ -3,7 +3,7 @@
 // change a band in two ways:
 //  - its zero-point only (same curve, system and convention): the calibrators' fluxes, made from
 //    their magnitudes, move by the ratio of the magnitude-0 fluxes, so ln c_b moves by the log of
-//    that ratio, exactly for calibrators measured in that band (decision 0025). The model is then a
+//    that ratio, exactly for calibrators measured in that band (decision 0026). The model is then a
 //    new version, named after the model and the library (e.g. "kp-1+v3"), recorded with each fit.
 //  - its curve (or system, convention): the correction no longer describes the band; the band is
 //    uncalibrated (the Planck value, the assumed scatter, flag band_uncalibrated) until the model is
