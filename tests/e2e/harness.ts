@@ -11,10 +11,14 @@ import { openDatabase } from '../../src/db/client';
 import { migrateDatabase } from '../../src/db/migrate';
 import { projectRoot } from '../../src/db/paths';
 import { freePort } from '../support/probes';
-import { seedDemo } from '../../src/seed/seed';
+import { DEMO_CAMPAIGN, demoUsers, seedDemo } from '../../src/seed/seed';
+import { seedReviewDemo } from '../../src/seed/review-stars';
 import { createApp } from '../../src/app/app';
 import { parseEnv } from '../../src/adapters/env';
-import type { AppServices } from '../../src/server/context';
+import { eq } from 'drizzle-orm';
+import { campaigns, user } from '../../src/db/schema';
+import { nameKey } from '../../src/server/campaigns';
+import { toActor, type Actor, type AppServices } from '../../src/server/context';
 
 export const CHROMIUM_PATH = '/usr/bin/chromium';
 
@@ -209,4 +213,63 @@ export async function callApi(
     // leave as text: the assertion will show it
   }
   return { status: res.status, body: parsed, contentType: res.headers.get('content-type') };
+}
+
+/** The demo's people (demoUsers()), by role. */
+export type DemoPerson = keyof ReturnType<typeof demoUsers>;
+
+/** The built server on the demo with its review material, a browser, and the demo's ids and people. */
+export interface ReviewDemo {
+  run: RunningApp;
+  browser: Browser;
+  /** The demo campaign's id. */
+  campaignId: string;
+  /** The batch that fitted the review material. */
+  batchId: string;
+  people: ReturnType<typeof demoUsers>;
+  /** A person of the database by e-mail, as server functions take them. */
+  actor: (email: string) => Actor;
+  /** Signs `page` in as one of the demo's people through the form (signed out first). */
+  signIn: (page: Page, who: DemoPerson) => Promise<void>;
+  stop: () => Promise<void>;
+}
+
+/**
+ * The built server on the demo with its review material (the invented Lanternfield stars, fitted by
+ * the worker path on the server's database file, as `npm run db:seed` makes them) and Chromium.
+ */
+export async function startWithReviewDemo(): Promise<ReviewDemo> {
+  const run = await startApp();
+  let browser: Browser | undefined;
+  try {
+    browser = await launchBrowser();
+    const db = run.app.db;
+    const campaignId = db.select().from(campaigns).where(eq(campaigns.nameKey, nameKey(DEMO_CAMPAIGN.name))).get()!.id;
+    const people = demoUsers();
+    const actor = (email: string): Actor => {
+      const u = db.select().from(user).where(eq(user.email, email)).get();
+      if (!u) throw new Error(`No person with e-mail ${email} in the demo database`);
+      return toActor(u);
+    };
+    const batchId = await seedReviewDemo(run.app, actor(people.analyst.email), actor(people.reviewer.email), campaignId);
+    if (!batchId) throw new Error('The demo database already had fits: the review material was not fitted here');
+    const b = browser;
+    return {
+      run,
+      browser: b,
+      campaignId,
+      batchId,
+      people,
+      actor,
+      signIn: (page, who) => signInWithForm(b, page, run.baseUrl, people[who]),
+      stop: async () => {
+        await b.close();
+        await run.stop();
+      },
+    };
+  } catch (err) {
+    await browser?.close();
+    await run.stop();
+    throw err;
+  }
 }
