@@ -218,14 +218,12 @@ export async function callApi(
 /** The demo's people (demoUsers()), by role. */
 export type DemoPerson = keyof ReturnType<typeof demoUsers>;
 
-/** The built server on the demo with its review material, a browser, and the demo's ids and people. */
-export interface ReviewDemo {
+/** The built server on the demo, a browser, and the demo's campaign and people. */
+export interface DemoRun {
   run: RunningApp;
   browser: Browser;
   /** The demo campaign's id. */
   campaignId: string;
-  /** The batch that fitted the review material. */
-  batchId: string;
   people: ReturnType<typeof demoUsers>;
   /** A person of the database by e-mail, as server functions take them. */
   actor: (email: string) => Actor;
@@ -234,42 +232,59 @@ export interface ReviewDemo {
   stop: () => Promise<void>;
 }
 
+/** The built server on the seeded demo and Chromium; stop() ends both. */
+export async function startWithDemo(): Promise<DemoRun> {
+  const run = await startApp();
+  let browser: Browser;
+  try {
+    browser = await launchBrowser();
+  } catch (err) {
+    await run.stop();
+    throw err;
+  }
+  const db = run.app.db;
+  const people = demoUsers();
+  const stop = async () => {
+    await browser.close();
+    await run.stop();
+  };
+  const campaign = db.select().from(campaigns).where(eq(campaigns.nameKey, nameKey(DEMO_CAMPAIGN.name))).get();
+  if (!campaign) {
+    await stop();
+    throw new Error(`The demo campaign "${DEMO_CAMPAIGN.name}" is not in the seeded database`);
+  }
+  return {
+    run,
+    browser,
+    campaignId: campaign.id,
+    people,
+    actor: (email) => {
+      const u = db.select().from(user).where(eq(user.email, email)).get();
+      if (!u) throw new Error(`No person with e-mail ${email} in the demo database`);
+      return toActor(u);
+    },
+    signIn: (page, who) => signInWithForm(browser, page, run.baseUrl, people[who]),
+    stop,
+  };
+}
+
+/** The demo with its review material fitted: the batch that fitted it. */
+export interface ReviewDemo extends DemoRun {
+  batchId: string;
+}
+
 /**
  * The built server on the demo with its review material (the invented Lanternfield stars, fitted by
  * the worker path on the server's database file, as `npm run db:seed` makes them) and Chromium.
  */
 export async function startWithReviewDemo(): Promise<ReviewDemo> {
-  const run = await startApp();
-  let browser: Browser | undefined;
+  const demo = await startWithDemo();
   try {
-    browser = await launchBrowser();
-    const db = run.app.db;
-    const campaignId = db.select().from(campaigns).where(eq(campaigns.nameKey, nameKey(DEMO_CAMPAIGN.name))).get()!.id;
-    const people = demoUsers();
-    const actor = (email: string): Actor => {
-      const u = db.select().from(user).where(eq(user.email, email)).get();
-      if (!u) throw new Error(`No person with e-mail ${email} in the demo database`);
-      return toActor(u);
-    };
-    const batchId = await seedReviewDemo(run.app, actor(people.analyst.email), actor(people.reviewer.email), campaignId);
+    const batchId = await seedReviewDemo(demo.run.app, demo.actor(demo.people.analyst.email), demo.actor(demo.people.reviewer.email), demo.campaignId);
     if (!batchId) throw new Error('The demo database already had fits: the review material was not fitted here');
-    const b = browser;
-    return {
-      run,
-      browser: b,
-      campaignId,
-      batchId,
-      people,
-      actor,
-      signIn: (page, who) => signInWithForm(b, page, run.baseUrl, people[who]),
-      stop: async () => {
-        await b.close();
-        await run.stop();
-      },
-    };
+    return { ...demo, batchId };
   } catch (err) {
-    await browser?.close();
-    await run.stop();
+    await demo.stop();
     throw err;
   }
 }
