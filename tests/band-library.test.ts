@@ -128,7 +128,8 @@ describe('stale fits and re-fitting', () => {
     const campaign = makeCampaign(t.app, analyst);
     await addToCampaign(t.app, analyst, campaign.id, reviewer, ['reviewer']);
     insertMockStars(t.db, { campaignId: campaign.id, count: 6, seed: 5 });
-    const batch = startBatch(t.app, analyst, campaign.id, { options: { law: 'ccm89', floorFraction: 0.01 } });
+    // Blackbody mock stars: Planck only, so χ² measures the zero-point change, not the model's mismatch.
+    const batch = startBatch(t.app, analyst, campaign.id, { options: { law: 'ccm89', floorFraction: 0.01, planckOnly: true } });
     await createWorker(t.app, { owner: 'test-1', drain: true, idleMs: 5 }).run();
     return { analyst, reviewer, campaign, batch };
   }

@@ -109,7 +109,7 @@ describe('a batch from start to finish', () => {
   it('reports progress, records provenance with every result, lists failures and e-mails the analyst once', async () => {
     // Chunks of 15 stars: 15, 15 and 10.
     const w = await world(40, 15);
-    const batch = startBatch(w.t.app, w.analyst, w.campaign.id, { options: { law: 'od94', rv: 3.3, floorFraction: 0.01, excludeBands: ['B'] } });
+    const batch = startBatch(w.t.app, w.analyst, w.campaign.id, { options: { law: 'od94', rv: 3.3, floorFraction: 0.01, excludeBands: ['B'], planckOnly: true } });
     expect(w.t.sqlite.prepare('SELECT star_count FROM jobs WHERE batch_id = ? ORDER BY id').pluck().all(batch.id)).toEqual([15, 15, 10]);
 
     const before = batchProgress(w.t.db, batch.id);
@@ -144,8 +144,8 @@ describe('a batch from start to finish', () => {
     const ok = rows.filter((r) => r.ok === 1);
     const star = new Map(w.mock.map((m) => [m.id, m]));
     for (const r of ok) {
-      // Noise-free magnitudes made by direct integration through the passbands: the fit recovers
-      // T and θ to 1e-4 (docs/science.md check values, self-consistency).
+      // Noise-free blackbody magnitudes made by direct integration through the passbands: the Planck
+      // fit (planckOnly) recovers T and θ to 1e-4 (docs/science.md check values, self-consistency).
       expect(Math.abs(r.teff_k / star.get(r.star_id)!.teffK - 1)).toBeLessThan(1e-4);
       expect(Math.abs(r.theta_mas / star.get(r.star_id)!.thetaMas - 1)).toBeLessThan(1e-4);
       const detail = JSON.parse(r.detail);
@@ -178,7 +178,7 @@ describe('a batch from start to finish', () => {
 
   it('fits A_V when asked and records that it did', async () => {
     const w = await world(4);
-    const batch = startBatch(w.t.app, w.analyst, w.campaign.id, { options: { avMode: 'fitted', avMaxMag: 3 } });
+    const batch = startBatch(w.t.app, w.analyst, w.campaign.id, { options: { avMode: 'fitted', avMaxMag: 3, planckOnly: true } });
     await createWorker(w.t.app, { owner: 'test', drain: true, idleMs: 5 }).run();
     const rows = w.t.sqlite.prepare('SELECT ok, av_mag, detail FROM fit_results WHERE batch_id = ? AND ok = 1').all(batch.id) as { av_mag: number; detail: string }[];
     expect(rows.length).toBe(4);
@@ -186,7 +186,7 @@ describe('a batch from start to finish', () => {
       const detail = JSON.parse(r.detail);
       expect(detail.avFitted).toBe(true);
       expect(detail.options).toMatchObject({ fitAv: true, avBoundsMag: [0, 3] });
-      // Unreddened mock stars: the fitted A_V sits at (or next to) the lower bound 0.
+      // Unreddened blackbody mock stars, Planck fit: the fitted A_V sits at (or next to) the lower bound 0.
       expect(r.av_mag).toBeGreaterThanOrEqual(0);
       expect(r.av_mag).toBeLessThan(0.01);
     }

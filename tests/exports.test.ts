@@ -56,9 +56,10 @@ afterAll(() => t?.cleanup());
 function dbRows(where = "f.review_status = 'accepted'"): DbRow[] {
   return t.sqlite
     .prepare(
-      `SELECT s.star_key AS id, s.ra_deg AS ra, s.dec_deg AS dec, f.teff_k, f.teff_err_k, f.teff_err_formal_k, f.teff_lower_k, f.theta_mas, f.theta_err_mas,
+      `SELECT s.star_key AS id, s.ra_deg AS ra, s.dec_deg AS dec, f.teff_k, f.teff_err_k, f.teff_err_formal_k, f.teff_lower_k, f.tbb_k, f.tbb_err_k, f.tbb_err_formal_k, f.tbb_lower_k, f.tbb_chi2_red, f.theta_mas, f.theta_err_mas,
          f.radius_rsun, f.radius_err_rsun, f.lum_lsun, f.lum_err_lsun, f.fbol_cgs, f.fbol_err_cgs, f.av_mag AS av, f.av_err_mag AS av_err, f.chi2_red,
-         f.n_bands, f.bands_used, f.ir_excess_sigma, f.flags, f.review_status, f.batch_id,
+         f.n_bands, f.bands_used, f.ir_excess_sigma, f.flags, f.lum_class, f.lum_class_source, f.feh_dex AS feh,
+         CASE WHEN f.photosphere_name IS NULL THEN NULL ELSE f.photosphere_name || ' ' || f.photosphere_version END AS model, f.review_status, f.batch_id,
          coalesce((SELECT trim(CASE WHEN d.four_eyes_off = 1 THEN 'four_eyes_off ' ELSE '' END || CASE WHEN d.carried_from_decision_id IS NOT NULL THEN 'carried_over' ELSE '' END)
            FROM review_decisions d WHERE d.fit_result_id = f.id AND d.superseded_at IS NULL), '') AS review_mark
        FROM fit_results f JOIN stars s ON s.id = f.star_id

@@ -58,6 +58,11 @@ describe('Redis backend, worker processes', () => {
         60_000,
         logs,
       );
+      // Frozen first, so it cannot finish the chunk between the check above and the kill (on a
+      // loaded machine that gap can be long); the chunk it holds now is the one it dies with.
+      a.child.kill('SIGSTOP');
+      const stillHeld = (await fitQueue.getActive()).find((j) => j.processedBy === 'worker-a');
+      if (stillHeld?.id) killedChunk = stillHeld.id;
       a.child.kill('SIGKILL');
       expect((await a.exited).signal).toBe('SIGKILL');
       // Its chunk is still leased to that chunk in SQLite: no result was written for it.

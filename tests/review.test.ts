@@ -58,7 +58,9 @@ async function world() {
     .prepare("INSERT INTO uploads (id, campaign_id, original_name, stored_path, size_bytes, sha256, status) VALUES ('up1', ?, 'lanternfield-s1.csv', 'unused', 1, 'x', 'imported')")
     .run(campaign.id);
   const stars = insertReviewStars(t.db, campaign.id, LANTERNFIELD_STARS, { uploadId: 'up1' });
-  const batchId = await fitAndDrain(t.app, lead, campaign.id);
+  // The invented stars' photometry is a blackbody integrated through each band (src/seed/review-stars.ts):
+  // Planck only, so the sheet's model band means and the re-fit rule are checked against the Planck fit.
+  const batchId = await fitAndDrain(t.app, lead, campaign.id, { planckOnly: true });
   return { t, lead, reviewer, analyst, collaborator, outsider, admin, campaign, stars, batchId };
 }
 
@@ -363,7 +365,7 @@ describe('re-fit after a zero-point change', () => {
   it('carries over the decisions whose Teff and θ moved by less than 0.25σ with the same flags, returns the others with the reason, all in the audit trail', async () => {
     const w = await world();
     // The analyst fits Ashbright once more (same options): the lead, who did not start that batch, accepts it.
-    const own = await fitAndDrain(w.t.app, w.analyst, w.campaign.id, {}, ['Ashbright']);
+    const own = await fitAndDrain(w.t.app, w.analyst, w.campaign.id, { planckOnly: true }, ['Ashbright']);
     expect((await call(decisionRoute, w.t, w.lead, { fitId: String(fitIdOf(w.t.db, own, 'Ashbright')) }, { body: { decision: 'accepted', comment: 'second look' } })).status).toBe(201);
     // The reviewer decides on every other fit of the first batch: accepts most, flags one with a comment.
     const keys = LANTERNFIELD_STARS.map((s) => s.starKey).filter((k) => k !== 'Ashbright');

@@ -77,7 +77,7 @@ export interface LooFit {
 
 /** Fits a calibrator with model data (built without it) and its known class. */
 export function fitCalibrator(data: PhotosphereData, cal: Calibrator, library = starterBandLibrary()): LooFit {
-  const model = prepareFitModel(library, { planckOnly: false }, data);
+  const model = prepareFitModel(library, {}, data);
   const r = fitStar(model, { id: cal.star, bandFluxes: cal.inputFluxes, parallaxMas: cal.parallaxMas, parallaxErrMas: cal.parallaxErrMas, lumClass: cal.cls, fehDex: cal.fehDex });
   if (!r.ok || r.teffK === null || r.planck.teffK === null) return { cal, result: null, dLnT: NaN, dLnTbb: NaN, sigmaFit: NaN, sigmaRef: NaN };
   const sigmaTot = (r.teffErrK ?? NaN) / r.teffK;

@@ -18,6 +18,8 @@ export interface StartBatchBody {
     excludeBands: string[];
     clip: boolean;
     includeLongBands: boolean;
+    planckOnly?: boolean;
+    lumClass?: 'auto' | 'dwarf' | 'giant';
   };
   /** Only these stars (their ids in the campaign); all stars when absent. */
   starKeys?: string[];

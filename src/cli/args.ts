@@ -37,6 +37,10 @@ Options:
   --exclude <keys>        bands to leave out of the fit, comma or space separated
   --clip                  refit without the worst band (at most two) when it lies > 3σ off
   --include-long          use bands beyond ~5 µm in the fit (default: excess diagnostics only)
+  --planck-only           fit a blackbody only: teff_* = tbb_* (default: the Kiln photosphere,
+                          an empirical model calibrated on real stars, with the Planck fit beside it)
+  --lum-class <class>     auto, dwarf or giant for stars without a lum_class column [auto: from the
+                          parallax radius; dwarf, flagged class_assumed, without a parallax]
   --format <csv|ecsv|json> output format (default: from the output file's extension, else csv);
                           ECSV is read by astropy's Table.read(file) as it is, with units
   --columns <map>         say what a column holds, overriding the detection, with a name
@@ -71,6 +75,8 @@ export interface FitCommandArgs {
   excludeBands: string[];
   clip: boolean;
   includeLongBands: boolean;
+  planckOnly: boolean;
+  lumClass: 'auto' | 'dwarf' | 'giant';
   columnMap?: Record<string, string>;
   /** --quality: letters to keep per quality column ('2mass' and 'wise' name the column by its bands). */
   qualityKeep: { column: string; letters: string[] }[];
@@ -108,6 +114,8 @@ export function parseCommandLine(argv: string[]): ParsedCommand {
         exclude: { type: 'string', multiple: true },
         clip: { type: 'boolean' },
         'include-long': { type: 'boolean' },
+        'planck-only': { type: 'boolean' },
+        'lum-class': { type: 'string' },
         format: { type: 'string' },
         columns: { type: 'string', multiple: true },
         quality: { type: 'string', multiple: true },
@@ -164,6 +172,8 @@ export function parseCommandLine(argv: string[]): ParsedCommand {
     }
     qualityKeep.push({ column, letters: [...new Set(letters)] });
   }
+  const lumClass = (v['lum-class'] ?? 'auto').toLowerCase();
+  if (lumClass !== 'auto' && lumClass !== 'dwarf' && lumClass !== 'giant') throw new UsageError(`--lum-class must be auto, dwarf or giant, got "${v['lum-class']}"`);
   if (v['save-mapping'] !== undefined && v['save-mapping'] === v.output) throw new UsageError('--save-mapping and -o name the same file');
   let hdu: number | string | undefined;
   if (v.hdu !== undefined) hdu = /^\d+$/.test(v.hdu) ? Number(v.hdu) : v.hdu;
@@ -181,6 +191,8 @@ export function parseCommandLine(argv: string[]): ParsedCommand {
       excludeBands,
       clip: v.clip === true,
       includeLongBands: v['include-long'] === true,
+      planckOnly: v['planck-only'] === true,
+      lumClass,
       columnMap,
       qualityKeep,
       noQualityRules: v['no-quality-rules'] === true,

@@ -1,7 +1,8 @@
 // `starkiln fit` end to end: the real command in a child process on files in a temporary folder.
 // Numbers: invented noise-free mock stars whose magnitudes come from direct integration of a
 // blackbody through each band (planckBandMean, checked against synphot), not from the fit's tables;
-// T and θ must come back to 1e-4 (docs/science.md, check values: self-consistency).
+// T and θ must come back to 1e-4 (docs/science.md, check values: self-consistency). The mocks are pure
+// blackbodies, so these runs use --planck-only: they check the Planck fit, not the calibrated photosphere.
 import { spawnSync } from 'node:child_process';
 import { createHash } from 'node:crypto';
 import { existsSync, mkdtempSync, readFileSync, readdirSync, rmSync, writeFileSync } from 'node:fs';
@@ -36,20 +37,20 @@ function readCatalogue(file: string) {
 describe('options', () => {
   it('parses every option into fit options', () => {
     const p = parseCommandLine([
-      'fit', 'in.csv', '-o', 'out.json', '--law', 'ccm89', '--rv', '3.6', '--av', '0.2', '--fit-av', '--floor', '0', '--exclude', 'W3, W4', '--exclude', 'u', '--clip', '--include-long',
+      'fit', 'in.csv', '-o', 'out.json', '--law', 'ccm89', '--rv', '3.6', '--av', '0.2', '--fit-av', '--floor', '0', '--exclude', 'W3, W4', '--exclude', 'u', '--clip', '--include-long', '--planck-only', '--lum-class', 'giant',
       '--columns', 'j_m=J,junk=', '--hdu', '2', '--quality', '2mass=abc', '--quality', 'ph_qual_allwise=A,B', '--no-quality-rules', '--mapping', 'preset.json', '--save-mapping', 'used.json', '--show-mapping',
     ]);
     expect(p).toEqual({
       command: 'fit',
       args: {
-        input: 'in.csv', output: 'out.json', format: 'json', law: 'ccm89', rv: 3.6, avMag: 0.2, fitAv: true, floorFraction: 0, excludeBands: ['W3', 'W4', 'u'], clip: true, includeLongBands: true,
+        input: 'in.csv', output: 'out.json', format: 'json', law: 'ccm89', rv: 3.6, avMag: 0.2, fitAv: true, floorFraction: 0, excludeBands: ['W3', 'W4', 'u'], clip: true, includeLongBands: true, planckOnly: true, lumClass: 'giant',
         columnMap: { j_m: 'J', junk: '-' }, hdu: 2, quiet: false,
         qualityKeep: [{ column: '2mass', letters: ['A', 'B', 'C'] }, { column: 'ph_qual_allwise', letters: ['A', 'B'] }],
         noQualityRules: true, mappingFile: 'preset.json', saveMappingFile: 'used.json', showMapping: true,
       },
     });
     const d = parseCommandLine(['fit', 'in.csv', '-o', 'out.csv']);
-    expect(d.command === 'fit' && [d.args.law, d.args.rv, d.args.avMag, d.args.floorFraction, d.args.format]).toEqual(['f99', 3.1, 0, 0.02, 'csv']);
+    expect(d.command === 'fit' && [d.args.law, d.args.rv, d.args.avMag, d.args.floorFraction, d.args.format, d.args.planckOnly, d.args.lumClass]).toEqual(['f99', 3.1, 0, 0.02, 'csv', false, 'auto']);
     expect(parseCommandLine(['--help'])).toEqual({ command: 'help' });
   });
 
@@ -75,16 +76,19 @@ describe('starkiln fit, end to end', () => {
     const stars = mockStars(25, 11);
     const input = path.join(dir, 'mock.csv');
     writeFileSync(input, mockCsv(stars));
-    const r = run('fit', 'mock.csv', '-o', 'out.csv');
+    const r = run('fit', 'mock.csv', '-o', 'out.csv', '--planck-only');
     expect(r.stderr).toMatch(/starkiln: 25 stars fitted, 0 input rows left out, 0 errors and 0 warnings/);
     expect(r.code).toBe(0);
     const cat = readCatalogue(path.join(dir, 'out.csv'));
-    expect(cat.header).toEqual(['id', 'ra', 'dec', 'teff_k', 'teff_err_k', 'teff_err_formal_k', 'teff_lower_k', 'theta_mas', 'theta_err_mas', 'radius_rsun', 'radius_err_rsun', 'lum_lsun', 'lum_err_lsun', 'fbol_cgs', 'fbol_err_cgs', 'av', 'av_err', 'chi2_red', 'n_bands', 'bands_used', 'ir_excess_sigma', 'flags']);
+    expect(cat.header).toEqual(['id', 'ra', 'dec', 'teff_k', 'teff_err_k', 'teff_err_formal_k', 'teff_lower_k', 'tbb_k', 'tbb_err_k', 'tbb_err_formal_k', 'tbb_lower_k', 'tbb_chi2_red', 'theta_mas', 'theta_err_mas', 'radius_rsun', 'radius_err_rsun', 'lum_lsun', 'lum_err_lsun', 'fbol_cgs', 'fbol_err_cgs', 'av', 'av_err', 'chi2_red', 'n_bands', 'bands_used', 'ir_excess_sigma', 'flags', 'lum_class', 'lum_class_source', 'feh', 'model']);
     expect(cat.rows.length).toBe(25);
     for (const [i, s] of stars.entries()) {
       const row = cat.rows[i];
       expect(row.id).toBe(s.id);
       expect(Math.abs(Number(row.teff_k) / s.teffK - 1)).toBeLessThan(1e-4);
+      // Planck only: teff_* is the Planck fit and no model is named.
+      expect(row.tbb_k).toBe(row.teff_k);
+      expect(row.model).toBe('');
       expect(Math.abs(Number(row.theta_mas) / s.thetaMas - 1)).toBeLessThan(1e-4);
       // R/R☉ = 107.516 θ[mas]/ϖ[mas] (IAU 2015 B3 R☉, IAU 2012 au; docs/science.md §7).
       expect(Math.abs(Number(row.radius_rsun) / ((107.516 * s.thetaMas) / s.parallaxMas) - 1)).toBeLessThan(2e-4);
@@ -108,12 +112,13 @@ describe('starkiln fit, end to end', () => {
     // Every flag code the catalogue can carry is explained in the header, not only the ones that occur.
     for (const [code, text] of Object.entries(FLAG_EXPLANATIONS)) expect(header).toContain(`  ${code}: ${text}`);
     expect(header).toMatch(/colour temperature/);
+    expect(header).toContain('temperature model: Planck only (teff_* = tbb_*)');
   });
 
   it('applies --exclude and --law, and writes JSON', () => {
     const stars = mockStars(5, 3);
     writeFileSync(path.join(dir, 'mock-ccm.csv'), mockCsv(stars, 'ccm89', 3.1));
-    const r = run('fit', 'mock-ccm.csv', '-o', 'out.json', '--law', 'ccm89', '--exclude', 'B,V');
+    const r = run('fit', 'mock-ccm.csv', '-o', 'out.json', '--planck-only', '--law', 'ccm89', '--exclude', 'B,V');
     expect(r.code).toBe(0);
     const json = JSON.parse(readFileSync(path.join(dir, 'out.json'), 'utf8'));
     expect(json.provenance.law).toBe('ccm89');
@@ -137,20 +142,20 @@ describe('starkiln fit, end to end', () => {
     writeFileSync(path.join(dir, 'no-av.csv'), blank.join('\n') + '\n');
     const recovered = (file: string) => readCatalogue(path.join(dir, file)).rows.map((row, i) => Math.abs(Number(row.teff_k) / stars[i].teffK - 1));
 
-    expect(run('fit', 'no-av.csv', '-o', 'av-default.csv', '--law', 'ccm89', '--rv', '3.6', '--av', '0.25').code).toBe(0);
+    expect(run('fit', 'no-av.csv', '-o', 'av-default.csv', '--planck-only', '--law', 'ccm89', '--rv', '3.6', '--av', '0.25').code).toBe(0);
     for (const d of recovered('av-default.csv')) expect(d).toBeLessThan(1e-4);
     const header = readCatalogue(path.join(dir, 'av-default.csv')).comments.join('\n');
     expect(header).toContain('extinction law: ccm89, R_V = 3.6');
     expect(header).toContain('av_default_mag = 0.25');
     // Without --av the stars count as unreddened and come out 5–8 % cooler (measured); with the wrong R_V off too.
-    expect(run('fit', 'no-av.csv', '-o', 'av-zero.csv', '--law', 'ccm89', '--rv', '3.6').code).toBe(0);
+    expect(run('fit', 'no-av.csv', '-o', 'av-zero.csv', '--planck-only', '--law', 'ccm89', '--rv', '3.6').code).toBe(0);
     for (const d of recovered('av-zero.csv')) expect(d).toBeGreaterThan(1e-3);
-    expect(run('fit', 'no-av.csv', '-o', 'rv-wrong.csv', '--law', 'ccm89', '--av', '0.25').code).toBe(0);
+    expect(run('fit', 'no-av.csv', '-o', 'rv-wrong.csv', '--planck-only', '--law', 'ccm89', '--av', '0.25').code).toBe(0);
     // R_V 3.1 instead of 3.6 at A_V = 0.25: 0.13–0.25 % in T on these stars (measured), far beyond 1e-4.
     expect(Math.min(...recovered('rv-wrong.csv'))).toBeGreaterThan(5e-4);
 
     // --fit-av finds A_V itself (1e-3 mag on noise-free stars) and reports its error.
-    expect(run('fit', 'no-av.csv', '-o', 'av-fit.csv', '--law', 'ccm89', '--rv', '3.6', '--fit-av').code).toBe(0);
+    expect(run('fit', 'no-av.csv', '-o', 'av-fit.csv', '--planck-only', '--law', 'ccm89', '--rv', '3.6', '--fit-av').code).toBe(0);
     const fitted = readCatalogue(path.join(dir, 'av-fit.csv'));
     for (const [i, row] of fitted.rows.entries()) {
       expect(Math.abs(Number(row.av) - 0.25), row.id).toBeLessThan(1e-3);
@@ -160,7 +165,7 @@ describe('starkiln fit, end to end', () => {
     expect(fitted.comments.join('\n')).toContain('fit_av = true');
 
     // The 2 % floor (default) is added in quadrature to the 0.02 mag errors; --floor 0 leaves them alone.
-    expect(run('fit', 'no-av.csv', '-o', 'floor0.csv', '--law', 'ccm89', '--rv', '3.6', '--av', '0.25', '--floor', '0').code).toBe(0);
+    expect(run('fit', 'no-av.csv', '-o', 'floor0.csv', '--planck-only', '--law', 'ccm89', '--rv', '3.6', '--av', '0.25', '--floor', '0').code).toBe(0);
     const floored = readCatalogue(path.join(dir, 'av-default.csv')).rows;
     for (const [i, row] of readCatalogue(path.join(dir, 'floor0.csv')).rows.entries()) {
       expect(Number(row.teff_err_formal_k)).toBeLessThan(0.8 * Number(floored[i].teff_err_formal_k));
@@ -175,10 +180,10 @@ describe('starkiln fit, end to end', () => {
     cells[jAt] = String(Number(cells[jAt]) - 0.5); // J of the first star 0.5 mag too bright (25 σ)
     lines[1] = cells.join(',');
     writeFileSync(path.join(dir, 'clip.csv'), lines.join('\n') + '\n');
-    expect(run('fit', 'clip.csv', '-o', 'noclip.csv').code).toBe(0);
+    expect(run('fit', 'clip.csv', '-o', 'noclip.csv', '--planck-only').code).toBe(0);
     const plain = readCatalogue(path.join(dir, 'noclip.csv')).rows[0];
     expect(plain.flags.split(' ')).toContain('outlier');
-    expect(run('fit', 'clip.csv', '-o', 'clip-out.csv', '--clip').code).toBe(0);
+    expect(run('fit', 'clip.csv', '-o', 'clip-out.csv', '--planck-only', '--clip').code).toBe(0);
     const [first, second] = readCatalogue(path.join(dir, 'clip-out.csv')).rows;
     expect(first.flags.split(' ')).toContain('clipped');
     expect(first.bands_used.split(' ')).not.toContain('J');
@@ -197,7 +202,7 @@ describe('starkiln fit, end to end', () => {
     lines[1] = cells.join(',');
     writeFileSync(path.join(dir, 'long.csv'), lines.join('\n') + '\n');
 
-    expect(run('fit', 'long.csv', '-o', 'long-default.json').code).toBe(0);
+    expect(run('fit', 'long.csv', '-o', 'long-default.json', '--planck-only').code).toBe(0);
     const plain = JSON.parse(readFileSync(path.join(dir, 'long-default.json'), 'utf8'));
     expect(plain.provenance.options.include_long).toBe(false);
     for (const [i, row] of plain.rows.entries()) {
@@ -207,7 +212,7 @@ describe('starkiln fit, end to end', () => {
     expect(plain.rows[0].flags.split(' ')).toContain('ir_excess');
     expect(plain.rows[1].flags.split(' ')).not.toContain('ir_excess');
 
-    expect(run('fit', 'long.csv', '-o', 'long-fitted.json', '--include-long').code).toBe(0);
+    expect(run('fit', 'long.csv', '-o', 'long-fitted.json', '--planck-only', '--include-long').code).toBe(0);
     const fitted = JSON.parse(readFileSync(path.join(dir, 'long-fitted.json'), 'utf8'));
     expect(fitted.provenance.options.include_long).toBe(true);
     for (const row of fitted.rows) expect(row.bands_used.split(' ')).toContain('W3');
@@ -309,6 +314,23 @@ describe('starkiln fit, end to end', () => {
     expect(header).toContain('quality_rules = ph_qual_tmass keep AB ph_qual_allwise keep AB');
   });
 
+  it('a lum_class column beats --lum-class and a feh column is recorded, per star', () => {
+    // Rough magnitudes of a K dwarf (from memory); only which class is used is checked.
+    const phot = '8.2,0.02,7.9,0.003,8.4,0.003,7.3,0.004,6.5,0.02,6.0,0.02,5.9,0.02,40,0.05';
+    writeFileSync(
+      path.join(dir, 'classes.csv'),
+      `id,lum_class,feh,V,V_err,G,G_err,BP,BP_err,RP,RP_err,J,J_err,H,H_err,Ks,Ks_err,parallax_mas,parallax_err_mas\nBrackmere,giant,-1.2,${phot}\nFennlow,,0.1,${phot}\n`,
+    );
+    const r = run('fit', 'classes.csv', '-o', 'classes-out.csv', '--lum-class', 'dwarf');
+    expect(r.code, r.stderr).toBe(0);
+    const rows = readCatalogue(path.join(dir, 'classes-out.csv')).rows;
+    expect(rows.map((x) => [x.id, x.lum_class, x.lum_class_source, x.feh])).toEqual([
+      ['Brackmere', 'giant', 'input', '-1.2'],
+      ['Fennlow', 'dwarf', 'batch', '0.1'],
+    ]);
+    expect(rows[0].flags.split(' ')).toContain('feh_far');
+  });
+
   it('usage errors exit with 64; a missing input with 1; --help and --version print', () => {
     expect(run('fit', 'nope.csv').code).toBe(64);
     const missing = run('fit', 'nope.csv', '-o', 'x.csv');
@@ -327,7 +349,7 @@ describe.runIf(hasAstropy)('starkiln fit -o out.ecsv', () => {
   it('writes an ECSV that astropy reads with Table.read(f) and no options, units and provenance included', () => {
     const stars = mockStars(12, 5);
     writeFileSync(path.join(dir, 'mock-ecsv.csv'), mockCsv(stars));
-    const r = run('fit', 'mock-ecsv.csv', '-o', 'out.ecsv', '--clip');
+    const r = run('fit', 'mock-ecsv.csv', '-o', 'out.ecsv', '--planck-only', '--clip');
     expect(r.code).toBe(0);
     const script = [
       'import json, sys, warnings',

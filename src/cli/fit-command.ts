@@ -222,6 +222,8 @@ export async function runFit(args: FitCommandArgs, io: Io): Promise<number> {
     excludeBands: args.excludeBands,
     clip: args.clip,
     includeLongBands: args.includeLongBands,
+    planckOnly: args.planckOnly,
+    lumClass: args.lumClass,
   });
   const excluded = new Set(args.excludeBands);
   const progress = new Progress(io.stderr, table.stars.length, !args.quiet && io.stderr.isTTY === true && table.stars.length >= 2000);
@@ -242,6 +244,8 @@ export async function runFit(args: FitCommandArgs, io: Io): Promise<number> {
       parallaxMas: star.parallaxMas,
       parallaxErrMas: star.parallaxErrMas,
       avMag: star.avMag,
+      lumClass: star.lumClass ?? null,
+      fehDex: star.fehDex ?? null,
     });
     if (!result.ok) failures[result.reason] = (failures[result.reason] ?? 0) + 1;
     rows.push(catalogueRow({ id: star.id, raDeg: star.raDeg, decDeg: star.decDeg, result }));
@@ -266,6 +270,8 @@ export async function runFit(args: FitCommandArgs, io: Io): Promise<number> {
       exclude: args.excludeBands,
       clip: args.clip,
       include_long: args.includeLongBands,
+      planck_only: args.planckOnly,
+      lum_class: args.lumClass,
       mapping: `${resolved.origin}${args.columnMap ? ', with --columns' : ''}`,
       columns: Object.entries(resolved.mapping.columns)
         .filter(([, a]) => a.role !== 'ignore')
@@ -275,6 +281,7 @@ export async function runFit(args: FitCommandArgs, io: Io): Promise<number> {
     notes: table.excludedByQuality > 0 ? [`${table.excludedByQuality} band values were left out by the quality rules`] : undefined,
     createdAt: io.now().toISOString(),
     input: { file: path.basename(args.input), sha256, format: `${formatLabel}, ${resolved.mapping.layout} layout`, rows: table.rowCount, stars: table.stars.length, rejectedRows: table.rejectedRows + starsLeftOut },
+    photosphere: model.photosphere && !args.planckOnly ? `${model.photosphere.data.name} ${model.photosphere.version}` : null,
     extrapolatedBands: extrapolatedBandKeys(
       usedBandKeys.map((k) => getBand(library, k)!).filter((b) => b !== null),
       args.law,

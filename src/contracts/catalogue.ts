@@ -20,6 +20,8 @@ export interface CatalogueRowView {
   teffK: number | null;
   teffErrK: number | null;
   teffLowerK: number | null;
+  /** The pure Planck fit's (colour) temperature, beside the model's Teff. */
+  tbbK: number | null;
   thetaMas: number | null;
   radiusRsun: number | null;
   radiusErrRsun: number | null;

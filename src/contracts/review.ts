@@ -44,6 +44,8 @@ export interface SheetBand {
   observedLambdaFlux: number;
   sigmaLambdaFlux: number;
   modelLambdaFlux: number | null;
+  /** The pure Planck fit's band mean, λ·F_λ (null when the fit used no photosphere model: then it is modelLambdaFlux). */
+  planckModelLambdaFlux: number | null;
   /** 'fitted', 'excluded' (did not count), 'upper_limit'. */
   role: 'fitted' | 'excluded' | 'upper_limit';
   /** More than 3σ from the curve. */
@@ -87,6 +89,17 @@ export interface SheetFit {
   floorFraction: number | null;
   bandLibraryVersion: string;
   softwareVersion: string;
+  /** The pure Planck (blackbody colour) fit, always made beside the model; equal to teff_* without a model. */
+  tbbK: number | null;
+  tbbErrK: number | null;
+  tbbErrFormalK: number | null;
+  tbbLowerK: number | null;
+  tbbChi2Red: number | null;
+  /** The temperature model and its version, e.g. "Kiln photosphere kp-1"; null: Planck only. */
+  model: string | null;
+  lumClass: string | null;
+  lumClassSource: string | null;
+  fehDex: number | null;
 }
 
 export interface StarSheet {
@@ -95,7 +108,10 @@ export interface StarSheet {
   measurements: SheetMeasurement[];
   fit: SheetFit | null;
   bands: SheetBand[];
-  /** The fitted curve s · π B_λ(T) · 10^(−0.4 A_V k(λ)) at log-spaced wavelengths, as λF_λ. */
+  /**
+   * The Planck fit's curve s · π B_λ(T_bb) · 10^(−0.4 A_V k(λ)) at log-spaced wavelengths, as λF_λ
+   * (with a photosphere model, that model's fit is drawn as its band means, which have no curve).
+   */
   curve: { wavelengthUm: number[]; lambdaFlux: number[]; teffK: number; note: string } | null;
   earlierFits: { id: number; batchId: string; createdAt: string; ok: boolean; teffK: number | null; teffLowerK: number | null; chi2Red: number | null; reviewStatus: string }[];
   history: DecisionView[];
@@ -112,6 +128,7 @@ export interface QueueItem {
   teffK: number | null;
   teffErrK: number | null;
   teffLowerK: number | null;
+  tbbK: number | null;
   thetaMas: number | null;
   radiusRsun: number | null;
   chi2Red: number | null;

@@ -29,16 +29,18 @@ describe('catalogue text', () => {
     }
     for (const id of ['kiln 1', 'a=b', "'quoted", '#7', '']) expect(neutraliseFormula(id)).toBe(id);
     const row = (id: string) => catalogueRow({ id, raDeg: 10, decDeg: -5, result: { ok: false, id, reason: 'few_bands', message: 'x', excluded: [] } });
-    expect(catalogueCsvLine(row('=HYPERLINK("http://evil.test","x")'))).toBe(`"'=HYPERLINK(""http://evil.test"",""x"")",10,-5,,,,,,,,,,,,,,,,0,,,few_bands`);
-    expect(catalogueCsvLine(row('@SUM(1)'))).toBe(`'@SUM(1),10,-5,,,,,,,,,,,,,,,,0,,,few_bands`);
-    expect(catalogueCsvLine(row('+1,+1'))).toBe(`"'+1,+1",10,-5,,,,,,,,,,,,,,,,0,,,few_bands`);
+    expect(catalogueCsvLine(row('=HYPERLINK("http://evil.test","x")'))).toBe(`"'=HYPERLINK(""http://evil.test"",""x"")",10,-5,,,,,,,,,,,,,,,,,,,,,0,,,few_bands,,,,`);
+    expect(catalogueCsvLine(row('@SUM(1)'))).toBe(`'@SUM(1),10,-5,,,,,,,,,,,,,,,,,,,,,0,,,few_bands,,,,`);
+    expect(catalogueCsvLine(row('+1,+1'))).toBe(`"'+1,+1",10,-5,,,,,,,,,,,,,,,,,,,,,0,,,few_bands,,,,`);
     // A number is a number: the negative declination is not touched.
     expect(catalogueCsvLine(row('-7')).split(',').slice(0, 3)).toEqual(["'-7", '10', '-5']);
   });
 
+  // The row follows CATALOGUE_COLUMNS: 5 empty tbb_* cells after teff_lower_k, and lum_class,
+  // lum_class_source, feh and model empty after flags.
   it('a failed fit keeps id and position and names the reason in flags', () => {
     const row = catalogueRow({ id: 'kiln 1', raDeg: 10, decDeg: -5, result: { ok: false, id: 'kiln 1', reason: 'few_bands', message: 'x', excluded: [] } });
-    expect(catalogueCsvLine(row)).toBe('kiln 1,10,-5,,,,,,,,,,,,,,,,0,,,few_bands');
+    expect(catalogueCsvLine(row)).toBe('kiln 1,10,-5,,,,,,,,,,,,,,,,,,,,,0,,,few_bands,,,,');
     expect(Object.keys(row)).toEqual(CATALOGUE_COLUMNS.map((c) => c.name));
   });
 

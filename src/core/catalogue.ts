@@ -23,10 +23,15 @@ export const CATALOGUE_COLUMNS: readonly CatalogueColumn[] = [
   { name: 'id', description: 'star identifier as given in the input' },
   { name: 'ra', unit: 'deg', description: 'right ascension as given in the input' },
   { name: 'dec', unit: 'deg', description: 'declination as given in the input' },
-  { name: 'teff_k', unit: 'K', description: 'fitted blackbody (colour) temperature', digits: 6 },
-  { name: 'teff_err_k', unit: 'K', description: 'reported 1σ error: formal × max(1, √(reduced χ²)), plus the model-error term when switched on', digits: 3 },
+  { name: 'teff_k', unit: 'K', description: 'effective temperature from the calibrated photosphere model (the Planck temperature for a Planck-only fit)', digits: 6 },
+  { name: 'teff_err_k', unit: 'K', description: 'reported 1σ error: formal × max(1, √(reduced χ²)) with the per-band model scatter, plus the calibration term', digits: 3 },
   { name: 'teff_err_formal_k', unit: 'K', description: 'formal 1σ error from the covariance', digits: 3 },
   { name: 'teff_lower_k', unit: 'K', description: 'lower bound on the temperature (one-sided 95 %), set only when no value can be given', digits: 5 },
+  { name: 'tbb_k', unit: 'K', description: 'pure Planck (blackbody colour) temperature, always fitted beside the model; not an effective temperature', digits: 6 },
+  { name: 'tbb_err_k', unit: 'K', description: 'reported 1σ error of the Planck temperature (never widened by a model term)', digits: 3 },
+  { name: 'tbb_err_formal_k', unit: 'K', description: 'formal 1σ error of the Planck temperature', digits: 3 },
+  { name: 'tbb_lower_k', unit: 'K', description: 'lower bound of the Planck temperature (one-sided 95 %), set only when no value can be given', digits: 5 },
+  { name: 'tbb_chi2_red', description: 'reduced χ² of the Planck fit', digits: 4 },
   { name: 'theta_mas', unit: 'mas', description: 'angular diameter θ = 2√s', digits: 6 },
   { name: 'theta_err_mas', unit: 'mas', description: '1σ error of θ', digits: 3 },
   { name: 'radius_rsun', unit: 'R_sun', description: 'radius R = 107.516 θ/ϖ (IAU 2015 B3, IAU 2012 au)', digits: 5 },
@@ -41,7 +46,12 @@ export const CATALOGUE_COLUMNS: readonly CatalogueColumn[] = [
   { name: 'n_bands', description: 'number of detections in the fit' },
   { name: 'bands_used', description: 'keys of the bands in the fit, space-separated' },
   { name: 'ir_excess_sigma', description: 'largest excess of a band beyond ~5 µm over the curve, in σ', digits: 3 },
-  { name: 'flags', description: 'quality flags, space-separated (explained in the header)' },
+  { name: 'flags', description: 'quality flags of the calibrated fit, space-separated (explained in the header)' },
+  { name: 'lum_class', description: 'luminosity class the photosphere used: dwarf or giant' },
+  { name: 'lum_class_source', description: 'where the class came from: parallax, input, batch or assumed' },
+  // No unit: dex is neither a FITS Standard nor a VOUnit unit, so the files could not carry it alike.
+  { name: 'feh', description: '[Fe/H] in dex, as given in the input (recorded, not fitted)', digits: 4 },
+  { name: 'model', description: 'temperature model and version (empty: Planck only)' },
 ];
 
 export const REVIEW_STATUS_COLUMN: CatalogueColumn = { name: 'review_status', description: 'review decision: accepted, flagged or unreviewed' };
@@ -70,6 +80,11 @@ export function catalogueRow(star: CatalogueStar): CatalogueRow {
         teff_err_k: r.teffErrK,
         teff_err_formal_k: r.teffErrFormalK,
         teff_lower_k: r.teffLowerK,
+        tbb_k: r.planck.teffK,
+        tbb_err_k: r.planck.teffErrK,
+        tbb_err_formal_k: r.planck.teffErrFormalK,
+        tbb_lower_k: r.planck.teffLowerK,
+        tbb_chi2_red: r.planck.chi2Red,
         theta_mas: r.thetaMas,
         theta_err_mas: r.thetaErrMas,
         radius_rsun: r.radiusRsun,
@@ -85,6 +100,10 @@ export function catalogueRow(star: CatalogueStar): CatalogueRow {
         bands_used: r.bandsUsed.join(' '),
         ir_excess_sigma: r.irExcessSigma,
         flags: r.flags.join(' '),
+        lum_class: r.lumClass,
+        lum_class_source: r.lumClassSource,
+        feh: r.fehDex,
+        model: r.photosphere ? `${r.photosphere.name} ${r.photosphere.version}` : null,
       }
     : {
         id: star.id,
@@ -94,6 +113,11 @@ export function catalogueRow(star: CatalogueStar): CatalogueRow {
         teff_err_k: null,
         teff_err_formal_k: null,
         teff_lower_k: null,
+        tbb_k: null,
+        tbb_err_k: null,
+        tbb_err_formal_k: null,
+        tbb_lower_k: null,
+        tbb_chi2_red: null,
         theta_mas: null,
         theta_err_mas: null,
         radius_rsun: null,
@@ -109,6 +133,10 @@ export function catalogueRow(star: CatalogueStar): CatalogueRow {
         bands_used: '',
         ir_excess_sigma: null,
         flags: r.reason,
+        lum_class: null,
+        lum_class_source: null,
+        feh: null,
+        model: null,
       };
   if (star.reviewStatus !== undefined) row.review_status = star.reviewStatus;
   return row;
@@ -182,6 +210,8 @@ export interface Provenance {
   input?: { file: string; sha256: string; format: string; rows: number; stars: number; rejectedRows: number };
   /** Bands whose curve reaches past the extinction law's range (the law's infrared form is extrapolated there). */
   extrapolatedBands?: string[];
+  /** The temperature model (name and version); null or absent = Planck only. */
+  photosphere?: string | null;
   notes?: string[];
 }
 
@@ -190,7 +220,7 @@ export const PROVENANCE_CONSTANTS =
   'CODATA 2018 (h, c, k_B exact; σ = 5.670374419e-8 W m-2 K-4); IAU 2015 Resolution B3 nominal solar values (R_sun = 6.957e8 m, L_sun = 3.828e26 W, Teff_sun = 5772 K); au = 1.495978707e11 m (IAU 2012 B2)';
 
 const BLACKBODY_NOTE =
-  'A single blackbody gives a colour temperature: typically within a few per cent of the true Teff for FGK stars, worse for M stars (molecular bands) and hot stars (little leverage on the Rayleigh–Jeans tail, degeneracy with A_V).';
+  'tbb_k (and teff_k of a Planck-only fit) is a single blackbody\'s colour temperature: on the mean dwarf sequence it is +10 to +17 % off Teff for A dwarfs, within ±2 % only from F5V to G5V, −3 to −9 % for K dwarfs and −9 to −16 % for M dwarfs; hot stars are weakly constrained (Rayleigh–Jeans tail, degeneracy with A_V).';
 
 export function optionText(v: unknown): string {
   if (Array.isArray(v)) return v.length ? v.join(' ') : '(none)';
@@ -206,6 +236,7 @@ export function provenanceLines(p: Provenance, columns: readonly CatalogueColumn
     `created: ${p.createdAt}`,
     `band library version: ${p.bandLibraryVersion}`,
     `constants: ${PROVENANCE_CONSTANTS}`,
+    `temperature model: ${p.photosphere ? `${p.photosphere} (empirical photosphere calibrated on the mean dwarf sequence of Pecaut & Mamajek 2013 and the Gaia FGK benchmark stars, Soubiran et al. 2024); the pure Planck fit is in the tbb_* columns` : 'Planck only (teff_* = tbb_*)'}`,
     `extinction law: ${p.law}, R_V = ${p.rv}${p.extrapolatedBands && p.extrapolatedBands.length ? `; extrapolated past the law's range in bands: ${p.extrapolatedBands.join(' ')}` : ''}`,
     `options: ${Object.entries(p.options)
       .map(([k, v]) => `${k} = ${optionText(v)}`)

@@ -1,7 +1,8 @@
 // Season two of the invented Lanternfield Survey: a few hundred invented stars, so the demo's
 // catalogue diagrams, review desk and downloads have something to show. Names are put together from
 // invented syllables (no real star is named); the photometry is made by the core itself (a blackbody
-// through each real passband, src/seed/review-stars.ts) with noise, and the fits run through the
+// through each real passband times the photosphere model's correction, src/seed/review-stars.ts)
+// with noise, and the fits run through the
 // real batch path (startBatch + a worker draining the queue). Everything is deterministic (fixed seed).
 import { mulberry32 } from '../core/fit/random';
 import type { Actor, AppServices } from '../server/context';
@@ -48,7 +49,7 @@ export function seasonTwoSpecs(count = DEMO_SEASON_TWO_COUNT, seed = 2026): Revi
     const parallaxMas = 1000 / distancePc;
     // θ[mas] = R/R☉ · ϖ[mas] / 107.516 (docs/science.md, derived values).
     const thetaMas = (radiusRsun * parallaxMas) / 107.516;
-    const spec: ReviewStarSpec = { starKey, teffK, thetaMas: Number(thetaMas.toPrecision(5)), parallaxMas: Number(parallaxMas.toFixed(3)) };
+    const spec: ReviewStarSpec = { starKey, teffK, lumClass: giant ? 'giant' : 'dwarf', thetaMas: Number(thetaMas.toPrecision(5)), parallaxMas: Number(parallaxMas.toFixed(3)) };
     const u = rand();
     if (u < 0.125) spec.parallaxErrMas = Number((parallaxMas / (1.5 + rand() * 2.5)).toFixed(3));
     const offsets: Record<string, number> = {};
@@ -81,7 +82,7 @@ export async function seedDemoSeasonTwo(app: AppServices, analyst: Actor, review
   const specs = seasonTwoSpecs();
   const sqlite = app.db.$client;
   if (sqlite.prepare('SELECT 1 FROM stars WHERE campaign_id = ? AND star_key = ?').get(campaignId, specs[0].starKey)) return null;
-  insertReviewStars(app.db, campaignId, specs, { source: DEMO_SEASON_TWO_SOURCE, seed: 2027 });
+  insertReviewStars(app.db, campaignId, specs, { source: DEMO_SEASON_TWO_SOURCE, seed: 2027, photometry: 'photosphere' });
   const batchId = await fitAndDrain(
     app,
     analyst,

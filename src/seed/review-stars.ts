@@ -1,12 +1,14 @@
 // Fitted stars for review tests and the demo seed: invented stars whose magnitudes are made by
-// integrating a blackbody through each real passband (planckBandMean) and converting with the band's
-// zero-point, then fitted by the real path (startBatch + a worker draining the queue), so the
-// numbers on the star sheet and in the queue are the core's own.
+// integrating a blackbody through each real passband (planckBandMean), times the Kiln photosphere's
+// correction for the band when asked (the demo: its fits then look like those of real stars), and
+// converting with the band's zero-point; then fitted by the real path (startBatch + a worker
+// draining the queue), so the numbers on the star sheet and in the queue are the core's own.
 import type { AppDatabase } from '../db/client';
 import { requireBand, starterBandLibrary } from '../core/bands';
 import { dilutionFromThetaMas } from '../core/fit/derived';
 import { mulberry32, normalDeviate } from '../core/fit/random';
 import { flambdaCgsToMagnitude, planckBandMean } from '../core/photometry';
+import { defaultPhotosphere, lnCorrection, type LumClass } from '../core/photosphere';
 import { startBatch, type BatchOptionsInput } from '../server/batches';
 import type { Actor, AppServices } from '../server/context';
 import { decide } from '../server/review';
@@ -20,6 +22,8 @@ export interface ReviewStarSpec {
   thetaMas: number;
   parallaxMas: number;
   parallaxErrMas?: number;
+  /** The class whose photosphere correction shapes the photometry (default dwarf). */
+  lumClass?: LumClass;
   bands?: readonly string[];
   /** Added to a band's magnitude after it is made (negative = brighter), e.g. an infrared excess. */
   offsetsMag?: Record<string, number>;
@@ -56,9 +60,10 @@ export function insertReviewStars(
   db: AppDatabase,
   campaignId: string,
   specs: ReviewStarSpec[] = LANTERNFIELD_STARS,
-  options: { source?: string; uploadId?: string | null; seed?: number; noise?: boolean } = {},
+  options: { source?: string; uploadId?: string | null; seed?: number; noise?: boolean; photometry?: 'planck' | 'photosphere' } = {},
 ): InsertedStar[] {
   const library = starterBandLibrary();
+  const model = options.photometry === 'photosphere' ? defaultPhotosphere() : null;
   const rand = mulberry32(options.seed ?? 11);
   const sqlite = db.$client;
   const findStar = sqlite.prepare('SELECT id FROM stars WHERE campaign_id = ? AND star_key = ?').pluck();
@@ -77,7 +82,8 @@ export function insertReviewStars(
       const s = dilutionFromThetaMas(spec.thetaMas);
       for (const key of spec.bands ?? REVIEW_BANDS) {
         const band = requireBand(library, key);
-        const flux = s * planckBandMean(band, spec.teffK, 0, { law: 'f99', rv: 3.1 });
+        const correction = model ? Math.exp(lnCorrection(model, spec.lumClass ?? 'dwarf', key, Math.log(spec.teffK))) : 1;
+        const flux = s * planckBandMean(band, spec.teffK, 0, { law: 'f99', rv: 3.1 }) * correction;
         // Mid-infrared values are less precise in real catalogues; give them larger errors.
         const errMag = band.pivotAngstrom > 50000 ? 0.04 : 0.02;
         const noise = options.noise === false ? 0 : errMag * normalDeviate(rand);
@@ -108,14 +114,15 @@ export function fitIdOf(db: AppDatabase, batchId: string, starKey: string): numb
 }
 
 /**
- * The demo's review material: the Lanternfield stars with mock photometry, fitted in one batch
+ * The demo's review material: the Lanternfield stars with mock photometry (shaped by the
+ * photosphere model, as the default fit expects of a real star), fitted in one batch
  * started by the analyst, and one fit already accepted by the reviewer so the history shows how a
  * decision looks. Skipped when the campaign already has fits.
  */
 export async function seedReviewDemo(app: AppServices, analyst: Actor, reviewer: Actor, campaignId: string): Promise<string | null> {
   const existing = app.db.$client.prepare('SELECT 1 FROM fit_results WHERE campaign_id = ? LIMIT 1').get(campaignId);
   if (existing) return null;
-  insertReviewStars(app.db, campaignId);
+  insertReviewStars(app.db, campaignId, LANTERNFIELD_STARS, { photometry: 'photosphere' });
   const batchId = await fitAndDrain(app, analyst, campaignId, {}, LANTERNFIELD_STARS.map((s) => s.starKey));
   decide(app.db, reviewer, fitIdOf(app.db, batchId, 'Cindermoor'), { decision: 'accepted', comment: 'Smooth photometry, χ²_ν near 1; the curve follows every band.' });
   return batchId;

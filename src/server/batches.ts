@@ -59,6 +59,9 @@ export const batchOptionsInput = z.strictObject(
       .default([]),
     clip: z.boolean({ error: 'Dropping the worst band is either on (true) or off (false).' }).default(false),
     includeLongBands: z.boolean({ error: 'Fitting the bands beyond ~5 µm is either on (true) or off (false).' }).default(false),
+    // The calibrated photosphere by default, as in the CLI and the core; the Planck fit is stored beside it.
+    planckOnly: z.boolean({ error: 'Planck only is either on (true) or off (false).' }).default(false),
+    lumClass: z.enum(['auto', 'dwarf', 'giant'], { error: 'The luminosity class is auto, dwarf or giant.' }).default('auto'),
   },
   { error: (issue) => (issue.code === 'unrecognized_keys' ? `Unknown fit option ${issue.keys.map((k) => `"${k}"`).join(', ')}.` : 'The fit options must be an object.') },
 );
@@ -95,6 +98,8 @@ export function toFitOptions(o: z.output<typeof batchOptionsInput>): FitOptions 
     excludeBands: [...new Set(o.excludeBands)],
     clip: o.clip,
     includeLongBands: o.includeLongBands,
+    planckOnly: o.planckOnly,
+    lumClass: o.lumClass,
   });
 }
 

@@ -290,6 +290,8 @@ export function resultRow(batch: BatchInfo, starId: number, fit: FitResult | Fit
       excluded: fit.excluded,
       skipped,
       covariance: fit.covariance,
+      // The Planck fit's own scale and A_V, so the star sheet draws its blackbody.
+      planckFit: { thetaMas: finiteOrNull(fit.planck.thetaMas), avMag: finiteOrNull(fit.planck.avMag) },
       ...(fit.monteCarlo ? { monteCarlo: fit.monteCarlo } : {}),
       ...(fit.modelScatter ? { modelScatter: fit.modelScatter, teffModelTermLn: fit.teffModelTermLn } : {}),
     }),

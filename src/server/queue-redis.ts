@@ -45,6 +45,8 @@ export interface ChunkStar {
   parallaxMas: number | null;
   parallaxErrMas: number | null;
   avMag: number | null;
+  lumClass?: 'dwarf' | 'giant' | null;
+  fehDex?: number | null;
   measurements: MeasurementRow[];
   /** The star was deleted after the batch started. */
   missing?: boolean;
@@ -106,7 +108,7 @@ export class RedisDispatchStore {
     this.sqlite = db.$client;
     this.stmts = {
       relabel: this.sqlite.prepare(`UPDATE jobs SET lease_owner = ? WHERE id = ? AND status = 'leased' AND lease_owner = ?`),
-      stars: this.sqlite.prepare('SELECT id, star_key, parallax_mas, parallax_err_mas, av_mag FROM stars WHERE id IN (SELECT value FROM json_each(?))'),
+      stars: this.sqlite.prepare('SELECT id, star_key, parallax_mas, parallax_err_mas, av_mag, lum_class, feh_dex FROM stars WHERE id IN (SELECT value FROM json_each(?))'),
       // Same order as FitStarRunner: the choice between two values in one band depends on it.
       measurements: this.sqlite.prepare(
         `SELECT star_id, band_key, source, mag, mag_err, fnu_jy, fnu_err_jy, upper_limit, set_aside_at IS NOT NULL AS set_aside FROM measurements
@@ -146,7 +148,7 @@ export class RedisDispatchStore {
   buildChunks(claimOwner: string, jobs: ClaimedJob[]): { chunks: { id: string; data: FitChunk }[]; foreign: ClaimedJob[] } {
     const foreign = jobs.filter((j) => !isFitJob(j.kind) || !j.batchId);
     const chunks: { id: string; data: FitChunk }[] = [];
-    type StarRow = { id: number; star_key: string; parallax_mas: number | null; parallax_err_mas: number | null; av_mag: number | null };
+    type StarRow = { id: number; star_key: string; parallax_mas: number | null; parallax_err_mas: number | null; av_mag: number | null; lum_class: string | null; feh_dex: number | null };
     const build = this.sqlite.transaction(() => {
       for (const job of jobs) {
         if (!isFitJob(job.kind) || !job.batchId) continue;
@@ -179,6 +181,8 @@ export class RedisDispatchStore {
             parallaxMas: s?.parallax_mas ?? null,
             parallaxErrMas: s?.parallax_err_mas ?? null,
             avMag: s?.av_mag ?? null,
+            lumClass: s?.lum_class === 'dwarf' || s?.lum_class === 'giant' ? s.lum_class : null,
+            fehDex: s?.feh_dex ?? null,
             measurements: s ? (measurements.get(starId) ?? []) : [],
             ...(s ? {} : { missing: true }),
           });

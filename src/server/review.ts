@@ -142,6 +142,7 @@ interface FitRowLite {
   teff_k: number | null;
   teff_err_k: number | null;
   teff_lower_k: number | null;
+  tbb_k: number | null;
   theta_mas: number | null;
   radius_rsun: number | null;
   chi2_red: number | null;
@@ -218,7 +219,7 @@ function filterSql(campaignId: string, filter: ReviewFilter): { where: string; a
 }
 
 const LITE_COLUMNS = `r.id, r.star_id, s.star_key, r.batch_id, b.started_by_id, r.teff_k, r.teff_err_k, r.teff_lower_k,
-  r.theta_mas, r.radius_rsun, r.chi2_red, r.n_bands, r.flags, r.created_at`;
+  r.tbb_k, r.theta_mas, r.radius_rsun, r.chi2_red, r.n_bands, r.flags, r.created_at`;
 
 function toItem(r: FitRowLite): QueueItem {
   return {
@@ -230,6 +231,7 @@ function toItem(r: FitRowLite): QueueItem {
     teffK: r.teff_k,
     teffErrK: r.teff_err_k,
     teffLowerK: r.teff_lower_k,
+    tbbK: r.tbb_k,
     thetaMas: r.theta_mas,
     radiusRsun: r.radius_rsun,
     chi2Red: r.chi2_red,

@@ -47,6 +47,8 @@ interface FitDetail {
   excluded?: { band: string; reason: string }[];
   skipped?: { band: string; source: string; reason: string }[];
   options?: Partial<FitOptions>;
+  /** The Planck fit's own θ and A_V (fits made with a photosphere model since 0.2). */
+  planckFit?: { thetaMas: number | null; avMag: number | null };
 }
 
 /** The star by numeric id or by its key in the campaign; 404 when it is not in this campaign. */
@@ -168,6 +170,8 @@ export function starSheet(db: AppDatabase, campaignId: string, starRef: string |
     const library = findLibrary(db, latest.band_library_version) ?? current;
     const floor = typeof options.floorFraction === 'number' ? options.floorFraction : 0;
     const excludedBy = new Map((detail.excluded ?? []).map((e) => [e.band, e.reason]));
+    const withModel = latest.photosphere_name !== null;
+    const planckFluxes = withModel && latest.tbb_model_fluxes ? (JSON.parse(latest.tbb_model_fluxes) as Record<string, number>) : {};
     for (const [key, obs] of Object.entries(detail.observed ?? {})) {
       const band = getBand(library, key);
       if (!band) continue;
@@ -196,6 +200,7 @@ export function starSheet(db: AppDatabase, campaignId: string, starRef: string |
         observedLambdaFlux: obs.fluxCgs * pivot,
         sigmaLambdaFlux: sigma * pivot,
         modelLambdaFlux: typeof model === 'number' && Number.isFinite(model) ? model * pivot : null,
+        planckModelLambdaFlux: Number.isFinite(planckFluxes[key]) ? planckFluxes[key] * pivot : null,
         role,
         outlier,
         note,
@@ -205,9 +210,13 @@ export function starSheet(db: AppDatabase, campaignId: string, starRef: string |
 
     const law = (options.law ?? 'f99') as ExtinctionLawKey;
     const rv = typeof options.rv === 'number' ? options.rv : 3.1;
-    const curveTeff = latest.teff_k;
-    if (latest.ok === 1 && curveTeff !== null && latest.theta_mas !== null) {
-      curve = { ...sampleCurve(curveTeff, latest.theta_mas, latest.av_mag ?? 0, law, rv), teffK: curveTeff, note: `blackbody, T = ${Math.round(curveTeff)} K` };
+    // The blackbody drawn is the Planck fit's: with a photosphere model its own T_bb, θ and A_V
+    // (the model's fit has band means only); without one, the fit itself.
+    const curveTeff = withModel ? latest.tbb_k : latest.teff_k;
+    const curveTheta = withModel ? (detail.planckFit?.thetaMas ?? null) : latest.theta_mas;
+    const curveAv = withModel ? (detail.planckFit?.avMag ?? latest.av_mag ?? 0) : (latest.av_mag ?? 0);
+    if (latest.ok === 1 && curveTeff !== null && curveTheta !== null) {
+      curve = { ...sampleCurve(curveTeff, curveTheta, curveAv, law, rv), teffK: curveTeff, note: `Planck fit (blackbody), T = ${Math.round(curveTeff)} K` };
     }
     fit = {
       id: latest.id,
@@ -244,6 +253,15 @@ export function starSheet(db: AppDatabase, campaignId: string, starRef: string |
       floorFraction: typeof options.floorFraction === 'number' ? options.floorFraction : null,
       bandLibraryVersion: latest.band_library_version,
       softwareVersion: latest.software_version,
+      tbbK: latest.tbb_k,
+      tbbErrK: latest.tbb_err_k,
+      tbbErrFormalK: latest.tbb_err_formal_k,
+      tbbLowerK: latest.tbb_lower_k,
+      tbbChi2Red: latest.tbb_chi2_red,
+      model: latest.photosphere_name === null ? null : `${latest.photosphere_name} ${latest.photosphere_version ?? ''}`.trim(),
+      lumClass: latest.lum_class,
+      lumClassSource: latest.lum_class_source,
+      fehDex: latest.feh_dex,
     };
   }
 

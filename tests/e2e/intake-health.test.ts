@@ -2,12 +2,13 @@
 // the built server (dist/) on a real HTTP port, a generated CSV of about 30 MB sent with an API
 // token, and /api/health asked every 50 ms from start to finish. Reading and importing run in the
 // server's intake thread (decision record 0023); before that, a 190 MB file froze health for 12 s
-// while arriving and its check stalled the server for 56 s. The bounds here are generous (every
-// answer under 1 s, the median under 300 ms) so a loaded machine passes; `npm run bench -- --only
-// intake` measures the latency precisely.
+// while arriving and its check stalled the server for 56 s. What is checked is structural, not a
+// latency bound (a loaded machine would fail one): every answer is 200, and answers keep arriving
+// while the reading and the import jobs run — a parse on the web thread would let none finish
+// inside those windows. `npm run bench -- --only intake` measures the latency.
 import { afterAll, describe, expect, it } from 'vitest';
 import { count, eq } from 'drizzle-orm';
-import { stars, user } from '../../src/db/schema';
+import { intakeJobs, stars, user } from '../../src/db/schema';
 import { toActor } from '../../src/server/context';
 import { createApiToken } from '../../src/server/api-tokens';
 import { makeCampaign, makeUser } from '../../src/seed/factories';
@@ -47,6 +48,8 @@ describe('health while a large upload is read and imported', () => {
     const auth = { authorization: `Bearer ${secret}` };
 
     const samples: number[] = [];
+    /** Wall-clock time (ms since 1970) at which each answer arrived, to compare with the jobs' own times. */
+    const answeredAt: number[] = [];
     let sampling = true;
     const sampler = (async () => {
       while (sampling) {
@@ -57,6 +60,7 @@ describe('health while a large upload is read and imported', () => {
           throw new Error(`health request ${samples.length + 1} failed (${err.message}); server output:\n${run.logs().slice(-3000)}`);
         });
         samples.push(performance.now() - t0);
+        answeredAt.push(Date.now());
         expect(status).toBe(200);
         await new Promise((r) => setTimeout(r, 50));
       }
@@ -100,7 +104,18 @@ describe('health while a large upload is read and imported', () => {
     const at = (q: number) => sorted[Math.min(sorted.length - 1, Math.floor(q * sorted.length))];
     console.log(`health during a ${(csv.length / 2 ** 20).toFixed(0)} MB upload of ${rows} rows: ${samples.length} samples, median ${at(0.5).toFixed(1)} ms, p95 ${at(0.95).toFixed(1)} ms, max ${sorted[sorted.length - 1].toFixed(1)} ms`);
     expect(samples.length).toBeGreaterThan(20);
-    expect(sorted[sorted.length - 1]).toBeLessThan(1000);
-    expect(at(0.5)).toBeLessThan(300);
+    // Answers inside each job's running window (the job's own started/finished times from the
+    // database). A job shorter than a second is too short to tell; reading 30 MB takes longer.
+    const jobs = run.app.db.select({ kind: intakeJobs.kind, startedAt: intakeJobs.startedAt, finishedAt: intakeJobs.finishedAt }).from(intakeJobs).all();
+    let windows = 0;
+    for (const j of jobs) {
+      const from = j.startedAt!.getTime();
+      const to = j.finishedAt!.getTime();
+      if (to - from < 1000) continue;
+      windows++;
+      const inside = answeredAt.filter((a) => a > from && a < to).length;
+      expect(inside, `${j.kind} job ran ${to - from} ms`).toBeGreaterThanOrEqual(2);
+    }
+    expect(windows).toBeGreaterThan(0);
   }, 300_000);
 });

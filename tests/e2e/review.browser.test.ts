@@ -72,12 +72,13 @@ describe('review in the browser', () => {
     expect(traces.find((t) => t.role === 'model')!.bands!.sort()).toEqual(measured);
     expect(traces.find((t) => t.role === 'residual')!.bands!.sort()).toEqual(measured);
 
-    // The fitted curve spans 0.1–30 µm; F_λ = λF_λ/λ peaks at Wien's λ_max = b/T (CODATA 2018 b) for the shown T.
+    // The curve drawn is the Planck fit's blackbody (the photosphere model has no continuous
+    // spectrum): it spans 0.1–30 µm and F_λ = λF_λ/λ peaks at Wien's λ_max = b/T_bb (CODATA 2018 b).
     const curve = traces.find((t) => t.role === 'curve')!;
     expect(curve.x.length).toBeGreaterThan(100);
     expect(curve.x[0]).toBeCloseTo(0.1, 6);
     expect(curve.x[curve.x.length - 1]).toBeCloseTo(30, 4);
-    const teffK = demo.run.app.db.$client.prepare("SELECT teff_k FROM fit_results WHERE star_id = ? AND review_status = 'pending'").pluck().get(star) as number;
+    const teffK = demo.run.app.db.$client.prepare("SELECT tbb_k FROM fit_results WHERE star_id = ? AND review_status = 'pending'").pluck().get(star) as number;
     const flambda = curve.y.map((y, i) => y / curve.x[i]);
     const peakUm = curve.x[flambda.indexOf(Math.max(...flambda))];
     // The curve is sampled every 2 % in λ, so the peak is found to about that.

@@ -53,6 +53,8 @@ function StartForm({ campaignId, starCount, bandKeys, serverError }: Props) {
         excludeBands: form.getAll('excludeBands').map(String),
         clip: form.get('clip') === 'on',
         includeLongBands: form.get('includeLongBands') === 'on',
+        planckOnly: form.get('planckOnly') === 'on',
+        lumClass: (String(form.get('lumClass') ?? 'auto') as 'auto' | 'dwarf' | 'giant'),
       },
       starKeys: starKeysFromText(String(form.get('starKeys') ?? '')),
     };
@@ -153,6 +155,20 @@ function StartForm({ campaignId, starCount, bandKeys, serverError }: Props) {
         <input type="checkbox" name="includeLongBands" className="mt-1 accent-ember-600" />
         <span>Fit bands beyond ~5 µm too (by default they only show infrared excess)</span>
       </label>
+      <label className="flex items-start gap-2 text-sm">
+        <input type="checkbox" name="planckOnly" className="mt-1 accent-ember-600" />
+        <span>Planck only: fit a blackbody, no photosphere model (Teff is then a colour temperature, see About). By default Teff comes from the calibrated Kiln photosphere, with the Planck fit beside it.</span>
+      </label>
+      <div>
+        <label className="field-label" htmlFor="batch-lum-class">
+          Luminosity class <span className="font-normal text-ink-500">(for stars without a lum_class column)</span>
+        </label>
+        <select id="batch-lum-class" name="lumClass" className="field-input" defaultValue="auto">
+          <option value="auto">from the parallax radius (dwarf without a parallax)</option>
+          <option value="dwarf">dwarf</option>
+          <option value="giant">giant</option>
+        </select>
+      </div>
       <div>
         <label className="field-label" htmlFor="batch-stars">
           Only these stars <span className="font-normal text-ink-500">(optional; one star id per line)</span>

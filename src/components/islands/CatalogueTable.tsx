@@ -112,6 +112,7 @@ function Table({ campaignId, initialQuery, initialPage, initialCount }: Props) {
           return withError(r.teffK, r.teffErrK, 4);
         },
       }),
+      col.accessor('tbbK', { id: 'tbb_k', header: () => <abbr title="Planck fit: a blackbody's colour temperature, not an effective temperature" className="no-underline">T<sub>bb</sub> [K]</abbr>, cell: (c) => sig(c.getValue(), 4) }),
       col.accessor('lumLsun', { id: 'lum_lsun', header: 'L [L☉]', cell: (c) => withError(c.getValue(), c.row.original.lumErrLsun) }),
       col.accessor('radiusRsun', { id: 'radius_rsun', header: 'R [R☉]', cell: (c) => withError(c.getValue(), c.row.original.radiusErrRsun) }),
       col.accessor('thetaMas', { id: 'theta_mas', header: 'θ [mas]', cell: (c) => sig(c.getValue()) }),

@@ -234,7 +234,8 @@ function Desk({ campaignId, actorId, canDecide, fourEyes, initialFilter = {} }: 
             </header>
             {current.returned && <p className="notice notice-info mb-3 text-sm" data-testid="returned-note">{current.returned.text}</p>}
             <dl className="grid grid-cols-2 md:grid-cols-4 gap-x-4 gap-y-2 text-sm mb-4">
-              <Value label="Teff (colour temperature)" value={current.teffK !== null ? `${num(current.teffK)} ± ${num(current.teffErrK)} K` : current.teffLowerK !== null ? `above ${num(current.teffLowerK)} K` : '—'} />
+              <Value label={sheet.data?.fit && !sheet.data.fit.model ? 'Teff (Planck only: colour temperature)' : 'Teff'} value={current.teffK !== null ? `${num(current.teffK)} ± ${num(current.teffErrK)} K` : current.teffLowerK !== null ? `above ${num(current.teffLowerK)} K` : '—'} />
+              <Value label="Tbb (Planck fit)" value={current.tbbK !== null ? `${num(current.tbbK)} K` : '—'} />
               <Value label="θ (angular diameter)" value={sheet.data?.fit ? `${sig(sheet.data.fit.thetaMas)} ± ${sig(sheet.data.fit.thetaErrMas, 2)} mas` : '…'} />
               <Value label="radius" value={sheet.data?.fit ? `${sig(sheet.data.fit.radiusRsun)} ± ${sig(sheet.data.fit.radiusErrRsun, 2)} R☉` : '…'} />
               <Value label="reduced χ²" value={num(current.chi2Red, 2)} />

@@ -28,7 +28,7 @@ import {
 } from './engine';
 import { FLAG_BITS, flagCodes, type FlagCode } from './flags';
 import { mulberry32, normalDeviate } from './random';
-import { defaultPhotosphere } from '../photosphere';
+import { bandStanding, defaultPhotosphere, effectiveModelVersion } from '../photosphere';
 import {
   bandCalibrated,
   bandScatter,
@@ -79,9 +79,7 @@ export const DEFAULT_FIT_OPTIONS: Readonly<FitOptions> = Object.freeze({
   excludeBands: [] as string[],
   includeLongBands: false,
   clip: false,
-  // Opt-in for now: the CLI, the app and the exports do not yet carry the tbb_* columns beside teff_*
-  // (decision 0022), so every caller keeps the Planck fit unless it asks for the photosphere.
-  planckOnly: true,
+  planckOnly: false,
   lumClass: 'auto' as const,
 });
 
@@ -107,8 +105,13 @@ export interface PhotosphereRuntime {
   data: PhotosphereData;
   tables: Record<LumClass, FitTables>;
   engines: Record<LumClass, FitEngine>;
-  /** Whether a band's definition is the one the model was calibrated with (else it is uncalibrated). */
+  /**
+   * Whether the model describes a band of this library: its definition is the one calibrated, or
+   * differs only by the zero-point (the correction is then shifted, src/core/photosphere/standing.ts).
+   */
   usable(key: string): boolean;
+  /** The model version in effect with this library (decision 0026): "kp-1", or "kp-1+v3" after a zero-point change. */
+  version: string;
 }
 
 export interface FitModel {
@@ -138,19 +141,27 @@ export function prepareFitModel(library: BandLibrary, options: Partial<FitOption
   const data = photosphere === undefined ? defaultPhotosphere() : photosphere;
   let runtime: PhotosphereRuntime | null = null;
   if (data) {
-    const usable = (key: string): boolean => {
-      const band = getBand(library, key);
-      return band !== undefined && band !== null && data.bandVersions[key] === band.version;
+    const standings = new Map<string, { usable: boolean; lnShift: number }>();
+    const standing = (key: string) => {
+      let s = standings.get(key);
+      if (!s) {
+        const b = bandStanding(data, library, key);
+        s = { usable: b.state === 'as-calibrated' || b.state === 'zero-point-changed', lnShift: b.lnShift };
+        standings.set(key, s);
+      }
+      return s;
     };
+    const usable = (key: string): boolean => standing(key).usable;
     const classTables = (cls: LumClass) =>
       new FitTables((key, teffK, avMag) => {
         const base = planckBandMean(bandOf(key), teffK, avMag, ext);
-        return usable(key) ? base * Math.exp(lnCorrection(data, cls, key, Math.log(teffK))) : base;
+        const s = standing(key);
+        return s.usable ? base * Math.exp(lnCorrection(data, cls, key, Math.log(teffK)) + s.lnShift) : base;
       });
     const t = { dwarf: classTables('dwarf'), giant: classTables('giant') };
     const engines = { dwarf: new FitEngine(t.dwarf), giant: new FitEngine(t.giant) };
     engines.dwarf.denseCoarse = engines.giant.denseCoarse = true;
-    runtime = { data, tables: t, engines, usable };
+    runtime = { data, tables: t, engines, usable, version: effectiveModelVersion(data, library) };
   }
   return { library, ext, tables, engine: new FitEngine(tables), options: resolved, photosphere: runtime };
 }
@@ -194,6 +205,7 @@ export interface PlanckFit {
   flags: FlagCode[];
   thetaMas: number | null;
   radiusRsun: number | null;
+  avMag: number | null;
 }
 
 export type ExclusionReason = 'excluded_by_option' | 'long_wavelength' | 'clipped' | 'no_valid_error';
@@ -481,6 +493,7 @@ export function fitStar(model: FitModel, star: StarInput, options?: Partial<FitO
     flags: planckRes.flags,
     thetaMas: planckRes.thetaMas,
     radiusRsun: planckRes.radiusRsun,
+    avMag: planckRes.avMag,
   };
   if (!rt) {
     // Planck only: teff_* = tbb_*; the optional blackbody model-error term widens teff_* alone.
@@ -542,7 +555,7 @@ export function fitStar(model: FitModel, star: StarInput, options?: Partial<FitO
   const result: FitResult = {
     ...res,
     planck,
-    photosphere: { name: data.name, version: data.version },
+    photosphere: { name: data.name, version: rt.version },
     lumClass: cls,
     lumClassSource: source,
     fehDex: nullable(feh),

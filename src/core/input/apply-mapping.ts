@@ -27,9 +27,16 @@ interface BandCols {
   quality?: { col: number; pos: number; single: boolean };
 }
 
-const STAR_PROPS = { ra: 'raDeg', dec: 'decDeg', parallax: 'parallaxMas', parallax_err: 'parallaxErrMas', av: 'avMag' } as const;
+const STAR_PROPS = { ra: 'raDeg', dec: 'decDeg', parallax: 'parallaxMas', parallax_err: 'parallaxErrMas', av: 'avMag', feh: 'fehDex' } as const;
 type StarRole = keyof typeof STAR_PROPS;
-const STAR_WORDS: Record<StarRole, string> = { ra: 'right ascension', dec: 'declination', parallax: 'parallax', parallax_err: 'parallax error', av: 'A_V' };
+const STAR_WORDS: Record<StarRole, string> = { ra: 'right ascension', dec: 'declination', parallax: 'parallax', parallax_err: 'parallax error', av: 'A_V', feh: '[Fe/H]' };
+/**
+ * [Fe/H] of real stars lies within about −5…+1 dex (the most metal-poor stars known are near −5
+ * or below, the richest near +0.6; from memory): a value beyond is a unit or column mistake.
+ */
+export const FEH_RANGE = { min: -6, max: 1.5 } as const;
+/** Cell words taken as a luminosity class (case-insensitive). Subgiants go with the dwarfs (decision 0022). */
+const LUM_CLASS_WORDS: Record<string, 'dwarf' | 'giant'> = { dwarf: 'dwarf', giant: 'giant' };
 
 /**
  * Magnitudes outside this range are not a star's (the Sun is −26.7 in V; the faintest sources any
@@ -242,7 +249,21 @@ export class RowMapper {
     };
 
     const starRoles = Object.keys(starCols) as StarRole[];
+    const lumClassCol = roleCol('lum_class');
+    const readLumClass = (star: MappedStar, mergeWithin: boolean) => {
+      if (lumClassCol === undefined) return;
+      const text = textOf(cur.cells[lumClassCol]);
+      if (text === '') return;
+      const cls = LUM_CLASS_WORDS[text.toLowerCase()];
+      if (!cls) {
+        problem(lumClassCol, `luminosity class "${shownText(text)}" is not dwarf or giant (subgiants go with dwarfs)`);
+        return;
+      }
+      if (mergeWithin && star.lumClass !== undefined && star.lumClass !== cls) problem(lumClassCol, `luminosity class ${cls} differs from ${star.lumClass} given for star "${star.id}" in an earlier row`);
+      else star.lumClass = cls;
+    };
     const readStarValues = (star: MappedStar, mergeWithin: boolean) => {
+      readLumClass(star, mergeWithin);
       for (let j = 0; j < starRoles.length; j++) {
         const r = starRoles[j];
         const c = starCols[r]!;
@@ -251,6 +272,7 @@ export class RowMapper {
         if (r === 'ra' && (v < 0 || v >= 360)) problem(c, `right ascension ${v} is outside 0 ≤ ra < 360 degrees`);
         if (r === 'dec' && (v < -90 || v > 90)) problem(c, `declination ${v} is outside −90…90 degrees`);
         if (r === 'parallax_err' || r === 'av') nonNegative(c, v, r === 'av' ? 'A_V' : 'parallax error');
+        if (r === 'feh' && (v < FEH_RANGE.min || v > FEH_RANGE.max)) problem(c, `[Fe/H] ${v} is outside ${FEH_RANGE.min}…+${FEH_RANGE.max} dex`);
         const prop = STAR_PROPS[r];
         if (mergeWithin && star[prop] !== undefined && star[prop] !== v) problem(c, `${STAR_WORDS[r]} ${v} differs from ${star[prop]} given for star "${star.id}" in an earlier row`);
         else star[prop] = v;

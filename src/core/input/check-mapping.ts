@@ -15,7 +15,7 @@ export function checkMapping(mapping: Mapping, columns: readonly string[], bandK
     if (cols.length > 1) header(`only one column can be ${ROLE_LABELS[role]}; ${cols.join(', ')} all are`, cols[1]);
   };
   if (!used.some(([, a]) => a.role === 'id')) header('no column is mapped to the star id');
-  for (const r of ['id', 'ra', 'dec', 'parallax', 'parallax_err', 'av'] as ColumnRole[]) single(r);
+  for (const r of ['id', 'ra', 'dec', 'parallax', 'parallax_err', 'av', 'lum_class', 'feh'] as ColumnRole[]) single(r);
   if (mapping.layout === 'long') {
     for (const r of ['band', 'mag', 'mag_err', 'jy', 'jy_err', 'ul'] as ColumnRole[]) single(r);
     if (!used.some(([, a]) => a.role === 'band')) header('the long format needs a column with the band of each row');

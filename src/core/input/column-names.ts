@@ -70,6 +70,8 @@ const STAR_NAMES: { role: ColumnRole; names: string[] }[] = [
   { role: 'parallax', names: ['parallax_mas', 'parallax', 'plx', 'plx_mas', 'pi'] },
   { role: 'parallax_err', names: ['parallax_err_mas', 'parallax_error', 'parallax_err', 'e_plx', 'plx_err', 'e_parallax', 'eplx', 'sig_plx'] },
   { role: 'av', names: ['av', 'a_v', 'av_mag', 'a_v_mag', 'ext_v', 'extinction_v'] },
+  { role: 'lum_class', names: ['lum_class', 'lumclass', 'luminosity_class', 'lum_cls'] },
+  { role: 'feh', names: ['feh', 'fe_h', '[fe/h]', 'feh_dex', 'fe_h_dex', '__fe_h_'] },
 ];
 
 /** Long format: column names of the band, value and flag columns. */
@@ -201,7 +203,7 @@ export function detectMapping(columns: readonly string[], sampleRows: readonly T
     for (const n of names) {
       const i = lowerNames.indexOf(n);
       if (i < 0 || out.columns[columns[i]].role !== 'ignore') continue;
-      if (role !== 'id' && !looksNumeric(sample(i))) continue;
+      if (role !== 'id' && role !== 'lum_class' && !looksNumeric(sample(i))) continue;
       if (chosen < 0) chosen = i;
       else out.notes[columns[i]] = `looks like ${ROLE_LABELS[role]}, but column ${columns[chosen]} was taken for it`;
     }

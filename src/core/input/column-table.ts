@@ -29,6 +29,10 @@ export type ColumnRole =
   | 'parallax'
   | 'parallax_err'
   | 'av'
+  /** the star's luminosity class: dwarf or giant (overrides the batch's choice) */
+  | 'lum_class'
+  /** [Fe/H] in dex, recorded with the fit (the photosphere model is for near-solar stars) */
+  | 'feh'
   /** magnitude in the band's default system */
   | 'mag'
   | 'mag_err'
@@ -50,7 +54,7 @@ export type ColumnRole =
   | 'ul';
 
 export const COLUMN_ROLES: readonly ColumnRole[] = [
-  'ignore', 'id', 'ra', 'dec', 'parallax', 'parallax_err', 'av', 'mag', 'mag_err', 'jy', 'jy_err',
+  'ignore', 'id', 'ra', 'dec', 'parallax', 'parallax_err', 'av', 'lum_class', 'feh', 'mag', 'mag_err', 'jy', 'jy_err',
   'mag_ul', 'jy_ul', 'gaia_flux', 'gaia_flux_err', 'quality', 'band', 'ul',
 ];
 
@@ -66,6 +70,8 @@ export const ROLE_LABELS: Record<ColumnRole, string> = {
   parallax: 'parallax (mas)',
   parallax_err: 'parallax error (mas)',
   av: 'A_V (mag)',
+  lum_class: 'luminosity class (dwarf or giant)',
+  feh: '[Fe/H] (dex)',
   mag: 'magnitude',
   mag_err: 'magnitude error',
   jy: 'flux (Jy)',
@@ -123,6 +129,10 @@ export interface MappedStar {
   parallaxMas?: number;
   parallaxErrMas?: number;
   avMag?: number;
+  /** Input column lum_class. */
+  lumClass?: 'dwarf' | 'giant';
+  /** Input column feh. */
+  fehDex?: number;
   measurements: (Measurement & { quality?: string })[];
   /** First data row of the star. */
   row: number;

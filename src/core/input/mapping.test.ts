@@ -177,6 +177,33 @@ describe('applyMapping', () => {
     expect(r.rejectedRows).toBe(6);
   });
 
+  it('reads a luminosity class (dwarf or giant, any case) and [Fe/H]; refuses another class word or an impossible [Fe/H] by row and column', () => {
+    expect(roles(['id', 'lum_class', 'feh', 'V'])).toMatchObject({ lum_class: 'lum_class', feh: 'feh' });
+    expect(roles(['id', 'Luminosity_Class', '[Fe/H]'])).toMatchObject({ Luminosity_Class: 'lum_class', '[Fe/H]': 'feh' });
+    const t = table(['id', 'lum_class', 'feh', 'V', 'V_err'], [
+      ['a', 'Giant', '-0.31', '8.9', '0.02'],
+      ['b', 'dwarf', '', '9.9', '0.02'],
+      ['c', '', '0.1', '9.9', '0.02'],
+      ['d', 'III', '0', '9.9', '0.02'],
+      ['e', 'dwarf', '12', '9.9', '0.02'],
+    ]);
+    const m = detectMapping(t.columns, t.rows, keys);
+    const r = applyMapping(t, m, m.rules, { bandKeys: keys });
+    expect(r.stars.map((s) => [s.id, s.lumClass, s.fehDex])).toEqual([['a', 'giant', -0.31], ['b', 'dwarf', undefined], ['c', undefined, 0.1]]);
+    const msgs = r.problems.map((p) => `${p.row}:${p.column?.name ?? ''}:${p.message}`);
+    expect(msgs).toContain('4:lum_class:row 4 (file line 5), column lum_class: luminosity class "III" is not dwarf or giant (subgiants go with dwarfs)');
+    expect(msgs).toContain('5:feh:row 5 (file line 6), column feh: [Fe/H] 12 is outside -6…+1.5 dex');
+    // Long format: the class is a star's, so two rows of one star must agree.
+    const long = table(['id', 'band', 'mag', 'mag_err', 'lum_class'], [
+      ['a', 'V', '8.9', '0.02', 'giant'],
+      ['a', 'Ks', '6.1', '0.02', 'dwarf'],
+    ]);
+    const lm = detectMapping(long.columns, long.rows, keys);
+    const lr = applyMapping(long, lm, lm.rules, { bandKeys: keys });
+    expect(lr.stars).toEqual([]);
+    expect(lr.problems.some((p) => p.row === 2 && p.column?.name === 'lum_class' && p.message.includes('luminosity class dwarf differs from giant'))).toBe(true);
+  });
+
   it('long format without an error column: the bands are named once at the top, not once per row', () => {
     // 43 stars × G, BP, RP, one row each, as a Gaia DR3 query laid out one band per row; no error column.
     const rows = Array.from({ length: 43 }, (_, i) => ['G', 'BP', 'RP'].map((b, j) => [`star-${i}`, b, String(9 + j / 10 + i / 100)])).flat();

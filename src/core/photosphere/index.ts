@@ -17,3 +17,4 @@ export function defaultPhotosphere(): PhotosphereData {
   cached = d;
   return d;
 }
+export { bandStanding, effectiveModelVersion, modelStanding, type BandStanding } from './standing';

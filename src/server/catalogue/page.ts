@@ -82,7 +82,7 @@ export function prepared(sqlite: Database.Database, text: string): Database.Stat
 }
 
 const ROW_COLUMNS = `f.id AS fitId, f.star_id AS starId, s.star_key AS starKey, s.ra_deg AS raDeg, s.dec_deg AS decDeg,
-  f.ok AS ok, f.teff_k AS teffK, f.teff_err_k AS teffErrK, f.teff_lower_k AS teffLowerK, f.theta_mas AS thetaMas,
+  f.ok AS ok, f.teff_k AS teffK, f.teff_err_k AS teffErrK, f.teff_lower_k AS teffLowerK, f.tbb_k AS tbbK, f.theta_mas AS thetaMas,
   f.radius_rsun AS radiusRsun, f.radius_err_rsun AS radiusErrRsun, f.lum_lsun AS lumLsun, f.lum_err_lsun AS lumErrLsun,
   f.av_mag AS avMag, f.chi2_red AS chi2Red, f.n_bands AS nBands, f.flags AS flags, f.review_status AS reviewStatus,
   f.batch_id AS batchId, f.band_library_version AS bandLibraryVersion, f.bands_used AS bandsUsed`;

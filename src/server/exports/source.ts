@@ -55,7 +55,7 @@ export interface ExportSource {
   lines: string[];
   count: number;
   /** Widest value in bytes of each text column (FITS needs fixed widths up front). */
-  maxBytes: Record<'id' | 'bands_used' | 'flags' | 'review_status' | 'batch_id' | 'review_mark', number>;
+  maxBytes: Record<'id' | 'bands_used' | 'flags' | 'review_status' | 'batch_id' | 'review_mark' | 'lum_class' | 'lum_class_source' | 'model', number>;
   rows(): IterableIterator<CatalogueRow>;
   close(): void;
 }
@@ -81,7 +81,8 @@ const REVIEW_MARK_SQL = `coalesce((SELECT trim(CASE WHEN d.four_eyes_off THEN 'f
 const SELECT = `s.star_key AS id, s.ra_deg AS ra, s.dec_deg AS dec, f.teff_k, f.teff_err_k, f.teff_err_formal_k, f.teff_lower_k,
   f.theta_mas, f.theta_err_mas, f.radius_rsun, f.radius_err_rsun, f.lum_lsun, f.lum_err_lsun, f.fbol_cgs, f.fbol_err_cgs,
   f.av_mag AS av, f.av_err_mag AS av_err, f.chi2_red, coalesce(f.n_bands, 0) AS n_bands, coalesce(f.bands_used, '') AS bands_used,
-  f.ir_excess_sigma, f.flags, CASE f.review_status WHEN 'pending' THEN 'unreviewed' ELSE f.review_status END AS review_status,
+  f.ir_excess_sigma, f.flags, f.tbb_k, f.tbb_err_k, f.tbb_err_formal_k, f.tbb_lower_k, f.tbb_chi2_red, f.lum_class, f.lum_class_source, f.feh_dex AS feh,
+  CASE WHEN f.photosphere_name IS NULL THEN NULL ELSE f.photosphere_name || ' ' || f.photosphere_version END AS model, CASE f.review_status WHEN 'pending' THEN 'unreviewed' ELSE f.review_status END AS review_status,
   f.batch_id, ${REVIEW_MARK_SQL} AS review_mark`;
 
 // Band library versions are immutable rows in the database (src/server/band-library.ts), so the
@@ -111,10 +112,11 @@ export function openExport(db: AppDatabase, campaign: { id: string; name: string
     const groups = conn
       .prepare(
         `SELECT f.batch_id AS batchId, coalesce(f.bands_used, '') AS bands, count(*) AS n, max(length(CAST(s.star_key AS BLOB))) AS idBytes,
-           max(length(CAST(coalesce(f.bands_used, '') AS BLOB))) AS bandsBytes, max(length(CAST(f.flags AS BLOB))) AS flagBytes
+           max(length(CAST(coalesce(f.bands_used, '') AS BLOB))) AS bandsBytes, max(length(CAST(f.flags AS BLOB))) AS flagBytes,
+           max(length(CAST(coalesce(f.photosphere_name || ' ' || f.photosphere_version, '') AS BLOB))) AS modelBytes
          FROM ${from} WHERE ${where.join(' AND ')} GROUP BY 1, 2`,
       )
-      .all(params) as { batchId: string; bands: string; n: number; idBytes: number; bandsBytes: number; flagBytes: number }[];
+      .all(params) as { batchId: string; bands: string; n: number; idBytes: number; bandsBytes: number; flagBytes: number; modelBytes: number }[];
     const count = groups.reduce((a, g) => a + g.n, 0);
     const maxBytes = {
       id: Math.max(1, ...groups.map((g) => g.idBytes)),
@@ -123,6 +125,9 @@ export function openExport(db: AppDatabase, campaign: { id: string; name: string
       review_status: 'unreviewed'.length,
       batch_id: Math.max(1, ...groups.map((g) => Buffer.byteLength(g.batchId))),
       review_mark: 'four_eyes_off carried_over'.length,
+      lum_class: 'dwarf'.length,
+      lum_class_source: 'parallax'.length,
+      model: Math.max(1, ...groups.map((g) => g.modelBytes)),
     };
 
     const batchRows = new Map<string, number>();

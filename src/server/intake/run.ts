@@ -251,7 +251,7 @@ async function importJob(db: AppDatabase, job: JobRow, u: UploadRow, hooks: RunH
   const source = input.source && input.source !== '' ? input.source : u.originalName;
   const keys = bandKeys(db);
   let check: CheckSummary;
-  let stars: Iterable<{ id: string; raDeg?: number; decDeg?: number; parallaxMas?: number; parallaxErrMas?: number; avMag?: number; measurements: { bandKey: string; mag?: number; magErr?: number; fnuJy?: number; fnuErrJy?: number; upperLimit?: boolean; quality?: string }[] }>;
+  let stars: Iterable<{ id: string; raDeg?: number; decDeg?: number; parallaxMas?: number; parallaxErrMas?: number; avMag?: number; lumClass?: 'dwarf' | 'giant'; fehDex?: number; measurements: { bandKey: string; mag?: number; magErr?: number; fnuJy?: number; fnuErrJy?: number; upperLimit?: boolean; quality?: string }[] }>;
   let observationJson: string | null = null;
   let fromStaging = false;
   if (u.detectedFormat === 'fits-image' && u.status !== 'rejected') {
@@ -291,11 +291,11 @@ async function importJob(db: AppDatabase, job: JobRow, u: UploadRow, hooks: RunH
   const nowMs = Date.now();
   const findStar = sqlite.prepare('SELECT id FROM stars WHERE campaign_id = ? AND star_key = ?');
   const insertStar = sqlite.prepare(
-    'INSERT INTO stars (campaign_id, star_key, ra_deg, dec_deg, parallax_mas, parallax_err_mas, av_mag, created_at, updated_at) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?)',
+    'INSERT INTO stars (campaign_id, star_key, ra_deg, dec_deg, parallax_mas, parallax_err_mas, av_mag, lum_class, feh_dex, created_at, updated_at) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)',
   );
   // Re-uploading a star keeps what it had where the new file is empty, and takes the new value elsewhere.
   const updateStar = sqlite.prepare(
-    'UPDATE stars SET ra_deg = coalesce(?, ra_deg), dec_deg = coalesce(?, dec_deg), parallax_mas = coalesce(?, parallax_mas), parallax_err_mas = coalesce(?, parallax_err_mas), av_mag = coalesce(?, av_mag), updated_at = ? WHERE id = ?',
+    'UPDATE stars SET ra_deg = coalesce(?, ra_deg), dec_deg = coalesce(?, dec_deg), parallax_mas = coalesce(?, parallax_mas), parallax_err_mas = coalesce(?, parallax_err_mas), av_mag = coalesce(?, av_mag), lum_class = coalesce(?, lum_class), feh_dex = coalesce(?, feh_dex), updated_at = ? WHERE id = ?',
   );
   const findMeasurement = sqlite.prepare('SELECT id FROM measurements WHERE star_id = ? AND band_key = ? AND source = ?');
   const insertMeasurement = sqlite.prepare(
@@ -305,7 +305,7 @@ async function importJob(db: AppDatabase, job: JobRow, u: UploadRow, hooks: RunH
     'UPDATE measurements SET upload_id = ?, mag = ?, mag_err = ?, fnu_jy = ?, fnu_err_jy = ?, upper_limit = ?, quality = ?, observation = ? WHERE id = ?',
   );
   const counts = { starsCreated: 0, starsUpdated: 0, measurementsCreated: 0, measurementsUpdated: 0 };
-  const n = (v: number | undefined) => (v === undefined ? null : v);
+  const n = <T>(v: T | undefined): T | null => (v === undefined ? null : v);
   const campaignId = u.campaignId;
   hooks.progress?.(job.id, { rowsRead: check.rowCount, starsWritten: 0, phase: 'importing' });
 
@@ -316,11 +316,11 @@ async function importJob(db: AppDatabase, job: JobRow, u: UploadRow, hooks: RunH
         const existing = findStar.get(campaignId, s.id) as { id: number } | undefined;
         let starId: number;
         if (existing) {
-          updateStar.run(n(s.raDeg), n(s.decDeg), n(s.parallaxMas), n(s.parallaxErrMas), n(s.avMag), nowMs, existing.id);
+          updateStar.run(n(s.raDeg), n(s.decDeg), n(s.parallaxMas), n(s.parallaxErrMas), n(s.avMag), n(s.lumClass), n(s.fehDex), nowMs, existing.id);
           starId = existing.id;
           counts.starsUpdated++;
         } else {
-          starId = Number(insertStar.run(campaignId, s.id, n(s.raDeg), n(s.decDeg), n(s.parallaxMas), n(s.parallaxErrMas), n(s.avMag), nowMs, nowMs).lastInsertRowid);
+          starId = Number(insertStar.run(campaignId, s.id, n(s.raDeg), n(s.decDeg), n(s.parallaxMas), n(s.parallaxErrMas), n(s.avMag), n(s.lumClass), n(s.fehDex), nowMs, nowMs).lastInsertRowid);
           counts.starsCreated++;
         }
         for (const m of s.measurements) {

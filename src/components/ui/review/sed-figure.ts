@@ -17,7 +17,7 @@ export const SED_COLOURS = {
 };
 
 /** What each trace shows; also written into trace.meta so tests and readers can tell them apart. */
-export type SedTraceRole = 'measured' | 'outlier' | 'excluded' | 'upper_limit' | 'model' | 'curve' | 'residual';
+export type SedTraceRole = 'measured' | 'outlier' | 'excluded' | 'upper_limit' | 'model' | 'planck_model' | 'curve' | 'residual';
 
 const fmt = (v: number) => v.toExponential(3);
 
@@ -30,6 +30,7 @@ function hover(b: SheetBand): string {
     `λF<sub>λ</sub> ${fmt(b.observedLambdaFlux)} ± ${fmt(b.sigmaLambdaFlux)} erg s⁻¹ cm⁻²`,
   ];
   if (b.modelLambdaFlux !== null) lines.push(`model ${fmt(b.modelLambdaFlux)}`);
+  if (b.planckModelLambdaFlux !== null) lines.push(`Planck fit ${fmt(b.planckModelLambdaFlux)}`);
   if (b.residualSigma !== null) lines.push(`residual ${b.residualSigma.toFixed(2)} σ`);
   if (b.note) lines.push(b.note);
   return lines.join('<br>');
@@ -60,6 +61,8 @@ export function sedFigure(sheet: Pick<StarSheet, 'bands' | 'curve'>, options: { 
   const excluded = bands.filter((b) => b.role === 'excluded');
   const limits = bands.filter((b) => b.role === 'upper_limit');
   const withModel = bands.filter((b) => b.modelLambdaFlux !== null);
+  // Set only when the fit used a photosphere model: the Planck fit's own band means beside it.
+  const withPlanck = bands.filter((b) => b.planckModelLambdaFlux !== null);
   const size = options.compact ? 7 : 9;
 
   const data: Data[] = [];
@@ -67,7 +70,7 @@ export function sedFigure(sheet: Pick<StarSheet, 'bands' | 'curve'>, options: { 
     data.push({
       type: 'scatter',
       mode: 'lines',
-      name: 'fitted blackbody',
+      name: withPlanck.length ? 'Planck fit (blackbody)' : 'fitted blackbody',
       meta: { role: 'curve', teffK: sheet.curve.teffK },
       x: sheet.curve.wavelengthUm,
       y: sheet.curve.lambdaFlux,
@@ -81,7 +84,7 @@ export function sedFigure(sheet: Pick<StarSheet, 'bands' | 'curve'>, options: { 
     data.push({
       type: 'scatter',
       mode: 'markers',
-      name: 'fitted band means',
+      name: withPlanck.length ? 'photosphere model band means' : 'fitted band means',
       meta: { role: 'model', bands: withModel.map((b) => b.key) },
       x: withModel.map((b) => b.pivotUm),
       y: withModel.map((b) => b.modelLambdaFlux as number),
@@ -89,6 +92,22 @@ export function sedFigure(sheet: Pick<StarSheet, 'bands' | 'curve'>, options: { 
       hovertext: withModel.map((b) => `<b>${b.key}</b> fitted band mean<br>λF<sub>λ</sub> ${fmt(b.modelLambdaFlux as number)} erg s⁻¹ cm⁻²`),
       hoverinfo: 'text',
       marker: { symbol: 'circle-open', size: size + 5, color: SED_COLOURS.model, line: { width: 1.6 } },
+      xaxis: 'x',
+      yaxis: 'y',
+    } as Data);
+  }
+  if (withPlanck.length) {
+    data.push({
+      type: 'scatter',
+      mode: 'markers',
+      name: 'Planck fit band means',
+      meta: { role: 'planck_model', bands: withPlanck.map((b) => b.key) },
+      x: withPlanck.map((b) => b.pivotUm),
+      y: withPlanck.map((b) => b.planckModelLambdaFlux as number),
+      customdata: withPlanck.map((b) => b.key),
+      hovertext: withPlanck.map((b) => `<b>${b.key}</b> Planck fit band mean<br>λF<sub>λ</sub> ${fmt(b.planckModelLambdaFlux as number)} erg s⁻¹ cm⁻²`),
+      hoverinfo: 'text',
+      marker: { symbol: 'x-thin-open', size: size + 2, color: SED_COLOURS.curve, line: { width: 1.4, color: SED_COLOURS.curve } },
       xaxis: 'x',
       yaxis: 'y',
     } as Data);
