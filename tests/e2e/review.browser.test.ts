@@ -60,14 +60,16 @@ describe('review in the browser', () => {
     const drawn = dataTraces.flatMap((t) => t.bands!.map((band, i) => ({ band, x: t.x[i], role: t.role })));
     expect(drawn.map((d) => d.band).sort()).toEqual(measured);
     for (const d of drawn) expect(Math.abs(d.x - requireBand(library, d.band).pivotAngstrom / 1e4)).toBeLessThan(1e-9);
-    // The mock J value was made 0.45 mag too bright: drawn as an outlier, the reason on hover.
-    const outlier = traces.find((t) => t.role === 'outlier')!;
-    expect(outlier.bands).toContain('J');
-    expect(outlier.hovertext![outlier.bands!.indexOf('J')]).toMatch(/More than 3σ from the curve/);
-    // W3 and W4 lie beyond ~5 µm: drawn as not in the fit, with the reason.
+    // The mock J value was made 0.45 mag too bright: the consistency test rejects it (decision 0027), so
+    // it is drawn as not in the fit, with the reason and the test's numbers on hover; W3 and W4 lie
+    // beyond ~5 µm: not in the fit either, with that reason.
     const excluded = traces.find((t) => t.role === 'excluded')!;
-    expect(excluded.bands!.sort()).toEqual(['W3', 'W4']);
-    expect(excluded.hovertext!.every((h) => /beyond ~5 µm/.test(h))).toBe(true);
+    const hoverOf = (band: string) => excluded.hovertext![excluded.bands!.indexOf(band)];
+    expect([...excluded.bands!].sort()).toEqual(['J', 'W3', 'W4']);
+    expect(hoverOf('J')).toMatch(/rejected as inconsistent with the other bands \(inconsistent with the other bands: [\d.]+σ above the fit made without it/);
+    expect(hoverOf('W3')).toMatch(/beyond ~5 µm/);
+    expect(hoverOf('W4')).toMatch(/beyond ~5 µm/);
+    expect(traces.some((t) => t.role === 'outlier')).toBe(false);
     // The fitted band means and the residual panel cover the same bands.
     expect(traces.find((t) => t.role === 'model')!.bands!.sort()).toEqual(measured);
     expect(traces.find((t) => t.role === 'residual')!.bands!.sort()).toEqual(measured);
