@@ -17,6 +17,8 @@ export interface StartBatchBody {
     floorFraction: number;
     excludeBands: string[];
     clip: boolean;
+    /** Robust rejection of bands inconsistent with the others (default on). */
+    reject?: boolean;
     includeLongBands: boolean;
     planckOnly?: boolean;
     lumClass?: 'auto' | 'dwarf' | 'giant';

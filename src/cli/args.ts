@@ -39,7 +39,11 @@ Options:
   --floor <fraction>      systematic floor added in quadrature, as a fraction of the
                           flux (default 0.02; 0 = none)
   --exclude <keys>        bands to leave out of the fit, comma or space separated
-  --clip                  refit without the worst band (at most two) when it lies > 3σ off
+  --no-reject             keep every band: no robust rejection (default: one or two bands that
+                          disagree with the others beyond their errors are left out, with the
+                          reason; a test on the calibrated fit, false-rejection rate 0.1 % per star)
+  --clip                  the older sequential clipping of the worst band beyond 3σ (at most two);
+                          used only with --no-reject or --planck-only
   --include-long          use bands beyond ~5 µm in the fit (default: excess diagnostics only)
   --planck-only           fit a blackbody only: teff_* = tbb_* (default: the Kiln photosphere,
                           an empirical model calibrated on real stars, with the Planck fit beside it)
@@ -93,6 +97,7 @@ export interface FitCommandArgs {
   floorFraction: number;
   excludeBands: string[];
   clip: boolean;
+  reject: boolean;
   includeLongBands: boolean;
   planckOnly: boolean;
   lumClass: 'auto' | 'dwarf' | 'giant';
@@ -138,6 +143,7 @@ export function parseCommandLine(argv: string[]): ParsedCommand {
         floor: { type: 'string' },
         exclude: { type: 'string', multiple: true },
         clip: { type: 'boolean' },
+        'no-reject': { type: 'boolean' },
         'include-long': { type: 'boolean' },
         'planck-only': { type: 'boolean' },
         'lum-class': { type: 'string' },
@@ -235,6 +241,7 @@ export function parseCommandLine(argv: string[]): ParsedCommand {
       floorFraction: number('floor', v.floor, 0.02, (x) => x >= 0 && x < 1, 'a fraction between 0 and 1'),
       excludeBands,
       clip: v.clip === true,
+      reject: v['no-reject'] !== true,
       includeLongBands: v['include-long'] === true,
       planckOnly: v['planck-only'] === true,
       lumClass,

@@ -12,6 +12,9 @@ import {
   catalogueCsvLine,
   catalogueRow,
   CATALOGUE_COLUMNS,
+  FIT_DETAIL_COLUMNS,
+  fitDetailJson,
+  fitDetailRow,
   provenanceCsvHeader,
   provenanceLines,
   type CatalogueRow,
@@ -39,6 +42,9 @@ export interface Io {
 }
 
 const MAX_PROBLEMS_SHOWN = 200;
+
+/** The CLI's columns: the catalogue's, then what went into each fit (residuals, exclusions, covariance, distance). */
+export const CLI_COLUMNS = [...CATALOGUE_COLUMNS, ...FIT_DETAIL_COLUMNS];
 
 export function softwareVersion(): string {
   const pkg = JSON.parse(readFileSync(fileURLToPath(new URL('../../package.json', import.meta.url)), 'utf8')) as { version: string };
@@ -73,11 +79,11 @@ export function writeFileAtomic(target: string, chunks: Iterable<string>): void 
 }
 
 function* csvChunks(provenance: Provenance, rows: CatalogueRow[]): Generator<string> {
-  yield provenanceCsvHeader(provenance);
-  yield catalogueCsvHeader() + '\n';
+  yield provenanceCsvHeader(provenance, CLI_COLUMNS);
+  yield catalogueCsvHeader(CLI_COLUMNS) + '\n';
   let block = '';
   for (let i = 0; i < rows.length; i++) {
-    block += catalogueCsvLine(rows[i]) + '\n';
+    block += catalogueCsvLine(rows[i], CLI_COLUMNS) + '\n';
     if ((i & 1023) === 1023) {
       yield block;
       block = '';
@@ -87,8 +93,8 @@ function* csvChunks(provenance: Provenance, rows: CatalogueRow[]): Generator<str
 }
 
 function* ecsvChunks(provenance: Provenance, rows: CatalogueRow[]): Generator<string> {
-  const columns = ecsvColumns(CATALOGUE_COLUMNS);
-  yield ecsvHeader(columns, { provenance, comments: provenanceLines(provenance) });
+  const columns = ecsvColumns(CLI_COLUMNS);
+  yield ecsvHeader(columns, { provenance, comments: provenanceLines(provenance, CLI_COLUMNS) });
   let block = '';
   for (let i = 0; i < rows.length; i++) {
     block += ecsvLine(rows[i], columns);
@@ -100,13 +106,12 @@ function* ecsvChunks(provenance: Provenance, rows: CatalogueRow[]): Generator<st
   if (block) yield block;
 }
 
-function* jsonChunks(provenance: Provenance, rows: CatalogueRow[]): Generator<string> {
-  yield '{\n"provenance": ' + JSON.stringify({ ...provenance, text: provenanceLines(provenance) }, null, 1) + ',\n';
-  yield '"columns": ' + JSON.stringify(CATALOGUE_COLUMNS) + ',\n"rows": [\n';
+function* jsonChunks(provenance: Provenance, rows: CatalogueRow[], details: Record<string, unknown>[]): Generator<string> {
+  yield '{\n"provenance": ' + JSON.stringify({ ...provenance, text: provenanceLines(provenance, CLI_COLUMNS) }, null, 1) + ',\n';
+  yield '"columns": ' + JSON.stringify(CLI_COLUMNS) + ',\n"rows": [\n';
+  const finite = (_k: string, v: unknown) => (typeof v === 'number' && !Number.isFinite(v) ? null : v);
   for (let i = 0; i < rows.length; i++) {
-    const clean: CatalogueRow = {};
-    for (const [k, v] of Object.entries(rows[i])) clean[k] = typeof v === 'number' && !Number.isFinite(v) ? null : v;
-    yield JSON.stringify(clean) + (i + 1 < rows.length ? ',\n' : '\n');
+    yield JSON.stringify({ ...rows[i], detail: details[i] }, finite) + (i + 1 < rows.length ? ',\n' : '\n');
   }
   yield ']\n}\n';
 }
@@ -245,6 +250,7 @@ export async function runFit(args: FitCommandArgs, io: Io): Promise<number> {
     floorFraction: args.floorFraction,
     excludeBands: args.excludeBands,
     clip: args.clip,
+    reject: args.reject,
     includeLongBands: args.includeLongBands,
     planckOnly: args.planckOnly,
     lumClass: args.lumClass,
@@ -253,6 +259,7 @@ export async function runFit(args: FitCommandArgs, io: Io): Promise<number> {
   const excluded = new Set(args.excludeBands);
   const progress = new Progress(io.stderr, table.stars.length, !args.quiet && io.stderr.isTTY === true && table.stars.length >= 2000);
   const rows: CatalogueRow[] = [];
+  const details: Record<string, unknown>[] = [];
   let starsLeftOut = 0;
   const failures: Record<string, number> = {};
   for (let i = 0; i < table.stars.length; i++) {
@@ -279,7 +286,10 @@ export async function runFit(args: FitCommandArgs, io: Io): Promise<number> {
       leftOut: star.leftOut,
     });
     if (!result.ok) failures[result.reason] = (failures[result.reason] ?? 0) + 1;
-    rows.push(catalogueRow({ id: star.id, raDeg: star.raDeg, decDeg: star.decDeg, result }));
+    const distance = star.parallaxMas !== undefined && star.parallaxMas > 0 ? { pc: 1000 / star.parallaxMas, source: 'parallax' } : null;
+    const limits = new Set(fluxes.filter((f) => f.upperLimit).map((f) => f.bandKey));
+    rows.push({ ...catalogueRow({ id: star.id, raDeg: star.raDeg, decDeg: star.decDeg, result }), ...fitDetailRow(result, distance, limits) });
+    if (args.format === 'json') details.push(fitDetailJson(result, distance));
     if ((i & 255) === 0) progress.update(i);
   }
   progress.done();
@@ -300,6 +310,7 @@ export async function runFit(args: FitCommandArgs, io: Io): Promise<number> {
       floor_fraction: args.floorFraction,
       exclude: args.excludeBands,
       clip: args.clip,
+      reject: args.reject && !args.planckOnly,
       include_long: args.includeLongBands,
       planck_only: args.planckOnly,
       lum_class: args.lumClass,
@@ -323,7 +334,7 @@ export async function runFit(args: FitCommandArgs, io: Io): Promise<number> {
       args.law,
     ),
   };
-  const chunks = args.format === 'json' ? jsonChunks(provenance, rows) : args.format === 'ecsv' ? ecsvChunks(provenance, rows) : csvChunks(provenance, rows);
+  const chunks = args.format === 'json' ? jsonChunks(provenance, rows, details) : args.format === 'ecsv' ? ecsvChunks(provenance, rows) : csvChunks(provenance, rows);
   if (args.output === '-') {
     for (const c of chunks) io.stdout.write(c);
   } else {

@@ -54,6 +54,70 @@ export const CATALOGUE_COLUMNS: readonly CatalogueColumn[] = [
   { name: 'model', description: 'temperature model and version (empty: Planck only)' },
 ];
 
+/**
+ * What went into each star's fit, in compact text (the CLI writes these after the catalogue columns;
+ * its JSON output carries the same in full, per row, under "detail").
+ */
+export const FIT_DETAIL_COLUMNS: readonly CatalogueColumn[] = [
+  { name: 'residuals_sigma', description: '(data − model)/σ of every band of the star, excluded ones too, as band:value, space-separated (σ with the floor and the model scatter; an upper limit is marked band<:value)' },
+  { name: 'excluded_bands', description: 'bands left out of the fit, as band:reason, space-separated (reasons listed in the header; the JSON output gives each one\'s detail)' },
+  { name: 'teff_theta_corr', description: 'correlation of the Teff and θ errors (reported errors); the covariance is teff_theta_corr × teff_err_k × theta_err_mas', digits: 3 },
+  { name: 'distance_pc', unit: 'pc', description: 'distance the radius and luminosity rest on', digits: 6 },
+  { name: 'distance_source', description: 'where the distance came from: parallax (1/ϖ as given)' },
+];
+
+/** Why a band is not in a fit (the excluded_bands reasons), one line each. */
+export const EXCLUSION_EXPLANATIONS: Record<string, string> = {
+  excluded_by_option: 'left out by the fit options (--exclude, or the batch\'s excluded bands)',
+  long_wavelength: 'beyond ~5 µm: an excess diagnostic, not a fit input',
+  rejected: 'inconsistent with the other bands (robust rejection on the calibrated fit; the JSON detail gives the test)',
+  clipped: 'dropped by the older sequential clipping (--clip with rejection off)',
+  no_valid_error: 'no usable error, so it cannot be weighted',
+};
+
+/** The distance a fit's R and L rest on, as the caller knows it. */
+export interface DistanceUsed {
+  pc: number;
+  source: string;
+}
+
+/** A residual to 0.01σ with its sign ("+0.00" for anything that rounds to zero). */
+function signed(v: number): string {
+  if (!Number.isFinite(v)) return 'nan';
+  const r = Math.round(v * 100) / 100;
+  return r > 0 || r === 0 ? `+${Math.abs(r).toFixed(2)}` : r.toFixed(2);
+}
+
+/** The FIT_DETAIL_COLUMNS of one star. */
+export function fitDetailRow(result: FitResult | FitFailure, distance: DistanceUsed | null, upperLimits: ReadonlySet<string> = new Set()): CatalogueRow {
+  const excluded = result.excluded.map((e) => `${e.band}:${e.reason}`).join(' ');
+  if (!result.ok) return { residuals_sigma: '', excluded_bands: excluded, teff_theta_corr: null, distance_pc: distance?.pc ?? null, distance_source: distance?.source ?? null };
+  return {
+    residuals_sigma: Object.entries(result.residualsSigma)
+      .map(([b, v]) => `${b}${upperLimits.has(b) ? '<' : ''}:${signed(v)}`)
+      .join(' '),
+    excluded_bands: excluded,
+    teff_theta_corr: result.teffTheta?.corr ?? null,
+    distance_pc: distance?.pc ?? null,
+    distance_source: distance?.source ?? null,
+  };
+}
+
+/** Everything the JSON output says per star beyond the columns: residuals, exclusions and their reasons, covariance, rejection tests. */
+export function fitDetailJson(result: FitResult | FitFailure, distance: DistanceUsed | null): Record<string, unknown> {
+  if (!result.ok) return { excluded: result.excluded, failure: { reason: result.reason, message: result.message }, distance };
+  return {
+    residuals_sigma: result.residualsSigma,
+    model_scatter: result.modelScatter ?? null,
+    excluded: result.excluded,
+    rejection: result.rejection,
+    teff_theta: result.teffTheta,
+    covariance: result.covariance,
+    distance,
+    planck: { teff_k: result.planck.teffK, teff_lower_k: result.planck.teffLowerK, chi2_red: result.planck.chi2Red, flags: result.planck.flags },
+  };
+}
+
 export const REVIEW_STATUS_COLUMN: CatalogueColumn = { name: 'review_status', description: 'review decision: accepted, flagged or unreviewed' };
 
 export type CatalogueValue = string | number | null;
@@ -251,6 +315,10 @@ export function provenanceLines(p: Provenance, columns: readonly CatalogueColumn
   for (const c of columns) lines.push(`  ${c.name}${c.unit ? ` [${c.unit}]` : ''}: ${c.description}`);
   lines.push('flags:');
   for (const [code, text] of Object.entries(FLAG_EXPLANATIONS)) lines.push(`  ${code}: ${text}`);
+  if (columns.some((c) => c.name === 'excluded_bands')) {
+    lines.push('excluded band reasons:');
+    for (const [code, text] of Object.entries(EXCLUSION_EXPLANATIONS)) lines.push(`  ${code}: ${text}`);
+  }
   return lines;
 }
 

@@ -18,7 +18,7 @@ export interface EcsvColumn {
   description?: string;
 }
 
-const TEXT_COLUMNS = new Set(['id', 'bands_used', 'flags', 'lum_class', 'lum_class_source', 'model', 'review_status', 'batch_id', 'review_mark']);
+const TEXT_COLUMNS = new Set(['id', 'bands_used', 'flags', 'lum_class', 'lum_class_source', 'model', 'review_status', 'batch_id', 'review_mark', 'residuals_sigma', 'excluded_bands', 'distance_source']);
 const INT_COLUMNS = new Set(['n_bands']);
 
 /** ECSV columns for catalogue columns: text and integer columns by name, the rest float64. */

@@ -100,8 +100,8 @@ export async function seedDemoSeasonTwo(app: AppServices, analyst: Actor, review
     // The reviewer has reached about two thirds of the flagged ones; the rest wait on the desk.
     if (has(f, 'ir_excess') && flaggedExcess++ % 3 !== 2) {
       decide(app.db, reviewer, f.id, { decision: 'flagged', reason: 'ir_excess', comment: 'W3 and W4 sit well above the photosphere; check for a disc before using L.' });
-    } else if ((has(f, 'outlier') || has(f, 'clipped')) && flaggedBand++ % 3 !== 2) {
-      decide(app.db, reviewer, f.id, { decision: 'flagged', reason: 'bad_photometry', comment: 'One band is far off the curve; ask the photometry team for the raw frame.' });
+    } else if ((has(f, 'outlier') || has(f, 'rejected') || has(f, 'clipped')) && flaggedBand++ % 3 !== 2) {
+      decide(app.db, reviewer, f.id, { decision: 'flagged', reason: 'bad_photometry', comment: has(f, 'rejected') ? 'One band disagreed with the others and was rejected; ask the photometry team for the raw frame.' : 'One band is far off the curve; ask the photometry team for the raw frame.' });
     }
   }
   bulkDecide(app.db, reviewer, campaignId, {

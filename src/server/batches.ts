@@ -58,10 +58,12 @@ export const batchOptionsInput = z.strictObject(
       .max(200)
       .default([]),
     clip: z.boolean({ error: 'Dropping the worst band is either on (true) or off (false).' }).default(false),
+    // Robust rejection (src/core/fit/rejection.ts): on unless asked otherwise; it replaces clip.
+    reject: z.boolean({ error: 'Rejecting bands that disagree with the others is either on (true) or off (false).' }).default(true),
     includeLongBands: z.boolean({ error: 'Fitting the bands beyond ~5 µm is either on (true) or off (false).' }).default(false),
     // The calibrated photosphere by default, as in the CLI and the core; the Planck fit is stored beside it.
-    planckOnly: z.boolean({ error: 'Planck only is either on (true) or off (false).' }).default(false),
-    lumClass: z.enum(['auto', 'dwarf', 'giant'], { error: 'The luminosity class is auto, dwarf or giant.' }).default('auto'),
+    planckOnly: z.boolean({ error: 'Fitting a blackbody only is either on (true) or off (false).' }).default(false),
+    lumClass: z.enum(['auto', 'dwarf', 'giant'], { error: 'The luminosity class must be auto, dwarf or giant.' }).default('auto'),
   },
   { error: (issue) => (issue.code === 'unrecognized_keys' ? `Unknown fit option ${issue.keys.map((k) => `"${k}"`).join(', ')}.` : 'The fit options must be an object.') },
 );
@@ -97,6 +99,7 @@ export function toFitOptions(o: z.output<typeof batchOptionsInput>): FitOptions 
     floorFraction: o.floorFraction,
     excludeBands: [...new Set(o.excludeBands)],
     clip: o.clip,
+    reject: o.reject,
     includeLongBands: o.includeLongBands,
     planckOnly: o.planckOnly,
     lumClass: o.lumClass,

@@ -290,6 +290,8 @@ export function resultRow(batch: BatchInfo, starId: number, fit: FitResult | Fit
       excluded: fit.excluded,
       skipped,
       covariance: fit.covariance,
+      teffTheta: fit.teffTheta,
+      ...(fit.rejection && fit.rejection.sets.length > 0 ? { rejection: fit.rejection } : {}),
       // The Planck fit's own scale and A_V, so the star sheet draws its blackbody.
       planckFit: { thetaMas: finiteOrNull(fit.planck.thetaMas), avMag: finiteOrNull(fit.planck.avMag) },
       ...(fit.monteCarlo ? { monteCarlo: fit.monteCarlo } : {}),

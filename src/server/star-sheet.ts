@@ -22,6 +22,7 @@ export const EXCLUSION_LABELS: Record<string, string> = {
   excluded_by_option: 'left out by the batch options',
   long_wavelength: 'beyond ~5 µm: an excess check, not a fit input',
   clipped: 'dropped by clipping (worst band)',
+  rejected: 'rejected as inconsistent with the other bands',
   no_valid_error: 'no usable error, so it cannot be weighted',
 };
 
@@ -44,7 +45,7 @@ interface FitDetail {
   residualsSigma?: Record<string, number>;
   modelFluxesCgs?: Record<string, number>;
   observed?: Record<string, { fluxCgs: number; errCgs: number; upperLimit: boolean }>;
-  excluded?: { band: string; reason: string }[];
+  excluded?: { band: string; reason: string; detail?: string }[];
   skipped?: { band: string; source: string; reason: string }[];
   options?: Partial<FitOptions>;
   /** The Planck fit's own θ and A_V (fits made with a photosphere model since 0.2). */
@@ -170,6 +171,7 @@ export function starSheet(db: AppDatabase, campaignId: string, starRef: string |
     const library = findLibrary(db, latest.band_library_version) ?? current;
     const floor = typeof options.floorFraction === 'number' ? options.floorFraction : 0;
     const excludedBy = new Map((detail.excluded ?? []).map((e) => [e.band, e.reason]));
+    const excludedDetail = new Map((detail.excluded ?? []).flatMap((e) => (e.detail ? [[e.band, e.detail] as const] : [])));
     const withModel = latest.photosphere_name !== null;
     const planckFluxes = withModel && latest.tbb_model_fluxes ? (JSON.parse(latest.tbb_model_fluxes) as Record<string, number>) : {};
     for (const [key, obs] of Object.entries(detail.observed ?? {})) {
@@ -183,7 +185,7 @@ export function starSheet(db: AppDatabase, campaignId: string, starRef: string |
       const outlier = typeof residual === 'number' && !obs.upperLimit && !excludedReason && Math.abs(residual) > OUTLIER_SIGMA;
       const role: SheetBand['role'] = excludedReason ? 'excluded' : obs.upperLimit ? 'upper_limit' : 'fitted';
       let note: string | null = null;
-      if (excludedReason) note = `Not in the fit: ${EXCLUSION_LABELS[excludedReason] ?? excludedReason}.`;
+      if (excludedReason) note = `Not in the fit: ${EXCLUSION_LABELS[excludedReason] ?? excludedReason}${excludedDetail.has(key) ? ` (${excludedDetail.get(key)})` : ''}.`;
       else if (obs.upperLimit) note = 'Upper limit: counts only where the curve would exceed it.';
       else if (outlier) note = `More than ${OUTLIER_SIGMA}σ from the curve.`;
       bands.push({

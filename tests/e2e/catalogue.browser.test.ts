@@ -4,43 +4,30 @@
 // is in the HTML (no JavaScript needed), and a personal API token works as a bearer token without
 // cookie or Origin header, with its owner's roles, and stops working once revoked.
 import { readFileSync } from 'node:fs';
-import { eq } from 'drizzle-orm';
 import { parse as parseCsv } from 'csv-parse/sync';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { campaigns, user } from '../../src/db/schema';
-import { DEMO_CAMPAIGN, demoUsers } from '../../src/seed/seed';
-import { toActor } from '../../src/server/context';
+import { DEMO_CAMPAIGN } from '../../src/seed/seed';
 import { createApiToken, revokeApiToken } from '../../src/server/api-tokens';
 import { makeFittedCatalogue } from '../factories-catalogue';
-import { launchBrowser, signInCookie, startApp, type Browser, type RunningApp } from './harness';
+import { type DemoRun, signInCookie, startWithDemo } from './harness';
 
-let run: RunningApp;
-let browser: Browser;
-let campaignId: string;
-const people = demoUsers();
-
-const actorOf = (email: string) => toActor(run.app.db.select().from(user).where(eq(user.email, email)).get()!);
+let demo: DemoRun;
 
 beforeAll(async () => {
-  run = await startApp();
-  browser = await launchBrowser();
-  campaignId = run.app.db.select().from(campaigns).where(eq(campaigns.name, DEMO_CAMPAIGN.name)).get()!.id;
+  demo = await startWithDemo();
   // Real fits of invented stars, drained by the worker loop in this process into the server's database.
-  await makeFittedCatalogue(run.app, actorOf(people.analyst.email), campaignId, { count: 70, prefix: 'QE2E', seed: 17, noParallaxEvery: 9 });
+  await makeFittedCatalogue(demo.run.app, demo.actor(demo.people.analyst.email), demo.campaignId, { count: 70, prefix: 'QE2E', seed: 17, noParallaxEvery: 9 });
 });
-afterAll(async () => {
-  await browser?.close();
-  await run?.stop();
-});
+afterAll(() => demo?.stop());
 
 /** The accepted catalogue read straight from the database. */
 function acceptedRows(): { id: string; teff_k: number | null; lum_lsun: number | null; flags: string }[] {
-  return run.app.db.$client
+  return demo.run.app.db.$client
     .prepare(
       `SELECT s.star_key AS id, f.teff_k, f.lum_lsun, f.flags FROM fit_results f JOIN stars s ON s.id = f.star_id
        WHERE f.campaign_id = ? AND f.is_current = 1 AND f.review_status = 'accepted' ORDER BY s.star_key`,
     )
-    .all(campaignId) as { id: string; teff_k: number | null; lum_lsun: number | null; flags: string }[];
+    .all(demo.campaignId) as { id: string; teff_k: number | null; lum_lsun: number | null; flags: string }[];
 }
 
 function compareCsv(csv: string) {
@@ -61,12 +48,12 @@ function compareCsv(csv: string) {
 
 describe('catalogue in the browser', () => {
   it('lets the demo collaborator open the catalogue and download the accepted CSV through the page link', async () => {
-    const page = await browser.newPage();
-    await page.goto(`${run.baseUrl}/sign-in`);
-    await page.getByLabel('E-mail').fill(people.collaborator.email);
-    await page.getByLabel('Password').fill(people.collaborator.password);
-    await Promise.all([page.waitForURL(`${run.baseUrl}/campaigns`), page.getByRole('button', { name: 'Sign in' }).click()]);
-    await page.goto(`${run.baseUrl}/campaigns/${campaignId}`);
+    const page = await demo.browser.newPage();
+    await page.goto(`${demo.run.baseUrl}/sign-in`);
+    await page.getByLabel('E-mail').fill(demo.people.collaborator.email);
+    await page.getByLabel('Password').fill(demo.people.collaborator.password);
+    await Promise.all([page.waitForURL(`${demo.run.baseUrl}/campaigns`), page.getByRole('button', { name: 'Sign in' }).click()]);
+    await page.goto(`${demo.run.baseUrl}/campaigns/${demo.campaignId}`);
     await Promise.all([page.waitForURL(/\/catalogue$/), page.getByTestId('catalogue-link').click()]);
     await page.waitForFunction(() => !document.querySelector('astro-island[ssr]'));
     const want = acceptedRows();
@@ -82,32 +69,32 @@ describe('catalogue in the browser', () => {
   });
 
   it('opens the star sheet from a row of the table and from a point of the temperature–luminosity diagram', async () => {
-    const page = await browser.newPage();
-    const cookie = await signInCookie(run.baseUrl, people.collaborator.email, people.collaborator.password);
-    await page.context().addCookies(cookie.split('; ').map((c) => ({ name: c.split('=')[0], value: c.slice(c.indexOf('=') + 1), url: run.baseUrl })));
-    await page.goto(`${run.baseUrl}/campaigns/${campaignId}/catalogue?sort=star_key`);
+    const page = await demo.browser.newPage();
+    const cookie = await signInCookie(demo.run.baseUrl, demo.people.collaborator.email, demo.people.collaborator.password);
+    await page.context().addCookies(cookie.split('; ').map((c) => ({ name: c.split('=')[0], value: c.slice(c.indexOf('=') + 1), url: demo.run.baseUrl })));
+    await page.goto(`${demo.run.baseUrl}/campaigns/${demo.campaignId}/catalogue?sort=star_key`);
     await page.waitForFunction(() => !document.querySelector('astro-island[ssr]'));
     const first = acceptedRows()[0].id;
-    const starIdOf = (key: string) => run.app.db.$client.prepare('SELECT id FROM stars WHERE campaign_id = ? AND star_key = ?').pluck().get(campaignId, key) as number;
+    const starIdOf = (key: string) => demo.run.app.db.$client.prepare('SELECT id FROM stars WHERE campaign_id = ? AND star_key = ?').pluck().get(demo.campaignId, key) as number;
     const link = page.getByTestId('catalogue-table').getByRole('link', { name: first, exact: true });
-    await expect(link.getAttribute('href')).resolves.toBe(`/campaigns/${campaignId}/stars/${starIdOf(first)}`);
+    await expect(link.getAttribute('href')).resolves.toBe(`/campaigns/${demo.campaignId}/stars/${starIdOf(first)}`);
     await Promise.all([page.waitForURL(new RegExp(`/stars/${starIdOf(first)}$`)), link.click()]);
     await expect(page.locator('h1').textContent()).resolves.toContain(first);
 
     // The diagram's points are the accepted stars with a luminosity, each carrying its star id;
     // a click on one (Plotly's click event, as a mouse click on the point sends it) opens its sheet.
-    await page.goto(`${run.baseUrl}/campaigns/${campaignId}/catalogue`);
+    await page.goto(`${demo.run.baseUrl}/campaigns/${demo.campaignId}/catalogue`);
     const plot = page.getByTestId('catalogue-diagrams').locator('.js-plotly-plot').first();
     await plot.waitFor();
     const ids = (await plot.evaluate((el) => (el as unknown as { data: { customdata?: number[] }[] }).data.flatMap((tr) => tr.customdata ?? []))) as number[];
-    const want = run.app.db.$client
+    const want = demo.run.app.db.$client
       .prepare("SELECT star_id FROM fit_results WHERE campaign_id = ? AND is_current = 1 AND review_status = 'accepted' AND lum_lsun > 0 ORDER BY star_id")
       .pluck()
-      .all(campaignId) as number[];
+      .all(demo.campaignId) as number[];
     expect(want.length).toBeGreaterThan(20);
     expect([...ids].sort((a, b) => a - b)).toEqual(want);
     const target = ids[ids.length - 1];
-    const key = run.app.db.$client.prepare('SELECT star_key FROM stars WHERE id = ?').pluck().get(target) as string;
+    const key = demo.run.app.db.$client.prepare('SELECT star_key FROM stars WHERE id = ?').pluck().get(target) as string;
     await Promise.all([
       page.waitForURL(new RegExp(`/stars/${target}$`)),
       plot.evaluate((el, id) => (el as unknown as { emit: (name: string, ev: unknown) => void }).emit('plotly_click', { points: [{ customdata: id, x: 0, y: 0 }] }), target),
@@ -115,7 +102,7 @@ describe('catalogue in the browser', () => {
     await expect(page.locator('h1').textContent()).resolves.toContain(key);
 
     // A bar of the Teff histogram lists its stars: the table filtered to the bar's Teff range.
-    await page.goto(`${run.baseUrl}/campaigns/${campaignId}/catalogue`);
+    await page.goto(`${demo.run.baseUrl}/campaigns/${demo.campaignId}/catalogue`);
     const histogram = page.getByTestId('catalogue-diagrams').locator('.js-plotly-plot').nth(1);
     await histogram.waitFor();
     const bars = (await histogram.evaluate((el) => {
@@ -134,10 +121,10 @@ describe('catalogue in the browser', () => {
   });
 
   it('sorts and filters on the server when the reader clicks a header and applies a filter', async () => {
-    const page = await browser.newPage();
-    const cookie = await signInCookie(run.baseUrl, people.collaborator.email, people.collaborator.password);
-    await page.context().addCookies(cookie.split('; ').map((c) => ({ name: c.split('=')[0], value: c.slice(c.indexOf('=') + 1), url: run.baseUrl })));
-    await page.goto(`${run.baseUrl}/campaigns/${campaignId}/catalogue`);
+    const page = await demo.browser.newPage();
+    const cookie = await signInCookie(demo.run.baseUrl, demo.people.collaborator.email, demo.people.collaborator.password);
+    await page.context().addCookies(cookie.split('; ').map((c) => ({ name: c.split('=')[0], value: c.slice(c.indexOf('=') + 1), url: demo.run.baseUrl })));
+    await page.goto(`${demo.run.baseUrl}/campaigns/${demo.campaignId}/catalogue`);
     await page.waitForFunction(() => !document.querySelector('astro-island[ssr]'));
     await page.getByTestId('catalogue-table').getByRole('link', { name: 'Star', exact: true }).click();
     await page.waitForURL(/sort=star_key/);
@@ -159,57 +146,57 @@ describe('catalogue in the browser', () => {
 
 describe('catalogue over HTTP, as a script', () => {
   it('renders the first page into the HTML (no JavaScript needed)', async () => {
-    const cookie = await signInCookie(run.baseUrl, people.collaborator.email, people.collaborator.password);
-    const res = await fetch(`${run.baseUrl}/campaigns/${campaignId}/catalogue?sort=star_key`, { headers: { cookie } });
+    const cookie = await signInCookie(demo.run.baseUrl, demo.people.collaborator.email, demo.people.collaborator.password);
+    const res = await fetch(`${demo.run.baseUrl}/campaigns/${demo.campaignId}/catalogue?sort=star_key`, { headers: { cookie } });
     expect(res.status).toBe(200);
     const html = await res.text();
     for (const r of acceptedRows().slice(0, 5)) expect(html).toContain(`>${r.id}</a>`);
   });
 
   it('makes and revokes a token through the account page forms (no JavaScript), showing the secret once', async () => {
-    const cookie = await signInCookie(run.baseUrl, people.reviewer.email, people.reviewer.password);
+    const cookie = await signInCookie(demo.run.baseUrl, demo.people.reviewer.email, demo.people.reviewer.password);
     const form = (fields: Record<string, string>) =>
-      fetch(`${run.baseUrl}/account/tokens`, { method: 'POST', headers: { cookie, origin: run.baseUrl, 'content-type': 'application/x-www-form-urlencoded' }, body: new URLSearchParams(fields).toString() });
+      fetch(`${demo.run.baseUrl}/account/tokens`, { method: 'POST', headers: { cookie, origin: demo.run.baseUrl, 'content-type': 'application/x-www-form-urlencoded' }, body: new URLSearchParams(fields).toString() });
     const made = await form({ action: 'create', name: 'form token', expiresInDays: '' });
     expect(made.status).toBe(200);
     const html = await made.text();
     const secret = /data-testid="new-token-secret"[^>]*>(sk_[A-Za-z0-9_-]+)</.exec(html)?.[1];
     expect(secret).toBeDefined();
-    const again = await (await fetch(`${run.baseUrl}/account/tokens`, { headers: { cookie } })).text();
+    const again = await (await fetch(`${demo.run.baseUrl}/account/tokens`, { headers: { cookie } })).text();
     expect(again).toContain('form token');
     expect(again).not.toContain(secret!);
-    expect((await fetch(`${run.baseUrl}/api/me`, { headers: { authorization: `Bearer ${secret}` } })).status).toBe(200);
-    const id = run.app.db.$client.prepare("SELECT id FROM api_tokens WHERE name = 'form token'").pluck().get() as string;
+    expect((await fetch(`${demo.run.baseUrl}/api/me`, { headers: { authorization: `Bearer ${secret}` } })).status).toBe(200);
+    const id = demo.run.app.db.$client.prepare("SELECT id FROM api_tokens WHERE name = 'form token'").pluck().get() as string;
     expect((await form({ action: 'revoke', tokenId: id })).status).toBe(200);
-    expect((await fetch(`${run.baseUrl}/api/me`, { headers: { authorization: `Bearer ${secret}` } })).status).toBe(401);
+    expect((await fetch(`${demo.run.baseUrl}/api/me`, { headers: { authorization: `Bearer ${secret}` } })).status).toBe(401);
   });
 
   it('accepts a personal API token as a bearer token without cookie or Origin, with the owner’s roles, until it is revoked', async () => {
-    const collaborator = actorOf(people.collaborator.email);
-    const { token, secret } = createApiToken(run.app.db, collaborator, { name: 'e2e script' });
+    const collaborator = demo.actor(demo.people.collaborator.email);
+    const { token, secret } = createApiToken(demo.run.app.db, collaborator, { name: 'e2e script' });
     const auth = { authorization: `Bearer ${secret}` };
-    const csv = await fetch(`${run.baseUrl}/api/campaigns/${campaignId}/downloads/csv?status=accepted`, { headers: auth });
+    const csv = await fetch(`${demo.run.baseUrl}/api/campaigns/${demo.campaignId}/downloads/csv?status=accepted`, { headers: auth });
     expect(csv.status).toBe(200);
     expect(csv.headers.get('content-disposition')).toMatch(/^attachment; filename=".+\.csv"$/);
     compareCsv(await csv.text());
     // A collaborator's token cannot release; an analyst's can, posting JSON with no cookie and no Origin.
     const post = (headers: Record<string, string>) =>
-      fetch(`${run.baseUrl}/api/campaigns/${campaignId}/releases`, { method: 'POST', headers: { ...headers, 'content-type': 'application/json' }, body: JSON.stringify({ title: 'Scripted release' }) });
+      fetch(`${demo.run.baseUrl}/api/campaigns/${demo.campaignId}/releases`, { method: 'POST', headers: { ...headers, 'content-type': 'application/json' }, body: JSON.stringify({ title: 'Scripted release' }) });
     expect((await post(auth)).status).toBe(403);
-    const analystToken = createApiToken(run.app.db, actorOf(people.analyst.email), { name: 'release script' });
+    const analystToken = createApiToken(demo.run.app.db, demo.actor(demo.people.analyst.email), { name: 'release script' });
     const released = await post({ authorization: `Bearer ${analystToken.secret}` });
     expect(released.status).toBe(201);
-    const outbox = run.app.db.$client.prepare("SELECT to_address FROM outbox_messages WHERE subject = ?").pluck().all(`Catalogue released: Scripted release (${DEMO_CAMPAIGN.name})`);
-    expect(outbox).toContain(people.collaborator.email);
+    const outbox = demo.run.app.db.$client.prepare("SELECT to_address FROM outbox_messages WHERE subject = ?").pluck().all(`Catalogue released: Scripted release (${DEMO_CAMPAIGN.name})`);
+    expect(outbox).toContain(demo.people.collaborator.email);
 
-    revokeApiToken(run.app.db, collaborator, token.id);
-    const refused = await fetch(`${run.baseUrl}/api/campaigns/${campaignId}/catalogue`, { headers: auth });
+    revokeApiToken(demo.run.app.db, collaborator, token.id);
+    const refused = await fetch(`${demo.run.baseUrl}/api/campaigns/${demo.campaignId}/catalogue`, { headers: auth });
     expect(refused.status).toBe(401);
     expect(((await refused.json()) as { error: { message: string } }).error.message).toMatch(/revoked/);
-    const unknown = await fetch(`${run.baseUrl}/api/campaigns/${campaignId}/catalogue`, { headers: { authorization: 'Bearer sk_not-a-real-token' } });
+    const unknown = await fetch(`${demo.run.baseUrl}/api/campaigns/${demo.campaignId}/catalogue`, { headers: { authorization: 'Bearer sk_not-a-real-token' } });
     expect(unknown.status).toBe(401);
     // The OpenAPI description is served to anyone.
-    const doc = await fetch(`${run.baseUrl}/api/openapi.json`);
+    const doc = await fetch(`${demo.run.baseUrl}/api/openapi.json`);
     expect(doc.status).toBe(200);
     expect(((await doc.json()) as { openapi: string }).openapi).toBe('3.1.0');
   });

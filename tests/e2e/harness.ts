@@ -11,10 +11,14 @@ import { openDatabase } from '../../src/db/client';
 import { migrateDatabase } from '../../src/db/migrate';
 import { projectRoot } from '../../src/db/paths';
 import { freePort } from '../support/probes';
-import { seedDemo } from '../../src/seed/seed';
+import { DEMO_CAMPAIGN, demoUsers, seedDemo } from '../../src/seed/seed';
+import { seedReviewDemo } from '../../src/seed/review-stars';
 import { createApp } from '../../src/app/app';
 import { parseEnv } from '../../src/adapters/env';
-import type { AppServices } from '../../src/server/context';
+import { eq } from 'drizzle-orm';
+import { campaigns, user } from '../../src/db/schema';
+import { nameKey } from '../../src/server/campaigns';
+import { toActor, type Actor, type AppServices } from '../../src/server/context';
 
 export const CHROMIUM_PATH = '/usr/bin/chromium';
 
@@ -209,4 +213,78 @@ export async function callApi(
     // leave as text: the assertion will show it
   }
   return { status: res.status, body: parsed, contentType: res.headers.get('content-type') };
+}
+
+/** The demo's people (demoUsers()), by role. */
+export type DemoPerson = keyof ReturnType<typeof demoUsers>;
+
+/** The built server on the demo, a browser, and the demo's campaign and people. */
+export interface DemoRun {
+  run: RunningApp;
+  browser: Browser;
+  /** The demo campaign's id. */
+  campaignId: string;
+  people: ReturnType<typeof demoUsers>;
+  /** A person of the database by e-mail, as server functions take them. */
+  actor: (email: string) => Actor;
+  /** Signs `page` in as one of the demo's people through the form (signed out first). */
+  signIn: (page: Page, who: DemoPerson) => Promise<void>;
+  stop: () => Promise<void>;
+}
+
+/** The built server on the seeded demo and Chromium; stop() ends both. */
+export async function startWithDemo(): Promise<DemoRun> {
+  const run = await startApp();
+  let browser: Browser;
+  try {
+    browser = await launchBrowser();
+  } catch (err) {
+    await run.stop();
+    throw err;
+  }
+  const db = run.app.db;
+  const people = demoUsers();
+  const stop = async () => {
+    await browser.close();
+    await run.stop();
+  };
+  const campaign = db.select().from(campaigns).where(eq(campaigns.nameKey, nameKey(DEMO_CAMPAIGN.name))).get();
+  if (!campaign) {
+    await stop();
+    throw new Error(`The demo campaign "${DEMO_CAMPAIGN.name}" is not in the seeded database`);
+  }
+  return {
+    run,
+    browser,
+    campaignId: campaign.id,
+    people,
+    actor: (email) => {
+      const u = db.select().from(user).where(eq(user.email, email)).get();
+      if (!u) throw new Error(`No person with e-mail ${email} in the demo database`);
+      return toActor(u);
+    },
+    signIn: (page, who) => signInWithForm(browser, page, run.baseUrl, people[who]),
+    stop,
+  };
+}
+
+/** The demo with its review material fitted: the batch that fitted it. */
+export interface ReviewDemo extends DemoRun {
+  batchId: string;
+}
+
+/**
+ * The built server on the demo with its review material (the invented Lanternfield stars, fitted by
+ * the worker path on the server's database file, as `npm run db:seed` makes them) and Chromium.
+ */
+export async function startWithReviewDemo(): Promise<ReviewDemo> {
+  const demo = await startWithDemo();
+  try {
+    const batchId = await seedReviewDemo(demo.run.app, demo.actor(demo.people.analyst.email), demo.actor(demo.people.reviewer.email), demo.campaignId);
+    if (!batchId) throw new Error('The demo database already had fits: the review material was not fitted here');
+    return { ...demo, batchId };
+  } catch (err) {
+    await demo.stop();
+    throw err;
+  }
 }

@@ -155,7 +155,8 @@ describe('intake in the browser', () => {
     expect(text.startsWith('cut-table.fits: ')).toBe(true);
     expect(text).toContain(`truncated file: HDU 1 declares ${table.dataBytes} bytes of data from byte ${table.dataOffset}, but the file ends at byte ${cut.length} (${missing} bytes missing)`);
     const row = page.getByTestId('upload-table').locator('tr', { hasText: 'cut-table.fits' });
-    await expect(row.textContent()).resolves.toMatch(/rejected/);
+    // The uploads list refreshes after the reading job's answer: wait for its row to say so.
+    await expect.poll(() => row.textContent(), { timeout: 15_000 }).toMatch(/rejected/);
     await expect(row.textContent()).resolves.not.toMatch(/FITS image/);
     const stored = run.app.db.select().from(uploads).where(eq(uploads.originalName, 'cut-table.fits')).get()!;
     expect([stored.status, stored.detectedFormat]).toEqual(['rejected', null]);

@@ -5,35 +5,14 @@
 // contrast of at least 4.5:1 on the page's darkest background (WCAG 2.1 AA for normal text).
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { Page } from 'playwright-core';
-import { eq } from 'drizzle-orm';
-import { campaigns, user } from '../../src/db/schema';
-import { DEMO_CAMPAIGN, demoUsers } from '../../src/seed/seed';
-import { nameKey } from '../../src/server/campaigns';
-import { seedReviewDemo } from '../../src/seed/review-stars';
-import { launchBrowser, signInWithForm, startApp, type Browser, type RunningApp } from './harness';
+import { type ReviewDemo, startWithReviewDemo } from './harness';
 
-let run: RunningApp;
-let browser: Browser;
-let campaignId: string;
-const people = demoUsers();
+let demo: ReviewDemo;
 
 beforeAll(async () => {
-  run = await startApp();
-  browser = await launchBrowser();
-  campaignId = run.app.db.select().from(campaigns).where(eq(campaigns.nameKey, nameKey(DEMO_CAMPAIGN.name))).get()!.id;
-  const actor = (email: string) => {
-    const u = run.app.db.select().from(user).where(eq(user.email, email)).get()!;
-    return { id: u.id, name: u.name, email: u.email, kind: u.kind };
-  };
-  await seedReviewDemo(run.app, actor(people.analyst.email), actor(people.reviewer.email), campaignId);
+  demo = await startWithReviewDemo();
 });
-afterAll(async () => {
-  await browser?.close();
-  await run?.stop();
-});
-
-/** Each call starts signed out (the browser profile is shared by the whole file). */
-const signIn = (page: Page, who: keyof typeof people) => signInWithForm(browser, page, run.baseUrl, people[who]);
+afterAll(() => demo?.stop());
 
 const sideways = (page: Page) => page.evaluate(() => document.documentElement.scrollWidth - document.documentElement.clientWidth);
 
@@ -49,16 +28,16 @@ function contrast(a: string, b: string): number {
 
 describe('at 390 px', () => {
   it('folds the top bar, scrolls no page sideways, and puts the fit under review before the queue', async () => {
-    const page = await browser.context.newPage();
+    const page = await demo.browser.context.newPage();
     await page.setViewportSize({ width: 390, height: 844 });
-    await signIn(page, 'reviewer');
-    for (const p of ['/campaigns', `/campaigns/${campaignId}`, `/campaigns/${campaignId}/review`, `/campaigns/${campaignId}/catalogue`, `/campaigns/${campaignId}/stars`, `/campaigns/${campaignId}/stars/Cindermoor`, `/campaigns/${campaignId}/batches`, '/about']) {
-      await page.goto(`${run.baseUrl}${p}`);
+    await demo.signIn(page, 'reviewer');
+    for (const p of ['/campaigns', `/campaigns/${demo.campaignId}`, `/campaigns/${demo.campaignId}/review`, `/campaigns/${demo.campaignId}/catalogue`, `/campaigns/${demo.campaignId}/stars`, `/campaigns/${demo.campaignId}/stars/Cindermoor`, `/campaigns/${demo.campaignId}/batches`, '/about']) {
+      await page.goto(`${demo.run.baseUrl}${p}`);
       await page.waitForLoadState('load');
       expect(await sideways(page), `${p} scrolls sideways`).toBeLessThanOrEqual(0);
     }
     // The top bar: the menu opens, and "Sign out" is on screen.
-    await page.goto(`${run.baseUrl}/campaigns`);
+    await page.goto(`${demo.run.baseUrl}/campaigns`);
     await page.getByTestId('phone-menu').locator('summary').click();
     const signOut = page.getByTestId('phone-menu').getByRole('button', { name: 'Sign out' });
     const box = (await signOut.boundingBox())!;
@@ -67,7 +46,7 @@ describe('at 390 px', () => {
     expect(await sideways(page)).toBeLessThanOrEqual(0);
 
     // The review desk: the card above the queue.
-    await page.goto(`${run.baseUrl}/campaigns/${campaignId}/review`);
+    await page.goto(`${demo.run.baseUrl}/campaigns/${demo.campaignId}/review`);
     await page.getByTestId('queue-list').waitFor();
     const card = (await page.getByTestId('review-card').boundingBox())!;
     const queue = (await page.getByTestId('queue-list').boundingBox())!;
@@ -77,9 +56,9 @@ describe('at 390 px', () => {
   });
 
   it('has a skip link first in the keyboard order, and grey text of at least 4.5:1', async () => {
-    const page = await browser.context.newPage();
-    await signIn(page, 'reviewer');
-    await page.goto(`${run.baseUrl}/campaigns/${campaignId}/review`);
+    const page = await demo.browser.context.newPage();
+    await demo.signIn(page, 'reviewer');
+    await page.goto(`${demo.run.baseUrl}/campaigns/${demo.campaignId}/review`);
     await page.keyboard.press('Tab');
     const skip = await page.evaluate(() => ({ text: document.activeElement?.textContent, href: document.activeElement?.getAttribute('href') }));
     expect(skip).toEqual({ text: 'Skip to the content', href: '#main' });

@@ -3,35 +3,19 @@
 // page's links, match the SHA-256 the page lists; then stars are re-fitted and a decision changes,
 // and the same links still give the same bytes (the live catalogue download does not).
 import { createHash } from 'node:crypto';
-import { eq } from 'drizzle-orm';
 import type { Page } from 'playwright-core';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { campaigns, user } from '../../src/db/schema';
-import { DEMO_CAMPAIGN, demoUsers } from '../../src/seed/seed';
-import { toActor } from '../../src/server/context';
 import { makeFittedCatalogue, refit } from '../factories-catalogue';
-import { launchBrowser, signInWithForm, startApp, type Browser, type RunningApp } from './harness';
+import { type DemoRun, startWithDemo } from './harness';
 
-let run: RunningApp;
-let browser: Browser;
-let campaignId: string;
+let demo: DemoRun;
 let batchId: string;
-const people = demoUsers();
-const actorOf = (email: string) => toActor(run.app.db.select().from(user).where(eq(user.email, email)).get()!);
 
 beforeAll(async () => {
-  run = await startApp();
-  browser = await launchBrowser();
-  campaignId = run.app.db.select().from(campaigns).where(eq(campaigns.name, DEMO_CAMPAIGN.name)).get()!.id;
-  batchId = (await makeFittedCatalogue(run.app, actorOf(people.analyst.email), campaignId, { count: 30, prefix: 'REL', seed: 23 })).batchId;
+  demo = await startWithDemo();
+  batchId = (await makeFittedCatalogue(demo.run.app, demo.actor(demo.people.analyst.email), demo.campaignId, { count: 30, prefix: 'REL', seed: 23 })).batchId;
 });
-afterAll(async () => {
-  await browser?.close();
-  await run?.stop();
-});
-
-/** Each call starts signed out (the browser profile is shared by the whole file). */
-const signIn = (page: Page, who: keyof typeof people) => signInWithForm(browser, page, run.baseUrl, people[who]);
+afterAll(() => demo?.stop());
 
 /** The bytes behind a link of the page, fetched with the page's session. */
 async function fetchBytes(page: Page, href: string): Promise<Buffer> {
@@ -49,9 +33,9 @@ const sha = (b: Buffer) => createHash('sha256').update(b).digest('hex');
 
 describe('a frozen release in the browser', () => {
   it('keeps the bytes of its downloads after a re-fit and a changed decision', async () => {
-    const page = await browser.context.newPage();
-    await signIn(page, 'analyst');
-    await page.goto(`${run.baseUrl}/campaigns/${campaignId}/catalogue`);
+    const page = await demo.browser.context.newPage();
+    await demo.signIn(page, 'analyst');
+    await page.goto(`${demo.run.baseUrl}/campaigns/${demo.campaignId}/catalogue`);
     await page.getByLabel('Title').fill('Lanternfield DR1');
     await Promise.all([page.waitForLoadState('load'), page.getByRole('button', { name: 'Release and tell collaborators' }).click()]);
     await Promise.all([page.waitForURL(/\/releases\/[^/]+$/), page.getByTestId('release-link').first().click()]);
@@ -70,16 +54,16 @@ describe('a frozen release in the browser', () => {
     const fits1 = await fetchBytes(page, before.fits.href);
     expect(sha(csv1)).toBe(before.csv.sha);
     expect(sha(fits1)).toBe(before.fits.sha);
-    const live1 = await fetchBytes(page, `/api/campaigns/${campaignId}/downloads/csv?status=accepted`);
+    const live1 = await fetchBytes(page, `/api/campaigns/${demo.campaignId}/downloads/csv?status=accepted`);
 
     // After the release: five accepted stars re-fitted with another floor, one flagged star accepted.
-    const keys = run.app.db.$client
+    const keys = demo.run.app.db.$client
       .prepare("SELECT s.star_key FROM fit_results r JOIN stars s ON s.id = r.star_id WHERE r.batch_id = ? AND r.review_status = 'accepted' ORDER BY s.star_key LIMIT 5")
       .pluck()
       .all(batchId) as string[];
-    const second = await refit(run.app, actorOf(people.analyst.email), campaignId, keys, { floorFraction: 0.05 });
-    run.app.db.$client.prepare("UPDATE fit_results SET review_status = 'accepted' WHERE batch_id = ?").run(second);
-    run.app.db.$client.prepare("UPDATE fit_results SET review_status = 'accepted' WHERE id = (SELECT id FROM fit_results WHERE batch_id = ? AND review_status = 'flagged' LIMIT 1)").run(batchId);
+    const second = await refit(demo.run.app, demo.actor(demo.people.analyst.email), demo.campaignId, keys, { floorFraction: 0.05 });
+    demo.run.app.db.$client.prepare("UPDATE fit_results SET review_status = 'accepted' WHERE batch_id = ?").run(second);
+    demo.run.app.db.$client.prepare("UPDATE fit_results SET review_status = 'accepted' WHERE id = (SELECT id FROM fit_results WHERE batch_id = ? AND review_status = 'flagged' LIMIT 1)").run(batchId);
 
     await page.reload();
     const after = await files();
@@ -89,7 +73,7 @@ describe('a frozen release in the browser', () => {
     expect(csv2.equals(csv1)).toBe(true);
     expect(fits2.equals(fits1)).toBe(true);
     // The live download did change.
-    const live2 = await fetchBytes(page, `/api/campaigns/${campaignId}/downloads/csv?status=accepted`);
+    const live2 = await fetchBytes(page, `/api/campaigns/${demo.campaignId}/downloads/csv?status=accepted`);
     expect(live2.equals(live1)).toBe(false);
     await page.close();
   });

@@ -4,39 +4,16 @@
 // then flags the fit from the keyboard on the review desk and finds the decision in the history.
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { Page } from 'playwright-core';
-import { eq } from 'drizzle-orm';
 import { requireBand, starterBandLibrary } from '../../src/core/bands';
 import { WIEN_B_M_K } from '../../src/core/constants';
-import { campaigns, user } from '../../src/db/schema';
-import { DEMO_CAMPAIGN, demoUsers } from '../../src/seed/seed';
-import { nameKey } from '../../src/server/campaigns';
-import { seedReviewDemo } from '../../src/seed/review-stars';
-import { callApi, launchBrowser, signInCookie, signInWithForm, startApp, type Browser, type RunningApp } from './harness';
+import { callApi, type ReviewDemo, signInCookie, startWithReviewDemo } from './harness';
 
-let run: RunningApp;
-let browser: Browser;
-let campaignId: string;
-const people = demoUsers();
+let demo: ReviewDemo;
 
 beforeAll(async () => {
-  run = await startApp();
-  browser = await launchBrowser();
-  campaignId = run.app.db.select().from(campaigns).where(eq(campaigns.nameKey, nameKey(DEMO_CAMPAIGN.name))).get()!.id;
-  // The demo's review material (what `npm run db:seed` adds), fitted here by a worker in this process
-  // on the server's database file.
-  const actor = (email: string) => {
-    const u = run.app.db.select().from(user).where(eq(user.email, email)).get()!;
-    return { id: u.id, name: u.name, email: u.email, kind: u.kind };
-  };
-  await seedReviewDemo(run.app, actor(people.analyst.email), actor(people.reviewer.email), campaignId);
+  demo = await startWithReviewDemo();
 });
-afterAll(async () => {
-  await browser?.close();
-  await run?.stop();
-});
-
-/** Each call starts signed out (the browser profile is shared by the whole file). */
-const signIn = (page: Page, who: keyof typeof people) => signInWithForm(browser, page, run.baseUrl, people[who]);
+afterAll(() => demo?.stop());
 
 interface TraceView {
   role: string | undefined;
@@ -66,13 +43,13 @@ async function drawnTraces(page: Page): Promise<TraceView[]> {
 
 describe('review in the browser', () => {
   it('draws the star’s bands at their pivots with the fitted curve, then takes a keyboard flag into the history', async () => {
-    const page = await browser.newPage();
-    await signIn(page, 'reviewer');
-    const star = run.app.db.$client.prepare("SELECT id FROM stars WHERE campaign_id = ? AND star_key = 'Orrowind'").pluck().get(campaignId) as number;
-    const measured = run.app.db.$client.prepare('SELECT DISTINCT band_key FROM measurements WHERE star_id = ? ORDER BY band_key').pluck().all(star) as string[];
+    const page = await demo.browser.newPage();
+    await demo.signIn(page, 'reviewer');
+    const star = demo.run.app.db.$client.prepare("SELECT id FROM stars WHERE campaign_id = ? AND star_key = 'Orrowind'").pluck().get(demo.campaignId) as number;
+    const measured = demo.run.app.db.$client.prepare('SELECT DISTINCT band_key FROM measurements WHERE star_id = ? ORDER BY band_key').pluck().all(star) as string[];
     expect(measured.length).toBeGreaterThanOrEqual(10);
 
-    await page.goto(`${run.baseUrl}/campaigns/${campaignId}/stars/${star}`);
+    await page.goto(`${demo.run.baseUrl}/campaigns/${demo.campaignId}/stars/${star}`);
     await expect(page.getByTestId('star-key').textContent()).resolves.toBe('Orrowind');
     await expect(page.getByTestId('colour-temperature-note').textContent()).resolves.toMatch(/blackbody colour temperature/);
     const traces = await drawnTraces(page);
@@ -83,14 +60,16 @@ describe('review in the browser', () => {
     const drawn = dataTraces.flatMap((t) => t.bands!.map((band, i) => ({ band, x: t.x[i], role: t.role })));
     expect(drawn.map((d) => d.band).sort()).toEqual(measured);
     for (const d of drawn) expect(Math.abs(d.x - requireBand(library, d.band).pivotAngstrom / 1e4)).toBeLessThan(1e-9);
-    // The mock J value was made 0.45 mag too bright: drawn as an outlier, the reason on hover.
-    const outlier = traces.find((t) => t.role === 'outlier')!;
-    expect(outlier.bands).toContain('J');
-    expect(outlier.hovertext![outlier.bands!.indexOf('J')]).toMatch(/More than 3σ from the curve/);
-    // W3 and W4 lie beyond ~5 µm: drawn as not in the fit, with the reason.
+    // The mock J value was made 0.45 mag too bright: the consistency test rejects it (decision 0027), so
+    // it is drawn as not in the fit, with the reason and the test's numbers on hover; W3 and W4 lie
+    // beyond ~5 µm: not in the fit either, with that reason.
     const excluded = traces.find((t) => t.role === 'excluded')!;
-    expect(excluded.bands!.sort()).toEqual(['W3', 'W4']);
-    expect(excluded.hovertext!.every((h) => /beyond ~5 µm/.test(h))).toBe(true);
+    const hoverOf = (band: string) => excluded.hovertext![excluded.bands!.indexOf(band)];
+    expect([...excluded.bands!].sort()).toEqual(['J', 'W3', 'W4']);
+    expect(hoverOf('J')).toMatch(/rejected as inconsistent with the other bands \(inconsistent with the other bands: [\d.]+σ above the fit made without it/);
+    expect(hoverOf('W3')).toMatch(/beyond ~5 µm/);
+    expect(hoverOf('W4')).toMatch(/beyond ~5 µm/);
+    expect(traces.some((t) => t.role === 'outlier')).toBe(false);
     // The fitted band means and the residual panel cover the same bands.
     expect(traces.find((t) => t.role === 'model')!.bands!.sort()).toEqual(measured);
     expect(traces.find((t) => t.role === 'residual')!.bands!.sort()).toEqual(measured);
@@ -101,7 +80,7 @@ describe('review in the browser', () => {
     expect(curve.x.length).toBeGreaterThan(100);
     expect(curve.x[0]).toBeCloseTo(0.1, 6);
     expect(curve.x[curve.x.length - 1]).toBeCloseTo(30, 4);
-    const teffK = run.app.db.$client.prepare("SELECT tbb_k FROM fit_results WHERE star_id = ? AND review_status = 'pending'").pluck().get(star) as number;
+    const teffK = demo.run.app.db.$client.prepare("SELECT tbb_k FROM fit_results WHERE star_id = ? AND review_status = 'pending'").pluck().get(star) as number;
     const flambda = curve.y.map((y, i) => y / curve.x[i]);
     const peakUm = curve.x[flambda.indexOf(Math.max(...flambda))];
     // The curve is sampled every 2 % in λ, so the peak is found to about that.
@@ -109,7 +88,7 @@ describe('review in the browser', () => {
     await expect(page.getByTestId('sed-summary').textContent()).resolves.toMatch(/J at 1\.2\d\d µm/);
 
     // The review desk: walk to Orrowind with j, flag with f, reason 2, a comment, Enter.
-    await page.goto(`${run.baseUrl}/campaigns/${campaignId}/review`);
+    await page.goto(`${demo.run.baseUrl}/campaigns/${demo.campaignId}/review`);
     await page.getByTestId('queue-list').waitFor();
     const current = page.getByTestId('current-star');
     for (let i = 0; i < 10 && (await current.textContent()) !== 'Orrowind'; i++) await page.keyboard.press('j');
@@ -130,29 +109,29 @@ describe('review in the browser', () => {
     await page.getByTestId('desk-status').getByText('Flagged Orrowind: One or more measurements look wrong.').waitFor();
     // It left the queue, and the database holds the decision with the reviewer.
     await expect(page.getByTestId('queue-list').locator('[data-star="Orrowind"]').count()).resolves.toBe(0);
-    const row = run.app.db.$client
+    const row = demo.run.app.db.$client
       .prepare("SELECT d.decision, d.reason, d.comment, u.email FROM review_decisions d JOIN fit_results r ON r.id = d.fit_result_id JOIN user u ON u.id = d.reviewer_id WHERE r.star_id = ? AND d.superseded_at IS NULL")
       .get(star) as Record<string, string>;
-    expect(row).toEqual({ decision: 'flagged', reason: 'bad_photometry', comment: 'J is 0.45 mag brighter than the curve; check the 2MASS match (7 6 2).', email: people.reviewer.email });
+    expect(row).toEqual({ decision: 'flagged', reason: 'bad_photometry', comment: 'J is 0.45 mag brighter than the curve; check the 2MASS match (7 6 2).', email: demo.people.reviewer.email });
 
     // The star sheet's history shows it, server-rendered.
-    await page.goto(`${run.baseUrl}/campaigns/${campaignId}/stars/${star}`);
+    await page.goto(`${demo.run.baseUrl}/campaigns/${demo.campaignId}/stars/${star}`);
     const latest = page.getByTestId('review-history').locator('li').first();
     await expect(latest.getAttribute('data-decision')).resolves.toBe('flagged');
     await expect(latest.getAttribute('data-reason')).resolves.toBe('bad_photometry');
-    await expect(latest.textContent()).resolves.toContain(people.reviewer.name);
+    await expect(latest.textContent()).resolves.toContain(demo.people.reviewer.name);
     await expect(page.getByTestId('review-status').textContent()).resolves.toBe('flagged');
     await page.close();
   });
 
   it('keeps the desk and the decision form from collaborators', async () => {
-    const page = await browser.newPage();
-    await signIn(page, 'collaborator');
-    const desk = await page.goto(`${run.baseUrl}/campaigns/${campaignId}/review`);
+    const page = await demo.browser.newPage();
+    await demo.signIn(page, 'collaborator');
+    const desk = await page.goto(`${demo.run.baseUrl}/campaigns/${demo.campaignId}/review`);
     expect(desk?.status()).toBe(403);
     // The star sheet is open to every member, without the decision form.
-    const star = run.app.db.$client.prepare("SELECT id FROM stars WHERE campaign_id = ? AND star_key = 'Velloran'").pluck().get(campaignId) as number;
-    const sheet = await page.goto(`${run.baseUrl}/campaigns/${campaignId}/stars/${star}`);
+    const star = demo.run.app.db.$client.prepare("SELECT id FROM stars WHERE campaign_id = ? AND star_key = 'Velloran'").pluck().get(demo.campaignId) as number;
+    const sheet = await page.goto(`${demo.run.baseUrl}/campaigns/${demo.campaignId}/stars/${star}`);
     expect(sheet?.status()).toBe(200);
     await expect(page.getByRole('heading', { name: 'Decide' }).count()).resolves.toBe(0);
     await expect(page.getByTestId('band-table').locator('tr[data-band]').count()).resolves.toBe(12);
@@ -160,10 +139,10 @@ describe('review in the browser', () => {
   });
 
   it('serves the star sheet and takes a decision without JavaScript', async () => {
-    const star = run.app.db.$client.prepare("SELECT id FROM stars WHERE campaign_id = ? AND star_key = 'Quillmark'").pluck().get(campaignId) as number;
-    const fitId = run.app.db.$client.prepare("SELECT id FROM fit_results WHERE star_id = ? AND review_status = 'pending'").pluck().get(star) as number;
-    const url = `${run.baseUrl}/campaigns/${campaignId}/stars/${star}`;
-    const reviewer = await signInCookie(run.baseUrl, people.reviewer.email, people.reviewer.password);
+    const star = demo.run.app.db.$client.prepare("SELECT id FROM stars WHERE campaign_id = ? AND star_key = 'Quillmark'").pluck().get(demo.campaignId) as number;
+    const fitId = demo.run.app.db.$client.prepare("SELECT id FROM fit_results WHERE star_id = ? AND review_status = 'pending'").pluck().get(star) as number;
+    const url = `${demo.run.baseUrl}/campaigns/${demo.campaignId}/stars/${star}`;
+    const reviewer = await signInCookie(demo.run.baseUrl, demo.people.reviewer.email, demo.people.reviewer.password);
     const html = await (await fetch(url, { headers: { cookie: reviewer } })).text();
     // Numbers, the colour-temperature note and every band with its pivot are in the HTML itself.
     expect(html).toMatch(/data-testid="teff">\d{4} ± \d+ K/);
@@ -173,39 +152,39 @@ describe('review in the browser', () => {
       expect(html).toContain(`data-band="${key}" data-pivot-um="${requireBand(library, key).pivotAngstrom / 1e4}"`);
     }
     const post = (cookie: string, fields: Record<string, string>) =>
-      fetch(url, { method: 'POST', headers: { cookie, origin: run.baseUrl, 'content-type': 'application/x-www-form-urlencoded' }, body: new URLSearchParams(fields).toString(), redirect: 'manual' });
+      fetch(url, { method: 'POST', headers: { cookie, origin: demo.run.baseUrl, 'content-type': 'application/x-www-form-urlencoded' }, body: new URLSearchParams(fields).toString(), redirect: 'manual' });
     // A flag without a reason is refused with the reason named, and nothing is written.
     const refused = await post(reviewer, { fitId: String(fitId), decision: 'flagged', reason: '', comment: '' });
     expect(refused.status).toBe(400);
     expect(await refused.text()).toMatch(/A flag needs a reason/);
     // An analyst without the reviewer role cannot decide through the form either.
-    const analyst = await signInCookie(run.baseUrl, people.analyst.email, people.analyst.password);
+    const analyst = await signInCookie(demo.run.baseUrl, demo.people.analyst.email, demo.people.analyst.password);
     expect((await post(analyst, { fitId: String(fitId), decision: 'flagged', reason: 'poor_fit' })).status).toBe(403);
     const ok = await post(reviewer, { fitId: String(fitId), decision: 'flagged', reason: 'poor_fit', comment: 'Optical bands sit high.' });
     expect(ok.status).toBe(200);
     expect(await ok.text()).toContain('Fit flagged: The curve does not follow the photometry.');
-    const rows = run.app.db.$client.prepare('SELECT decision, reason, comment FROM review_decisions WHERE fit_result_id = ?').all(fitId);
+    const rows = demo.run.app.db.$client.prepare('SELECT decision, reason, comment FROM review_decisions WHERE fit_result_id = ?').all(fitId);
     expect(rows).toEqual([{ decision: 'flagged', reason: 'poor_fit', comment: 'Optical bands sit high.' }]);
   });
 
   it('routes every review endpoint in the built server, with 401 JSON for anonymous callers', async () => {
-    const fitId = run.app.db.$client.prepare("SELECT r.id FROM fit_results r JOIN stars s ON s.id = r.star_id WHERE s.star_key = 'Tamsel Minor'").pluck().get() as number;
+    const fitId = demo.run.app.db.$client.prepare("SELECT r.id FROM fit_results r JOIN stars s ON s.id = r.star_id WHERE s.star_key = 'Tamsel Minor'").pluck().get() as number;
     const endpoints: [string, string, unknown?][] = [
-      ['GET', `/api/campaigns/${campaignId}/stars/Tamsel%20Minor`],
-      ['GET', `/api/campaigns/${campaignId}/review-queue?noFlags=1`],
+      ['GET', `/api/campaigns/${demo.campaignId}/stars/Tamsel%20Minor`],
+      ['GET', `/api/campaigns/${demo.campaignId}/review-queue?noFlags=1`],
       ['POST', `/api/fits/${fitId}/decision`, { decision: 'flagged', reason: 'blend_suspected' }],
       ['GET', `/api/fits/${fitId}/history`],
-      ['POST', `/api/campaigns/${campaignId}/review/bulk`, { filter: { teffMinK: 90000 }, decision: 'accepted' }],
-      ['GET', `/api/campaigns/${campaignId}/review/settings`],
-      ['POST', `/api/campaigns/${campaignId}/review/settings`, { fourEyes: true }],
-      ['GET', `/api/campaigns/${campaignId}/review/audit`],
+      ['POST', `/api/campaigns/${demo.campaignId}/review/bulk`, { filter: { teffMinK: 90000 }, decision: 'accepted' }],
+      ['GET', `/api/campaigns/${demo.campaignId}/review/settings`],
+      ['POST', `/api/campaigns/${demo.campaignId}/review/settings`, { fourEyes: true }],
+      ['GET', `/api/campaigns/${demo.campaignId}/review/audit`],
     ];
-    const reviewer = await signInCookie(run.baseUrl, people.reviewer.email, people.reviewer.password);
+    const reviewer = await signInCookie(demo.run.baseUrl, demo.people.reviewer.email, demo.people.reviewer.password);
     for (const [method, p, json] of endpoints) {
-      const anonymous = await callApi(run.baseUrl, p, { method, json });
+      const anonymous = await callApi(demo.run.baseUrl, p, { method, json });
       expect(anonymous.status, `${method} ${p}`).toBe(401);
       expect(anonymous.contentType).toMatch(/application\/json/);
-      const asReviewer = await callApi(run.baseUrl, p, { method, json, cookie: reviewer });
+      const asReviewer = await callApi(demo.run.baseUrl, p, { method, json, cookie: reviewer });
       // The reviewer may do all of it (switching the rule too: reviewers and analysts of the campaign may).
       expect(asReviewer.status, `${method} ${p}: ${JSON.stringify(asReviewer.body)}`).toBe(p.endsWith('/decision') ? 201 : 200);
     }

@@ -6,51 +6,30 @@
 // stars; an invitation's link in the outbox is a link that opens the sign-up page for it.
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { Page } from 'playwright-core';
-import { eq } from 'drizzle-orm';
-import { campaigns, user } from '../../src/db/schema';
-import { DEMO_CAMPAIGN, demoUsers } from '../../src/seed/seed';
-import { nameKey } from '../../src/server/campaigns';
 import { startBatch } from '../../src/server/batches';
-import { seedReviewDemo } from '../../src/seed/review-stars';
 import { createWorker } from '../../workers/runner';
-import { launchBrowser, signInWithForm, startApp, type Browser, type RunningApp } from './harness';
+import { type ReviewDemo, startWithReviewDemo } from './harness';
 
-let run: RunningApp;
-let browser: Browser;
-let campaignId: string;
-const people = demoUsers();
-const actor = (email: string) => {
-  const u = run.app.db.select().from(user).where(eq(user.email, email)).get()!;
-  return { id: u.id, name: u.name, email: u.email, kind: u.kind };
-};
+let demo: ReviewDemo;
 
 beforeAll(async () => {
-  run = await startApp();
-  browser = await launchBrowser();
-  campaignId = run.app.db.select().from(campaigns).where(eq(campaigns.nameKey, nameKey(DEMO_CAMPAIGN.name))).get()!.id;
-  // The demo's review material (what `npm run db:seed` adds), fitted here on the server's database file.
-  await seedReviewDemo(run.app, actor(people.analyst.email), actor(people.reviewer.email), campaignId);
+  demo = await startWithReviewDemo();
 });
-afterAll(async () => {
-  await browser?.close();
-  await run?.stop();
-});
-
-const signIn = (page: Page, who: keyof typeof people) => signInWithForm(browser, page, run.baseUrl, people[who]);
+afterAll(() => demo?.stop());
 
 const hydrated = (page: Page) => page.waitForFunction(() => !document.querySelector('astro-island[ssr]'));
 
 describe('rough edges', () => {
   it('drops the cancel button once the batch has ended, without a reload', async () => {
-    const page = await browser.newPage();
-    await signIn(page, 'analyst');
+    const page = await demo.browser.newPage();
+    await demo.signIn(page, 'analyst');
     // No worker runs beside this server: the batch waits until this test fits it.
-    const keys = run.app.db.$client.prepare('SELECT star_key FROM stars WHERE campaign_id = ? ORDER BY id LIMIT 3').pluck().all(campaignId) as string[];
-    const batch = startBatch(run.app, actor(people.analyst.email), campaignId, { options: {}, starKeys: keys });
-    await page.goto(`${run.baseUrl}/campaigns/${campaignId}/batches/${batch.id}`);
+    const keys = demo.run.app.db.$client.prepare('SELECT star_key FROM stars WHERE campaign_id = ? ORDER BY id LIMIT 3').pluck().all(demo.campaignId) as string[];
+    const batch = startBatch(demo.run.app, demo.actor(demo.people.analyst.email), demo.campaignId, { options: {}, starKeys: keys });
+    await page.goto(`${demo.run.baseUrl}/campaigns/${demo.campaignId}/batches/${batch.id}`);
     await hydrated(page);
     await page.getByTestId('cancel-form').getByRole('button', { name: 'Cancel this batch' }).waitFor();
-    await createWorker(run.app, { owner: 'rough-edges', drain: true, idleMs: 5 }).run();
+    await createWorker(demo.run.app, { owner: 'rough-edges', drain: true, idleMs: 5 }).run();
     // The page polls the batch's progress; when it reads "finished" the form goes.
     await page.getByText('Progress — finished').waitFor({ timeout: 60_000 });
     await expect(page.getByTestId('cancel-form').count()).resolves.toBe(0);
@@ -58,9 +37,9 @@ describe('rough edges', () => {
   });
 
   it('names a star id missing from the campaign in plain words beside the star list', async () => {
-    const page = await browser.newPage();
-    await signIn(page, 'analyst');
-    await page.goto(`${run.baseUrl}/campaigns/${campaignId}/batches`);
+    const page = await demo.browser.newPage();
+    await demo.signIn(page, 'analyst');
+    await page.goto(`${demo.run.baseUrl}/campaigns/${demo.campaignId}/batches`);
     await hydrated(page);
     await page.getByLabel(/Only these stars/).fill('Nobody-Such');
     await page.getByRole('button', { name: 'Start the batch' }).click();
@@ -71,17 +50,17 @@ describe('rough edges', () => {
   });
 
   it('gives a token example that runs as shown, and copy buttons that copy', async () => {
-    await browser.context.grantPermissions(['clipboard-read', 'clipboard-write'], { origin: run.baseUrl });
-    const page = await browser.newPage();
-    await signIn(page, 'collaborator');
-    await page.goto(`${run.baseUrl}/account/tokens`);
+    await demo.browser.context.grantPermissions(['clipboard-read', 'clipboard-write'], { origin: demo.run.baseUrl });
+    const page = await demo.browser.newPage();
+    await demo.signIn(page, 'collaborator');
+    await page.goto(`${demo.run.baseUrl}/account/tokens`);
     await hydrated(page);
     await page.getByLabel('Name').fill('nightly pull');
     await page.getByRole('button', { name: 'Make token' }).click();
     const secret = (await page.getByTestId('new-token-secret').textContent())!.trim();
     const curl = (await page.getByTestId('token-curl').textContent())!;
     expect(curl).not.toContain('CAMPAIGN_ID');
-    expect(curl).toContain(`/api/campaigns/${campaignId}/downloads/csv?status=accepted`);
+    expect(curl).toContain(`/api/campaigns/${demo.campaignId}/downloads/csv?status=accepted`);
     await page.getByTestId('copy-token').click();
     await page.getByText('Copied.').first().waitFor();
     await expect(page.evaluate(() => navigator.clipboard.readText())).resolves.toBe(secret);
@@ -96,9 +75,9 @@ describe('rough edges', () => {
   });
 
   it('draws no share button, and a histogram of about √n bars counted in whole stars', async () => {
-    const page = await browser.newPage();
-    await signIn(page, 'reviewer');
-    await page.goto(`${run.baseUrl}/campaigns/${campaignId}/catalogue`);
+    const page = await demo.browser.newPage();
+    await demo.signIn(page, 'reviewer');
+    await page.goto(`${demo.run.baseUrl}/campaigns/${demo.campaignId}/catalogue`);
     await page.locator('[data-testid="catalogue-diagrams"] .js-plotly-plot').nth(1).waitFor();
     await expect(page.locator('.modebar-btn[data-title^="Share"]').count()).resolves.toBe(0);
     await expect(page.locator('.modebar-btn').count()).resolves.toBeGreaterThan(0);
@@ -116,21 +95,21 @@ describe('rough edges', () => {
   });
 
   it("makes an invitation's link in the outbox a link to its sign-up page", async () => {
-    const page = await browser.newPage();
-    await signIn(page, 'analyst');
-    await page.goto(`${run.baseUrl}/campaigns/${campaignId}`);
+    const page = await demo.browser.newPage();
+    await demo.signIn(page, 'analyst');
+    await page.goto(`${demo.run.baseUrl}/campaigns/${demo.campaignId}`);
     await hydrated(page);
     await page.getByLabel('E-mail').fill('second.light@example.test');
     await page.getByRole('form', { name: 'Add someone' }).getByRole('checkbox', { name: /reviewer/ }).check();
     await page.getByRole('button', { name: 'Add to campaign' }).click();
     await page.getByRole('status').filter({ hasText: 'Invitation sent to second.light@example.test' }).waitFor();
 
-    await signIn(page, 'admin');
-    await page.goto(`${run.baseUrl}/admin/outbox?to=second.light@example.test`);
+    await demo.signIn(page, 'admin');
+    await page.goto(`${demo.run.baseUrl}/admin/outbox?to=second.light@example.test`);
     await Promise.all([page.waitForURL(/\/admin\/outbox\/\d+$/), page.getByTestId('outbox-table').getByRole('link').first().click()]);
     const link = page.getByTestId('outbox-link').first();
     await expect(link.getAttribute('href')).resolves.toMatch(/\/sign-up\?invite=/);
-    await browser.context.clearCookies();
+    await demo.browser.context.clearCookies();
     await Promise.all([page.waitForURL(/\/sign-up\?invite=/), link.click()]);
     await expect(page.getByLabel('E-mail', { exact: true }).inputValue()).resolves.toBe('second.light@example.test');
     await page.close();

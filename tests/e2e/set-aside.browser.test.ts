@@ -6,45 +6,25 @@
 import { readFileSync } from 'node:fs';
 import path from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import type { Locator, Page } from 'playwright-core';
-import { eq } from 'drizzle-orm';
+import type { Locator } from 'playwright-core';
 import { projectRoot } from '../../src/db/paths';
-import { campaigns, user } from '../../src/db/schema';
-import { DEMO_CAMPAIGN, demoUsers } from '../../src/seed/seed';
-import { nameKey } from '../../src/server/campaigns';
-import { seedReviewDemo } from '../../src/seed/review-stars';
-import { callApi, launchBrowser, signInCookie, signInWithForm, startApp, type Browser, type RunningApp } from './harness';
+import { callApi, type ReviewDemo, signInCookie, startWithReviewDemo } from './harness';
 
-let run: RunningApp;
-let browser: Browser;
-let campaignId: string;
-const people = demoUsers();
+let demo: ReviewDemo;
 
 beforeAll(async () => {
-  run = await startApp();
-  browser = await launchBrowser();
-  campaignId = run.app.db.select().from(campaigns).where(eq(campaigns.nameKey, nameKey(DEMO_CAMPAIGN.name))).get()!.id;
-  const actor = (email: string) => {
-    const u = run.app.db.select().from(user).where(eq(user.email, email)).get()!;
-    return { id: u.id, name: u.name, email: u.email, kind: u.kind };
-  };
-  await seedReviewDemo(run.app, actor(people.analyst.email), actor(people.reviewer.email), campaignId);
+  demo = await startWithReviewDemo();
 });
-afterAll(async () => {
-  await browser?.close();
-  await run?.stop();
-});
-
-const signIn = (page: Page, who: keyof typeof people) => signInWithForm(browser, page, run.baseUrl, people[who]);
+afterAll(() => demo?.stop());
 
 describe('setting a value aside on the star sheet', () => {
   it('marks it with who, when and why, says it takes effect at the next fit, and undoes it', async () => {
-    const page = await browser.newPage();
-    await signIn(page, 'analyst');
-    const sqlite = run.app.db.$client;
-    const starId = sqlite.prepare("SELECT id FROM stars WHERE campaign_id = ? AND star_key = 'Orrowind'").pluck().get(campaignId) as number;
+    const page = await demo.browser.newPage();
+    await demo.signIn(page, 'analyst');
+    const sqlite = demo.run.app.db.$client;
+    const starId = sqlite.prepare("SELECT id FROM stars WHERE campaign_id = ? AND star_key = 'Orrowind'").pluck().get(demo.campaignId) as number;
     const j = sqlite.prepare("SELECT id, source FROM measurements WHERE star_id = ? AND band_key = 'J'").get(starId) as { id: number; source: string };
-    await page.goto(`${run.baseUrl}/campaigns/${campaignId}/stars/${starId}`);
+    await page.goto(`${demo.run.baseUrl}/campaigns/${demo.campaignId}/stars/${starId}`);
     const row = page.locator(`[data-testid="measurement-table"] tr[data-measurement="${j.id}"]`);
     await expect(row.getAttribute('data-in-fit')).resolves.toBe('used');
     await expect(row.getAttribute('data-set-aside')).resolves.toBe('false');
@@ -59,7 +39,7 @@ describe('setting a value aside on the star sheet', () => {
     const after = page.locator(`[data-testid="measurement-table"] tr[data-measurement="${j.id}"]`);
     await expect(after.getAttribute('data-set-aside')).resolves.toBe('true');
     const mark = await after.getByTestId('set-aside-mark').textContent();
-    expect(mark).toContain(people.analyst.name);
+    expect(mark).toContain(demo.people.analyst.name);
     expect(mark).toContain('“J is 0.45 mag off the curve; the 2MASS match is doubtful”');
     await after.getByTestId('changed-since-fit').waitFor();
     // The newest fit was made before: it still shows the value as used.
@@ -67,37 +47,37 @@ describe('setting a value aside on the star sheet', () => {
 
     const stored = sqlite.prepare('SELECT set_aside_at IS NOT NULL AS aside, set_aside_reason AS reason FROM measurements WHERE id = ?').get(j.id);
     expect(stored).toEqual({ aside: 1, reason: 'J is 0.45 mag off the curve; the 2MASS match is doubtful' });
-    const audited = sqlite.prepare("SELECT details FROM audit_events WHERE action = 'photometry.set_aside' AND campaign_id = ?").pluck().all(campaignId) as string[];
+    const audited = sqlite.prepare("SELECT details FROM audit_events WHERE action = 'photometry.set_aside' AND campaign_id = ?").pluck().all(demo.campaignId) as string[];
     expect(audited.map((d) => JSON.parse(d) as Record<string, unknown>)).toEqual([
       { reason: 'J is 0.45 mag off the curve; the 2MASS match is doubtful', count: 1, values: [{ id: j.id, star: 'Orrowind', band: 'J', source: j.source }] },
     ]);
 
     // A reviewer sees the mark but has no switch.
-    await signIn(page, 'reviewer');
-    await page.goto(`${run.baseUrl}/campaigns/${campaignId}/stars/${starId}`);
+    await demo.signIn(page, 'reviewer');
+    await page.goto(`${demo.run.baseUrl}/campaigns/${demo.campaignId}/stars/${starId}`);
     const seen = page.locator(`[data-testid="measurement-table"] tr[data-measurement="${j.id}"]`);
     await seen.getByTestId('set-aside-mark').waitFor();
     await expect(seen.getByRole('button').count()).resolves.toBe(0);
 
     // The analyst uses it again.
-    await signIn(page, 'analyst');
-    await page.goto(`${run.baseUrl}/campaigns/${campaignId}/stars/${starId}`);
+    await demo.signIn(page, 'analyst');
+    await page.goto(`${demo.run.baseUrl}/campaigns/${demo.campaignId}/stars/${starId}`);
     await Promise.all([page.waitForLoadState('load'), page.locator(`tr[data-measurement="${j.id}"]`).getByRole('button', { name: 'Use again in fits' }).click()]);
     await page.getByTestId('set-aside-notice').waitFor();
     await expect(page.locator(`tr[data-measurement="${j.id}"]`).getAttribute('data-set-aside')).resolves.toBe('false');
     await expect(page.locator(`tr[data-measurement="${j.id}"]`).getByTestId('changed-since-fit').count()).resolves.toBe(0);
     expect(sqlite.prepare('SELECT set_aside_at FROM measurements WHERE id = ?').pluck().get(j.id)).toBeNull();
-    expect(sqlite.prepare("SELECT count(*) FROM audit_events WHERE action = 'photometry.used_again' AND campaign_id = ?").pluck().get(campaignId)).toBe(1);
+    expect(sqlite.prepare("SELECT count(*) FROM audit_events WHERE action = 'photometry.used_again' AND campaign_id = ?").pluck().get(demo.campaignId)).toBe(1);
     await page.close();
   });
 
   it("sets aside every value an image brought in from the intake page, and the star sheet shows what the image was", async () => {
-    const sqlite = run.app.db.$client;
-    const cookie = await signInCookie(run.baseUrl, people.analyst.email, people.analyst.password);
-    const api = `${run.baseUrl}/api/campaigns/${campaignId}`;
+    const sqlite = demo.run.app.db.$client;
+    const cookie = await signInCookie(demo.run.baseUrl, demo.people.analyst.email, demo.people.analyst.password);
+    const api = `${demo.run.baseUrl}/api/campaigns/${demo.campaignId}`;
     const waitJob = async (uploadId: string, jobId: string) => {
       for (let i = 0; i < 240; i++) {
-        const j = (await callApi(run.baseUrl, `/api/campaigns/${campaignId}/uploads/${uploadId}/jobs/${jobId}`, { cookie })).body as { job: { status: string } };
+        const j = (await callApi(demo.run.baseUrl, `/api/campaigns/${demo.campaignId}/uploads/${uploadId}/jobs/${jobId}`, { cookie })).body as { job: { status: string } };
         if (j.job.status === 'done' || j.job.status === 'failed') return j.job;
         await new Promise((r) => setTimeout(r, 250));
       }
@@ -106,17 +86,17 @@ describe('setting a value aside on the star sheet', () => {
     // The header fixture written by astropy (fixtures/fits/image_header.fits, invented target), measured as Cindermoor's V.
     const form = new FormData();
     form.append('file', new Blob([readFileSync(path.join(projectRoot(), 'fixtures/fits/image_header.fits'))]), 'cindermoor-v.fits');
-    const posted = await fetch(`${api}/uploads`, { method: 'POST', headers: { cookie, origin: run.baseUrl }, body: form });
+    const posted = await fetch(`${api}/uploads`, { method: 'POST', headers: { cookie, origin: demo.run.baseUrl }, body: form });
     expect(posted.status, await posted.clone().text()).toBe(201);
     const { upload } = (await posted.json()) as { upload: { id: string; job: { id: string } } };
     expect(await waitJob(upload.id, upload.job.id)).toMatchObject({ status: 'done' });
-    const imp = await callApi(run.baseUrl, `/api/campaigns/${campaignId}/uploads/${upload.id}/import`, { cookie, json: { rules: { quality: [] }, image: { starId: 'Cindermoor', band: 'V', mag: 9.81, magErr: 0.02 } } });
+    const imp = await callApi(demo.run.baseUrl, `/api/campaigns/${demo.campaignId}/uploads/${upload.id}/import`, { cookie, json: { rules: { quality: [] }, image: { starId: 'Cindermoor', band: 'V', mag: 9.81, magErr: 0.02 } } });
     expect(imp.status).toBe(202);
     expect(await waitJob(upload.id, (imp.body as { job: { id: string } }).job.id)).toMatchObject({ status: 'done' });
 
-    const page = await browser.newPage();
-    await signIn(page, 'analyst');
-    await page.goto(`${run.baseUrl}/campaigns/${campaignId}/intake`);
+    const page = await demo.browser.newPage();
+    await demo.signIn(page, 'analyst');
+    await page.goto(`${demo.run.baseUrl}/campaigns/${demo.campaignId}/intake`);
     const item = page.getByTestId('withdraw-list').locator(`li[data-upload="${upload.id}"]`);
     const said = async (l: Locator) => ((await l.textContent()) ?? '').replace(/\s+/g, ' ').trim();
     await expect(said(item.getByTestId('upload-value-use'))).resolves.toBe('1 value used in fits');
@@ -125,8 +105,8 @@ describe('setting a value aside on the star sheet', () => {
     await expect(said(page.getByTestId('withdraw-notice'))).resolves.toBe('1 value of cindermoor-v.fits is set aside: the next fit of its star leaves it out; it stays on record.');
     await expect(said(page.getByTestId('withdraw-list').locator(`li[data-upload="${upload.id}"]`).getByTestId('upload-value-use'))).resolves.toBe('0 values used in fits, 1 set aside');
 
-    const starId = sqlite.prepare("SELECT id FROM stars WHERE campaign_id = ? AND star_key = 'Cindermoor'").pluck().get(campaignId) as number;
-    await page.goto(`${run.baseUrl}/campaigns/${campaignId}/stars/${starId}`);
+    const starId = sqlite.prepare("SELECT id FROM stars WHERE campaign_id = ? AND star_key = 'Cindermoor'").pluck().get(demo.campaignId) as number;
+    await page.goto(`${demo.run.baseUrl}/campaigns/${demo.campaignId}/stars/${starId}`);
     const row = page.locator('[data-testid="measurement-table"] tr[data-source="cindermoor-v.fits"]');
     await expect(row.getAttribute('data-set-aside')).resolves.toBe('true');
     // Imported after the newest fit: that fit did not use it.

@@ -52,6 +52,7 @@ function StartForm({ campaignId, starCount, bandKeys, serverError }: Props) {
         floorFraction: num('floorPercent') / 100,
         excludeBands: form.getAll('excludeBands').map(String),
         clip: form.get('clip') === 'on',
+        reject: form.get('noReject') !== 'on',
         includeLongBands: form.get('includeLongBands') === 'on',
         planckOnly: form.get('planckOnly') === 'on',
         lumClass: (String(form.get('lumClass') ?? 'auto') as 'auto' | 'dwarf' | 'giant'),
@@ -148,8 +149,12 @@ function StartForm({ campaignId, starCount, bandKeys, serverError }: Props) {
         {fieldError('excludeBands') && <p className="field-error" role="alert">{fieldError('excludeBands')}</p>}
       </fieldset>
       <label className="flex items-start gap-2 text-sm">
+        <input type="checkbox" name="noReject" className="mt-1 accent-ember-600" />
+        <span>Keep every band. By default one or two bands that disagree with the others beyond their errors (a test on the calibrated fit, at most 0.1 % of clean stars lose a band by chance) are left out, each with its reason on the star sheet.</span>
+      </label>
+      <label className="flex items-start gap-2 text-sm">
         <input type="checkbox" name="clip" className="mt-1 accent-ember-600" />
-        <span>Drop the worst band (at most two) when it lies more than 3σ off, and fit again</span>
+        <span>Only with every band kept or Planck only: drop the worst band (at most two) when it lies more than 3σ off, and fit again</span>
       </label>
       <label className="flex items-start gap-2 text-sm">
         <input type="checkbox" name="includeLongBands" className="mt-1 accent-ember-600" />

@@ -16,7 +16,7 @@ import { FLAG_BITS } from './flags';
 function blank(): Derived {
   return {
     teffK: NaN, teffErrFormalK: NaN, teffErrK: NaN, thetaMas: NaN, thetaErrMas: NaN, fbolCgs: NaN, fbolErrCgs: NaN,
-    radiusRsun: NaN, radiusErrRsun: NaN, lumLsun: NaN, lumErrLsun: NaN, avErrMag: NaN, errScale: 1, plxFlags: 0,
+    radiusRsun: NaN, radiusErrRsun: NaN, lumLsun: NaN, lumErrLsun: NaN, avErrMag: NaN, errScale: 1, corrTeffTheta: NaN, plxFlags: 0,
   };
 }
 

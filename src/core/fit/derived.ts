@@ -38,6 +38,8 @@ export interface Derived {
   avErrMag: number;
   /** max(1, √χ²_ν): the factor applied to the formal errors. */
   errScale: number;
+  /** Correlation of the reported Teff and θ errors (that of ln T and ln s, model term included). */
+  corrTeffTheta: number;
   /** Parallax flag bits (plx_*). */
   plxFlags: number;
 }
@@ -90,6 +92,7 @@ export function deriveInto(
   const varLnS = cov[4] * sc2 + beta * beta * m;
   const covUS = cov[1] * sc2 + beta * m;
   d.errScale = scale;
+  d.corrTeffTheta = covUS / Math.sqrt(varU * varLnS);
   d.teffK = teffK;
   d.teffErrFormalK = teffK * Math.sqrt(varUFormal);
   d.teffErrK = teffK * Math.sqrt(varU);

@@ -1,4 +1,4 @@
-// The distance a fit uses for R and L (decision 0027), and the asymmetric R and L intervals it gives.
+// The distance a fit uses for R and L (decision 0028), and the asymmetric R and L intervals it gives.
 //   1. A given distance (input columns distance_pc, distance_lo_pc, distance_hi_pc) wins: the fit
 //      uses ϖ = 1000/d mas with σ_ϖ/ϖ = σ(ln d) = (ln d_hi − ln d_lo)/2 for its linear errors, and the
 //      intervals below use the given ends as they are.

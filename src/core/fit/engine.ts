@@ -39,6 +39,8 @@ export const EXCLUDE_NONE = 0;
 export const EXCLUDE_USER = 1;
 export const EXCLUDE_LONG = 2;
 export const EXCLUDE_CLIPPED = 3;
+/** Rejected by the robust test of rejection.ts (set by fitStar, never by the engine). */
+export const EXCLUDE_REJECTED = 4;
 
 export const STATUS_OK = 0;
 export const STATUS_FEW_BANDS = 1;
@@ -146,7 +148,7 @@ export class FitEngine {
     this.derived = {
       teffK: NaN, teffErrFormalK: NaN, teffErrK: NaN, thetaMas: NaN, thetaErrMas: NaN, fbolCgs: NaN,
       fbolErrCgs: NaN, radiusRsun: NaN, radiusErrRsun: NaN, lumLsun: NaN, lumErrLsun: NaN, avErrMag: NaN,
-      errScale: 1, plxFlags: 0,
+      errScale: 1, corrTeffTheta: NaN, plxFlags: 0,
     };
     this.avSolver = new AvSolver(this);
   }
@@ -889,6 +891,8 @@ export class FitEngine {
       this.flags |= FLAG_BITS.clipped;
       this.partition();
     }
+    // No degrees of freedom: as many detections as parameters (upper limits do not count).
+    if (this.dof <= 0) this.flags |= FLAG_BITS.no_dof;
     this.dof = Math.max(this.dof, 0);
     this.chi2Red = this.dof > 0 ? this.chi2 / this.dof : NaN;
     if (this.chi2Red > CHI2_HIGH) this.flags |= FLAG_BITS.chi2_high;

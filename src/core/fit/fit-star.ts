@@ -20,6 +20,7 @@ import {
   EXCLUDE_CLIPPED,
   EXCLUDE_LONG,
   EXCLUDE_NONE,
+  EXCLUDE_REJECTED,
   EXCLUDE_USER,
   FitEngine,
   STATUS_FEW_BANDS,
@@ -40,6 +41,7 @@ import {
 } from '../photosphere/model';
 import { radiusRsunFromTheta, PLX_SNR_MIN } from './derived';
 import { asymmetricIntervals, resolveDistance, type DistanceUsed, type Interval68 } from './distance';
+import { findRejections, rejectionDetail, REJECT_FALSE_RATE, type RejectedSet } from './rejection';
 
 export type { LumClass } from '../photosphere/model';
 /** Where a fit's luminosity class came from. */
@@ -60,7 +62,15 @@ export interface FitOptions {
   excludeBands: string[];
   /** Fit bands beyond ~5 µm too instead of treating them as excess diagnostics. */
   includeLongBands: boolean;
+  /** The older sequential clipping of the worst band (off by default; ignored while `reject` is on). */
   clip: boolean;
+  /**
+   * Robust rejection of one or two bands inconsistent with the others, on the residuals of the
+   * calibrated fit (rejection.ts, decision 0027). On by default; a Planck-only fit never rejects.
+   */
+  reject: boolean;
+  /** The rejection's false-rejection rate per star with correct errors (α of the Bonferroni test). */
+  rejectFalseRate: number;
   monteCarlo?: { samples: number; seed: number };
   /** Extra fractional Teff error for the blackbody approximation of a Planck-only fit (BLACKBODY_MODEL_ERROR_FRACTION). */
   modelErrorFraction?: number;
@@ -70,7 +80,7 @@ export interface FitOptions {
   lumClass: 'auto' | LumClass;
   /**
    * Gaia DR3 parallax zero-point Z in mas, subtracted (ϖ − Z) from parallaxes whose origin is Gaia
-   * DR3; 0 = none. Default −0.017 (Lindegren et al. 2021 quasar median, from memory; decision 0027).
+   * DR3; 0 = none. Default −0.017 (Lindegren et al. 2021 quasar median, from memory; decision 0028).
    */
   gaiaParallaxZeroPointMas: number;
 }
@@ -85,6 +95,8 @@ export const DEFAULT_FIT_OPTIONS: Readonly<FitOptions> = Object.freeze({
   excludeBands: [] as string[],
   includeLongBands: false,
   clip: false,
+  reject: true,
+  rejectFalseRate: REJECT_FALSE_RATE,
   planckOnly: false,
   lumClass: 'auto' as const,
   gaiaParallaxZeroPointMas: -0.017,
@@ -100,6 +112,8 @@ export function resolveFitOptions(partial: Partial<FitOptions> = {}): FitOptions
   if (!(Number.isFinite(o.floorFraction) && o.floorFraction >= 0)) throw new Error(`systematic floor must be a fraction ≥ 0, got ${o.floorFraction}`);
   if (o.modelErrorFraction !== undefined && !(o.modelErrorFraction >= 0)) throw new Error(`model error fraction must be ≥ 0, got ${o.modelErrorFraction}`);
   if (!['auto', 'dwarf', 'giant'].includes(o.lumClass)) throw new Error(`luminosity class must be auto, dwarf or giant, got "${o.lumClass}"`);
+  if (typeof o.reject !== 'boolean') throw new Error('reject must be true or false');
+  if (!(o.rejectFalseRate > 0 && o.rejectFalseRate < 0.5)) throw new Error(`the rejection's false-rejection rate must lie between 0 and 0.5, got ${o.rejectFalseRate}`);
   if (typeof o.planckOnly !== 'boolean') throw new Error('planckOnly must be true or false');
   if (!(Number.isFinite(o.gaiaParallaxZeroPointMas) && Math.abs(o.gaiaParallaxZeroPointMas) < 1)) throw new Error(`the Gaia parallax zero-point must be a number of mas within ±1, got ${o.gaiaParallaxZeroPointMas}`);
   if (o.monteCarlo && !(Number.isInteger(o.monteCarlo.samples) && o.monteCarlo.samples >= 10)) {
@@ -236,7 +250,7 @@ export interface PlanckFit {
   avMag: number | null;
 }
 
-export type ExclusionReason = 'excluded_by_option' | 'long_wavelength' | 'clipped' | 'no_valid_error' | InputExclusionReason;
+export type ExclusionReason = 'excluded_by_option' | 'long_wavelength' | 'clipped' | 'rejected' | 'no_valid_error' | InputExclusionReason;
 
 export interface Interval {
   p16: number;
@@ -276,8 +290,15 @@ export interface FitResult {
   irExcessSigma: number | null;
   flags: FlagCode[];
   excluded: Excluded[];
+  /** The robust rejection's tests that rejected bands (empty when none was rejected); null when it was off. */
+  rejection: { falseRate: number; sets: RejectedSet[] } | null;
   /** Formal covariance (not scaled) of (teffK, s[, avMag]). */
   covariance: { params: string[]; matrix: number[][] };
+  /**
+   * The Teff–θ covariance of the reported errors (χ²_ν scaling and model term included), K·mas, and
+   * its correlation coefficient; null for a lower bound.
+   */
+  teffTheta: { covKMas: number; corr: number } | null;
   /** The pure Planck fit (tbb_* columns); with planckOnly its numbers equal the ones above. */
   planck: PlanckFit;
   /** The photosphere model used (name, version); null for a Planck-only fit. */
@@ -320,10 +341,12 @@ export interface Entry {
   sigma: number;
   upper: boolean;
   exclude: number;
+  /** The reason in words of a rejected band. */
+  detail?: string;
 }
 
 function reasonOf(code: number): ExclusionReason {
-  return code === EXCLUDE_USER ? 'excluded_by_option' : code === EXCLUDE_LONG ? 'long_wavelength' : 'clipped';
+  return code === EXCLUDE_USER ? 'excluded_by_option' : code === EXCLUDE_LONG ? 'long_wavelength' : code === EXCLUDE_REJECTED ? 'rejected' : 'clipped';
 }
 
 function finiteOrNaN(v: number | null | undefined): number {
@@ -350,7 +373,8 @@ export function engineSettings(opts: FitOptions): EngineSettings {
     fitAv: opts.fitAv,
     avMinMag: opts.avBoundsMag[0],
     avMaxMag: opts.avBoundsMag[1],
-    clip: opts.clip,
+    // Robust rejection replaces the sequential clipping whenever a calibrated fit can run it.
+    clip: opts.clip && !(opts.reject && !opts.planckOnly),
     modelErrorFraction: opts.modelErrorFraction ?? 0,
   };
 }
@@ -410,7 +434,7 @@ function resultOf(
   excluded: FitResult['excluded'],
   star: StarInput,
   opts: FitOptions,
-): Omit<FitResult, 'planck' | 'photosphere' | 'lumClass' | 'lumClassSource' | 'fehDex' | 'teffModelTermLn' | 'distance' | 'radiusIntervalRsun' | 'lumIntervalLsun'> {
+): Omit<FitResult, 'planck' | 'photosphere' | 'lumClass' | 'lumClassSource' | 'fehDex' | 'teffModelTermLn' | 'distance' | 'radiusIntervalRsun' | 'lumIntervalLsun' | 'rejection'> {
   const d = engine.derived;
   const lowerBound = (engine.flags & FLAG_BITS.temp_lower_bound) !== 0;
   const residualsSigma: Record<string, number> = {};
@@ -461,12 +485,16 @@ function resultOf(
     flags: flagCodes(engine.flags | (star.possibleCompanion ? FLAG_BITS.possible_companion : 0)),
     excluded: [...excluded, ...excludedOf(engine, entries)],
     covariance: { params, matrix },
+    teffTheta: lowerBound || !Number.isFinite(d.corrTeffTheta) ? null : { covKMas: d.corrTeffTheta * d.teffErrK * d.thetaErrMas, corr: d.corrTeffTheta },
   };
 }
 
 function excludedOf(engine: FitEngine, entries: Entry[]): FitResult['excluded'] {
   const out: FitResult['excluded'] = [];
-  for (let k = engine.nFit; k < engine.n; k++) out.push({ band: entries[engine.order[k]].bandKey, reason: reasonOf(engine.exclude[k]) });
+  for (let k = engine.nFit; k < engine.n; k++) {
+    const e = entries[engine.order[k]];
+    out.push(e.detail ? { band: e.bandKey, reason: reasonOf(engine.exclude[k]), detail: e.detail } : { band: e.bandKey, reason: reasonOf(engine.exclude[k]) });
+  }
   return out;
 }
 
@@ -520,23 +548,16 @@ export function fitStar(model: FitModel, star: StarInput, options?: Partial<FitO
   const rt = opts.planckOnly ? null : model.photosphere;
   // 1. The pure Planck fit, always, never widened by a model term.
   const engine = model.engine;
-  loadEngine(engine, entries);
-  const status = engine.run({ ...settings, modelErrorFraction: 0 }, av, plx, plxErr);
-  if (status !== STATUS_OK) return failureOf(engine, status, star, opts, [...excluded, ...excludedOf(engine, entries)]);
-  const planckRes = resultOf(engine, entries, excluded, star, opts);
-  const planck: PlanckFit = {
-    teffK: planckRes.teffK,
-    teffErrK: planckRes.teffErrK,
-    teffErrFormalK: planckRes.teffErrFormalK,
-    teffLowerK: planckRes.teffLowerK,
-    chi2Red: planckRes.chi2Red,
-    modelFluxes: planckRes.modelFluxes,
-    flags: planckRes.flags,
-    thetaMas: planckRes.thetaMas,
-    radiusRsun: planckRes.radiusRsun,
-    avMag: planckRes.avMag,
+  const planckRun = (ents: Entry[]): { status: number; res: ReturnType<typeof resultOf> | null } => {
+    loadEngine(engine, ents);
+    const status = engine.run({ ...settings, modelErrorFraction: 0 }, av, plx, plxErr);
+    return { status, res: status === STATUS_OK ? resultOf(engine, ents, excluded, star, opts) : null };
   };
+  let pr = planckRun(entries);
+  if (pr.status !== STATUS_OK) return failureOf(engine, pr.status, star, opts, [...excluded, ...excludedOf(engine, entries)]);
+  let planckRes = pr.res!;
   if (!rt) {
+    const planck = planckOf(planckRes);
     // Planck only: teff_* = tbb_*; the optional blackbody model-error term widens teff_* alone.
     const mef = opts.modelErrorFraction ?? 0;
     let res = planckRes;
@@ -545,32 +566,63 @@ export function fitStar(model: FitModel, star: StarInput, options?: Partial<FitO
       engine.flags |= FLAG_BITS.model_error_added;
       res = resultOf(engine, entries, excluded, star, opts);
     }
-    const result: FitResult = { ...res, planck, photosphere: null, lumClass: null, lumClassSource: null, fehDex: nullable(feh), teffModelTermLn: mef, ...distanceFields(res, dist.used) };
+    const result: FitResult = { ...res, planck, photosphere: null, lumClass: null, lumClassSource: null, fehDex: nullable(feh), teffModelTermLn: mef, rejection: null, ...distanceFields(res, dist.used) };
     if (opts.monteCarlo && result.teffK !== null) result.monteCarlo = monteCarlo(engine, entries, settings, av, plx, plxErr, opts.monteCarlo, mef, engine.beta);
     return result;
   }
   // 2. The photosphere fit, with the class's per-band model scatter in quadrature.
   const data = rt.data;
-  const { cls, source } = chooseLumClass(data, star, opts, finiteOrNaN(planck.thetaMas), plx, plxErr);
-  const pe = rt.engines[cls];
-  const tbb = planck.teffK ?? planck.teffLowerK ?? 5772;
   const scatter = new Float64Array(entries.length);
   const scatter2 = new Float64Array(entries.length);
-  scatterOf(rt, cls, entries, tbb, scatter);
-  let calEntries = withScatter(entries, scatter);
-  loadEngine(pe, calEntries);
-  let st = pe.run({ ...settings, modelErrorFraction: 0 }, av, plx, plxErr);
-  if (st === STATUS_OK) {
-    // The scatter belongs to the fitted temperature: refit once if it sits in another scatter bin.
-    scatterOf(rt, cls, entries, Math.exp(pe.u), scatter2);
-    if (scatter2.some((v, i) => v !== scatter[i])) {
-      scatter.set(scatter2);
-      calEntries = withScatter(entries, scatter);
-      loadEngine(pe, calEntries);
-      st = pe.run({ ...settings, modelErrorFraction: 0 }, av, plx, plxErr);
+  let calEntries: Entry[] = entries;
+  const calRun = (cls: LumClass, ents: Entry[], tStart: number): number => {
+    const pe = rt.engines[cls];
+    scatterOf(rt, cls, ents, tStart, scatter);
+    calEntries = withScatter(ents, scatter);
+    loadEngine(pe, calEntries);
+    let st = pe.run({ ...settings, modelErrorFraction: 0 }, av, plx, plxErr);
+    if (st === STATUS_OK) {
+      // The scatter belongs to the fitted temperature: refit once if it sits in another scatter bin.
+      scatterOf(rt, cls, ents, Math.exp(pe.u), scatter2);
+      if (scatter2.some((v, i) => v !== scatter[i])) {
+        scatter.set(scatter2);
+        calEntries = withScatter(ents, scatter);
+        loadEngine(pe, calEntries);
+        st = pe.run({ ...settings, modelErrorFraction: 0 }, av, plx, plxErr);
+      }
+    }
+    return st;
+  };
+  let { cls, source } = chooseLumClass(data, star, opts, finiteOrNaN(planckRes.thetaMas), plx, plxErr);
+  let st = calRun(cls, entries, planckRes.teffK ?? planckRes.teffLowerK ?? 5772);
+  let rejection: FitResult['rejection'] = null;
+  if (st === STATUS_OK && opts.reject) {
+    // 2b. Robust rejection on the calibrated fit's residuals (rejection.ts), then both fits again
+    // without the rejected bands (the Planck fit beside it uses the same bands; the class is chosen anew).
+    const pe = rt.engines[cls];
+    const base = calEntries;
+    const trial = (out: number[]): number => {
+      loadEngine(pe, base.map((e, i) => (out.includes(i) ? { ...e, exclude: EXCLUDE_REJECTED } : e)));
+      return pe.run({ ...settings, modelErrorFraction: 0 }, av, plx, plxErr);
+    };
+    const withPivot = base.map((e) => ({ ...e, pivotAngstrom: getBand(model.library, e.bandKey)!.pivotAngstrom }));
+    const found = findRejections(pe, withPivot, opts.fitAv ? 3 : 2, trial, opts.rejectFalseRate);
+    rejection = { falseRate: opts.rejectFalseRate, sets: found.sets };
+    if (found.indices.length > 0) {
+      const detailOf = new Map<string, string>();
+      for (const set of found.sets) for (const b of set.bands) detailOf.set(b, rejectionDetail(set, b, opts.rejectFalseRate));
+      const kept = entries.map((e, i) => (found.indices.includes(i) ? { ...e, exclude: EXCLUDE_REJECTED, detail: detailOf.get(e.bandKey) } : e));
+      pr = planckRun(kept);
+      if (pr.status !== STATUS_OK) return failureOf(engine, pr.status, star, opts, [...excluded, ...excludedOf(engine, kept)]);
+      planckRes = pr.res!;
+      ({ cls, source } = chooseLumClass(data, star, opts, finiteOrNaN(planckRes.thetaMas), plx, plxErr));
+      st = calRun(cls, kept, planckRes.teffK ?? planckRes.teffLowerK ?? 5772);
     }
   }
+  const pe = rt.engines[cls];
   if (st !== STATUS_OK) return failureOf(pe, st, star, opts, [...excluded, ...excludedOf(pe, calEntries)]);
+  const planck = planckOf(planckRes);
+  if (rejection && rejection.sets.length > 0) pe.flags |= FLAG_BITS.rejected;
   const tCal = Math.exp(pe.u);
   // 3. The calibration term in σ(ln T), along the T–θ degeneracy; grown outside the calibrated range.
   const sigmaM = teffTermSigma(data, cls, tCal);
@@ -603,6 +655,7 @@ export function fitStar(model: FitModel, star: StarInput, options?: Partial<FitO
     modelScatter,
     teffModelTermLn: Math.sqrt(varM),
     ...distanceFields(res, dist.used),
+    rejection,
   };
   if (opts.monteCarlo && result.teffK !== null) result.monteCarlo = monteCarlo(pe, calEntries, settings, av, plx, plxErr, opts.monteCarlo, Math.sqrt(varM), pe.beta);
   return result;
@@ -627,6 +680,21 @@ function distanceFields(
   const sF = (res.fbolErrCgs ?? NaN) / res.fbolCgs;
   const iv = asymmetricIntervals(used, res.radiusRsun, res.lumLsun, sTheta, sF);
   return { distance: used, radiusIntervalRsun: iv.radiusRsun, lumIntervalLsun: iv.lumLsun };
+}
+
+function planckOf(r: ReturnType<typeof resultOf>): PlanckFit {
+  return {
+    teffK: r.teffK,
+    teffErrK: r.teffErrK,
+    teffErrFormalK: r.teffErrFormalK,
+    teffLowerK: r.teffLowerK,
+    chi2Red: r.chi2Red,
+    modelFluxes: r.modelFluxes,
+    flags: r.flags,
+    thetaMas: r.thetaMas,
+    radiusRsun: r.radiusRsun,
+    avMag: r.avMag,
+  };
 }
 
 function percentiles(values: number[]): Interval {

@@ -74,3 +74,34 @@ describe('no_convergence', () => {
     expect(FLAG_EXPLANATIONS.no_convergence).toMatch(/did not converge/);
   });
 });
+
+describe('no_dof', () => {
+  // Degrees of freedom = fitted detections − fitted parameters (common practice for a least-squares fit):
+  // Teff and θ, plus A_V when it is fitted. Upper limits are censored values, not detections.
+  it('is raised when the fit has as many detections as parameters, and not with one more', () => {
+    const model = prepareFitModel(lib, { planckOnly: true });
+    const two = ok(fitStar(model, { id: 'two', bandFluxes: mock(['V', 'Ks'], 5500, 1, 0.02) }));
+    expect(two.nBands).toBe(2);
+    expect(two.flags).toContain('no_dof');
+    expect(two.chi2Red).toBeNull();
+    const three = ok(fitStar(model, { id: 'three', bandFluxes: mock(['V', 'J', 'Ks'], 5500, 1, 0.02) }));
+    expect(three.flags).not.toContain('no_dof');
+    // An upper limit added to two detections does not give a degree of freedom.
+    const limit = mock(['B'], 5500, 1, 0.02).map((b) => ({ ...b, fluxCgs: b.fluxCgs * 3, upperLimit: true }));
+    expect(ok(fitStar(model, { id: 'two+limit', bandFluxes: [...mock(['V', 'Ks'], 5500, 1, 0.02), ...limit] })).flags).toContain('no_dof');
+    expect(FLAG_EXPLANATIONS.no_dof).toMatch(/as many fitted bands as fitted parameters/i);
+  });
+
+  it('counts A_V as a parameter when it is fitted, and is raised by the calibrated fit too', () => {
+    const planck = prepareFitModel(lib, { planckOnly: true, fitAv: true });
+    const r = ok(fitStar(planck, { id: 'av3', bandFluxes: mock(['B', 'V', 'Ks'], 5500, 1, 0.02) }));
+    expect(r.nBands).toBe(3);
+    expect(r.flags).toContain('no_dof');
+    const r4 = ok(fitStar(planck, { id: 'av4', bandFluxes: mock(['B', 'V', 'J', 'Ks'], 5500, 1, 0.02) }));
+    expect(r4.flags).not.toContain('no_dof');
+    const kiln = prepareFitModel(lib);
+    const k = ok(fitStar(kiln, { id: 'kiln2', bandFluxes: mock(['V', 'Ks'], 5500, 1, 0.02) }));
+    expect(k.photosphere).not.toBeNull();
+    expect(k.flags).toContain('no_dof');
+  });
+});

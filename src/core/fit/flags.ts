@@ -19,6 +19,8 @@ export const FLAG_BITS = {
   feh_far: 1 << 13,
   outside_calibration: 1 << 14,
   band_uncalibrated: 1 << 15,
+  no_dof: 1 << 16,
+  rejected: 1 << 17,
   // Set from the input (Gaia RUWE, src/core/input/survey-rules.ts), not by the engine; a high bit
   // keeps clear of the engine's own flags.
   possible_companion: 1 << 24,
@@ -29,6 +31,7 @@ export type FlagCode = keyof typeof FLAG_BITS;
 /** One plain-words line per flag (shown in the UI, README and every export's provenance). */
 export const FLAG_EXPLANATIONS: Record<FlagCode | 'few_bands' | 'no_convergence', string> = {
   outlier: 'At least one band lies more than 3σ from the fitted curve.',
+  rejected: 'One or two bands disagree with the others beyond what their errors allow (a test of the calibrated fit with and without them) and were left out; the excluded list gives each one\'s reason.',
   clipped: 'The worst band (at most two) was dropped and the star refitted; see the excluded list.',
   ir_excess: 'A band beyond ~5 µm (a diagnostic, not a fit input) lies more than 3σ above the curve: possible dust or a companion.',
   temp_lower_bound: 'The photometry sits on the Rayleigh–Jeans tail: only a lower bound on Teff is given (one-sided 95 %), no value.',
@@ -44,6 +47,7 @@ export const FLAG_EXPLANATIONS: Record<FlagCode | 'few_bands' | 'no_convergence'
   feh_far: 'The star\'s [Fe/H] lies more than 0.5 dex from solar: the photosphere is calibrated on near-solar stars.',
   outside_calibration: 'The temperature lies outside the range the photosphere is calibrated on for this class: the Teff error was widened to the Planck-vs-model difference.',
   band_uncalibrated: 'At least one fitted band has no calibration for this class and temperature: the Planck value was used there with an assumed 10 % scatter.',
+  no_dof: 'As many fitted bands as fitted parameters (Teff and θ, and A_V when fitted): the curve passes through every band, so χ² says nothing and the errors are not checked by the data.',
   possible_companion: 'Gaia RUWE above 1.4 (on a star fainter than G 6, where RUWE is reliable): possibly a binary, so the photometry may be the light of two stars.',
   few_bands: 'Too few usable detections for the fit (at least 2, or 3 when A_V is fitted).',
   no_convergence: 'The fit did not converge to a finite result.',
@@ -53,7 +57,9 @@ export const FLAG_EXPLANATIONS: Record<FlagCode | 'few_bands' | 'no_convergence'
 export const FLAG_ORDER: FlagCode[] = [
   'temp_lower_bound',
   'temp_cool_edge',
+  'no_dof',
   'outlier',
+  'rejected',
   'clipped',
   'ir_excess',
   'chi2_high',

@@ -365,7 +365,7 @@ export class RowMapper {
     };
 
 
-    // ---- The survey rules (survey-rules.ts, decision 0027), after a row's values are read.
+    // ---- The survey rules (survey-rules.ts, decision 0028), after a row's values are read.
     const survey = rules.survey ?? {};
     const brightMode = survey.brightLimits ?? 'catalogue';
     const flagsOn = survey.catalogueFlags !== false;

@@ -1,7 +1,7 @@
 // What the surveys themselves say about their photometry: the bright (saturation) limit of each
 // Gaia, 2MASS and AllWISE band, the catalogue flags read beside the magnitudes (2MASS cc_flg, AllWISE
 // cc_flags and ext_flg, Gaia RUWE and the BP/RP flux excess), and which column names are a survey's
-// own. Applied by the column mapping (apply-mapping.ts) as it reads each row; decision 0027.
+// own. Applied by the column mapping (apply-mapping.ts) as it reads each row; decision 0028.
 
 /** Why a value read from a file was left out before the fit (listed with the fit's excluded bands). */
 export type LeftOutReason = 'quality_letter' | 'saturated' | 'catalogue_flag' | 'bp_rp_excess';
@@ -100,7 +100,7 @@ export function bpRpExcessSigma(gMag: number): number {
 
 export const BP_RP_EXCESS_NSIGMA = 3;
 
-/** Where a parallax comes from; decides whether the Gaia DR3 zero-point applies (decision 0027). */
+/** Where a parallax comes from; decides whether the Gaia DR3 zero-point applies (decision 0028). */
 export type ParallaxOrigin = 'gaia_dr3' | 'hipparcos' | 'other';
 
 /**
