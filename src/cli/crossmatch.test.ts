@@ -26,10 +26,12 @@ const truth: CrossmatchStar[] = JSON.parse(readFileSync(path.join(fixtures, 'cro
 // The fixture's C and U values were made 0.4 mag fainter than the star: wrong values for the quality
 // rule to drop. Read as 2MASS native upper limits (a U letter is a 95 % limit) they would bind, as a
 // real limit fainter than its star never would, so these runs keep U out (--no-native-limits); native
-// limits are tested in src/core/input/survey-rules.test.ts.
+// limits are tested in src/core/input/survey-rules.test.ts. The mock photometry is not saturated,
+// but several stars are brighter than G 8, where Gaia's bright-star correction of G applies: these runs
+// switch the bright limits and corrections off (--bright-limits off), tested there too.
 const GAIA_DR3_Z = -0.017;
 function run(...args: string[]) {
-  const r = spawnSync(process.execPath, [bin, ...args, '--planck-only', '--no-native-limits'], { cwd: dir, encoding: 'utf8', timeout: 60_000 });
+  const r = spawnSync(process.execPath, [bin, ...args, '--planck-only', '--no-native-limits', '--bright-limits', 'off'], { cwd: dir, encoding: 'utf8', timeout: 60_000 });
   return { code: r.status, stdout: r.stdout, stderr: r.stderr };
 }
 
@@ -186,8 +188,8 @@ describe('saved mappings', () => {
     expect(run('fit', fits, '-o', 'first.csv', '--save-mapping', 'mapping.json').code).toBe(0);
     const saved = JSON.parse(readFileSync(path.join(dir, 'mapping.json'), 'utf8'));
     expect(saved.mapping.columns.k_m).toEqual({ role: 'mag', band: 'Ks' });
-    // The survey rules given on the command line (run() adds --no-native-limits) are saved with the mapping.
-    expect(saved.rules).toEqual({ quality: [{ column: 'ph_qual', keep: ['A', 'B'] }], survey: { nativeUpperLimits: false } });
+    // The survey rules given on the command line (run() adds --no-native-limits and --bright-limits off) are saved with the mapping.
+    expect(saved.rules).toEqual({ quality: [{ column: 'ph_qual', keep: ['A', 'B'] }], survey: { brightLimits: 'off', nativeUpperLimits: false } });
     const again = run('fit', fits, '-o', 'second.csv', '--mapping', 'mapping.json');
     expect(again.code).toBe(0);
     expect(catalogue('second.csv').rows).toEqual(catalogue('first.csv').rows);

@@ -99,7 +99,8 @@ describe('applyMapping', () => {
       ['HIP101345', 1.19677746e8, 70911.64, 63146550.11304578, 35391.71, 82079181.4213077, 112594.95],
     ]);
     const m = detectMapping(t.columns, t.rows, keys);
-    const r = applyMapping(t, m, m.rules, { bandKeys: keys });
+    // The conversion alone: Gaia's bright-star correction of G (G < 8, survey-rules.ts) is off here.
+    const r = applyMapping(t, m, { ...m.rules, survey: { brightLimits: 'off' } }, { bandKeys: keys });
     expect(r.problems).toEqual([]);
     const byBand = Object.fromEntries(r.stars[0].measurements.map((x) => [x.bandKey, x]));
     expect(byBand.G.mag).toBeCloseTo(5.4923334, 6);
