@@ -65,7 +65,7 @@ export function fitChunk(data: FitChunk, prepared: { model: FitModel; extrapolat
     try {
       if (s.missing) throw new Error(`star ${s.starId} no longer exists in campaign ${data.batch.campaignId}`);
       const { bandFluxes, skipped } = starBandFluxes(prepared.model.library, s.measurements);
-      const fit = fitStar(prepared.model, { id: s.starKey, bandFluxes, parallaxMas: s.parallaxMas, parallaxErrMas: s.parallaxErrMas, avMag: s.avMag, lumClass: s.lumClass ?? null, fehDex: s.fehDex ?? null });
+      const fit = fitStar(prepared.model, { id: s.starKey, bandFluxes, ...s.input });
       rows.push({ jobId: s.jobId, row: resultRow(data.batch, s.starId, fit, bandFluxes, skipped, prepared.extrapolated) });
     } catch (err) {
       errors.push(`${s.starKey || s.starId}: ${err instanceof Error ? err.message : String(err)}`);

@@ -70,6 +70,8 @@ export interface ImportSummary extends CheckSummary {
   starsUpdated: number;
   measurementsCreated: number;
   measurementsUpdated: number;
+  /** Values the input rules left out, kept on record with their reason (decision 0028). */
+  valuesLeftOut: number;
   /** Stars and measurements the campaign holds after the import. */
   campaignStars: number;
   campaignMeasurements: number;

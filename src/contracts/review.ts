@@ -106,6 +106,8 @@ export interface StarSheet {
   campaign: { id: string; name: string; fourEyes: boolean };
   star: { id: number; starKey: string; raDeg: number | null; decDeg: number | null; parallaxMas: number | null; parallaxErrMas: number | null; avMag: number | null };
   measurements: SheetMeasurement[];
+  /** Values the input rules left out at import (quality letter, saturation, a catalogue flag, the BP/RP excess), with why. */
+  leftOut: { bandKey: string; source: string; reason: string; detail: string; uploadName: string | null }[];
   fit: SheetFit | null;
   bands: SheetBand[];
   /**

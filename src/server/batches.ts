@@ -64,6 +64,12 @@ export const batchOptionsInput = z.strictObject(
     // The calibrated photosphere by default, as in the CLI and the core; the Planck fit is stored beside it.
     planckOnly: z.boolean({ error: 'Fitting a blackbody only is either on (true) or off (false).' }).default(false),
     lumClass: z.enum(['auto', 'dwarf', 'giant'], { error: 'The luminosity class must be auto, dwarf or giant.' }).default('auto'),
+    // Subtracted from parallaxes recognised as Gaia DR3 (never Hipparcos ones or a given distance; decision 0028).
+    gaiaParallaxZeroPointMas: z
+      .number({ error: 'The Gaia parallax zero-point must be a number of mas.' })
+      .min(-1, 'The Gaia parallax zero-point must lie within ±1 mas.')
+      .max(1, 'The Gaia parallax zero-point must lie within ±1 mas.')
+      .default(-0.017),
   },
   { error: (issue) => (issue.code === 'unrecognized_keys' ? `Unknown fit option ${issue.keys.map((k) => `"${k}"`).join(', ')}.` : 'The fit options must be an object.') },
 );
@@ -103,6 +109,7 @@ export function toFitOptions(o: z.output<typeof batchOptionsInput>): FitOptions 
     includeLongBands: o.includeLongBands,
     planckOnly: o.planckOnly,
     lumClass: o.lumClass,
+    gaiaParallaxZeroPointMas: o.gaiaParallaxZeroPointMas,
   });
 }
 

@@ -15,7 +15,7 @@ import type Database from 'better-sqlite3';
 import type { AppDatabase } from '../db/client';
 import { getBand, type BandLibrary } from '../core/bands';
 import { extrapolatedBandKeys } from '../core/extinction';
-import { fitStar, prepareFitModel, type FitFailure, type FitModel, type FitOptions, type FitResult } from '../core/fit';
+import { fitStar, prepareFitModel, type FitFailure, type FitModel, type FitOptions, type FitResult, type StarInput } from '../core/fit';
 import { measurementToBandFlux } from '../core/photometry';
 import type { Band, BandFlux } from '../core/types';
 import { findLibrary } from './band-library';
@@ -90,6 +90,40 @@ export interface StarRow {
   av_mag: number | null;
   lum_class?: string | null;
   feh_dex?: number | null;
+  distance_pc?: number | null;
+  distance_lo_pc?: number | null;
+  distance_hi_pc?: number | null;
+  parallax_origin?: string | null;
+  possible_companion?: number | null;
+}
+
+/** A value the input rules left out at import (left_out_values), for the fit's excluded list. */
+export interface LeftOutRow {
+  star_id: number;
+  band_key: string;
+  reason: string;
+  detail: string;
+}
+
+const PARALLAX_ORIGINS = new Set(['gaia_dr3', 'hipparcos', 'other']);
+
+/** The fit's input fields a star row adds beside its photometry (shared by every worker path). */
+export function starRowInput(star: StarRow, leftOut: LeftOutRow[] | undefined): Omit<StarInput, 'id' | 'bandFluxes'> {
+  return {
+    parallaxMas: star.parallax_mas,
+    parallaxErrMas: star.parallax_err_mas,
+    avMag: star.av_mag,
+    lumClass: star.lum_class === 'dwarf' || star.lum_class === 'giant' ? star.lum_class : null,
+    fehDex: star.feh_dex ?? null,
+    distancePc: star.distance_pc ?? null,
+    distanceLoPc: star.distance_lo_pc ?? null,
+    distanceHiPc: star.distance_hi_pc ?? null,
+    parallaxOrigin: star.parallax_origin && PARALLAX_ORIGINS.has(star.parallax_origin) ? (star.parallax_origin as StarInput['parallaxOrigin']) : null,
+    possibleCompanion: star.possible_companion === 1,
+    ...(leftOut && leftOut.length > 0
+      ? { leftOut: leftOut.map((l) => ({ bandKey: l.band_key, reason: l.reason as NonNullable<StarInput['leftOut']>[number]['reason'], detail: l.detail })) }
+      : {}),
+  };
 }
 
 export interface MeasurementRow {
@@ -291,6 +325,7 @@ export function resultRow(batch: BatchInfo, starId: number, fit: FitResult | Fit
       skipped,
       covariance: fit.covariance,
       teffTheta: fit.teffTheta,
+      ...(fit.distance ? { distance: fit.distance, radiusIntervalRsun: fit.radiusIntervalRsun, lumIntervalLsun: fit.lumIntervalLsun } : {}),
       ...(fit.rejection && fit.rejection.sets.length > 0 ? { rejection: fit.rejection } : {}),
       // The Planck fit's own scale and A_V, so the star sheet draws its blackbody.
       planckFit: { thetaMas: finiteOrNull(fit.planck.thetaMas), avMag: finiteOrNull(fit.planck.avMag) },
@@ -323,6 +358,7 @@ export class FitStarRunner {
   private readonly selectBatch;
   private readonly selectStars;
   private readonly selectMeasurements;
+  private readonly selectLeftOut;
   private readonly insertResult;
   private readonly insertMany;
   private readonly selectDone;
@@ -332,7 +368,11 @@ export class FitStarRunner {
     this.sqlite = db.$client;
     this.selectBatch = this.sqlite.prepare('SELECT id, campaign_id, options, band_library_version, software_version FROM batches WHERE id = ?');
     this.selectStars = this.sqlite.prepare(
-      'SELECT id, star_key, parallax_mas, parallax_err_mas, av_mag, lum_class, feh_dex FROM stars WHERE id IN (SELECT value FROM json_each(?))',
+      `SELECT id, star_key, parallax_mas, parallax_err_mas, av_mag, lum_class, feh_dex, distance_pc, distance_lo_pc, distance_hi_pc, parallax_origin, possible_companion
+       FROM stars WHERE id IN (SELECT value FROM json_each(?))`,
+    );
+    this.selectLeftOut = this.sqlite.prepare(
+      'SELECT star_id, band_key, reason, detail FROM left_out_values WHERE star_id IN (SELECT value FROM json_each(?)) ORDER BY star_id, band_key, source',
     );
     this.selectMeasurements = this.sqlite.prepare(
       `SELECT star_id, band_key, source, mag, mag_err, fnu_jy, fnu_err_jy, upper_limit, set_aside_at IS NOT NULL AS set_aside FROM measurements
@@ -410,21 +450,19 @@ export class FitStarRunner {
         if (!list) measurements.set(m.star_id, (list = []));
         list.push(m);
       }
+      const leftOut = new Map<number, LeftOutRow[]>();
+      for (const l of this.selectLeftOut.all(idsJson) as LeftOutRow[]) {
+        let list = leftOut.get(l.star_id);
+        if (!list) leftOut.set(l.star_id, (list = []));
+        list.push(l);
+      }
       const out: ChunkRun = { job, rows: [], errors: [] };
       for (const starId of starIds) {
         const star = stars.get(starId);
         try {
           if (!star) throw new Error(`star ${starId} no longer exists in campaign ${batch.campaignId}`);
           const { bandFluxes, skipped } = starBandFluxes(prepared.model.library, measurements.get(starId) ?? []);
-          const fit = fitStar(prepared.model, {
-            id: star.star_key,
-            bandFluxes,
-            parallaxMas: star.parallax_mas,
-            parallaxErrMas: star.parallax_err_mas,
-            avMag: star.av_mag,
-            lumClass: star.lum_class === 'dwarf' || star.lum_class === 'giant' ? star.lum_class : null,
-            fehDex: star.feh_dex,
-          });
+          const fit = fitStar(prepared.model, { id: star.star_key, bandFluxes, ...starRowInput(star, leftOut.get(starId)) });
           out.rows.push(resultRow(batch, starId, fit, bandFluxes, skipped, prepared.extrapolated));
         } catch (err) {
           out.errors.push({ starId, starKey: star?.star_key ?? null, error: err instanceof Error ? err.message : String(err) });

@@ -21,7 +21,8 @@
 // jitter, lock + stalled checks). A chunk that used its last attempt is buried here: its stars
 // that still have no result get a failure result naming the error, as with the SQLite backend.
 import type { AppDatabase } from '../db/client';
-import { FitStarRunner, bandLibraryByVersion, isFitJob, jobStarIds, type BatchInfo, type FitResultRow, type MeasurementRow } from './fit-job';
+import { FitStarRunner, bandLibraryByVersion, isFitJob, jobStarIds, starRowInput, type BatchInfo, type FitResultRow, type LeftOutRow, type MeasurementRow, type StarRow } from './fit-job';
+import type { StarInput } from '../core/fit';
 import type { ClaimedJob } from './queue';
 
 export const FIT_QUEUE = 'starkiln-fit';
@@ -42,11 +43,8 @@ export interface ChunkStar {
   jobId: number;
   starId: number;
   starKey: string;
-  parallaxMas: number | null;
-  parallaxErrMas: number | null;
-  avMag: number | null;
-  lumClass?: 'dwarf' | 'giant' | null;
-  fehDex?: number | null;
+  /** The star's own fit inputs beside its photometry (starRowInput: parallax, distance, class, left-out values …). */
+  input: Omit<StarInput, 'id' | 'bandFluxes'>;
   measurements: MeasurementRow[];
   /** The star was deleted after the batch started. */
   missing?: boolean;
@@ -108,7 +106,11 @@ export class RedisDispatchStore {
     this.sqlite = db.$client;
     this.stmts = {
       relabel: this.sqlite.prepare(`UPDATE jobs SET lease_owner = ? WHERE id = ? AND status = 'leased' AND lease_owner = ?`),
-      stars: this.sqlite.prepare('SELECT id, star_key, parallax_mas, parallax_err_mas, av_mag, lum_class, feh_dex FROM stars WHERE id IN (SELECT value FROM json_each(?))'),
+      stars: this.sqlite.prepare(
+        `SELECT id, star_key, parallax_mas, parallax_err_mas, av_mag, lum_class, feh_dex, distance_pc, distance_lo_pc, distance_hi_pc, parallax_origin, possible_companion
+         FROM stars WHERE id IN (SELECT value FROM json_each(?))`,
+      ),
+      leftOut: this.sqlite.prepare('SELECT star_id, band_key, reason, detail FROM left_out_values WHERE star_id IN (SELECT value FROM json_each(?)) ORDER BY star_id, band_key, source'),
       // Same order as FitStarRunner: the choice between two values in one band depends on it.
       measurements: this.sqlite.prepare(
         `SELECT star_id, band_key, source, mag, mag_err, fnu_jy, fnu_err_jy, upper_limit, set_aside_at IS NOT NULL AS set_aside FROM measurements
@@ -148,7 +150,6 @@ export class RedisDispatchStore {
   buildChunks(claimOwner: string, jobs: ClaimedJob[]): { chunks: { id: string; data: FitChunk }[]; foreign: ClaimedJob[] } {
     const foreign = jobs.filter((j) => !isFitJob(j.kind) || !j.batchId);
     const chunks: { id: string; data: FitChunk }[] = [];
-    type StarRow = { id: number; star_key: string; parallax_mas: number | null; parallax_err_mas: number | null; av_mag: number | null; lum_class: string | null; feh_dex: number | null };
     const build = this.sqlite.transaction(() => {
       for (const job of jobs) {
         if (!isFitJob(job.kind) || !job.batchId) continue;
@@ -169,6 +170,12 @@ export class RedisDispatchStore {
           if (!list) measurements.set(m.star_id, (list = []));
           list.push(m);
         }
+        const leftOut = new Map<number, LeftOutRow[]>();
+        for (const l of this.stmts.leftOut.all(idsJson) as LeftOutRow[]) {
+          let list = leftOut.get(l.star_id);
+          if (!list) leftOut.set(l.star_id, (list = []));
+          list.push(l);
+        }
         const chunkStars: ChunkStar[] = [];
         for (const starId of starIds) {
           const s = stars.get(starId);
@@ -178,11 +185,7 @@ export class RedisDispatchStore {
             jobId: job.id,
             starId,
             starKey: s?.star_key ?? '',
-            parallaxMas: s?.parallax_mas ?? null,
-            parallaxErrMas: s?.parallax_err_mas ?? null,
-            avMag: s?.av_mag ?? null,
-            lumClass: s?.lum_class === 'dwarf' || s?.lum_class === 'giant' ? s.lum_class : null,
-            fehDex: s?.feh_dex ?? null,
+            input: s ? starRowInput(s, leftOut.get(starId)) : {},
             measurements: s ? (measurements.get(starId) ?? []) : [],
             ...(s ? {} : { missing: true }),
           });

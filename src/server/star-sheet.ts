@@ -24,6 +24,11 @@ export const EXCLUSION_LABELS: Record<string, string> = {
   clipped: 'dropped by clipping (worst band)',
   rejected: 'rejected as inconsistent with the other bands',
   no_valid_error: 'no usable error, so it cannot be weighted',
+  // The input rules' reasons (src/core/input/survey-rules.ts), for values left out at import.
+  quality_letter: 'left out by its quality letter',
+  saturated: 'saturated: brighter than the survey\'s bright limit',
+  catalogue_flag: 'left out by the catalogue\'s contamination or extended-source flag',
+  bp_rp_excess: 'left out for a large BP/RP flux excess',
 };
 
 export const OUTLIER_SIGMA = 3;
@@ -271,6 +276,14 @@ export function starSheet(db: AppDatabase, campaignId: string, starRef: string |
     campaign: { id: campaign.id, name: campaign.name, fourEyes: getReviewSettings(db, campaignId).fourEyes },
     star: { id: star.id, starKey: star.star_key, raDeg: star.ra_deg, decDeg: star.dec_deg, parallaxMas: star.parallax_mas, parallaxErrMas: star.parallax_err_mas, avMag: star.av_mag },
     measurements,
+    leftOut: (
+      db.$client
+        .prepare(
+          `SELECT l.band_key, l.source, l.reason, l.detail, u.original_name FROM left_out_values l LEFT JOIN uploads u ON u.id = l.upload_id
+           WHERE l.star_id = ? ORDER BY l.band_key, l.source`,
+        )
+        .all(star.id) as { band_key: string; source: string; reason: string; detail: string; original_name: string | null }[]
+    ).map((l) => ({ bandKey: l.band_key, source: l.source, reason: l.reason, detail: l.detail, uploadName: l.original_name })),
     fit,
     bands,
     curve,

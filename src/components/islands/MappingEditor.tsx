@@ -365,7 +365,7 @@ function TableMapping({ campaignId, upload, onChanged }: { campaignId: string; u
         </div>
         {result && (
           <p className="notice notice-ok" role="status" data-testid="import-result">
-            Imported {result.starsCreated} new and {result.starsUpdated} existing stars: {result.measurementsCreated} new values, {result.measurementsUpdated} replaced (source “{result.source}”). The campaign now holds{' '}
+            Imported {result.starsCreated} new and {result.starsUpdated} existing stars: {result.measurementsCreated} new values, {result.measurementsUpdated} replaced{result.valuesLeftOut ? `, ${result.valuesLeftOut} left out by the input rules (kept with their reasons)` : ''} (source “{result.source}”). The campaign now holds{' '}
             <a href={`/campaigns/${campaignId}/stars`}>{result.campaignStars} stars</a>. <a href={`/campaigns/${campaignId}/batches`}>Start a batch fit</a>
           </p>
         )}

@@ -427,6 +427,8 @@ export class RowMapper {
       }
       if (flagsOn && ruweCol !== undefined) {
         const ruwe = num(ruweCol, 'RUWE');
+        // Read: the star is then not a possible companion unless the rule says so (an import stores this).
+        if (ruwe !== undefined) star.possibleCompanion = false;
         if (ruwe !== undefined && ruwe > RUWE_MAX) {
           if (g === undefined || g >= RUWE_BRIGHT_G) {
             star.possibleCompanion = true;

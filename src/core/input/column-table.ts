@@ -166,7 +166,7 @@ export interface MappedStar {
   distanceHiPc?: number;
   /** Where the parallax comes from (set whenever a parallax is). */
   parallaxOrigin?: ParallaxOrigin;
-  /** Gaia RUWE above 1.4 on a star not too bright for it: possibly a binary, photometry may be blended. */
+  /** Gaia RUWE above 1.4 on a star not too bright for it: possibly a binary, photometry may be blended (false: RUWE read, no flag; absent: no RUWE). */
   possibleCompanion?: boolean;
   /** Values in the file left out by the quality and survey rules, each with its reason. */
   leftOut?: LeftOutValue[];

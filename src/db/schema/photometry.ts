@@ -93,6 +93,10 @@ export const mappingPresets = sqliteTable(
 
 export const LUM_CLASSES = ['dwarf', 'giant'] as const;
 export type LumClass = (typeof LUM_CLASSES)[number];
+/** Where a parallax comes from (src/core/input/survey-rules.ts ParallaxOrigin). */
+export const PARALLAX_ORIGINS = ['gaia_dr3', 'hipparcos', 'other'] as const;
+/** Why the input rules left a value out (src/core/input/survey-rules.ts LeftOutReason). */
+export const LEFT_OUT_REASONS = ['quality_letter', 'saturated', 'catalogue_flag', 'bp_rp_excess'] as const;
 
 export const stars = sqliteTable(
   'stars',
@@ -110,10 +114,40 @@ export const stars = sqliteTable(
     // The star's own luminosity class (input column lum_class) and [Fe/H] (input column feh), when given.
     lumClass: text('lum_class', { enum: LUM_CLASSES }),
     fehDex: real('feh_dex'),
+    // A given distance (input columns distance_pc, distance_lo_pc, distance_hi_pc: the 68 % interval),
+    // used instead of 1/parallax; where the parallax comes from (Gaia DR3 ones get the zero-point);
+    // Gaia RUWE above 1.4 on a star fainter than G 6 (decision 0028).
+    distancePc: real('distance_pc'),
+    distanceLoPc: real('distance_lo_pc'),
+    distanceHiPc: real('distance_hi_pc'),
+    parallaxOrigin: text('parallax_origin', { enum: PARALLAX_ORIGINS }),
+    possibleCompanion: integer('possible_companion', { mode: 'boolean' }).notNull().default(false),
     createdAt: integer('created_at', { mode: 'timestamp_ms' }).notNull().default(now),
     updatedAt: integer('updated_at', { mode: 'timestamp_ms' }).notNull().default(now),
   },
   (t) => [uniqueIndex('stars_campaign_key_unique').on(t.campaignId, t.starKey)],
+);
+
+/**
+ * A value of a file the input rules left out at import (quality letter, saturation, a catalogue
+ * flag, the BP/RP excess; src/core/input/survey-rules.ts), with the reason in words. Kept so every
+ * later fit lists it among its excluded bands; one per star, band and source, as measurements.
+ */
+export const leftOutValues = sqliteTable(
+  'left_out_values',
+  {
+    id: integer('id').primaryKey({ autoIncrement: true }),
+    starId: integer('star_id')
+      .notNull()
+      .references(() => stars.id, { onDelete: 'cascade' }),
+    bandKey: text('band_key').notNull(),
+    source: text('source').notNull(),
+    uploadId: text('upload_id').references(() => uploads.id, { onDelete: 'set null' }),
+    reason: text('reason', { enum: LEFT_OUT_REASONS }).notNull(),
+    detail: text('detail').notNull(),
+    createdAt: integer('created_at', { mode: 'timestamp_ms' }).notNull().default(now),
+  },
+  (t) => [uniqueIndex('left_out_values_star_band_source_unique').on(t.starId, t.bandKey, t.source)],
 );
 
 /**

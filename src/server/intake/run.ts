@@ -6,7 +6,7 @@
 import { createHash } from 'node:crypto';
 import { existsSync, rmSync } from 'node:fs';
 import { eq } from 'drizzle-orm';
-import { RowMapper } from '../../core/input/apply-mapping';
+import { RowMapper, type MappedStar } from '../../core/input/apply-mapping';
 import { detectMapping, type Mapping, type MappingRules, type TableCell } from '../../core/input/mapping';
 import { previewRows } from '../../core/input/cells';
 import { UnreadableFile, type ImageObservation } from '../../core/input/table-file';
@@ -254,7 +254,11 @@ async function importJob(db: AppDatabase, job: JobRow, u: UploadRow, hooks: RunH
   const source = input.source && input.source !== '' ? input.source : u.originalName;
   const keys = bandKeys(db);
   let check: CheckSummary;
-  let stars: Iterable<{ id: string; raDeg?: number; decDeg?: number; parallaxMas?: number; parallaxErrMas?: number; avMag?: number; lumClass?: 'dwarf' | 'giant'; fehDex?: number; measurements: { bandKey: string; mag?: number; magErr?: number; fnuJy?: number; fnuErrJy?: number; upperLimit?: boolean; quality?: string }[] }>;
+  let stars: Iterable<
+    Pick<MappedStar, 'id' | 'raDeg' | 'decDeg' | 'parallaxMas' | 'parallaxErrMas' | 'avMag' | 'lumClass' | 'fehDex' | 'distancePc' | 'distanceLoPc' | 'distanceHiPc' | 'parallaxOrigin' | 'possibleCompanion' | 'leftOut'> & {
+      measurements: { bandKey: string; mag?: number; magErr?: number; fnuJy?: number; fnuErrJy?: number; upperLimit?: boolean; quality?: string }[];
+    }
+  >;
   let observationJson: string | null = null;
   let fromStaging = false;
   if (u.detectedFormat === 'fits-image' && u.status !== 'rejected') {
@@ -294,12 +298,25 @@ async function importJob(db: AppDatabase, job: JobRow, u: UploadRow, hooks: RunH
   const nowMs = Date.now();
   const findStar = sqlite.prepare('SELECT id FROM stars WHERE campaign_id = ? AND star_key = ?');
   const insertStar = sqlite.prepare(
-    'INSERT INTO stars (campaign_id, star_key, ra_deg, dec_deg, parallax_mas, parallax_err_mas, av_mag, lum_class, feh_dex, created_at, updated_at) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)',
+    `INSERT INTO stars (campaign_id, star_key, ra_deg, dec_deg, parallax_mas, parallax_err_mas, av_mag, lum_class, feh_dex,
+       distance_pc, distance_lo_pc, distance_hi_pc, parallax_origin, possible_companion, created_at, updated_at)
+     VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, coalesce(?, 0), ?, ?)`,
   );
   // Re-uploading a star keeps what it had where the new file is empty, and takes the new value elsewhere.
   const updateStar = sqlite.prepare(
-    'UPDATE stars SET ra_deg = coalesce(?, ra_deg), dec_deg = coalesce(?, dec_deg), parallax_mas = coalesce(?, parallax_mas), parallax_err_mas = coalesce(?, parallax_err_mas), av_mag = coalesce(?, av_mag), lum_class = coalesce(?, lum_class), feh_dex = coalesce(?, feh_dex), updated_at = ? WHERE id = ?',
+    `UPDATE stars SET ra_deg = coalesce(?, ra_deg), dec_deg = coalesce(?, dec_deg), parallax_mas = coalesce(?, parallax_mas), parallax_err_mas = coalesce(?, parallax_err_mas),
+       av_mag = coalesce(?, av_mag), lum_class = coalesce(?, lum_class), feh_dex = coalesce(?, feh_dex), distance_pc = coalesce(?, distance_pc),
+       distance_lo_pc = coalesce(?, distance_lo_pc), distance_hi_pc = coalesce(?, distance_hi_pc), parallax_origin = coalesce(?, parallax_origin),
+       possible_companion = coalesce(?, possible_companion), updated_at = ? WHERE id = ?`,
   );
+  // A value the input rules left out replaces what the same source gave before for that band, and
+  // a value given again clears an earlier left-out mark of the same source (decision 0028).
+  const upsertLeftOut = sqlite.prepare(
+    `INSERT INTO left_out_values (star_id, band_key, source, upload_id, reason, detail, created_at) VALUES (?, ?, ?, ?, ?, ?, ?)
+     ON CONFLICT (star_id, band_key, source) DO UPDATE SET upload_id = excluded.upload_id, reason = excluded.reason, detail = excluded.detail, created_at = excluded.created_at`,
+  );
+  const dropMeasurement = sqlite.prepare('DELETE FROM measurements WHERE star_id = ? AND band_key = ? AND source = ?');
+  const dropLeftOut = sqlite.prepare('DELETE FROM left_out_values WHERE star_id = ? AND band_key = ? AND source = ?');
   const findMeasurement = sqlite.prepare('SELECT id FROM measurements WHERE star_id = ? AND band_key = ? AND source = ?');
   const insertMeasurement = sqlite.prepare(
     'INSERT INTO measurements (star_id, band_key, source, upload_id, mag, mag_err, fnu_jy, fnu_err_jy, upper_limit, quality, observation, created_at) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?, ?)',
@@ -307,7 +324,7 @@ async function importJob(db: AppDatabase, job: JobRow, u: UploadRow, hooks: RunH
   const updateMeasurement = sqlite.prepare(
     'UPDATE measurements SET upload_id = ?, mag = ?, mag_err = ?, fnu_jy = ?, fnu_err_jy = ?, upper_limit = ?, quality = ?, observation = ? WHERE id = ?',
   );
-  const counts = { starsCreated: 0, starsUpdated: 0, measurementsCreated: 0, measurementsUpdated: 0 };
+  const counts = { starsCreated: 0, starsUpdated: 0, measurementsCreated: 0, measurementsUpdated: 0, valuesLeftOut: 0 };
   const n = <T>(v: T | undefined): T | null => (v === undefined ? null : v);
   const campaignId = u.campaignId;
   hooks.progress?.(job.id, { rowsRead: check.rowCount, starsWritten: 0, phase: 'importing' });
@@ -318,18 +335,26 @@ async function importJob(db: AppDatabase, job: JobRow, u: UploadRow, hooks: RunH
       for (const s of stars) {
         const existing = findStar.get(campaignId, s.id) as { id: number } | undefined;
         let starId: number;
+        const companion = s.possibleCompanion === undefined ? null : s.possibleCompanion ? 1 : 0;
+        const starValues = [n(s.raDeg), n(s.decDeg), n(s.parallaxMas), n(s.parallaxErrMas), n(s.avMag), n(s.lumClass), n(s.fehDex), n(s.distancePc), n(s.distanceLoPc), n(s.distanceHiPc), n(s.parallaxOrigin), companion] as const;
         if (existing) {
-          updateStar.run(n(s.raDeg), n(s.decDeg), n(s.parallaxMas), n(s.parallaxErrMas), n(s.avMag), n(s.lumClass), n(s.fehDex), nowMs, existing.id);
+          updateStar.run(...starValues, nowMs, existing.id);
           starId = existing.id;
           counts.starsUpdated++;
         } else {
-          starId = Number(insertStar.run(campaignId, s.id, n(s.raDeg), n(s.decDeg), n(s.parallaxMas), n(s.parallaxErrMas), n(s.avMag), n(s.lumClass), n(s.fehDex), nowMs, nowMs).lastInsertRowid);
+          starId = Number(insertStar.run(campaignId, s.id, ...starValues, nowMs, nowMs).lastInsertRowid);
           counts.starsCreated++;
+        }
+        for (const l of s.leftOut ?? []) {
+          if (existing) dropMeasurement.run(starId, l.bandKey, source);
+          upsertLeftOut.run(starId, l.bandKey, source, u.id, l.reason, l.detail, nowMs);
+          counts.valuesLeftOut++;
         }
         for (const m of s.measurements) {
           const values = [u.id, n(m.mag), n(m.magErr), n(m.fnuJy), n(m.fnuErrJy), m.upperLimit ? 1 : 0, m.quality ?? null, observationJson] as const;
           // A star created just now has no measurements yet: no lookup needed.
           const prior = existing ? (findMeasurement.get(starId, m.bandKey, source) as { id: number } | undefined) : undefined;
+          if (existing) dropLeftOut.run(starId, m.bandKey, source);
           if (prior) {
             updateMeasurement.run(...values, prior.id);
             counts.measurementsUpdated++;
