@@ -8,6 +8,7 @@ import path from 'node:path';
 import { afterEach, beforeEach, describe, expect, it } from 'vitest';
 import type { APIContext } from 'astro';
 import { projectRoot } from '../src/db/paths';
+import { gaiaBrightCorrection } from '../src/core/input/survey-rules';
 import { measurements, stars, uploads } from '../src/db/schema';
 import type { Actor } from '../src/server/context';
 import { IntakeError } from '../src/server/intake/errors';
@@ -174,10 +175,12 @@ describe('every reader path through upload → check → import', () => {
     const r = await importNow(u.id, { mapping, rules: u.detected!.rules, importValidRows: true });
     expect(r.starsCreated).toBe(checked.starCount);
     expect(r.starsCreated + r.rejectedRows).toBe(96);
-    // HIP 101345 = HD 195564: Gaia G from the flux reproduces the archive's phot_g_mean_mag 5.4923334.
+    // HIP 101345 = HD 195564: Gaia G from the flux reproduces the archive's phot_g_mean_mag 5.4923334,
+    // then moved by Gaia's bright-star correction of G (EDR3 documentation §5.5.2, eq. 5.29: +0.0120 at G 5.49).
     const s = t.db.select().from(stars).where(eq(stars.starKey, 'HD195564')).get()!;
     const g = t.db.select().from(measurements).where(eq(measurements.starId, s.id)).all().find((m) => m.bandKey === 'G')!;
-    expect(g.mag).toBeCloseTo(5.4923334, 6);
+    expect(g.mag).toBeCloseTo(5.4923334 + gaiaBrightCorrection('G', 5.4923334)!, 6);
+    expect(gaiaBrightCorrection('G', 5.4923334)).toBeCloseTo(0.0120, 4);
     // Its 2MASS letters are DDE: no 2MASS band passes the A/B rule.
     const bands = t.db.select().from(measurements).where(eq(measurements.starId, s.id)).all().map((m) => m.bandKey);
     expect(bands).not.toContain('J');
