@@ -13,6 +13,7 @@
 // batch ends with exactly one result (fit_results is unique on batch and star).
 import type Database from 'better-sqlite3';
 import type { AppDatabase } from '../db/client';
+import { PARALLAX_ORIGINS } from '../db/schema';
 import { getBand, type BandLibrary } from '../core/bands';
 import { extrapolatedBandKeys } from '../core/extinction';
 import { fitStar, prepareFitModel, type FitFailure, type FitModel, type FitOptions, type FitResult, type StarInput } from '../core/fit';
@@ -105,7 +106,17 @@ export interface LeftOutRow {
   detail: string;
 }
 
-const PARALLAX_ORIGINS = new Set(['gaia_dr3', 'hipparcos', 'other']);
+
+/** Rows grouped by their star, in the order read. */
+function byStar<T extends { star_id: number }>(rows: T[]): Map<number, T[]> {
+  const out = new Map<number, T[]>();
+  for (const r of rows) {
+    let list = out.get(r.star_id);
+    if (!list) out.set(r.star_id, (list = []));
+    list.push(r);
+  }
+  return out;
+}
 
 /** The fit's input fields a star row adds beside its photometry (shared by every worker path). */
 export function starRowInput(star: StarRow, leftOut: LeftOutRow[] | undefined): Omit<StarInput, 'id' | 'bandFluxes'> {
@@ -118,7 +129,7 @@ export function starRowInput(star: StarRow, leftOut: LeftOutRow[] | undefined): 
     distancePc: star.distance_pc ?? null,
     distanceLoPc: star.distance_lo_pc ?? null,
     distanceHiPc: star.distance_hi_pc ?? null,
-    parallaxOrigin: star.parallax_origin && PARALLAX_ORIGINS.has(star.parallax_origin) ? (star.parallax_origin as StarInput['parallaxOrigin']) : null,
+    parallaxOrigin: PARALLAX_ORIGINS.find((o) => o === star.parallax_origin) ?? null,
     possibleCompanion: star.possible_companion === 1,
     ...(leftOut && leftOut.length > 0
       ? { leftOut: leftOut.map((l) => ({ bandKey: l.band_key, reason: l.reason as NonNullable<StarInput['leftOut']>[number]['reason'], detail: l.detail })) }
@@ -419,6 +430,18 @@ export class FitStarRunner {
   }
 
   /**
+   * What the fit needs of these stars besides the batch: their rows, their measurements (in the
+   * order that decides between two values in one band) and the values left out at import. Used by
+   * the SQLite worker and by the Redis backend's chunk builder alike.
+   */
+  readStars(starIds: number[]): { stars: Map<number, StarRow>; measurements: Map<number, MeasurementRow[]>; leftOut: Map<number, LeftOutRow[]> } {
+    const idsJson = JSON.stringify(starIds);
+    const stars = new Map<number, StarRow>();
+    for (const s of this.selectStars.all(idsJson) as StarRow[]) stars.set(s.id, s);
+    return { stars, measurements: byStar(this.selectMeasurements.all(idsJson) as MeasurementRow[]), leftOut: byStar(this.selectLeftOut.all(idsJson) as LeftOutRow[]) };
+  }
+
+  /**
    * Fits claimed fit jobs (any mix of batches), skipping stars that already have a result of their
    * batch (written by an earlier attempt of the same chunk). Nothing is written here.
    */
@@ -441,21 +464,7 @@ export class FitStarRunner {
         const done = new Set(this.selectDone.all(batch.id, JSON.stringify(starIds)) as number[]);
         if (done.size > 0) starIds = starIds.filter((id) => !done.has(id));
       }
-      const idsJson = JSON.stringify(starIds);
-      const stars = new Map<number, StarRow>();
-      for (const s of this.selectStars.all(idsJson) as StarRow[]) stars.set(s.id, s);
-      const measurements = new Map<number, MeasurementRow[]>();
-      for (const m of this.selectMeasurements.all(idsJson) as MeasurementRow[]) {
-        let list = measurements.get(m.star_id);
-        if (!list) measurements.set(m.star_id, (list = []));
-        list.push(m);
-      }
-      const leftOut = new Map<number, LeftOutRow[]>();
-      for (const l of this.selectLeftOut.all(idsJson) as LeftOutRow[]) {
-        let list = leftOut.get(l.star_id);
-        if (!list) leftOut.set(l.star_id, (list = []));
-        list.push(l);
-      }
+      const { stars, measurements, leftOut } = this.readStars(starIds);
       const out: ChunkRun = { job, rows: [], errors: [] };
       for (const starId of starIds) {
         const star = stars.get(starId);

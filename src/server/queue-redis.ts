@@ -21,7 +21,7 @@
 // jitter, lock + stalled checks). A chunk that used its last attempt is buried here: its stars
 // that still have no result get a failure result naming the error, as with the SQLite backend.
 import type { AppDatabase } from '../db/client';
-import { FitStarRunner, bandLibraryByVersion, isFitJob, jobStarIds, starRowInput, type BatchInfo, type FitResultRow, type LeftOutRow, type MeasurementRow, type StarRow } from './fit-job';
+import { FitStarRunner, bandLibraryByVersion, isFitJob, jobStarIds, starRowInput, type BatchInfo, type FitResultRow, type MeasurementRow } from './fit-job';
 import type { StarInput } from '../core/fit';
 import type { ClaimedJob } from './queue';
 
@@ -106,16 +106,6 @@ export class RedisDispatchStore {
     this.sqlite = db.$client;
     this.stmts = {
       relabel: this.sqlite.prepare(`UPDATE jobs SET lease_owner = ? WHERE id = ? AND status = 'leased' AND lease_owner = ?`),
-      stars: this.sqlite.prepare(
-        `SELECT id, star_key, parallax_mas, parallax_err_mas, av_mag, lum_class, feh_dex, distance_pc, distance_lo_pc, distance_hi_pc, parallax_origin, possible_companion
-         FROM stars WHERE id IN (SELECT value FROM json_each(?))`,
-      ),
-      leftOut: this.sqlite.prepare('SELECT star_id, band_key, reason, detail FROM left_out_values WHERE star_id IN (SELECT value FROM json_each(?)) ORDER BY star_id, band_key, source'),
-      // Same order as FitStarRunner: the choice between two values in one band depends on it.
-      measurements: this.sqlite.prepare(
-        `SELECT star_id, band_key, source, mag, mag_err, fnu_jy, fnu_err_jy, upper_limit, set_aside_at IS NOT NULL AS set_aside FROM measurements
-         WHERE star_id IN (SELECT value FROM json_each(?)) ORDER BY star_id, band_key, source`,
-      ),
       renewAll: this.sqlite.prepare(`UPDATE jobs SET lease_expires_at = ? WHERE status = 'leased' AND lease_owner LIKE 'redis:%'`),
       inFlight: this.sqlite.prepare(`SELECT coalesce(sum(stars_left), 0) FROM jobs WHERE status = 'leased' AND lease_owner LIKE 'redis:%'`).pluck(),
       done: this.sqlite.prepare('SELECT star_id FROM fit_results WHERE batch_id = ? AND star_id IN (SELECT value FROM json_each(?))').pluck(),
@@ -161,21 +151,8 @@ export class RedisDispatchStore {
           const done = new Set(this.stmts.done.all(batchId, JSON.stringify(starIds)) as number[]);
           starIds = starIds.filter((s) => !done.has(s));
         }
-        const idsJson = JSON.stringify(starIds);
-        const stars = new Map<number, StarRow>();
-        for (const s of this.stmts.stars.all(idsJson) as StarRow[]) stars.set(s.id, s);
-        const measurements = new Map<number, MeasurementRow[]>();
-        for (const m of this.stmts.measurements.all(idsJson) as MeasurementRow[]) {
-          let list = measurements.get(m.star_id);
-          if (!list) measurements.set(m.star_id, (list = []));
-          list.push(m);
-        }
-        const leftOut = new Map<number, LeftOutRow[]>();
-        for (const l of this.stmts.leftOut.all(idsJson) as LeftOutRow[]) {
-          let list = leftOut.get(l.star_id);
-          if (!list) leftOut.set(l.star_id, (list = []));
-          list.push(l);
-        }
+        // The same reads as the SQLite worker's (FitStarRunner.readStars), inside this transaction.
+        const { stars, measurements, leftOut } = this.runner.readStars(starIds);
         const chunkStars: ChunkStar[] = [];
         for (const starId of starIds) {
           const s = stars.get(starId);
