@@ -389,9 +389,10 @@ export class RowMapper {
     const applySurveyRules = (star: MappedStar, candidates: Candidate[], leftOut: LeftOutValue[]) => {
       if (star.parallaxMas !== undefined) star.parallaxOrigin = parallaxOrigin;
       const magOf = (key: string) => candidates.find((c) => c.key === key && c.m.mag !== undefined && !c.m.upperLimit)?.m.mag;
-      // Gaia's own bright-star corrections first (survey-rules.ts): the bright limits, RUWE and the
-      // flux excess then see corrected magnitudes. Brighter than the relations' range the bright limit
-      // leaves the value out below.
+      // Gaia's own bright-star corrections (survey-rules.ts) move the values the fit gets. The bright
+      // limits and the flux-excess test below keep to the catalogue's own magnitudes (`raw`), since the
+      // relations' ranges and the excess are stated on those; brighter than a relation's range the
+      // bright limit leaves the value out.
       const raw = { G: magOf('G'), BP: magOf('BP'), RP: magOf('RP') };
       /** The catalogue's value of each corrected candidate. */
       const corrected = new Map<Candidate, number>();
@@ -414,14 +415,14 @@ export class RowMapper {
         // The excess test (Riello et al. 2021) is stated on the catalogue's own values, so it takes the
         // uncorrected magnitudes; where BP needs its saturation correction the factor itself comes from
         // saturated fluxes and says nothing of contamination: not tested, counted in one report line.
-        const bp = raw.BP;
-        const rp = raw.RP;
-        if (c !== undefined && raw.G !== undefined && raw.G < GAIA_BRIGHT_CORRECTION_RANGE.BP.to && bp !== undefined && rp !== undefined) summary.excessTooBright(cur.row, cur.line);
-        else if (c !== undefined && raw.G !== undefined && bp !== undefined && rp !== undefined) {
-          const cStar = correctedBpRpExcess(c, bp - rp);
-          const sigma = bpRpExcessSigma(raw.G);
-          if (Math.abs(cStar) > BP_RP_EXCESS_NSIGMA * sigma) {
-            excessOut = `corrected BP/RP flux excess C* = ${fmt(cStar)} is beyond ${BP_RP_EXCESS_NSIGMA}σ (σ = ${fmt(sigma)} at G ${fmt(raw.G)}; Riello et al. 2021): BP and RP hold light from elsewhere`;
+        if (c !== undefined && raw.G !== undefined && raw.BP !== undefined && raw.RP !== undefined) {
+          if (raw.G < GAIA_BRIGHT_CORRECTION_RANGE.BP.to) summary.excessTooBright(cur.row, cur.line);
+          else {
+            const cStar = correctedBpRpExcess(c, raw.BP - raw.RP);
+            const sigma = bpRpExcessSigma(raw.G);
+            if (Math.abs(cStar) > BP_RP_EXCESS_NSIGMA * sigma) {
+              excessOut = `corrected BP/RP flux excess C* = ${fmt(cStar)} is beyond ${BP_RP_EXCESS_NSIGMA}σ (σ = ${fmt(sigma)} at G ${fmt(raw.G)}; Riello et al. 2021): BP and RP hold light from elsewhere`;
+            }
           }
         }
       }
@@ -446,10 +447,9 @@ export class RowMapper {
         const m = c.m;
         if (m.mag !== undefined && (c.native || (brightMode !== 'off' && (brightMode === 'all' || c.catalogue)))) {
           const limit = brightLimitFor(c.key, survey);
-          // Gaia's limits are on the catalogue's own magnitudes, as the corrections' ranges are.
+          // On the catalogue's own magnitudes, as the corrections' ranges are (BP's limit is on G).
           const own = corrected.get(c) ?? m.mag;
-          const onBand = limit?.onBand as keyof typeof raw | undefined;
-          const on = onBand ? (raw[onBand] ?? magOf(onBand) ?? own) : own;
+          const on = limit?.onBand ? (raw[limit.onBand as keyof typeof raw] ?? own) : own;
           if (limit && on < limit.mag) {
             const what = c.native ? `${fmt(own)} (a native upper limit)` : fmt(own);
             out(c, 'saturated', `${c.key} ${what}${limit.onBand && limit.onBand !== c.key ? ` with ${limit.onBand} ${fmt(on)}` : ''} is brighter than the bright limit ${limit.onBand && limit.onBand !== c.key ? `${limit.onBand} ` : ''}${limit.mag} mag (${limit.source})`);
