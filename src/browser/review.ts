@@ -69,3 +69,13 @@ export function useBulkDecide(campaignId: string) {
     onSuccess: () => qc.invalidateQueries({ queryKey: reviewKeys.all }),
   });
 }
+
+/** Set values aside (use: false, with a reason) or use them again: POST /api/campaigns/:id/measurements/use (analysts, admins). */
+export function useMeasurementUse(campaignId: string) {
+  const qc = useQueryClient();
+  return useMutation({
+    mutationFn: (body: { measurementIds: number[]; use: boolean; reason?: string }) =>
+      apiFetch<{ use: boolean; changed: number; unchanged: number; starKeys: string[] }>(`/api/campaigns/${encodeURIComponent(campaignId)}/measurements/use`, { method: 'POST', body }),
+    onSuccess: () => qc.invalidateQueries({ queryKey: reviewKeys.all }),
+  });
+}

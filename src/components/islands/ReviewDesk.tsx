@@ -1,6 +1,7 @@
 // The review desk: the queue of fits waiting for review (server-paged and filtered), the current
-// star's numbers, flags and small SED, and decisions from the keyboard — a accept, f flag (then 1–7
-// for the reason, a comment, Enter), j/k or the arrow keys next/previous, ? the list of keys.
+// star's numbers, flags and small SED, what FITS images gave the fit (analysts set such a value
+// aside there), and decisions from the keyboard — a accept, f flag (then 1–7 for the reason, a
+// comment, Enter), j/k or the arrow keys next/previous, ? the list of keys.
 // Bulk actions apply one decision to every fit the filter selects. Hydrated with client:only="react"
 // (the plot needs the browser); the page renders the queue as plain links without JavaScript.
 import { QueryClientProvider } from '@tanstack/react-query';
@@ -11,12 +12,15 @@ import { getQueryClient } from '../../browser/query-client';
 import { REVIEW_REASONS, type ReviewFilter, type ReviewReason } from '../../contracts/review-reasons';
 import type { QueueItem } from '../../contracts/review';
 import { formatDate } from '../ui/formatDate';
+import ImageValues from '../ui/review/ImageValues';
 import StarSedPlot from './StarSedPlot';
 
 interface Props {
   campaignId: string;
   actorId: string;
   canDecide: boolean;
+  /** May set values aside (the campaign's analysts, admins): offered beside a value an image gave the fit. */
+  canSetAside?: boolean;
   fourEyes: boolean;
   initialFilter?: ReviewFilter;
 }
@@ -39,7 +43,7 @@ function isTyping(target: EventTarget | null): boolean {
   return target.isContentEditable || ['INPUT', 'TEXTAREA', 'SELECT'].includes(target.tagName);
 }
 
-function Desk({ campaignId, actorId, canDecide, fourEyes, initialFilter = {} }: Props) {
+function Desk({ campaignId, actorId, canDecide, canSetAside = false, fourEyes, initialFilter = {} }: Props) {
   const [filter, setFilter] = useState<ReviewFilter>(initialFilter);
   const queue = useReviewQueue(campaignId, filter);
   const items = useMemo(() => queue.data?.pages.flatMap((p) => p.items) ?? [], [queue.data]);
@@ -251,6 +255,7 @@ function Desk({ campaignId, actorId, canDecide, fourEyes, initialFilter = {} }: 
             )}
             {sheet.isError && <p className="notice notice-error">{(sheet.error as Error).message}</p>}
             {sheet.data && <StarSedPlot key={current.fitResultId} starKey={current.starKey} bands={sheet.data.bands} curve={sheet.data.curve} compact />}
+            {sheet.data && <ImageValues campaignId={campaignId} sheet={sheet.data} canSetAside={canSetAside} />}
 
             {canDecide ? (
               mode === 'flag' ? (
