@@ -158,6 +158,14 @@ describe('the plot figure', () => {
     expect(residual.y[w4]).toBeLessThan(range[1]);
     expect(residual.y[w4]).toBeGreaterThan(0.9 * range[1]);
     expect(residual.hovertext![w4]).toMatch(/off the scale/);
+    // …and is labelled there, visibly, with an arrow and its true value (not only on hover).
+    const labels = (layout.annotations ?? []) as { x: number; y: number; yref: string; text: string }[];
+    const w4Label = labels.find((a) => a.text.includes('W4'))!;
+    expect(w4Label).toMatchObject({ yref: 'y2', y: residual.y[w4], text: `↑ W4 +${sheet.bands.find((b) => b.key === 'W4')!.residualSigma!.toFixed(1)}σ` });
+    expect(w4Label.x).toBeCloseTo(Math.log10(residual.x[w4]), 12);
+    // Only off-scale residuals are labelled.
+    const inside = residual.meta.bands!.filter((_, i) => Math.abs(sheet.bands.find((b) => b.key === residual.meta.bands![i])!.residualSigma!) <= 0.92 * range[1]);
+    for (const k of inside) expect(labels.some((a) => a.text.includes(` ${k} `))).toBe(false);
     const curve = traces.find((t) => t.meta.role === 'curve')!;
     expect(curve.x.length).toBe(curve.y.length);
   });

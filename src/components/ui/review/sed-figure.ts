@@ -1,7 +1,8 @@
 // The SED and residual figure of one fit as Plotly traces: log λ (µm) against λF_λ, measured bands
 // with error bars at their pivot wavelengths, the fitted band means as open markers, the fitted curve,
 // and bands that did not count or lie beyond 3σ drawn with their own markers and the reason on hover.
-// Below, the residuals in σ on the same wavelength axis. Pure: no React, no DOM.
+// Below, the residuals in σ on the same wavelength axis; one beyond the panel's range sits at its edge,
+// labelled with an arrow and its value. Pure: no React, no DOM.
 import type { Data, Layout } from 'plotly.js';
 import type { SheetBand, StarSheet } from '../../../contracts/review';
 
@@ -145,6 +146,26 @@ export function sedFigure(sheet: Pick<StarSheet, 'bands' | 'curve'>, options: { 
     } as Data);
   }
 
+  // A residual beyond the panel's edge is drawn at the edge and labelled there with an arrow and its
+  // true value (a 16.5σ infrared excess would otherwise look like one of 4σ).
+  const offScale = withResidual.filter((b) => Math.abs(b.residualSigma as number) > edge);
+  const offScaleLabels = offScale.map((b) => {
+    const r = b.residualSigma as number;
+    return {
+      // On a log axis an annotation's x is the logarithm of the value.
+      x: Math.log10(b.pivotUm),
+      y: r > 0 ? edge : -edge,
+      xref: 'x',
+      yref: 'y2',
+      text: `${r > 0 ? '↑' : '↓'} ${b.key} ${r > 0 ? '+' : ''}${r.toFixed(1)}σ`,
+      showarrow: false,
+      xanchor: 'left',
+      xshift: 6,
+      font: { size: 10, color: SED_COLOURS.outlier },
+      bgcolor: SED_COLOURS.paper,
+    };
+  });
+
   // The λF_λ range follows the data (the curve reaches far below it in the ultraviolet).
   const ys = bands.flatMap((b) => [b.observedLambdaFlux - b.sigmaLambdaFlux, b.observedLambdaFlux + b.sigmaLambdaFlux, b.modelLambdaFlux ?? NaN]).filter((v) => v > 0 && Number.isFinite(v));
   const lo = ys.length ? Math.log10(Math.min(...ys)) - 0.5 : undefined;
@@ -176,6 +197,7 @@ export function sedFigure(sheet: Pick<StarSheet, 'bands' | 'curve'>, options: { 
     },
     yaxis: { type: 'log', title: { text: 'λF<sub>λ</sub> (erg s⁻¹ cm⁻²)' }, domain: [0.34, 1], range: lo !== undefined && hi !== undefined ? [lo, hi] : undefined, exponentformat: 'power', gridcolor: SED_COLOURS.grid },
     yaxis2: { title: { text: 'residual (σ)' }, domain: [0, 0.26], range: [-maxRes, maxRes], zeroline: true, zerolinecolor: '#66728b', gridcolor: SED_COLOURS.grid },
+    annotations: offScaleLabels as Layout['annotations'],
     shapes: [-3, 3].map((y) => ({ type: 'line', xref: 'paper', x0: 0, x1: 1, yref: 'y2', y0: y, y1: y, line: { color: SED_COLOURS.outlier, width: 1, dash: 'dot' } })),
   };
   return { data, layout };
