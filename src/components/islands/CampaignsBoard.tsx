@@ -48,7 +48,7 @@ function Board({ initialCampaigns, canCreate, serverError, serverValues }: Props
         ) : (
           <ul className="flex flex-col gap-3" data-testid="campaign-list">
             {[...list.filter((c) => !c.archivedAt), ...list.filter((c) => c.archivedAt)].map((c) => (
-              <li key={c.id} className={`card p-5 hover:border-ember-400 transition-colors ${c.archivedAt ? 'opacity-80' : ''}`} data-archived={c.archivedAt ? 'true' : 'false'}>
+              <li key={c.id} className={`card p-5 hover:border-ember-400 transition-colors ${c.archivedAt ? 'border-dashed' : ''}`} data-archived={c.archivedAt ? 'true' : 'false'}>
                 <div className="flex items-baseline justify-between gap-4">
                   <a href={`/campaigns/${c.id}`} className="font-display text-xl text-ink-900 no-underline hover:text-ember-700">
                     {c.name}

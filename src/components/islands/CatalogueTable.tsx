@@ -269,7 +269,7 @@ function Table({ campaignId, initialQuery, initialPage, initialCount }: Props) {
                       {sortable ? (
                         <a href={`?${sortLink(key)}`} onClick={go(sortLink(key))} className={`no-underline ${active ? 'text-ink-900' : 'text-ink-600'}`}>
                           {flexRender(h.column.columnDef.header, h.getContext())}
-                          <span aria-hidden="true" className="ml-1 text-ember-600">
+                          <span aria-hidden="true" className="ml-1 text-ember-700">
                             {active ? (dir === 'asc' ? '▲' : '▼') : ''}
                           </span>
                         </a>

@@ -285,7 +285,7 @@ function Desk({ campaignId, actorId, canDecide, canSetAside = false, fourEyes, i
               ) : (
                 <div className="mt-4 border-t border-rule pt-4 flex flex-wrap gap-2 items-center">
                   <button type="button" className="btn btn-primary" disabled={decide.isPending || ownBatch} onClick={() => submit('accepted')}>
-                    Accept <kbd className="text-xs opacity-80">a</kbd>
+                    Accept <kbd className="text-xs">a</kbd>
                   </button>
                   <button type="button" className="btn btn-quiet" onClick={() => setMode('flag')}>
                     Flag <kbd className="text-xs">f</kbd>
