@@ -75,6 +75,12 @@ describe("what a FITS image gave the fit, on the review desk", () => {
     expect(await said(page, 'desk-image-how-to-turn-off')).toMatch(/flag this fit .*One or more measurements look wrong.*analysts set values aside on the star sheet/);
     const sheetLink = await item.getByRole('link', { name: 'star sheet' }).getAttribute('href');
     expect(sheetLink).toMatch(new RegExp(`^/campaigns/${demo.campaignId}/stars/\\d+#measurements$`));
+    // At a phone's width the card, image values included, scrolls no page sideways.
+    await page.setViewportSize({ width: 390, height: 844 });
+    await openOnDesk(page);
+    expect(await page.evaluate(() => document.documentElement.scrollWidth - document.documentElement.clientWidth)).toBeLessThanOrEqual(0);
+    const box = (await page.getByTestId('desk-image-values').boundingBox())!;
+    expect(box.x + box.width).toBeLessThanOrEqual(390);
     await page.close();
   });
 
